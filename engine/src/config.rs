@@ -1,0 +1,348 @@
+//! The sweep config (TOML): data, folds, choice dimensions, pools, grids, exclusions.
+//!
+//! Parsing is two-step: the raw TOML table is first walked against the known keys (so an
+//! unknown key is named, with the closest valid key suggested), then deserialised into
+//! typed sections. Paths are resolved relative to the config file's folder.
+
+use crate::error::{suggest, Error, Result};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+/// A whole sweep config.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Config {
+    /// Seed of every random stream (folds, forests, ...).
+    #[serde(default = "default_seed")]
+    pub seed: u64,
+    pub data: DataSection,
+    #[serde(default)]
+    pub folds: FoldsSection,
+    #[serde(default)]
+    pub choices: BTreeMap<String, Vec<String>>,
+    /// Named indicator lists usable as pool options.
+    #[serde(default)]
+    pub pools: BTreeMap<String, Vec<String>>,
+    /// Parameter grids per option: `[grid.ridge] alpha = [0.1, 1]`.
+    #[serde(default)]
+    pub grid: BTreeMap<String, BTreeMap<String, Vec<toml::Value>>>,
+    /// Combinations never to run: each table matches specs whose dimensions take the listed
+    /// options (a string or a list of strings per dimension).
+    #[serde(default)]
+    pub exclude: Vec<BTreeMap<String, OneOrMany>>,
+    #[serde(default)]
+    pub output: OutputSection,
+    /// Folder of the config file (not part of the TOML).
+    #[serde(skip)]
+    pub base_dir: PathBuf,
+    /// Where the config came from, for messages.
+    #[serde(skip)]
+    pub source: String,
+}
+
+fn default_seed() -> u64 {
+    1
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DataSection {
+    /// CSV or Parquet file (by extension: .csv, .parquet / .pq).
+    pub file: PathBuf,
+    /// Column naming the unit (district, country, ...).
+    pub unit: String,
+    /// Optional column naming the survey wave.
+    pub wave: Option<String>,
+    /// Column of the outcome.
+    pub outcome: String,
+    /// `"auto"` (every numeric column not otherwise named) or an explicit list.
+    #[serde(default)]
+    pub indicators: IndicatorSelection,
+    /// Columns never used as indicators (labels, ids, ...).
+    #[serde(default)]
+    pub ignore: Vec<String>,
+    /// Optional codebook CSV with columns `indicator`, `group`, `label`.
+    pub codebook: Option<PathBuf>,
+    /// Cell texts read as missing.
+    #[serde(default = "default_missing")]
+    pub missing: Vec<String>,
+}
+
+pub fn default_missing() -> Vec<String> {
+    ["", "NA", "NaN", "null"]
+        .iter()
+        .map(|s| s.to_string())
+        .collect()
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq, Default)]
+#[serde(untagged)]
+pub enum IndicatorSelection {
+    /// `"auto"`.
+    Auto(AutoWord),
+    List(Vec<String>),
+    #[default]
+    #[serde(skip)]
+    Default,
+}
+
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq)]
+#[serde(rename_all = "lowercase")]
+pub enum AutoWord {
+    Auto,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(untagged)]
+pub enum OneOrMany {
+    One(String),
+    Many(Vec<String>),
+}
+
+impl OneOrMany {
+    pub fn items(&self) -> Vec<&str> {
+        match self {
+            OneOrMany::One(s) => vec![s.as_str()],
+            OneOrMany::Many(v) => v.iter().map(|s| s.as_str()).collect(),
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq, Eq)]
+#[serde(rename_all = "kebab-case")]
+pub enum FoldScheme {
+    /// K folds of whole units, repeated with fresh shuffles.
+    GroupedKfold,
+    /// One fold per unit.
+    LeaveOneUnitOut,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FoldsSection {
+    #[serde(default = "default_scheme")]
+    pub scheme: FoldScheme,
+    #[serde(default = "default_k")]
+    pub k: usize,
+    #[serde(default = "default_repeats")]
+    pub repeats: usize,
+}
+
+fn default_scheme() -> FoldScheme {
+    FoldScheme::GroupedKfold
+}
+fn default_k() -> usize {
+    5
+}
+fn default_repeats() -> usize {
+    1
+}
+
+impl Default for FoldsSection {
+    fn default() -> Self {
+        FoldsSection {
+            scheme: default_scheme(),
+            k: default_k(),
+            repeats: default_repeats(),
+        }
+    }
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OutputSection {
+    /// Specs per Parquet part.
+    #[serde(default = "default_batch")]
+    pub batch_specs: usize,
+}
+
+fn default_batch() -> usize {
+    64
+}
+
+impl Default for OutputSection {
+    fn default() -> Self {
+        OutputSection {
+            batch_specs: default_batch(),
+        }
+    }
+}
+
+const TOP_KEYS: &[&str] = &[
+    "seed", "data", "folds", "choices", "pools", "grid", "exclude", "output",
+];
+const DATA_KEYS: &[&str] = &[
+    "file",
+    "unit",
+    "wave",
+    "outcome",
+    "indicators",
+    "ignore",
+    "codebook",
+    "missing",
+];
+const FOLD_KEYS: &[&str] = &["scheme", "k", "repeats"];
+const OUTPUT_KEYS: &[&str] = &["batch_specs"];
+
+impl Config {
+    /// Read and check a config file.
+    pub fn from_file(path: &Path) -> Result<Config> {
+        let text = std::fs::read_to_string(path).map_err(|e| Error::Config {
+            file: path.display().to_string(),
+            msg: format!("cannot read: {e}"),
+        })?;
+        let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+        Config::from_toml(&text, &base, &path.display().to_string())
+    }
+
+    /// Parse config text; `base_dir` resolves relative paths; `source` names it in messages.
+    pub fn from_toml(text: &str, base_dir: &Path, source: &str) -> Result<Config> {
+        let err = |msg: String| Error::Config {
+            file: source.to_string(),
+            msg,
+        };
+        let table: toml::Table = text
+            .parse()
+            .map_err(|e: toml::de::Error| err(e.to_string()))?;
+        check_keys(&table, "", TOP_KEYS).map_err(&err)?;
+        for (section, keys) in [
+            ("data", DATA_KEYS),
+            ("folds", FOLD_KEYS),
+            ("output", OUTPUT_KEYS),
+        ] {
+            if let Some(v) = table.get(section) {
+                let t = v
+                    .as_table()
+                    .ok_or_else(|| err(format!("`{section}` must be a table")))?;
+                check_keys(t, section, keys).map_err(&err)?;
+            }
+        }
+        if let Some(v) = table.get("choices") {
+            let t = v
+                .as_table()
+                .ok_or_else(|| err("`choices` must be a table".into()))?;
+            check_keys(t, "choices", crate::space::DIMENSIONS).map_err(&err)?;
+        }
+        if let Some(ex) = table.get("exclude") {
+            let list = ex
+                .as_array()
+                .ok_or_else(|| err("`exclude` must be a list of tables ([[exclude]])".into()))?;
+            for (i, e) in list.iter().enumerate() {
+                let t = e
+                    .as_table()
+                    .ok_or_else(|| err(format!("exclude[{i}] must be a table")))?;
+                check_keys(t, &format!("exclude[{i}]"), crate::space::DIMENSIONS).map_err(&err)?;
+            }
+        }
+        if !table.contains_key("data") {
+            return Err(err(
+                "missing the [data] section (file, unit, outcome)".into()
+            ));
+        }
+        let mut cfg: Config =
+            toml::from_str(text).map_err(|e: toml::de::Error| err(e.to_string()))?;
+        cfg.base_dir = base_dir.to_path_buf();
+        cfg.source = source.to_string();
+        if cfg.folds.repeats == 0 {
+            return Err(err("folds.repeats must be at least 1".into()));
+        }
+        if cfg.output.batch_specs == 0 {
+            return Err(err("output.batch_specs must be at least 1".into()));
+        }
+        if cfg.folds.scheme == FoldScheme::GroupedKfold && cfg.folds.k < 2 {
+            return Err(err(format!(
+                "folds.k = {} but grouped K-fold needs k >= 2",
+                cfg.folds.k
+            )));
+        }
+        Ok(cfg)
+    }
+
+    /// A path from the config, resolved against the config's folder.
+    pub fn resolve(&self, p: &Path) -> PathBuf {
+        if p.is_absolute() {
+            p.to_path_buf()
+        } else {
+            self.base_dir.join(p)
+        }
+    }
+
+    /// Canonical JSON form (stored in the manifest).
+    pub fn canonical_json(&self) -> serde_json::Value {
+        serde_json::to_value(self).unwrap_or(serde_json::Value::Null)
+    }
+}
+
+fn check_keys(
+    table: &toml::Table,
+    path: &str,
+    allowed: &[&str],
+) -> std::result::Result<(), String> {
+    for key in table.keys() {
+        if !allowed.contains(&key.as_str()) {
+            let full = if path.is_empty() {
+                key.clone()
+            } else {
+                format!("{path}.{key}")
+            };
+            return Err(format!(
+                "unknown key `{full}`{}; valid keys here: {}",
+                suggest(key, allowed.iter().copied()),
+                allowed.join(", ")
+            ));
+        }
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const MIN: &str = "[data]\nfile = \"p.csv\"\nunit = \"u\"\noutcome = \"y\"\n";
+
+    #[test]
+    fn minimal_config_gets_defaults() {
+        let c = Config::from_toml(MIN, Path::new("/cfg"), "t").unwrap();
+        assert_eq!(c.folds.k, 5);
+        assert_eq!(c.data.indicators, IndicatorSelection::Default);
+        assert_eq!(c.resolve(Path::new("p.csv")), PathBuf::from("/cfg/p.csv"));
+    }
+
+    #[test]
+    fn unknown_key_is_named_with_suggestion() {
+        let text = format!("{MIN}outcom = 3\n");
+        // `outcom` lands in [data] because it follows that header.
+        let e = Config::from_toml(&text, Path::new("."), "t")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("data.outcom") && e.contains("did you mean `outcome`"),
+            "{e}"
+        );
+        let e = Config::from_toml(&format!("sed = 1\n{MIN}"), Path::new("."), "t")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("unknown key `sed`") && e.contains("`seed`"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn indicator_list_or_auto() {
+        let t = MIN.replace(
+            "outcome = \"y\"",
+            "outcome = \"y\"\nindicators = [\"a\", \"b\"]",
+        );
+        let c = Config::from_toml(&t, Path::new("."), "t").unwrap();
+        assert_eq!(
+            c.data.indicators,
+            IndicatorSelection::List(vec!["a".into(), "b".into()])
+        );
+        let t = MIN.replace("outcome = \"y\"", "outcome = \"y\"\nindicators = \"auto\"");
+        let c = Config::from_toml(&t, Path::new("."), "t").unwrap();
+        assert_eq!(c.data.indicators, IndicatorSelection::Auto(AutoWord::Auto));
+    }
+}

@@ -1,0 +1,23 @@
+//! forkmap: multiverse-style sensitivity sweeps on small panels.
+//!
+//! Data flows one way: [`config`] -> [`space`] (specs with stable ids) -> [`sweep`] (a
+//! stage tree over [`folds`], [`stages`] fitted in-fold and shared) -> [`models`] ->
+//! [`sink`] (Parquet parts, atomic) -> analysis. See DEVELOPERS.md for the code map and
+//! the invariants.
+
+pub mod config;
+pub mod error;
+pub mod folds;
+pub mod metrics;
+pub mod models;
+pub mod panel;
+pub mod plan;
+pub mod progress;
+pub mod run;
+pub mod sink;
+pub mod space;
+pub mod stages;
+pub mod sweep;
+pub mod weights;
+
+pub use error::{Error, FitError, Result};

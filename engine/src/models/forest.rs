@@ -1,0 +1,109 @@
+//! Random forest of weighted CART trees (see `tree.rs`): each tree is grown on a
+//! bootstrap sample of the training rows (drawn uniformly; a row drawn c times enters
+//! with weight c x its row weight, as scikit-learn implements bootstrapping), with a fresh
+//! random subset of indicators tried at each split. Trees grow until `min_leaf` stops
+//! them. Predictions average the trees. The random stream is seeded from the fit seed.
+
+use super::tree::{grow, Candidates, Tree, TreeParams, MIN_LEAF};
+use super::{int_param, Family, FitInput, Predictor, Regressor};
+use crate::error::FitError;
+use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
+use ndarray::{Array1, ArrayView2};
+use rand::{Rng, SeedableRng};
+use std::sync::Arc;
+
+pub const FAMILY: Family = Family {
+    decl: OptionDecl {
+        name: "forest",
+        params: &[
+            ParamDecl {
+                name: "trees",
+                kind: ParamKind::Int {
+                    min: 1,
+                    max: 100_000,
+                },
+                default: 200.0,
+                help: "number of trees",
+            },
+            ParamDecl {
+                name: "tried",
+                kind: ParamKind::Real {
+                    min: 0.0,
+                    max: 1.0,
+                    open_min: true,
+                },
+                default: 0.33,
+                help: "share of indicators tried at each split (at least one)",
+            },
+            MIN_LEAF,
+        ],
+        help: "random forest (bootstrap, random indicator subsets)",
+        weighted: true,
+    },
+    build: |c: &Choice| {
+        Ok(Arc::new(ForestParams {
+            trees: int_param(c, "trees")?,
+            tried: c.param("tried").ok_or("forest needs tried")?,
+            min_leaf: int_param(c, "min_leaf")?,
+        }))
+    },
+};
+
+/// Checked forest hyperparameters.
+#[derive(Debug, Clone, Copy)]
+pub struct ForestParams {
+    pub trees: usize,
+    pub tried: f64,
+    pub min_leaf: usize,
+}
+
+pub struct Forest {
+    trees: Vec<Tree>,
+}
+
+impl Predictor for Forest {
+    fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
+        let mut out = Array1::zeros(x.nrows());
+        for t in &self.trees {
+            out += &t.predict(x);
+        }
+        out / self.trees.len() as f64
+    }
+}
+
+impl Regressor for ForestParams {
+    fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
+        let (n, p) = input.x.dim();
+        if n == 0 || p == 0 {
+            return Err(FitError::Invalid("no training rows or no columns".into()));
+        }
+        let m = ((self.tried * p as f64).round() as usize).clamp(1, p);
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(input.seed);
+        let params = TreeParams {
+            depth: usize::MAX,
+            min_leaf: self.min_leaf,
+        };
+        let mut trees = Vec::with_capacity(self.trees);
+        let mut counts = vec![0u32; n];
+        let mut w = vec![0.0; n];
+        for _ in 0..self.trees {
+            counts.iter_mut().for_each(|c| *c = 0);
+            for _ in 0..n {
+                counts[rng.gen_range(0..n)] += 1;
+            }
+            for i in 0..n {
+                w[i] = counts[i] as f64 * input.w[i];
+            }
+            let rows: Vec<usize> = (0..n).filter(|&i| w[i] > 0.0).collect();
+            trees.push(grow(
+                input.x,
+                input.y,
+                &w,
+                rows,
+                params,
+                Candidates::Sample { m, rng: &mut rng },
+            ));
+        }
+        Ok(Box::new(Forest { trees }))
+    }
+}

@@ -1,0 +1,62 @@
+//! Model families. A family declares its options and hyperparameters
+//! ([`OptionDecl`]), validates a grid point into a checked parameter type (`build`), and
+//! fits a [`Regressor`] into a [`Predictor`].
+//!
+//! Adding a family: one file with its `FAMILY` constant, plus one line in [`registry`].
+
+pub mod forest;
+pub mod linear;
+pub mod tree;
+
+use crate::error::FitError;
+use crate::space::{Choice, OptionDecl};
+use ndarray::{Array1, ArrayView1, ArrayView2};
+use std::sync::Arc;
+
+/// Training data of one fit: rows already prepared by the stages.
+pub struct FitInput<'a> {
+    pub x: ArrayView2<'a, f64>,
+    pub y: ArrayView1<'a, f64>,
+    /// Row weights (positive; mean 1 for the built-in weightings).
+    pub w: ArrayView1<'a, f64>,
+    /// Seed of this fit's random stream (from run seed, spec id, repeat and fold).
+    pub seed: u64,
+}
+
+/// An unfitted model with checked hyperparameters.
+pub trait Regressor: Send + Sync {
+    fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError>;
+}
+
+/// A fitted model.
+pub trait Predictor: Send + Sync {
+    fn predict(&self, x: ArrayView2<f64>) -> Array1<f64>;
+}
+
+/// A registered family.
+pub struct Family {
+    pub decl: OptionDecl,
+    pub build: fn(&Choice) -> Result<Arc<dyn Regressor>, String>,
+}
+
+/// Every model family, in the order `plan` lists them.
+pub fn registry() -> &'static [Family] {
+    static FAMILIES: [Family; 4] = [linear::OLS, linear::RIDGE, tree::FAMILY, forest::FAMILY];
+    &FAMILIES
+}
+
+/// Build the regressor of a model choice.
+pub fn build(choice: &Choice) -> Result<Arc<dyn Regressor>, String> {
+    let fam = registry()
+        .iter()
+        .find(|f| f.decl.name == choice.option)
+        .ok_or_else(|| format!("unknown model `{}`", choice.option))?;
+    (fam.build)(choice)
+}
+
+/// Read a whole-number parameter validated by the space.
+pub(crate) fn int_param(c: &Choice, name: &str) -> Result<usize, String> {
+    c.param(name)
+        .map(|v| v as usize)
+        .ok_or_else(|| format!("{} needs {name}", c.option))
+}

@@ -1,0 +1,180 @@
+//! What a sweep will do, before it does it: dimensions, counts, a timed estimate, warnings.
+
+use crate::run::Prepared;
+use crate::space::{options_of, DIMENSIONS};
+use crate::sweep::Sweep;
+use std::collections::BTreeMap;
+use std::fmt::Write;
+use std::time::Instant;
+
+pub struct PlanReport {
+    pub text: String,
+    pub specs: usize,
+    pub fits: usize,
+    pub estimate_seconds: f64,
+    pub warnings: Vec<String>,
+}
+
+/// Warnings about the design (not errors).
+pub fn warnings(p: &Prepared) -> Vec<String> {
+    let mut w = p.space.warnings.clone();
+    let units = p.panel.n_units();
+    let limit = (units as f64 / 10.0).max(1.0);
+    let pools = &p.space.options[DIMENSIONS.iter().position(|d| *d == "pool").unwrap_or(1)];
+    let comp = &p.space.options[DIMENSIONS
+        .iter()
+        .position(|d| *d == "compress")
+        .unwrap_or(3)];
+    let uncompressed = comp.iter().any(|c| c.option == "none");
+    for pool in pools {
+        let size = pool.members.as_ref().map(|m| m.len()).unwrap_or(0);
+        if uncompressed && size as f64 > limit {
+            w.push(format!(
+                "pool `{}` offers {size} candidate indicators for {units} units uncompressed: more than about one per ten units (a common-practice rule of thumb, no source); expect unstable importances",
+                pool.option
+            ));
+        }
+    }
+    for c in comp {
+        if let Some(k) = c.param("k") {
+            if k > limit {
+                w.push(format!("compress `{}` keeps {k} components for {units} units: more than about one per ten units (rule of thumb)", c.label()));
+            }
+        }
+    }
+    w
+}
+
+/// Build the plan; `probe` times a few fits to estimate the run time with `threads`.
+pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
+    let mut t = String::new();
+    let _ = writeln!(t, "config  {}", p.cfg.source);
+    let _ = writeln!(
+        t,
+        "data    {}: {} rows, {} units, {} indicators{}",
+        p.data_path.display(),
+        p.panel.n_rows(),
+        p.panel.n_units(),
+        p.panel.indicators.len(),
+        if p.panel.codebook.is_empty() {
+            String::new()
+        } else {
+            format!(", {} codebook groups", p.panel.groups().len())
+        }
+    );
+    let _ = writeln!(t, "\nchoice dimensions");
+    for (d, dim) in DIMENSIONS.iter().enumerate() {
+        let opts = &p.space.options[d];
+        let labels: Vec<String> = opts
+            .iter()
+            .map(|c| match &c.members {
+                Some(m) => format!("{} ({} indicators)", c.label(), m.len()),
+                None => c.label(),
+            })
+            .collect();
+        let _ = writeln!(t, "  {dim:<10} {:>3}  {}", opts.len(), labels.join(", "));
+    }
+    if !p.space.exclusion_rules.is_empty() {
+        let _ = writeln!(
+            t,
+            "\nexclusions ({} combinations removed)",
+            p.space.excluded
+        );
+        for r in &p.space.exclusion_rules {
+            let _ = writeln!(t, "  - {r}");
+        }
+    }
+    let specs = p.space.specs.len();
+    let fits = specs * p.folds.n_fits_per_spec();
+    let _ = writeln!(t, "\nspecs   {specs}");
+    let _ = writeln!(
+        t,
+        "folds   {:?}: k = {}, repeats = {} -> {} fits per spec, {fits} model fits in all",
+        p.cfg.folds.scheme,
+        p.folds.k,
+        p.folds.repeats,
+        p.folds.n_fits_per_spec()
+    );
+    let mut estimate = f64::NAN;
+    if let (true, Ok(sweep)) = (
+        probe,
+        Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None),
+    ) {
+        let _ = writeln!(
+            t,
+            "stage tree: {} distinct preparations, each fitted once per fold",
+            sweep.n_stage_nodes()
+        );
+        // Time up to 3 specs per model family on the first fold (stages refitted: an
+        // overestimate of the shared-stage run).
+        let mut by_family: BTreeMap<&str, Vec<usize>> = BTreeMap::new();
+        for (i, s) in p.space.specs.iter().enumerate() {
+            by_family
+                .entry(s.choice("model").option.as_str())
+                .or_default()
+                .push(i);
+        }
+        let mut total = 0.0;
+        let _ = writeln!(t, "\ntiming probe (first fold, up to 3 specs per family)");
+        for (fam, idx) in &by_family {
+            let picks: Vec<usize> = (0..3.min(idx.len()))
+                .map(|k| idx[k * idx.len() / 3.min(idx.len())])
+                .collect();
+            let t0 = Instant::now();
+            for &si in &picks {
+                let _ = sweep.fit_spec(si, 0);
+            }
+            let per = t0.elapsed().as_secs_f64() / picks.len() as f64;
+            let fam_total = per * idx.len() as f64 * p.folds.n_fits_per_spec() as f64;
+            total += fam_total;
+            let _ = writeln!(
+                t,
+                "  {fam:<10} {:>5} specs x {:.4}s per fit",
+                idx.len(),
+                per
+            );
+        }
+        estimate = total / threads.max(1) as f64;
+        let _ = writeln!(
+            t,
+            "estimated run time on {threads} thread(s): {}",
+            human(estimate)
+        );
+    }
+    let mut no_weights = Vec::new();
+    for o in options_of("model") {
+        if !o.weighted {
+            no_weights.push(o.name);
+        }
+    }
+    let w = warnings(p);
+    if !w.is_empty() || !no_weights.is_empty() {
+        let _ = writeln!(t, "\nwarnings");
+        for x in &w {
+            let _ = writeln!(t, "  - {x}");
+        }
+        for n in no_weights {
+            let _ = writeln!(t, "  - model `{n}` ignores row weights");
+        }
+    }
+    PlanReport {
+        text: t,
+        specs,
+        fits,
+        estimate_seconds: estimate,
+        warnings: w,
+    }
+}
+
+/// `93s`, `12.5 min`, `3.2 h`.
+pub fn human(s: f64) -> String {
+    if !s.is_finite() {
+        "unknown".into()
+    } else if s < 120.0 {
+        format!("{s:.0}s")
+    } else if s < 7200.0 {
+        format!("{:.1} min", s / 60.0)
+    } else {
+        format!("{:.1} h", s / 3600.0)
+    }
+}

@@ -1,0 +1,243 @@
+//! Running a sweep into a run directory: validate everything first, then write the
+//! manifest, stream results into Parquet parts, and close the manifest.
+
+use crate::config::Config;
+use crate::error::{Error, Result};
+use crate::folds::FoldPlan;
+use crate::panel::{self, Panel};
+use crate::progress::Progress;
+use crate::sink::{write_bytes_atomic, ParquetSink, TABLES};
+use crate::space::ChoiceSpace;
+use crate::sweep::{SpecResult, Sweep};
+use sha2::{Digest, Sha256};
+use std::collections::BTreeMap;
+use std::io::Read;
+use std::path::{Path, PathBuf};
+
+/// A config with its panel, choice space and folds, all validated.
+pub struct Prepared {
+    pub cfg: Config,
+    pub panel: Panel,
+    pub space: ChoiceSpace,
+    pub folds: FoldPlan,
+    pub data_path: PathBuf,
+}
+
+/// Read and check a config file and everything it names.
+pub fn prepare(config: &Path) -> Result<Prepared> {
+    let cfg = Config::from_file(config)?;
+    prepare_config(cfg)
+}
+
+pub fn prepare_config(cfg: Config) -> Result<Prepared> {
+    let panel = panel::load(&cfg)?;
+    let space = ChoiceSpace::build(&cfg, &panel)?;
+    let folds = FoldPlan::new(&panel, &cfg.folds, cfg.seed)?;
+    let data_path = cfg.resolve(&cfg.data.file);
+    Ok(Prepared {
+        cfg,
+        panel,
+        space,
+        folds,
+        data_path,
+    })
+}
+
+/// sha256 of a file, hex.
+pub fn sha256_file(path: &Path) -> Result<String> {
+    let mut f = std::fs::File::open(path).map_err(|e| Error::io(path, e))?;
+    let mut h = Sha256::new();
+    let mut buf = vec![0u8; 1 << 16];
+    loop {
+        let n = f.read(&mut buf).map_err(|e| Error::io(path, e))?;
+        if n == 0 {
+            break;
+        }
+        h.update(&buf[..n]);
+    }
+    Ok(hex::encode(h.finalize()))
+}
+
+/// What a run did.
+#[derive(Debug, Clone)]
+pub struct RunSummary {
+    pub specs: usize,
+    pub ok: usize,
+    pub failures: BTreeMap<&'static str, usize>,
+    pub seconds: f64,
+    pub best: Option<(String, f64)>,
+}
+
+/// Settings of one run.
+pub struct RunOptions {
+    pub threads: usize,
+    pub quiet: bool,
+}
+
+fn check_out_dir(out: &Path) -> Result<bool> {
+    if out.exists() {
+        if !out.is_dir() {
+            return Err(Error::Output {
+                path: out.into(),
+                msg: "exists and is not a directory".into(),
+            });
+        }
+        let mut entries = std::fs::read_dir(out).map_err(|e| Error::Output {
+            path: out.into(),
+            msg: format!("cannot read: {e}"),
+        })?;
+        if entries.next().is_some() {
+            return Err(Error::Output {
+                path: out.into(),
+                msg: "already exists and is not empty: choose a new --out (forkmap never mixes two runs in one folder)".into(),
+            });
+        }
+        Ok(false)
+    } else {
+        std::fs::create_dir_all(out).map_err(|e| Error::Output {
+            path: out.into(),
+            msg: format!("cannot create: {e}"),
+        })?;
+        Ok(true)
+    }
+}
+
+fn manifest(
+    p: &Prepared,
+    sha: &str,
+    threads: usize,
+    started: &str,
+    status: &str,
+    extra: serde_json::Value,
+) -> serde_json::Value {
+    let mut m = serde_json::json!({
+        "tool": "forkmap",
+        "version": env!("CARGO_PKG_VERSION"),
+        "status": status,
+        "config_file": p.cfg.source,
+        "config": p.cfg.canonical_json(),
+        "data_file": p.data_path.display().to_string(),
+        "data_sha256": sha,
+        "seed": p.cfg.seed,
+        "threads": threads,
+        "started": started,
+        "specs": p.space.specs.len(),
+        "excluded": p.space.excluded,
+        "exclusions": p.space.exclusion_rules,
+        "rows": p.panel.n_rows(),
+        "units": p.panel.n_units(),
+        "indicators": p.panel.indicators.len(),
+        "folds": {"scheme": p.cfg.folds.scheme, "k": p.folds.k, "repeats": p.folds.repeats, "fits_per_spec": p.folds.n_fits_per_spec()},
+        "tables": TABLES,
+    });
+    if let (Some(obj), serde_json::Value::Object(e)) = (m.as_object_mut(), extra) {
+        obj.extend(e);
+    }
+    m
+}
+
+/// Run every spec of `p` into `out`.
+pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSummary> {
+    let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None)?;
+    let sha = sha256_file(&p.data_path)?;
+    let created = check_out_dir(out)?;
+    let started = chrono::Utc::now().to_rfc3339();
+    let t0 = std::time::Instant::now();
+    let manifest_path = out.join("manifest.json");
+    let first = manifest(
+        p,
+        &sha,
+        opts.threads,
+        &started,
+        "running",
+        serde_json::json!({}),
+    );
+    if let Err(e) = write_bytes_atomic(
+        &manifest_path,
+        serde_json::to_string_pretty(&first)
+            .unwrap_or_default()
+            .as_bytes(),
+    ) {
+        if created {
+            let _ = std::fs::remove_dir_all(out);
+        }
+        return Err(Error::Output {
+            path: out.into(),
+            msg: format!("cannot write: {e}"),
+        });
+    }
+    let mut sink = ParquetSink::new(out, &p.space, &p.panel, p.cfg.output.batch_specs)?;
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(opts.threads)
+        .build()
+        .map_err(|e| Error::Output {
+            path: out.into(),
+            msg: format!("cannot start {} threads: {e}", opts.threads),
+        })?;
+    let (tx, rx) = std::sync::mpsc::sync_channel::<SpecResult>(1024);
+    let mut best: Option<(String, f64)> = None;
+    let mut ok = 0usize;
+    let write_result: Result<()> = std::thread::scope(|s| {
+        let writer = s.spawn(|| -> Result<()> {
+            let mut progress = Progress::new(p.space.specs.len(), opts.quiet);
+            let mut failed: Option<Error> = None;
+            for r in rx {
+                progress.inc();
+                if failed.is_some() {
+                    continue;
+                }
+                if let Some(sc) = &r.scores {
+                    ok += 1;
+                    if best.as_ref().is_none_or(|(_, b)| sc.skill > *b) {
+                        best = Some((p.space.specs[r.spec].id.clone(), sc.skill));
+                    }
+                }
+                if let Err(e) = sink.accept(r) {
+                    failed = Some(e);
+                }
+            }
+            progress.finish();
+            match failed {
+                Some(e) => Err(e),
+                None => sink.flush(),
+            }
+        });
+        pool.install(|| {
+            let emit = |r: SpecResult| {
+                let _ = tx.send(r);
+            };
+            sweep.run(&emit);
+        });
+        drop(tx);
+        writer.join().unwrap_or_else(|_| {
+            Err(Error::Output {
+                path: out.into(),
+                msg: "result writer panicked".into(),
+            })
+        })
+    });
+    write_result?;
+    let seconds = t0.elapsed().as_secs_f64();
+    let failures = sink.failures.clone();
+    let extra = serde_json::json!({
+        "finished": chrono::Utc::now().to_rfc3339(),
+        "seconds": seconds,
+        "specs_ok": ok,
+        "failures": failures,
+        "specs_written": sink.written_specs,
+    });
+    let last = manifest(p, &sha, opts.threads, &started, "complete", extra);
+    write_bytes_atomic(
+        &manifest_path,
+        serde_json::to_string_pretty(&last)
+            .unwrap_or_default()
+            .as_bytes(),
+    )?;
+    Ok(RunSummary {
+        specs: sink.written_specs,
+        ok,
+        failures,
+        seconds,
+        best,
+    })
+}

@@ -1,0 +1,269 @@
+//! Result sink: buffered spec results written as Parquet parts, atomically.
+//!
+//! Every `batch_specs` results become `specs/part-NNNNN.parquet` and
+//! `predictions/part-NNNNN.parquet`. Each part is written to a hidden temporary file in the
+//! same folder, flushed, fsynced, renamed into place, and the folder fsynced: a part is
+//! either complete or absent. The predictions part of a batch is renamed before its specs
+//! part, so a spec listed in a specs part always has its predictions on disk.
+
+use crate::error::{Error, Result};
+use crate::panel::Panel;
+use crate::space::{ChoiceSpace, DIMENSIONS};
+use crate::sweep::SpecResult;
+use arrow_array::{ArrayRef, Float64Array, Int32Array, Int64Array, RecordBatch, StringArray};
+use arrow_schema::{DataType, Field, Schema};
+use parquet::arrow::ArrowWriter;
+use parquet::basic::Compression;
+use parquet::file::properties::WriterProperties;
+use std::fs::File;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+/// Names of the output tables (one folder each under the run directory).
+pub const TABLES: &[&str] = &["specs", "predictions"];
+
+pub struct ParquetSink<'a> {
+    dir: PathBuf,
+    space: &'a ChoiceSpace,
+    panel: &'a Panel,
+    batch: usize,
+    buffer: Vec<SpecResult>,
+    next_part: usize,
+    pub written_specs: usize,
+    pub failures: std::collections::BTreeMap<&'static str, usize>,
+}
+
+fn fsync_dir(dir: &Path) -> Result<()> {
+    File::open(dir)
+        .and_then(|f| f.sync_all())
+        .map_err(|e| Error::io(dir, e))
+}
+
+/// Write `batch` to `dir/name` atomically (temp file, fsync, rename, fsync dir).
+pub fn write_parquet_atomic(dir: &Path, name: &str, batch: &RecordBatch) -> Result<()> {
+    let tmp = dir.join(format!(".{name}.tmp"));
+    let dest = dir.join(name);
+    let werr = |m: String| Error::Write {
+        path: dest.clone(),
+        msg: m,
+    };
+    let file = File::create(&tmp).map_err(|e| Error::io(&tmp, e))?;
+    let props = WriterProperties::builder()
+        .set_compression(Compression::SNAPPY)
+        .build();
+    let mut w =
+        ArrowWriter::try_new(file, batch.schema(), Some(props)).map_err(|e| werr(e.to_string()))?;
+    let res = w.write(batch).and_then(|_| w.flush());
+    if let Err(e) = res {
+        let _ = std::fs::remove_file(&tmp);
+        return Err(werr(e.to_string()));
+    }
+    let file = match w.into_inner() {
+        Ok(f) => f,
+        Err(e) => {
+            let _ = std::fs::remove_file(&tmp);
+            return Err(werr(e.to_string()));
+        }
+    };
+    if let Err(e) = file.sync_all() {
+        let _ = std::fs::remove_file(&tmp);
+        return Err(Error::io(&tmp, e));
+    }
+    drop(file);
+    std::fs::rename(&tmp, &dest).map_err(|e| Error::io(&dest, e))?;
+    fsync_dir(dir)
+}
+
+/// Write bytes atomically (for the manifest).
+pub fn write_bytes_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
+    let dir = path.parent().unwrap_or(Path::new("."));
+    let tmp = dir.join(format!(
+        ".{}.tmp",
+        path.file_name().and_then(|n| n.to_str()).unwrap_or("file")
+    ));
+    let mut f = File::create(&tmp).map_err(|e| Error::io(&tmp, e))?;
+    f.write_all(bytes)
+        .and_then(|_| f.sync_all())
+        .map_err(|e| Error::io(&tmp, e))?;
+    drop(f);
+    std::fs::rename(&tmp, path).map_err(|e| Error::io(path, e))?;
+    fsync_dir(dir)
+}
+
+impl<'a> ParquetSink<'a> {
+    /// Create the table folders under `dir` (which must exist).
+    pub fn new(dir: &Path, space: &'a ChoiceSpace, panel: &'a Panel, batch: usize) -> Result<Self> {
+        for t in TABLES {
+            let p = dir.join(t);
+            std::fs::create_dir_all(&p).map_err(|e| Error::io(&p, e))?;
+        }
+        Ok(ParquetSink {
+            dir: dir.to_path_buf(),
+            space,
+            panel,
+            batch: batch.max(1),
+            buffer: Vec::new(),
+            next_part: 0,
+            written_specs: 0,
+            failures: Default::default(),
+        })
+    }
+
+    pub fn accept(&mut self, r: SpecResult) -> Result<()> {
+        if r.status != "ok" {
+            *self.failures.entry(r.status).or_default() += 1;
+        }
+        self.buffer.push(r);
+        if self.buffer.len() >= self.batch {
+            self.flush()?;
+        }
+        Ok(())
+    }
+
+    pub fn flush(&mut self) -> Result<()> {
+        if self.buffer.is_empty() {
+            return Ok(());
+        }
+        // Stable order inside a part: by spec id.
+        self.buffer.sort_by(|a, b| {
+            self.space.specs[a.spec]
+                .id
+                .cmp(&self.space.specs[b.spec].id)
+        });
+        let name = format!("part-{:05}.parquet", self.next_part);
+        let preds = self.predictions_batch()?;
+        write_parquet_atomic(&self.dir.join("predictions"), &name, &preds)?;
+        let specs = self.specs_batch()?;
+        write_parquet_atomic(&self.dir.join("specs"), &name, &specs)?;
+        self.written_specs += self.buffer.len();
+        self.buffer.clear();
+        self.next_part += 1;
+        Ok(())
+    }
+
+    fn batch_err(&self, e: arrow_schema::ArrowError) -> Error {
+        Error::Write {
+            path: self.dir.clone(),
+            msg: e.to_string(),
+        }
+    }
+
+    fn specs_batch(&self) -> Result<RecordBatch> {
+        let rs = &self.buffer;
+        let specs = &self.space.specs;
+        let mut fields = vec![
+            Field::new("spec_id", DataType::Utf8, false),
+            Field::new("spec_label", DataType::Utf8, false),
+        ];
+        let mut cols: Vec<ArrayRef> = vec![
+            Arc::new(StringArray::from_iter_values(
+                rs.iter().map(|r| specs[r.spec].id.as_str()),
+            )),
+            Arc::new(StringArray::from_iter_values(
+                rs.iter().map(|r| specs[r.spec].label()),
+            )),
+        ];
+        for (d, dim) in DIMENSIONS.iter().enumerate() {
+            fields.push(Field::new(*dim, DataType::Utf8, false));
+            cols.push(Arc::new(StringArray::from_iter_values(
+                rs.iter().map(|r| specs[r.spec].choices[d].option.as_str()),
+            )));
+        }
+        for (opt, param) in self.space.param_columns() {
+            fields.push(Field::new(
+                format!("{opt}_{param}"),
+                DataType::Float64,
+                true,
+            ));
+            cols.push(Arc::new(Float64Array::from_iter(rs.iter().map(|r| {
+                specs[r.spec]
+                    .choices
+                    .iter()
+                    .find(|c| c.option == opt)
+                    .and_then(|c| c.param(param))
+            }))));
+        }
+        fields.push(Field::new("status", DataType::Utf8, false));
+        cols.push(Arc::new(StringArray::from_iter_values(
+            rs.iter().map(|r| r.status),
+        )));
+        fields.push(Field::new("message", DataType::Utf8, true));
+        cols.push(Arc::new(StringArray::from_iter(
+            rs.iter().map(|r| r.message.as_deref()),
+        )));
+        let metric = |f: fn(&crate::metrics::Scores) -> f64| -> ArrayRef {
+            Arc::new(Float64Array::from_iter(
+                rs.iter().map(|r| r.scores.as_ref().map(f)),
+            ))
+        };
+        for (name, f) in [
+            (
+                "mae",
+                (|s: &crate::metrics::Scores| s.mae) as fn(&crate::metrics::Scores) -> f64,
+            ),
+            ("rmse", |s| s.rmse),
+            ("r2", |s| s.r2),
+            ("baseline_mae", |s| s.baseline_mae),
+            ("skill", |s| s.skill),
+        ] {
+            fields.push(Field::new(name, DataType::Float64, true));
+            cols.push(metric(f));
+        }
+        fields.push(Field::new("n_predictions", DataType::Int64, false));
+        cols.push(Arc::new(Int64Array::from_iter_values(
+            rs.iter().map(|r| r.predictions.len() as i64),
+        )));
+        fields.push(Field::new("seconds", DataType::Float64, false));
+        cols.push(Arc::new(Float64Array::from_iter_values(
+            rs.iter().map(|r| r.seconds),
+        )));
+        RecordBatch::try_new(Arc::new(Schema::new(fields)), cols).map_err(|e| self.batch_err(e))
+    }
+
+    fn predictions_batch(&self) -> Result<RecordBatch> {
+        let rs = &self.buffer;
+        let n: usize = rs.iter().map(|r| r.predictions.len()).sum();
+        let mut id = Vec::with_capacity(n);
+        let mut unit = Vec::with_capacity(n);
+        let mut wave: Vec<Option<&str>> = Vec::with_capacity(n);
+        let (mut obs, mut pred, mut fold, mut rep) = (
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+        );
+        for r in rs {
+            let sid = self.space.specs[r.spec].id.as_str();
+            for p in &r.predictions {
+                let row = p.row as usize;
+                id.push(sid);
+                unit.push(self.panel.units[self.panel.row_unit[row]].as_str());
+                wave.push(self.panel.row_wave[row].as_deref());
+                obs.push(self.panel.y[row]);
+                pred.push(p.value);
+                fold.push(p.fold as i32);
+                rep.push(p.repeat as i32);
+            }
+        }
+        let schema = Schema::new(vec![
+            Field::new("spec_id", DataType::Utf8, false),
+            Field::new("unit", DataType::Utf8, false),
+            Field::new("wave", DataType::Utf8, true),
+            Field::new("observed", DataType::Float64, false),
+            Field::new("predicted", DataType::Float64, false),
+            Field::new("fold", DataType::Int32, false),
+            Field::new("repeat", DataType::Int32, false),
+        ]);
+        let cols: Vec<ArrayRef> = vec![
+            Arc::new(StringArray::from(id)),
+            Arc::new(StringArray::from(unit)),
+            Arc::new(StringArray::from(wave)),
+            Arc::new(Float64Array::from(obs)),
+            Arc::new(Float64Array::from(pred)),
+            Arc::new(Int32Array::from(fold)),
+            Arc::new(Int32Array::from(rep)),
+        ];
+        RecordBatch::try_new(Arc::new(schema), cols).map_err(|e| self.batch_err(e))
+    }
+}

@@ -1,0 +1,524 @@
+//! The choice space: every dimension's options (expanded by their parameter grids), their
+//! product, minus the exclusions. Each resulting [`Spec`] has a stable id: the first 16 hex
+//! digits of the sha256 of its canonical form, which lists the dimensions in registry
+//! order and each option's parameters in name order, so reordering options or grids in a
+//! config never changes an id.
+
+use crate::config::Config;
+use crate::error::{suggest, Error, Result};
+use crate::panel::Panel;
+use sha2::{Digest, Sha256};
+use std::collections::{BTreeMap, BTreeSet};
+use std::sync::Arc;
+
+/// The choice dimensions, in the order of the stage tree (stages first, then the model
+/// level). The registry of each lives in its own module (see [`options_of`]).
+pub const DIMENSIONS: &[&str] = &["fill", "pool", "scale", "compress", "model", "weighting"];
+/// Dimensions fitted as shared stages, in tree order.
+pub const STAGE_DIMENSIONS: &[&str] = &["fill", "pool", "scale", "compress"];
+/// Default option of a dimension the config leaves out.
+pub fn default_option(dim: &str) -> &'static str {
+    match dim {
+        "fill" => "median",
+        "pool" => "all",
+        "scale" => "standardise",
+        "compress" => "none",
+        "model" => "ridge",
+        _ => "rows",
+    }
+}
+
+/// The kind and range of an option's parameter.
+#[derive(Debug, Clone, Copy)]
+pub enum ParamKind {
+    /// A whole number in `[min, max]`.
+    Int { min: i64, max: i64 },
+    /// A real number in `(min, max]` when `open_min`, else `[min, max]`.
+    Real { min: f64, max: f64, open_min: bool },
+}
+
+/// A declared parameter of an option.
+#[derive(Debug, Clone, Copy)]
+pub struct ParamDecl {
+    pub name: &'static str,
+    pub kind: ParamKind,
+    pub default: f64,
+    pub help: &'static str,
+}
+
+/// A declared option of a dimension.
+#[derive(Debug, Clone, Copy)]
+pub struct OptionDecl {
+    pub name: &'static str,
+    pub params: &'static [ParamDecl],
+    pub help: &'static str,
+    /// False when the option ignores row weights (plan warns).
+    pub weighted: bool,
+}
+
+/// Declared options of a dimension (pools are built from the config and codebook).
+pub fn options_of(dim: &str) -> Vec<OptionDecl> {
+    match dim {
+        "fill" => crate::stages::fill::OPTIONS.to_vec(),
+        "scale" => crate::stages::scale::OPTIONS.to_vec(),
+        "compress" => crate::stages::compress::OPTIONS.to_vec(),
+        "model" => crate::models::registry().iter().map(|f| f.decl).collect(),
+        "weighting" => crate::weights::OPTIONS.to_vec(),
+        _ => Vec::new(),
+    }
+}
+
+/// One option of one dimension with concrete parameter values.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Choice {
+    pub dim: &'static str,
+    pub option: String,
+    /// Parameter values in declaration order.
+    pub params: Vec<(&'static str, f64)>,
+    /// Pools only: the member indicator indices (sorted) and their digest.
+    pub members: Option<Arc<Vec<usize>>>,
+    pub digest: Option<String>,
+}
+
+impl Choice {
+    /// Human label: `pca(k=3)`, `ridge(alpha=0.1)`, `mean`.
+    pub fn label(&self) -> String {
+        if self.params.is_empty() {
+            return self.option.clone();
+        }
+        let mut ps: Vec<_> = self.params.iter().collect();
+        ps.sort_by_key(|(n, _)| *n);
+        let inner: Vec<String> = ps.iter().map(|(n, v)| format!("{n}={v}")).collect();
+        format!("{}({})", self.option, inner.join(","))
+    }
+    /// Canonical form used for the id (adds the pool's member digest).
+    pub fn canonical(&self) -> String {
+        match &self.digest {
+            Some(d) => format!("{}[{d}]", self.label()),
+            None => self.label(),
+        }
+    }
+    pub fn param(&self, name: &str) -> Option<f64> {
+        self.params
+            .iter()
+            .find(|(n, _)| *n == name)
+            .map(|(_, v)| *v)
+    }
+}
+
+/// A fully specified analysis path.
+#[derive(Debug, Clone)]
+pub struct Spec {
+    pub id: String,
+    /// One choice per entry of [`DIMENSIONS`], in that order.
+    pub choices: Vec<Choice>,
+}
+
+impl Spec {
+    pub fn from_choices(choices: Vec<Choice>) -> Spec {
+        let canonical: Vec<String> = choices
+            .iter()
+            .map(|c| format!("{}={}", c.dim, c.canonical()))
+            .collect();
+        let digest = Sha256::digest(canonical.join(";").as_bytes());
+        Spec {
+            id: hex::encode(digest)[..16].to_string(),
+            choices,
+        }
+    }
+    pub fn choice(&self, dim: &str) -> &Choice {
+        let i = DIMENSIONS.iter().position(|d| *d == dim).unwrap_or(0);
+        &self.choices[i]
+    }
+    /// `fill=mean; pool=all; ...`
+    pub fn label(&self) -> String {
+        self.choices
+            .iter()
+            .map(|c| format!("{}={}", c.dim, c.label()))
+            .collect::<Vec<_>>()
+            .join("; ")
+    }
+    /// Random-stream key of this spec: its id read as a number.
+    pub fn stream(&self) -> u64 {
+        u64::from_str_radix(&self.id, 16).unwrap_or(0)
+    }
+}
+
+/// The expanded choice space.
+#[derive(Debug, Clone)]
+pub struct ChoiceSpace {
+    /// Options per dimension, in [`DIMENSIONS`] order.
+    pub options: Vec<Vec<Choice>>,
+    pub specs: Vec<Spec>,
+    /// Number of combinations removed by exclusions.
+    pub excluded: usize,
+    /// Exclusion rules as text, for plan and manifest.
+    pub exclusion_rules: Vec<String>,
+    pub warnings: Vec<String>,
+}
+
+fn space_err(cfg: &Config, msg: String) -> Error {
+    Error::Config {
+        file: cfg.source.clone(),
+        msg,
+    }
+}
+
+fn parse_param(cfg: &Config, key: &str, decl: &ParamDecl, v: &toml::Value) -> Result<f64> {
+    let x = match v {
+        toml::Value::Integer(i) => *i as f64,
+        toml::Value::Float(f) => *f,
+        other => {
+            return Err(space_err(cfg, format!("{key}: `{other}` is not a number")));
+        }
+    };
+    let ok = match decl.kind {
+        ParamKind::Int { min, max } => x.fract() == 0.0 && x >= min as f64 && x <= max as f64,
+        ParamKind::Real { min, max, open_min } => {
+            x.is_finite() && (if open_min { x > min } else { x >= min }) && x <= max
+        }
+    };
+    if !ok {
+        let range = match decl.kind {
+            ParamKind::Int { min, max } => format!("a whole number from {min} to {max}"),
+            ParamKind::Real { min, max, open_min } => {
+                format!(
+                    "a number {} {min} and at most {max}",
+                    if open_min { "above" } else { "from" }
+                )
+            }
+        };
+        return Err(space_err(
+            cfg,
+            format!("{key} = {x} is out of range: {} must be {range}", decl.name),
+        ));
+    }
+    Ok(x)
+}
+
+/// Expand one option by its grid (product of its parameter lists, defaults elsewhere).
+fn expand(cfg: &Config, dim: &'static str, decl: &OptionDecl) -> Result<Vec<Choice>> {
+    let grid = cfg.grid.get(decl.name);
+    let mut lists: Vec<(&'static str, Vec<f64>)> = Vec::new();
+    for p in decl.params {
+        let values = match grid.and_then(|g| g.get(p.name)) {
+            None => vec![p.default],
+            Some(vs) => {
+                if vs.is_empty() {
+                    return Err(space_err(
+                        cfg,
+                        format!("grid.{}.{} is an empty list", decl.name, p.name),
+                    ));
+                }
+                let mut out: Vec<f64> = Vec::new();
+                for v in vs {
+                    let x = parse_param(cfg, &format!("grid.{}.{}", decl.name, p.name), p, v)?;
+                    if out.contains(&x) {
+                        return Err(space_err(
+                            cfg,
+                            format!("grid.{}.{} lists {x} twice", decl.name, p.name),
+                        ));
+                    }
+                    out.push(x);
+                }
+                out
+            }
+        };
+        lists.push((p.name, values));
+    }
+    let mut combos: Vec<Vec<(&'static str, f64)>> = vec![Vec::new()];
+    for (name, values) in &lists {
+        let mut next = Vec::new();
+        for c in &combos {
+            for v in values {
+                let mut c2 = c.clone();
+                c2.push((*name, *v));
+                next.push(c2);
+            }
+        }
+        combos = next;
+    }
+    Ok(combos
+        .into_iter()
+        .map(|params| Choice {
+            dim,
+            option: decl.name.to_string(),
+            params,
+            members: None,
+            digest: None,
+        })
+        .collect())
+}
+
+fn pool_choice(name: &str, members: Vec<usize>, panel: &Panel) -> Choice {
+    let mut m = members;
+    m.sort_unstable();
+    m.dedup();
+    let mut names: Vec<&str> = m.iter().map(|&j| panel.indicators[j].as_str()).collect();
+    names.sort_unstable();
+    let digest = hex::encode(Sha256::digest(names.join("\n").as_bytes()))[..8].to_string();
+    Choice {
+        dim: "pool",
+        option: name.to_string(),
+        params: Vec::new(),
+        members: Some(Arc::new(m)),
+        digest: Some(digest),
+    }
+}
+
+fn pool_options(cfg: &Config, panel: &Panel, listed: &[String]) -> Result<Vec<Choice>> {
+    let groups = panel.groups();
+    let mut out = Vec::new();
+    for name in &cfg.pools.keys().cloned().collect::<Vec<_>>() {
+        if name == "all" || name.starts_with("group:") {
+            return Err(space_err(
+                cfg,
+                format!("pools.{name}: `all` and names starting with `group:` are reserved"),
+            ));
+        }
+    }
+    for opt in listed {
+        if opt == "all" {
+            out.push(pool_choice(
+                "all",
+                (0..panel.indicators.len()).collect(),
+                panel,
+            ));
+        } else if let Some(g) = opt.strip_prefix("group:") {
+            if panel.codebook.is_empty() {
+                return Err(space_err(
+                    cfg,
+                    format!("choices.pool `{opt}` needs a codebook (data.codebook)"),
+                ));
+            }
+            let members = groups.get(g).ok_or_else(|| {
+                space_err(
+                    cfg,
+                    format!(
+                        "choices.pool `{opt}`: no codebook group `{g}`{}; groups: {}",
+                        suggest(g, groups.keys().map(String::as_str)),
+                        groups.keys().cloned().collect::<Vec<_>>().join(", ")
+                    ),
+                )
+            })?;
+            out.push(pool_choice(opt, members.clone(), panel));
+        } else if let Some(list) = cfg.pools.get(opt) {
+            if list.is_empty() {
+                return Err(space_err(cfg, format!("pools.{opt} is an empty list")));
+            }
+            let mut members = Vec::new();
+            for ind in list {
+                let j = panel.indicator_index(ind).ok_or_else(|| {
+                    space_err(
+                        cfg,
+                        format!(
+                            "pools.{opt}: unknown indicator `{ind}`{}",
+                            suggest(ind, panel.indicators.iter().map(String::as_str))
+                        ),
+                    )
+                })?;
+                members.push(j);
+            }
+            out.push(pool_choice(opt, members, panel));
+        } else {
+            let mut known: Vec<String> = vec!["all".into()];
+            known.extend(groups.keys().map(|g| format!("group:{g}")));
+            known.extend(cfg.pools.keys().cloned());
+            return Err(space_err(
+                cfg,
+                format!(
+                "choices.pool: unknown pool `{opt}`{}; define it under [pools] or use one of: {}",
+                suggest(opt, known.iter().map(String::as_str)),
+                known.join(", ")
+            ),
+            ));
+        }
+    }
+    Ok(out)
+}
+
+impl ChoiceSpace {
+    /// Expand the config's choice space against a panel (pools need its indicators).
+    pub fn build(cfg: &Config, panel: &Panel) -> Result<ChoiceSpace> {
+        let mut warnings = Vec::new();
+        // Every grid must name a known option and known parameters.
+        let mut all_decls: BTreeMap<&str, OptionDecl> = BTreeMap::new();
+        for d in DIMENSIONS {
+            for o in options_of(d) {
+                all_decls.insert(o.name, o);
+            }
+        }
+        for (opt, params) in &cfg.grid {
+            let decl = all_decls.get(opt.as_str()).ok_or_else(|| {
+                space_err(
+                    cfg,
+                    format!(
+                        "grid.{opt}: no option `{opt}` takes parameters{}",
+                        suggest(opt, all_decls.keys().copied())
+                    ),
+                )
+            })?;
+            for p in params.keys() {
+                if !decl.params.iter().any(|d| d.name == p) {
+                    let names: Vec<&str> = decl.params.iter().map(|d| d.name).collect();
+                    return Err(space_err(
+                        cfg,
+                        format!(
+                            "unknown key `grid.{opt}.{p}`{}; `{opt}` takes: {}",
+                            suggest(p, names.iter().copied()),
+                            if names.is_empty() {
+                                "no parameters".to_string()
+                            } else {
+                                names.join(", ")
+                            }
+                        ),
+                    ));
+                }
+            }
+        }
+
+        let mut options: Vec<Vec<Choice>> = Vec::new();
+        for dim in DIMENSIONS {
+            let listed: Vec<String> = match cfg.choices.get(*dim) {
+                Some(v) => v.clone(),
+                None => vec![default_option(dim).to_string()],
+            };
+            if listed.is_empty() {
+                return Err(space_err(
+                    cfg,
+                    format!("choices.{dim} is empty: list at least one option"),
+                ));
+            }
+            let mut seen = BTreeSet::new();
+            for o in &listed {
+                if !seen.insert(o) {
+                    return Err(space_err(cfg, format!("choices.{dim} lists `{o}` twice")));
+                }
+            }
+            let expanded = if *dim == "pool" {
+                pool_options(cfg, panel, &listed)?
+            } else {
+                let decls = options_of(dim);
+                let mut out = Vec::new();
+                for o in &listed {
+                    let decl = decls.iter().find(|d| d.name == o).ok_or_else(|| {
+                        space_err(
+                            cfg,
+                            format!(
+                                "choices.{dim}: unknown option `{o}`{}; options: {}",
+                                suggest(o, decls.iter().map(|d| d.name)),
+                                decls.iter().map(|d| d.name).collect::<Vec<_>>().join(", ")
+                            ),
+                        )
+                    })?;
+                    out.extend(expand(cfg, dim, decl)?);
+                }
+                out
+            };
+            options.push(expanded);
+        }
+        for opt in cfg.grid.keys() {
+            let used = options.iter().flatten().any(|c| &c.option == opt);
+            if !used {
+                warnings.push(format!(
+                    "grid.{opt} is set but `{opt}` is not among the chosen options"
+                ));
+            }
+        }
+
+        // Exclusions: validate names, then filter the product.
+        let mut rules = Vec::new();
+        for (i, rule) in cfg.exclude.iter().enumerate() {
+            if rule.is_empty() {
+                return Err(space_err(
+                    cfg,
+                    format!("exclude[{i}] is empty: it would exclude everything"),
+                ));
+            }
+            let mut parts = Vec::new();
+            for (dim, names) in rule {
+                let di = DIMENSIONS.iter().position(|d| d == dim).unwrap_or(0);
+                for n in names.items() {
+                    if !options[di].iter().any(|c| c.option == n) {
+                        return Err(space_err(
+                            cfg,
+                            format!(
+                                "exclude[{i}].{dim}: `{n}` is not a chosen {dim} option{}",
+                                suggest(n, options[di].iter().map(|c| c.option.as_str()))
+                            ),
+                        ));
+                    }
+                }
+                parts.push(format!("{dim} in [{}]", names.items().join(", ")));
+            }
+            rules.push(parts.join(" and "));
+        }
+        let matches = |choices: &[Choice]| {
+            cfg.exclude.iter().any(|rule| {
+                rule.iter().all(|(dim, names)| {
+                    let di = DIMENSIONS.iter().position(|d| d == dim).unwrap_or(0);
+                    names.items().contains(&choices[di].option.as_str())
+                })
+            })
+        };
+        let mut specs = Vec::new();
+        let mut excluded = 0usize;
+        let total: usize = options.iter().map(Vec::len).product();
+        let mut idx = vec![0usize; options.len()];
+        for _ in 0..total {
+            let choices: Vec<Choice> = idx
+                .iter()
+                .enumerate()
+                .map(|(d, &k)| options[d][k].clone())
+                .collect();
+            if matches(&choices) {
+                excluded += 1;
+            } else {
+                specs.push(Spec::from_choices(choices));
+            }
+            for d in (0..idx.len()).rev() {
+                idx[d] += 1;
+                if idx[d] < options[d].len() {
+                    break;
+                }
+                idx[d] = 0;
+            }
+        }
+        if specs.is_empty() {
+            return Err(Error::Space(format!(
+                "the exclusions remove all {total} combinations: nothing is left to run"
+            )));
+        }
+        let mut ids = BTreeSet::new();
+        for s in &specs {
+            if !ids.insert(&s.id) {
+                return Err(Error::Space(format!(
+                    "two specs share the id {} ({})",
+                    s.id,
+                    s.label()
+                )));
+            }
+        }
+        Ok(ChoiceSpace {
+            options,
+            specs,
+            excluded,
+            exclusion_rules: rules,
+            warnings,
+        })
+    }
+
+    /// The (option, parameter) pairs present, for the spec table's parameter columns.
+    pub fn param_columns(&self) -> Vec<(String, &'static str)> {
+        let mut out: Vec<(String, &'static str)> = Vec::new();
+        for c in self.options.iter().flatten() {
+            for (p, _) in &c.params {
+                let key = (c.option.clone(), *p);
+                if !out.contains(&key) {
+                    out.push(key);
+                }
+            }
+        }
+        out
+    }
+}

@@ -1,0 +1,206 @@
+//! Compression of the pooled, scaled indicators into fewer columns, fitted in-fold.
+//!
+//! PCA: centre on the training mean, take the eigenvectors of the training covariance
+//! (or, when there are fewer rows than columns, of the Gram matrix, mapped back), keep the
+//! k largest. The symmetric eigensolver is linfa-linalg's (pure Rust). linfa-reduction's
+//! `Pca` is not used: its truncated SVD is iterative with a random start, and in 0.8 its
+//! `explained_variance` divides by the number of components instead of n - 1.
+//! Each component's sign is fixed so its largest-magnitude loading is positive, which
+//! makes components (and so results) reproducible.
+
+use super::{Fitted, Stage, StageInput};
+use crate::error::FitError;
+use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
+use linfa_linalg::eigh::{EigSort, Eigh};
+use ndarray::{Array1, Array2, ArrayView2, Axis};
+use std::sync::Arc;
+
+pub const OPTIONS: &[OptionDecl] = &[
+    OptionDecl {
+        name: "none",
+        params: &[],
+        help: "use the pooled indicators as they are",
+        weighted: true,
+    },
+    OptionDecl {
+        name: "pca",
+        params: &[ParamDecl {
+            name: "k",
+            kind: ParamKind::Int {
+                min: 1,
+                max: 10_000,
+            },
+            default: 5.0,
+            help: "number of principal components kept",
+        }],
+        help: "principal components of the training rows",
+        weighted: true,
+    },
+];
+
+struct Identity;
+struct IdentityFitted {
+    names: Vec<String>,
+}
+
+/// Validated PCA parameters.
+pub struct Pca {
+    pub k: usize,
+}
+
+/// A fitted PCA: `scores = (x - mean) * components^T`.
+pub struct PcaFitted {
+    pub mean: Array1<f64>,
+    /// k x p, rows are unit-length loadings.
+    pub components: Array2<f64>,
+    /// Variance of each component's scores on the training rows (divisor n - 1).
+    pub explained_variance: Array1<f64>,
+    /// Share of the total training variance.
+    pub explained_variance_ratio: Array1<f64>,
+    pub input_names: Vec<String>,
+    names: Vec<String>,
+}
+
+pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
+    match c.option.as_str() {
+        "none" => Ok(Arc::new(Identity)),
+        "pca" => {
+            let k = c.param("k").ok_or("pca needs k")?;
+            Ok(Arc::new(Pca { k: k as usize }))
+        }
+        o => Err(format!("unknown compress `{o}`")),
+    }
+}
+
+impl Stage for Identity {
+    fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
+        Ok(Arc::new(IdentityFitted {
+            names: input.names.to_vec(),
+        }))
+    }
+}
+
+impl Fitted for IdentityFitted {
+    fn apply(&self, x: ArrayView2<f64>) -> Array2<f64> {
+        x.to_owned()
+    }
+    fn names(&self) -> &[String] {
+        &self.names
+    }
+}
+
+impl Pca {
+    pub fn fit_pca(&self, x: ArrayView2<f64>, names: &[String]) -> Result<PcaFitted, FitError> {
+        let (n, p) = x.dim();
+        if self.k > p || self.k > n {
+            return Err(FitError::Invalid(format!(
+                "pca k={} but the training rows have {n} rows and {p} columns",
+                self.k
+            )));
+        }
+        let mean = x
+            .mean_axis(Axis(0))
+            .ok_or_else(|| FitError::Invalid("no rows".into()))?;
+        let xc = &x - &mean;
+        let denom = (n.max(2) - 1) as f64;
+        let eig = |m: Array2<f64>| {
+            m.eigh()
+                .map(|e| e.sort_eig_desc())
+                .map_err(|e| FitError::NoConvergence(format!("eigendecomposition: {e}")))
+        };
+        let mut components = Array2::zeros((self.k, p));
+        let all_vals: Array1<f64>;
+        if n >= p {
+            let cov = xc.t().dot(&xc);
+            let (vals, vecs) = eig(cov)?;
+            for c in 0..self.k {
+                components.row_mut(c).assign(&vecs.column(c));
+            }
+            all_vals = vals;
+        } else {
+            let gram = xc.dot(&xc.t());
+            let (vals, vecs) = eig(gram)?;
+            for c in 0..self.k {
+                let s2 = vals[c];
+                if s2 <= 1e-12 * vals[0].max(1e-300) {
+                    return Err(FitError::Singular(format!(
+                        "pca component {} has no variance on the training rows",
+                        c + 1
+                    )));
+                }
+                let v = xc.t().dot(&vecs.column(c)) / s2.sqrt();
+                components.row_mut(c).assign(&v);
+            }
+            all_vals = vals;
+        }
+        for mut row in components.axis_iter_mut(Axis(0)) {
+            let mut best = 0.0f64;
+            for &v in row.iter() {
+                if v.abs() > best.abs() + 1e-12 {
+                    best = v;
+                }
+            }
+            if best < 0.0 {
+                row.mapv_inplace(|v| -v);
+            }
+        }
+        let total: f64 = all_vals.iter().map(|v| v.max(0.0)).sum();
+        let ev: Array1<f64> = all_vals
+            .iter()
+            .take(self.k)
+            .map(|v| v.max(0.0) / denom)
+            .collect();
+        let ratio = if total > 0.0 {
+            &ev * denom / total
+        } else {
+            Array1::zeros(self.k)
+        };
+        let out_names = (1..=self.k).map(|c| format!("pc{c}")).collect();
+        Ok(PcaFitted {
+            mean,
+            components,
+            explained_variance: ev,
+            explained_variance_ratio: ratio,
+            input_names: names.to_vec(),
+            names: out_names,
+        })
+    }
+}
+
+impl Stage for Pca {
+    fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
+        Ok(Arc::new(self.fit_pca(input.x, input.names)?))
+    }
+}
+
+impl Fitted for PcaFitted {
+    fn apply(&self, x: ArrayView2<f64>) -> Array2<f64> {
+        (&x - &self.mean).dot(&self.components.t())
+    }
+    fn names(&self) -> &[String] {
+        &self.names
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use ndarray::array;
+
+    #[test]
+    fn pca_on_hand_checked_data() {
+        // Points on the line y = x plus a small orthogonal wobble: the first component is
+        // (1, 1)/sqrt(2) (worked by hand); the wide (n < p) path agrees with the tall one.
+        let x = array![[1.0, 1.1], [2.0, 1.9], [3.0, 3.1], [4.0, 3.9]];
+        let names = vec!["a".to_string(), "b".to_string()];
+        let f = Pca { k: 1 }.fit_pca(x.view(), &names).unwrap();
+        let c = f.components.row(0);
+        let h = std::f64::consts::FRAC_1_SQRT_2;
+        assert!((c[0] - h).abs() < 0.01 && (c[1] - h).abs() < 0.01, "{c}");
+        let wide = x.t().to_owned();
+        let names4: Vec<String> = (0..4).map(|i| format!("c{i}")).collect();
+        let tall = Pca { k: 1 }.fit_pca(wide.view(), &names4).unwrap();
+        assert_eq!(tall.components.ncols(), 4);
+        assert!(Pca { k: 3 }.fit_pca(x.view(), &names).is_err());
+    }
+}

@@ -1,0 +1,58 @@
+//! Preparation stages fitted inside a training fold: fill -> pool -> scale -> compress.
+//!
+//! A [`Stage`] is a validated, unfitted option. [`Stage::fit`] sees only a
+//! [`StageInput`], which holds the training rows of one fold and nothing else; the fitted
+//! result is a [`Fitted`] transform applied to any rows (training, test, or new raw rows).
+//! Adding an option: write it in the dimension's file, declare it in that file's
+//! `OPTIONS`, and add one arm to that file's `build`.
+
+pub mod compress;
+pub mod fill;
+pub mod pool;
+pub mod scale;
+
+use crate::error::FitError;
+use crate::space::Choice;
+use ndarray::{Array2, ArrayView1, ArrayView2};
+use std::sync::Arc;
+
+/// What a stage may see when it is fitted: the training rows of one fold.
+pub struct StageInput<'a> {
+    /// Training rows after the stages above (rows in the order of `rows`).
+    pub x: ArrayView2<'a, f64>,
+    /// Training outcome (already transformed, if a transform is chosen).
+    pub y: ArrayView1<'a, f64>,
+    /// Panel row ids of the training rows (for audit and for unit-aware stages).
+    pub rows: &'a [usize],
+    /// Names of the columns of `x`.
+    pub names: &'a [String],
+}
+
+/// An unfitted stage option with checked parameters.
+pub trait Stage: Send + Sync {
+    fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError>;
+}
+
+/// A fitted stage: a pure transform of rows.
+pub trait Fitted: Send + Sync {
+    /// Transform rows with the input columns into rows with the output columns.
+    fn apply(&self, x: ArrayView2<f64>) -> Array2<f64>;
+    /// Names of the output columns.
+    fn names(&self) -> &[String];
+}
+
+/// Build the stage of a stage-dimension choice.
+pub fn build(choice: &Choice) -> Result<Arc<dyn Stage>, String> {
+    match choice.dim {
+        "fill" => fill::build(choice),
+        "pool" => pool::build(choice),
+        "scale" => scale::build(choice),
+        "compress" => compress::build(choice),
+        other => Err(format!("`{other}` is not a stage dimension")),
+    }
+}
+
+/// Column statistics over non-missing values (NaN skipped).
+pub(crate) fn present(col: ArrayView1<f64>) -> Vec<f64> {
+    col.iter().copied().filter(|v| !v.is_nan()).collect()
+}

@@ -1,0 +1,427 @@
+//! The sweep: a stage tree over the choice space, run in parallel.
+//!
+//! Specs sharing a preparation prefix (fill -> pool -> scale -> compress) share its fitted
+//! stages: per fold, each distinct node is fitted once on the fold's training rows and
+//! its output feeds every node and model below it. The tree is walked depth first, so at
+//! most one root-to-leaf path of prepared matrices per worker is alive at a time.
+//!
+//! Invariants (tested in `tests/`):
+//! * every fit (stage, weights, baseline, model) sees only the training rows of its fold;
+//!   the [`Audit`] hook records the row ids each one is given;
+//! * a spec's results depend only on the panel, the fold plan, the run seed and the spec
+//!   (its random stream is keyed by the spec id), never on threads or scheduling;
+//! * a failure inside one spec (or one stage) is recorded, and the sweep goes on.
+
+use crate::error::{Error, FitError, Result};
+use crate::folds::{mix, FoldPlan};
+use crate::metrics::Scores;
+use crate::models::{FitInput, Predictor, Regressor};
+use crate::panel::Panel;
+use crate::space::{ChoiceSpace, Spec, STAGE_DIMENSIONS};
+use crate::stages::{Fitted, Stage, StageInput};
+use ndarray::{Array1, Array2, Axis};
+use rayon::prelude::*;
+use std::panic::{catch_unwind, AssertUnwindSafe};
+use std::sync::Arc;
+use std::time::Instant;
+
+/// Receives the row ids every fitted step is given (for leak-freedom tests and audits).
+pub trait Audit: Send + Sync {
+    /// `step` names the fitted thing (`fill`, `pool`, `scale`, `compress`, `weights`,
+    /// `baseline`, `model`); `fold` indexes [`FoldPlan::folds`].
+    fn fitted(&self, step: &str, fold: usize, rows: &[usize]);
+}
+
+/// One out-of-fold prediction.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Prediction {
+    pub row: u32,
+    pub repeat: u16,
+    pub fold: u16,
+    pub value: f64,
+}
+
+/// Outcome of one spec.
+#[derive(Debug, Clone)]
+pub struct SpecResult {
+    /// Index into [`ChoiceSpace::specs`].
+    pub spec: usize,
+    /// `ok` or the failure cause (`singular`, `invalid`, `no_convergence`, `panic`).
+    pub status: &'static str,
+    pub message: Option<String>,
+    pub scores: Option<Scores>,
+    /// Wall seconds spent fitting and predicting this spec's models (stages excluded).
+    pub seconds: f64,
+    pub predictions: Vec<Prediction>,
+}
+
+/// A fitted spec for one fold: the stage chain and the model. Predicts raw indicator rows.
+pub struct FittedSpec {
+    pub chain: Vec<Arc<dyn Fitted>>,
+    pub model: Box<dyn Predictor>,
+}
+
+impl FittedSpec {
+    /// Predict rows of raw indicators (panel columns, NaN for gaps).
+    pub fn predict_raw(&self, x: ndarray::ArrayView2<f64>) -> Array1<f64> {
+        let mut cur = x.to_owned();
+        for st in &self.chain {
+            cur = st.apply(cur.view());
+        }
+        self.model.predict(cur.view())
+    }
+}
+
+struct Node {
+    label: String,
+    level: usize,
+    stage: Arc<dyn Stage>,
+    children: Vec<Node>,
+    /// Specs whose path ends here (only at the last stage level).
+    specs: Vec<usize>,
+}
+
+impl Node {
+    fn all_specs(&self, out: &mut Vec<usize>) {
+        out.extend(&self.specs);
+        for c in &self.children {
+            c.all_specs(out);
+        }
+    }
+}
+
+/// Per-fold data at a node.
+struct FoldState {
+    train: Array2<f64>,
+    test: Array2<f64>,
+    names: Vec<String>,
+    chain: Vec<Arc<dyn Fitted>>,
+}
+
+/// Per-fold context shared by every spec.
+struct FoldCtx {
+    y_train: Array1<f64>,
+    train_units: Vec<usize>,
+    baseline: f64,
+}
+
+/// The sweep over one panel.
+pub struct Sweep<'a> {
+    pub panel: &'a Panel,
+    pub space: &'a ChoiceSpace,
+    pub folds: &'a FoldPlan,
+    pub seed: u64,
+    pub audit: Option<Arc<dyn Audit>>,
+    roots: Vec<Node>,
+    models: Vec<Arc<dyn Regressor>>,
+    ctx: Vec<FoldCtx>,
+}
+
+fn panic_text(p: Box<dyn std::any::Any + Send>) -> String {
+    if let Some(s) = p.downcast_ref::<&str>() {
+        s.to_string()
+    } else if let Some(s) = p.downcast_ref::<String>() {
+        s.clone()
+    } else {
+        "unknown panic".into()
+    }
+}
+
+fn guarded<T>(
+    f: impl FnOnce() -> std::result::Result<T, FitError>,
+) -> std::result::Result<T, FitError> {
+    match catch_unwind(AssertUnwindSafe(f)) {
+        Ok(r) => r,
+        Err(p) => Err(FitError::Panic(panic_text(p))),
+    }
+}
+
+impl<'a> Sweep<'a> {
+    /// Build the stage tree for `subset` of the space's specs (all when `None`).
+    pub fn new(
+        panel: &'a Panel,
+        space: &'a ChoiceSpace,
+        folds: &'a FoldPlan,
+        seed: u64,
+        subset: Option<&[usize]>,
+    ) -> Result<Sweep<'a>> {
+        let all: Vec<usize> = (0..space.specs.len()).collect();
+        let chosen = subset.unwrap_or(&all);
+        let mut roots: Vec<Node> = Vec::new();
+        for &si in chosen {
+            let spec = &space.specs[si];
+            let mut level_nodes = &mut roots;
+            for (level, dim) in STAGE_DIMENSIONS.iter().enumerate() {
+                let choice = spec.choice(dim);
+                let label = choice.canonical();
+                let pos = match level_nodes.iter().position(|n| n.label == label) {
+                    Some(p) => p,
+                    None => {
+                        let stage = crate::stages::build(choice).map_err(Error::Space)?;
+                        level_nodes.push(Node {
+                            label,
+                            level,
+                            stage,
+                            children: Vec::new(),
+                            specs: Vec::new(),
+                        });
+                        level_nodes.len() - 1
+                    }
+                };
+                if level + 1 == STAGE_DIMENSIONS.len() {
+                    level_nodes[pos].specs.push(si);
+                    break;
+                }
+                level_nodes = &mut level_nodes[pos].children;
+            }
+        }
+        let models = space
+            .specs
+            .iter()
+            .map(|s| crate::models::build(s.choice("model")).map_err(Error::Space))
+            .collect::<Result<Vec<_>>>()?;
+        let ctx = folds
+            .folds
+            .iter()
+            .map(|f| {
+                let y_train: Array1<f64> = f.train.iter().map(|&i| panel.y[i]).collect();
+                let baseline = y_train.mean().unwrap_or(0.0);
+                FoldCtx {
+                    y_train,
+                    train_units: f.train.iter().map(|&i| panel.row_unit[i]).collect(),
+                    baseline,
+                }
+            })
+            .collect();
+        Ok(Sweep {
+            panel,
+            space,
+            folds,
+            seed,
+            audit: None,
+            roots,
+            models,
+            ctx,
+        })
+    }
+
+    pub fn with_audit(mut self, audit: Arc<dyn Audit>) -> Self {
+        self.audit = Some(audit);
+        self
+    }
+
+    fn audit(&self, step: &str, fold: usize) {
+        if let Some(a) = &self.audit {
+            a.fitted(step, fold, &self.folds.folds[fold].train);
+        }
+    }
+
+    /// Distinct fitted preparations per fold (the number of stage fits is this x folds).
+    pub fn n_stage_nodes(&self) -> usize {
+        fn count(n: &[Node]) -> usize {
+            n.iter().map(|c| 1 + count(&c.children)).sum()
+        }
+        count(&self.roots)
+    }
+
+    /// Run every spec; each result is handed to `emit` as soon as it is ready (from any
+    /// worker thread). Runs on the current rayon pool.
+    pub fn run(&self, emit: &(dyn Fn(SpecResult) + Sync)) {
+        if let Some(a) = &self.audit {
+            for fi in 0..self.folds.folds.len() {
+                a.fitted("baseline", fi, &self.folds.folds[fi].train);
+            }
+        }
+        let base: Vec<FoldState> = self
+            .folds
+            .folds
+            .iter()
+            .map(|f| FoldState {
+                train: self.panel.x.select(Axis(0), &f.train),
+                test: self.panel.x.select(Axis(0), &f.test),
+                names: self.panel.indicators.clone(),
+                chain: Vec::new(),
+            })
+            .collect();
+        self.roots
+            .par_iter()
+            .for_each(|n| self.run_node(n, &base, emit));
+    }
+
+    fn run_node(&self, node: &Node, parent: &[FoldState], emit: &(dyn Fn(SpecResult) + Sync)) {
+        let step = STAGE_DIMENSIONS[node.level];
+        let states: std::result::Result<Vec<FoldState>, (usize, FitError)> = parent
+            .par_iter()
+            .enumerate()
+            .map(|(fi, p)| {
+                self.audit(step, fi);
+                let fold = &self.folds.folds[fi];
+                let input = StageInput {
+                    x: p.train.view(),
+                    y: self.ctx[fi].y_train.view(),
+                    rows: &fold.train,
+                    names: &p.names,
+                };
+                let fitted = guarded(|| node.stage.fit(&input)).map_err(|e| (fi, e))?;
+                let (train, test) =
+                    guarded(|| Ok((fitted.apply(p.train.view()), fitted.apply(p.test.view()))))
+                        .map_err(|e| (fi, e))?;
+                let mut chain = p.chain.clone();
+                let names = fitted.names().to_vec();
+                chain.push(fitted);
+                Ok(FoldState {
+                    train,
+                    test,
+                    names,
+                    chain,
+                })
+            })
+            .collect();
+        let states = match states {
+            Ok(s) => s,
+            Err((fi, e)) => {
+                let mut specs = Vec::new();
+                node.all_specs(&mut specs);
+                let f = &self.folds.folds[fi];
+                let msg = format!(
+                    "{step} `{}` (repeat {}, fold {}): {e}",
+                    node.label, f.repeat, f.index
+                );
+                for si in specs {
+                    emit(SpecResult {
+                        spec: si,
+                        status: e.cause(),
+                        message: Some(msg.clone()),
+                        scores: None,
+                        seconds: 0.0,
+                        predictions: Vec::new(),
+                    });
+                }
+                return;
+            }
+        };
+        node.children
+            .par_iter()
+            .for_each(|c| self.run_node(c, &states, emit));
+        node.specs
+            .par_iter()
+            .for_each(|&si| emit(self.run_spec(si, &states)));
+    }
+
+    fn fit_fold(
+        &self,
+        si: usize,
+        fi: usize,
+        st: &FoldState,
+    ) -> std::result::Result<Box<dyn Predictor>, FitError> {
+        let spec: &Spec = &self.space.specs[si];
+        let ctx = &self.ctx[fi];
+        self.audit("weights", fi);
+        let w = crate::weights::weights(
+            &spec.choice("weighting").option,
+            &crate::weights::WeightInput {
+                units: &ctx.train_units,
+                y: ctx.y_train.as_slice().unwrap_or(&[]),
+            },
+        )
+        .map_err(FitError::Invalid)?;
+        self.audit("model", fi);
+        let seed = mix(mix(self.seed, spec.stream()), fi as u64);
+        let input = FitInput {
+            x: st.train.view(),
+            y: ctx.y_train.view(),
+            w: w.view(),
+            seed,
+        };
+        guarded(|| self.models[si].fit(&input))
+    }
+
+    fn run_spec(&self, si: usize, states: &[FoldState]) -> SpecResult {
+        let t0 = Instant::now();
+        let n_pred: usize = self.folds.folds.iter().map(|f| f.test.len()).sum();
+        let mut preds = Vec::with_capacity(n_pred);
+        let mut obs = Vec::with_capacity(n_pred);
+        let mut base = Vec::with_capacity(n_pred);
+        for (fi, st) in states.iter().enumerate() {
+            let fold = &self.folds.folds[fi];
+            let out = self.fit_fold(si, fi, st).and_then(|m| {
+                let p = guarded(|| Ok(m.predict(st.test.view())))?;
+                match p.iter().position(|v| !v.is_finite()) {
+                    Some(k) => Err(FitError::Invalid(format!(
+                        "non-finite prediction for row {}",
+                        fold.test[k] + 1
+                    ))),
+                    None => Ok(p),
+                }
+            });
+            match out {
+                Ok(p) => {
+                    for (k, &row) in fold.test.iter().enumerate() {
+                        preds.push(Prediction {
+                            row: row as u32,
+                            repeat: fold.repeat as u16,
+                            fold: fold.index as u16,
+                            value: p[k],
+                        });
+                        obs.push(self.panel.y[row]);
+                        base.push(self.ctx[fi].baseline);
+                    }
+                }
+                Err(e) => {
+                    return SpecResult {
+                        spec: si,
+                        status: e.cause(),
+                        message: Some(format!(
+                            "model (repeat {}, fold {}): {e}",
+                            fold.repeat, fold.index
+                        )),
+                        scores: None,
+                        seconds: t0.elapsed().as_secs_f64(),
+                        predictions: Vec::new(),
+                    }
+                }
+            }
+        }
+        let values: Vec<f64> = preds.iter().map(|p| p.value).collect();
+        SpecResult {
+            spec: si,
+            status: "ok",
+            message: None,
+            scores: Some(Scores::compute(&obs, &values, &base)),
+            seconds: t0.elapsed().as_secs_f64(),
+            predictions: preds,
+        }
+    }
+
+    /// Fit one spec on one fold and return the reusable fitted pipeline.
+    pub fn fit_spec(&self, si: usize, fi: usize) -> std::result::Result<FittedSpec, FitError> {
+        let spec = &self.space.specs[si];
+        let fold = &self.folds.folds[fi];
+        let mut st = FoldState {
+            train: self.panel.x.select(Axis(0), &fold.train),
+            test: self.panel.x.select(Axis(0), &fold.test),
+            names: self.panel.indicators.clone(),
+            chain: Vec::new(),
+        };
+        for dim in STAGE_DIMENSIONS {
+            let stage = crate::stages::build(spec.choice(dim)).map_err(FitError::Invalid)?;
+            self.audit(dim, fi);
+            let input = StageInput {
+                x: st.train.view(),
+                y: self.ctx[fi].y_train.view(),
+                rows: &fold.train,
+                names: &st.names,
+            };
+            let f = guarded(|| stage.fit(&input))?;
+            st.train = f.apply(st.train.view());
+            st.test = f.apply(st.test.view());
+            st.names = f.names().to_vec();
+            st.chain.push(f);
+        }
+        let model = self.fit_fold(si, fi, &st)?;
+        Ok(FittedSpec {
+            chain: st.chain,
+            model,
+        })
+    }
+}

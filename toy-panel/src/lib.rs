@@ -1,0 +1,701 @@
+//! Seeded, deterministic generator of forkmap's demo panel.
+//!
+//! Everything here is **invented**: the districts, their names, the indicators and the
+//! outcome are made up to exercise forkmap, and describe no real place. The scenario: 64
+//! fictional districts surveyed in up to two waves; the outcome is the percent of
+//! households in energy hardship; about 90 indicators in 6 groups are built from a few
+//! latent factors, so indicators within a group are collinear. Planted structure (written
+//! to `truth.json`): a few true driver indicators, a threshold on one indicator, an
+//! interaction, a subgroup of districts whose threshold differs, a handful of very
+//! high-outcome districts, and missing cells that are more common in poorer districts.
+//!
+//! The random stream is a hand-written xoshiro256** seeded by SplitMix64, so the output
+//! depends on nothing but this file and the seed.
+
+use std::fmt::Write as _;
+
+/// The seed of the committed demo files.
+pub const SEED: u64 = 20_261_201;
+const N_DISTRICTS: usize = 64;
+const WAVES: [i64; 2] = [2021, 2024];
+
+/// xoshiro256** (Blackman & Vigna, 2018) seeded through SplitMix64.
+struct Rng {
+    s: [u64; 4],
+}
+
+impl Rng {
+    fn new(seed: u64) -> Self {
+        let mut z = seed;
+        let mut s = [0u64; 4];
+        for slot in &mut s {
+            z = z.wrapping_add(0x9E37_79B9_7F4A_7C15);
+            let mut x = z;
+            x = (x ^ (x >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+            x = (x ^ (x >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+            *slot = x ^ (x >> 31);
+        }
+        Rng { s }
+    }
+    fn next_u64(&mut self) -> u64 {
+        let result = self.s[1].wrapping_mul(5).rotate_left(7).wrapping_mul(9);
+        let t = self.s[1] << 17;
+        self.s[2] ^= self.s[0];
+        self.s[3] ^= self.s[1];
+        self.s[1] ^= self.s[2];
+        self.s[0] ^= self.s[3];
+        self.s[2] ^= t;
+        self.s[3] = self.s[3].rotate_left(45);
+        result
+    }
+    /// Uniform in [0, 1).
+    fn uniform(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
+    }
+    /// Standard normal by Box-Muller (one value per call; simple and reproducible).
+    fn normal(&mut self) -> f64 {
+        let u1 = 1.0 - self.uniform();
+        let u2 = self.uniform();
+        (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
+    }
+    fn below(&mut self, n: usize) -> usize {
+        (self.uniform() * n as f64) as usize % n
+    }
+}
+
+/// Latent factors of a district (standard-normal scale).
+#[derive(Clone, Copy)]
+struct Factors {
+    /// Prosperity: high = richer.
+    prosperity: f64,
+    /// Old, poorly insulated housing stock.
+    housing_age: f64,
+    /// Cold climate / heating demand.
+    cold: f64,
+    /// Energy price level.
+    price: f64,
+    /// Remoteness from services.
+    remote: f64,
+    /// Demographic age structure (not a driver).
+    ageing: f64,
+}
+
+struct Group {
+    key: &'static str,
+    label: &'static str,
+    stems: [(&'static str, &'static str, &'static str); 15],
+}
+
+const GROUPS: [Group; 6] = [
+    Group {
+        key: "income",
+        label: "Household income and work",
+        stems: [
+            (
+                "inc_median_income",
+                "Median household income",
+                "thousand credits",
+            ),
+            (
+                "inc_low_income_share",
+                "Households below the low-income line",
+                "percent",
+            ),
+            ("inc_unemployment", "Unemployment rate", "percent"),
+            (
+                "inc_benefit_claims",
+                "Households claiming income support",
+                "percent",
+            ),
+            ("inc_wage_growth", "Annual wage growth", "percent"),
+            ("inc_savings_rate", "Households with savings", "percent"),
+            (
+                "inc_debt_arrears",
+                "Households in arrears on bills",
+                "percent",
+            ),
+            (
+                "inc_part_time_share",
+                "Workers in part-time jobs",
+                "percent",
+            ),
+            ("inc_self_employed", "Self-employed workers", "percent"),
+            (
+                "inc_food_aid_visits",
+                "Food aid visits per 1000 residents",
+                "per 1000",
+            ),
+            (
+                "inc_child_poverty",
+                "Children in low-income households",
+                "percent",
+            ),
+            (
+                "inc_pension_only",
+                "Households living on a pension only",
+                "percent",
+            ),
+            ("inc_gini", "Income Gini index", "index 0-100"),
+            (
+                "inc_top_decile_share",
+                "Income share of the top decile",
+                "percent",
+            ),
+            (
+                "inc_job_vacancies",
+                "Job vacancies per 1000 residents",
+                "per 1000",
+            ),
+        ],
+    },
+    Group {
+        key: "housing",
+        label: "Housing stock",
+        stems: [
+            (
+                "hou_pre1950_share",
+                "Dwellings built before 1950",
+                "percent",
+            ),
+            (
+                "hou_poor_insulation",
+                "Dwellings with poor insulation",
+                "percent",
+            ),
+            (
+                "hou_single_glazing",
+                "Dwellings with single glazing",
+                "percent",
+            ),
+            (
+                "hou_private_rent",
+                "Households renting privately",
+                "percent",
+            ),
+            ("hou_social_rent", "Households in social housing", "percent"),
+            ("hou_overcrowding", "Overcrowded dwellings", "percent"),
+            (
+                "hou_damp_reports",
+                "Damp complaints per 1000 dwellings",
+                "per 1000",
+            ),
+            ("hou_detached_share", "Detached houses", "percent"),
+            (
+                "hou_floor_area",
+                "Mean floor area per dwelling",
+                "square metres",
+            ),
+            ("hou_vacancy", "Vacant dwellings", "percent"),
+            (
+                "hou_renovation_rate",
+                "Dwellings renovated in the last 5 years",
+                "percent",
+            ),
+            (
+                "hou_efficiency_score",
+                "Mean energy-efficiency score",
+                "index 0-100",
+            ),
+            (
+                "hou_solid_fuel",
+                "Dwellings heated with solid fuel",
+                "percent",
+            ),
+            ("hou_heat_pump", "Dwellings with a heat pump", "percent"),
+            ("hou_rent_burden", "Rent as a share of income", "percent"),
+        ],
+    },
+    Group {
+        key: "climate",
+        label: "Climate and heating demand",
+        stems: [
+            (
+                "cli_heating_degree_days",
+                "Heating degree days per year",
+                "degree days",
+            ),
+            (
+                "cli_winter_mean_temp",
+                "Mean winter temperature",
+                "degrees C",
+            ),
+            ("cli_frost_days", "Frost days per year", "days"),
+            ("cli_altitude", "Mean altitude", "metres"),
+            ("cli_wind_exposure", "Wind exposure index", "index 0-100"),
+            ("cli_rain_days", "Rain days per year", "days"),
+            ("cli_snow_days", "Snow days per year", "days"),
+            ("cli_sunshine_hours", "Winter sunshine hours", "hours"),
+            ("cli_cold_spells", "Cold spells per winter", "count"),
+            ("cli_humidity", "Mean winter humidity", "percent"),
+            ("cli_summer_heat_days", "Days above 30 degrees C", "days"),
+            (
+                "cli_coastal_share",
+                "Population living near the coast",
+                "percent",
+            ),
+            ("cli_heating_season", "Length of the heating season", "days"),
+            (
+                "cli_storm_outages",
+                "Storm-related power outages",
+                "per year",
+            ),
+            ("cli_night_frost", "Nights below -5 degrees C", "nights"),
+        ],
+    },
+    Group {
+        key: "prices",
+        label: "Energy prices and supply",
+        stems: [
+            (
+                "prc_tariff_index",
+                "Household energy tariff index",
+                "index, mean 100",
+            ),
+            ("prc_gas_price", "Gas price per unit", "credits"),
+            ("prc_power_price", "Power price per unit", "credits"),
+            (
+                "prc_prepay_meters",
+                "Households on prepayment meters",
+                "percent",
+            ),
+            ("prc_off_grid_gas", "Dwellings off the gas grid", "percent"),
+            ("prc_oil_heating", "Dwellings heated with oil", "percent"),
+            ("prc_supplier_count", "Active energy suppliers", "count"),
+            (
+                "prc_switching_rate",
+                "Households that switched supplier",
+                "percent",
+            ),
+            ("prc_standing_charge", "Daily standing charge", "credits"),
+            (
+                "prc_price_change",
+                "Tariff change since the previous wave",
+                "percent",
+            ),
+            (
+                "prc_disconnections",
+                "Disconnections per 1000 households",
+                "per 1000",
+            ),
+            (
+                "prc_smart_meters",
+                "Households with a smart meter",
+                "percent",
+            ),
+            (
+                "prc_green_tariff",
+                "Households on a green tariff",
+                "percent",
+            ),
+            ("prc_network_losses", "Network losses", "percent"),
+            ("prc_fuel_duty", "Local fuel levy", "credits"),
+        ],
+    },
+    Group {
+        key: "access",
+        label: "Access to services",
+        stems: [
+            ("acc_travel_time_gp", "Travel time to a clinic", "minutes"),
+            (
+                "acc_bus_frequency",
+                "Buses per hour at the nearest stop",
+                "per hour",
+            ),
+            ("acc_broadband", "Households with fast broadband", "percent"),
+            ("acc_car_ownership", "Households without a car", "percent"),
+            (
+                "acc_advice_centres",
+                "Advice centres per 100k residents",
+                "per 100k",
+            ),
+            ("acc_pop_density", "Population density", "per square km"),
+            ("acc_shop_distance", "Distance to a food shop", "km"),
+            ("acc_school_distance", "Distance to a primary school", "km"),
+            (
+                "acc_bank_branches",
+                "Bank branches per 100k residents",
+                "per 100k",
+            ),
+            (
+                "acc_post_offices",
+                "Post offices per 100k residents",
+                "per 100k",
+            ),
+            ("acc_road_quality", "Road quality index", "index 0-100"),
+            ("acc_commute_time", "Mean commute time", "minutes"),
+            (
+                "acc_library_visits",
+                "Library visits per resident",
+                "per year",
+            ),
+            (
+                "acc_ev_chargers",
+                "Public chargers per 10k residents",
+                "per 10k",
+            ),
+            (
+                "acc_digital_services",
+                "Residents using online public services",
+                "percent",
+            ),
+        ],
+    },
+    Group {
+        key: "people",
+        label: "Population structure",
+        stems: [
+            ("ppl_over_75", "Residents aged 75 and over", "percent"),
+            ("ppl_under_5", "Residents aged under 5", "percent"),
+            ("ppl_single_person", "Single-person households", "percent"),
+            ("ppl_lone_parent", "Lone-parent households", "percent"),
+            (
+                "ppl_disability",
+                "Residents with a long-term disability",
+                "percent",
+            ),
+            ("ppl_migration_in", "Inward migration rate", "percent"),
+            ("ppl_household_size", "Mean household size", "persons"),
+            ("ppl_median_age", "Median age", "years"),
+            ("ppl_birth_rate", "Births per 1000 residents", "per 1000"),
+            ("ppl_students", "Residents in full-time study", "percent"),
+            ("ppl_carers", "Residents providing unpaid care", "percent"),
+            (
+                "ppl_language_support",
+                "Households needing language support",
+                "percent",
+            ),
+            ("ppl_population", "Resident population", "thousand"),
+            (
+                "ppl_growth",
+                "Population growth since the previous wave",
+                "percent",
+            ),
+            (
+                "ppl_volunteering",
+                "Residents volunteering monthly",
+                "percent",
+            ),
+        ],
+    },
+];
+
+/// Indicators that fall as their group's factor rises (the factors point towards
+/// hardship: poverty, old housing, cold, high prices, remoteness, ageing).
+const FALLING: &[&str] = &[
+    "inc_median_income",
+    "inc_wage_growth",
+    "inc_savings_rate",
+    "inc_self_employed",
+    "inc_top_decile_share",
+    "inc_job_vacancies",
+    "hou_renovation_rate",
+    "hou_efficiency_score",
+    "hou_heat_pump",
+    "cli_winter_mean_temp",
+    "cli_sunshine_hours",
+    "cli_summer_heat_days",
+    "cli_coastal_share",
+    "prc_supplier_count",
+    "prc_switching_rate",
+    "acc_bus_frequency",
+    "acc_broadband",
+    "acc_advice_centres",
+    "acc_pop_density",
+    "acc_bank_branches",
+    "acc_post_offices",
+    "acc_road_quality",
+    "acc_library_visits",
+    "acc_ev_chargers",
+    "acc_digital_services",
+    "acc_car_ownership",
+    "ppl_under_5",
+    "ppl_birth_rate",
+    "ppl_students",
+    "ppl_growth",
+    "ppl_household_size",
+    "ppl_migration_in",
+];
+
+fn direction(key: &str) -> f64 {
+    if FALLING.contains(&key) {
+        -1.0
+    } else {
+        1.0
+    }
+}
+
+/// The planted threshold: hardship jumps when heating degree days exceed it.
+const THRESHOLD_INDICATOR: &str = "cli_heating_degree_days";
+const THRESHOLD_MAIN: f64 = 2600.0;
+/// The subgroup (upland districts with district heating) whose threshold is higher.
+const THRESHOLD_SUBGROUP: f64 = 3100.0;
+const THRESHOLD_JUMP: f64 = 9.0;
+
+/// The generated files, as text.
+pub struct ToyPanel {
+    pub panel_csv: String,
+    pub codebook_csv: String,
+    pub truth_json: String,
+}
+
+fn district_names(rng: &mut Rng) -> Vec<String> {
+    const HEAD: [&str; 16] = [
+        "Ash", "Brack", "Cor", "Dun", "Elm", "Fen", "Gal", "Hol", "Ir", "Kel", "Lor", "Mar", "Nor",
+        "Oak", "Pel", "Quen",
+    ];
+    const TAIL: [&str; 8] = ["by", "mere", "ford", "wick", "ton", "holt", "dale", "stead"];
+    let mut names: Vec<String> = Vec::new();
+    while names.len() < N_DISTRICTS {
+        let n = format!(
+            "{}{}",
+            HEAD[rng.below(HEAD.len())],
+            TAIL[rng.below(TAIL.len())]
+        );
+        if !names.contains(&n) {
+            names.push(n);
+        }
+    }
+    names
+}
+
+fn clamp(x: f64, lo: f64, hi: f64) -> f64 {
+    x.max(lo).min(hi)
+}
+
+/// Value of one indicator from the factors: each group is driven by one or two factors, each
+/// indicator with its own loading, offset, scale and noise, so group-mates are collinear.
+fn indicator_value(
+    group: usize,
+    j: usize,
+    f: &Factors,
+    noise: f64,
+    params: &[f64; 4],
+    dir: f64,
+) -> f64 {
+    let [load, mix, centre, spread] = *params;
+    let base = match group {
+        0 => -f.prosperity * load + mix * f.remote,
+        1 => f.housing_age * load + mix * (-f.prosperity),
+        2 => f.cold * load + mix * f.remote,
+        3 => f.price * load + mix * f.remote,
+        4 => f.remote * load + mix * (-f.prosperity),
+        _ => f.ageing * load + mix * f.remote,
+    };
+    let _ = j;
+    let z = dir * base + noise;
+    centre + spread * z
+}
+
+/// Generate the demo panel from `seed`.
+pub fn generate(seed: u64) -> ToyPanel {
+    let mut rng = Rng::new(seed);
+    let names = district_names(&mut rng);
+
+    // Latent factors per district, correlated: poorer districts have older housing and are
+    // more remote; cold districts tend to be remote.
+    let mut base: Vec<Factors> = Vec::with_capacity(N_DISTRICTS);
+    for _ in 0..N_DISTRICTS {
+        let prosperity = rng.normal();
+        let remote = 0.4 * (-prosperity) + 0.9 * rng.normal();
+        let housing_age = 0.5 * (-prosperity) + 0.85 * rng.normal();
+        let cold = 0.5 * remote + 0.85 * rng.normal();
+        let price = 0.3 * remote + 0.95 * rng.normal();
+        let ageing = 0.3 * remote + 0.95 * rng.normal();
+        base.push(Factors {
+            prosperity,
+            housing_age,
+            cold,
+            price,
+            remote,
+            ageing,
+        });
+    }
+
+    // Subgroup: upland districts with district heating networks. Their threshold is higher.
+    let mut subgroup: Vec<usize> = (0..N_DISTRICTS).filter(|&i| base[i].cold > 0.3).collect();
+    subgroup.retain(|_| rng.uniform() < 0.5);
+    // Very high-outcome districts: a separate cause not captured by the indicators.
+    let mut extreme: Vec<usize> = Vec::new();
+    while extreme.len() < 4 {
+        let i = rng.below(N_DISTRICTS);
+        if !extreme.contains(&i) {
+            extreme.push(i);
+        }
+    }
+    extreme.sort_unstable();
+
+    // Which waves each district has: most both, some only one.
+    let mut waves_of: Vec<Vec<usize>> = Vec::with_capacity(N_DISTRICTS);
+    for _ in 0..N_DISTRICTS {
+        let u = rng.uniform();
+        waves_of.push(if u < 0.08 {
+            vec![0]
+        } else if u < 0.16 {
+            vec![1]
+        } else {
+            vec![0, 1]
+        });
+    }
+
+    // Indicator parameters.
+    let mut params: Vec<Vec<[f64; 4]>> = Vec::new();
+    for g in GROUPS.iter() {
+        let mut gp = Vec::new();
+        for (j, (key, _, unit)) in g.stems.iter().enumerate() {
+            let load = 0.6 + 0.4 * rng.uniform();
+            let mix = 0.3 * (rng.uniform() - 0.5);
+            let (centre, spread) = match (*key, *unit) {
+                ("inc_median_income", _) => (32.0, 6.0),
+                ("cli_heating_degree_days", _) => (2500.0, 420.0),
+                ("prc_tariff_index", _) => (100.0, 12.0),
+                (_, "percent") => (15.0 + 30.0 * rng.uniform(), 3.0 + 4.0 * rng.uniform()),
+                _ => (20.0 + 80.0 * rng.uniform(), 4.0 + 10.0 * rng.uniform()),
+            };
+            let _ = j;
+            gp.push([load, mix, centre, spread]);
+        }
+        params.push(gp);
+    }
+    // The driver indicators load strongly on their factor.
+    params[0][0][0] = 0.95; // inc_median_income
+    params[0][1][0] = 0.9; // inc_low_income_share
+    params[1][0][0] = 0.95; // hou_pre1950_share
+    params[2][0][0] = 0.97; // cli_heating_degree_days
+    params[3][0][0] = 0.95; // prc_tariff_index
+
+    let n_ind: usize = GROUPS.iter().map(|g| g.stems.len()).sum();
+    let mut header = String::from("district,region,wave");
+    header.push_str(",hardship_pct");
+    for g in GROUPS.iter() {
+        for (key, _, _) in g.stems.iter() {
+            header.push(',');
+            header.push_str(key);
+        }
+    }
+    header.push('\n');
+    let mut csv = header;
+    let regions = ["North Vale", "East Shore", "South Plain", "West Ridge"];
+
+    for (i, name) in names.iter().enumerate() {
+        let region = regions[rng.below(regions.len())];
+        for &w in &waves_of[i] {
+            // Second wave: factors drift a little.
+            let mut f = base[i];
+            if w == 1 {
+                f.prosperity += 0.15 + 0.25 * rng.normal();
+                f.price += 0.6 + 0.2 * rng.normal();
+                f.housing_age -= 0.1;
+            }
+            let mut values = Vec::with_capacity(n_ind);
+            for (gi, g) in GROUPS.iter().enumerate() {
+                for j in 0..g.stems.len() {
+                    let noise = 0.35 * rng.normal();
+                    values.push(indicator_value(
+                        gi,
+                        j,
+                        &f,
+                        noise,
+                        &params[gi][j],
+                        direction(g.stems[j].0),
+                    ));
+                }
+            }
+            let ix = |key: &str| -> usize {
+                let mut k = 0;
+                for g in GROUPS.iter() {
+                    for (s, _, _) in g.stems.iter() {
+                        if *s == key {
+                            return k;
+                        }
+                        k += 1;
+                    }
+                }
+                unreachable!("driver indicator {key} is in the stem list")
+            };
+            let income = values[ix("inc_median_income")];
+            let low_income = values[ix("inc_low_income_share")];
+            let pre1950 = values[ix("hou_pre1950_share")];
+            let hdd = values[ix("cli_heating_degree_days")];
+            let tariff = values[ix("prc_tariff_index")];
+
+            // True outcome (percent of households in energy hardship).
+            let threshold = if subgroup.contains(&i) {
+                THRESHOLD_SUBGROUP
+            } else {
+                THRESHOLD_MAIN
+            };
+            let mut y = 12.0;
+            y += -0.8 * (income - 32.0);
+            y += 0.18 * (pre1950 - params[1][0][2]);
+            y += if hdd > threshold { THRESHOLD_JUMP } else { 0.0 };
+            // Interaction: prices hurt more where low-income households are many.
+            y += 0.012 * (tariff - 100.0) * (low_income - params[0][1][2]);
+            y += 0.12 * (tariff - 100.0);
+            if extreme.contains(&i) {
+                y += 8.0;
+            }
+            y += 1.2 * rng.normal();
+            let y = clamp(y, 0.5, 95.0);
+
+            // Missing cells: more often in poorer districts; never the outcome.
+            let p_miss = 0.04 + 0.08 / (1.0 + (2.0 * f.prosperity).exp());
+            let mut line = format!("{name},{region},{}", WAVES[w]);
+            let _ = write!(line, ",{y:.2}");
+            for (k, v) in values.iter().enumerate() {
+                let driver = k == ix("cli_heating_degree_days") || k == ix("inc_median_income");
+                let p = if driver { p_miss * 0.5 } else { p_miss };
+                if rng.uniform() < p {
+                    line.push(',');
+                } else {
+                    let v = if *v < 0.0 { 0.0 } else { *v };
+                    let _ = write!(line, ",{v:.3}");
+                }
+            }
+            line.push('\n');
+            csv.push_str(&line);
+        }
+    }
+
+    let mut codebook = String::from("indicator,group,label,unit\n");
+    for g in GROUPS.iter() {
+        for (key, label, unit) in g.stems.iter() {
+            let _ = writeln!(codebook, "{key},{},\"{label}\",\"{unit}\"", g.key);
+        }
+    }
+
+    let truth = serde_json::json!({
+        "invented": true,
+        "description": "Known truth of forkmap's invented demo panel. The outcome hardship_pct is generated from the indicator values below plus noise; every name and number is made up.",
+        "seed": seed,
+        "units": N_DISTRICTS,
+        "waves": WAVES,
+        "outcome": "hardship_pct",
+        "driver_indicators": [
+            "inc_median_income", "hou_pre1950_share", "cli_heating_degree_days",
+            "prc_tariff_index", "inc_low_income_share"
+        ],
+        "driver_groups": ["income", "housing", "climate", "prices"],
+        "non_driver_groups": ["access", "people"],
+        "group_labels": GROUPS.iter().map(|g| (g.key, g.label)).collect::<std::collections::BTreeMap<_,_>>(),
+        "formula": format!("12 - 0.8*(inc_median_income-32) + 0.18*(hou_pre1950_share-{:.3}) + 9*[cli_heating_degree_days > t] + 0.012*(prc_tariff_index-100)*(inc_low_income_share-{:.3}) + 0.12*(prc_tariff_index-100) + 8*[high-outcome unit] + N(0, 1.2^2), clamped to [0.5, 95]; t = threshold.value, or subgroup.threshold_value for subgroup units; computed from indicator values before cells were blanked", params[1][0][2], params[0][1][2]),
+        "threshold": {
+            "indicator": THRESHOLD_INDICATOR,
+            "value": THRESHOLD_MAIN,
+            "jump": THRESHOLD_JUMP
+        },
+        "interaction": ["prc_tariff_index", "inc_low_income_share"],
+        "subgroup": {
+            "description": "upland districts with district heating: the same jump at a higher threshold",
+            "threshold_value": THRESHOLD_SUBGROUP,
+            "units": subgroup.iter().map(|&i| names[i].clone()).collect::<Vec<_>>()
+        },
+        "high_outcome_units": extreme.iter().map(|&i| names[i].clone()).collect::<Vec<_>>(),
+        "missingness": "cells blank with probability 0.04 + 0.08/(1+exp(2*prosperity)): more often in poorer districts; half as often for the two strongest drivers"
+    });
+    let truth_json = serde_json::to_string_pretty(&truth).unwrap_or_default() + "\n";
+    ToyPanel {
+        panel_csv: csv,
+        codebook_csv: codebook,
+        truth_json,
+    }
+}
