@@ -129,6 +129,16 @@ pub struct FoldsSection {
     pub repeats: usize,
 }
 
+impl FoldScheme {
+    /// The config spelling.
+    pub fn name(self) -> &'static str {
+        match self {
+            FoldScheme::GroupedKfold => "grouped-kfold",
+            FoldScheme::LeaveOneUnitOut => "leave-one-unit-out",
+        }
+    }
+}
+
 fn default_scheme() -> FoldScheme {
     FoldScheme::GroupedKfold
 }
@@ -261,16 +271,37 @@ impl Config {
 
     /// A path from the config, resolved against the config's folder.
     pub fn resolve(&self, p: &Path) -> PathBuf {
-        if p.is_absolute() {
+        let joined = if p.is_absolute() {
             p.to_path_buf()
         } else {
             self.base_dir.join(p)
-        }
+        };
+        normalise(&joined)
     }
 
     /// Canonical JSON form (stored in the manifest).
     pub fn canonical_json(&self) -> serde_json::Value {
         serde_json::to_value(self).unwrap_or(serde_json::Value::Null)
+    }
+}
+
+/// Remove `.` and `name/..` pairs without touching the file system.
+fn normalise(p: &Path) -> PathBuf {
+    use std::path::Component;
+    let mut out: Vec<Component> = Vec::new();
+    for c in p.components() {
+        match c {
+            Component::CurDir => {}
+            Component::ParentDir if matches!(out.last(), Some(Component::Normal(_))) => {
+                out.pop();
+            }
+            other => out.push(other),
+        }
+    }
+    if out.is_empty() {
+        PathBuf::from(".")
+    } else {
+        out.iter().collect()
     }
 }
 
@@ -308,6 +339,11 @@ mod tests {
         assert_eq!(c.folds.k, 5);
         assert_eq!(c.data.indicators, IndicatorSelection::Default);
         assert_eq!(c.resolve(Path::new("p.csv")), PathBuf::from("/cfg/p.csv"));
+        assert_eq!(
+            c.resolve(Path::new("../d/./p.csv")),
+            PathBuf::from("/d/p.csv")
+        );
+        assert_eq!(normalise(Path::new("../../a")), PathBuf::from("../../a"));
     }
 
     #[test]

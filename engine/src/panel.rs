@@ -464,14 +464,16 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
                     ),
                 ))
             }
-            None => return Err(data_err(
-                path,
-                format!(
+            None => {
+                return Err(data_err(
+                    path,
+                    format!(
                     "{}, outcome `{}` is missing: remove rows without an outcome before the sweep",
                     t.where_row(i),
                     d.outcome
                 ),
-            )),
+                ))
+            }
         }
     }
 

@@ -89,8 +89,8 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
     let _ = writeln!(t, "\nspecs   {specs}");
     let _ = writeln!(
         t,
-        "folds   {:?}: k = {}, repeats = {} -> {} fits per spec, {fits} model fits in all",
-        p.cfg.folds.scheme,
+        "folds   {}: k = {}, repeats = {} -> {} fits per spec, {fits} model fits in all",
+        p.cfg.folds.scheme.name(),
         p.folds.k,
         p.folds.repeats,
         p.folds.n_fits_per_spec()

@@ -28,8 +28,10 @@ use std::time::Instant;
 /// Receives the row ids every fitted step is given (for leak-freedom tests and audits).
 pub trait Audit: Send + Sync {
     /// `step` names the fitted thing (`fill`, `pool`, `scale`, `compress`, `weights`,
-    /// `baseline`, `model`); `fold` indexes [`FoldPlan::folds`].
-    fn fitted(&self, step: &str, fold: usize, rows: &[usize]);
+    /// `baseline`, `model`); `fold` indexes [`FoldPlan::folds`]; `rows` are the panel row
+    /// ids the step was given and `data_rows` the number of data rows it was handed (the
+    /// two must agree, or the step saw rows it was not told about).
+    fn fitted(&self, step: &str, fold: usize, rows: &[usize], data_rows: usize);
 }
 
 /// One out-of-fold prediction.
@@ -210,9 +212,9 @@ impl<'a> Sweep<'a> {
         self
     }
 
-    fn audit(&self, step: &str, fold: usize) {
+    fn audit(&self, step: &str, fold: usize, data_rows: usize) {
         if let Some(a) = &self.audit {
-            a.fitted(step, fold, &self.folds.folds[fold].train);
+            a.fitted(step, fold, &self.folds.folds[fold].train, data_rows);
         }
     }
 
@@ -229,7 +231,12 @@ impl<'a> Sweep<'a> {
     pub fn run(&self, emit: &(dyn Fn(SpecResult) + Sync)) {
         if let Some(a) = &self.audit {
             for fi in 0..self.folds.folds.len() {
-                a.fitted("baseline", fi, &self.folds.folds[fi].train);
+                a.fitted(
+                    "baseline",
+                    fi,
+                    &self.folds.folds[fi].train,
+                    self.ctx[fi].y_train.len(),
+                );
             }
         }
         let base: Vec<FoldState> = self
@@ -254,7 +261,6 @@ impl<'a> Sweep<'a> {
             .par_iter()
             .enumerate()
             .map(|(fi, p)| {
-                self.audit(step, fi);
                 let fold = &self.folds.folds[fi];
                 let input = StageInput {
                     x: p.train.view(),
@@ -262,6 +268,7 @@ impl<'a> Sweep<'a> {
                     rows: &fold.train,
                     names: &p.names,
                 };
+                self.audit(step, fi, input.x.nrows().max(input.y.len()));
                 let fitted = guarded(|| node.stage.fit(&input)).map_err(|e| (fi, e))?;
                 let (train, test) =
                     guarded(|| Ok((fitted.apply(p.train.view()), fitted.apply(p.test.view()))))
@@ -316,7 +323,6 @@ impl<'a> Sweep<'a> {
     ) -> std::result::Result<Box<dyn Predictor>, FitError> {
         let spec: &Spec = &self.space.specs[si];
         let ctx = &self.ctx[fi];
-        self.audit("weights", fi);
         let w = crate::weights::weights(
             &spec.choice("weighting").option,
             &crate::weights::WeightInput {
@@ -325,7 +331,7 @@ impl<'a> Sweep<'a> {
             },
         )
         .map_err(FitError::Invalid)?;
-        self.audit("model", fi);
+        self.audit("weights", fi, w.len());
         let seed = mix(mix(self.seed, spec.stream()), fi as u64);
         let input = FitInput {
             x: st.train.view(),
@@ -333,6 +339,11 @@ impl<'a> Sweep<'a> {
             w: w.view(),
             seed,
         };
+        self.audit(
+            "model",
+            fi,
+            input.x.nrows().max(input.y.len()).max(input.w.len()),
+        );
         guarded(|| self.models[si].fit(&input))
     }
 
@@ -405,13 +416,13 @@ impl<'a> Sweep<'a> {
         };
         for dim in STAGE_DIMENSIONS {
             let stage = crate::stages::build(spec.choice(dim)).map_err(FitError::Invalid)?;
-            self.audit(dim, fi);
             let input = StageInput {
                 x: st.train.view(),
                 y: self.ctx[fi].y_train.view(),
                 rows: &fold.train,
                 names: &st.names,
             };
+            self.audit(dim, fi, input.x.nrows().max(input.y.len()));
             let f = guarded(|| stage.fit(&input))?;
             st.train = f.apply(st.train.view());
             st.test = f.apply(st.test.view());

@@ -588,7 +588,7 @@ pub fn generate(seed: u64) -> ToyPanel {
             }
             let mut values = Vec::with_capacity(n_ind);
             for (gi, g) in GROUPS.iter().enumerate() {
-                for j in 0..g.stems.len() {
+                for (j, stem) in g.stems.iter().enumerate() {
                     let noise = 0.35 * rng.normal();
                     values.push(indicator_value(
                         gi,
@@ -596,7 +596,7 @@ pub fn generate(seed: u64) -> ToyPanel {
                         &f,
                         noise,
                         &params[gi][j],
-                        direction(g.stems[j].0),
+                        direction(stem.0),
                     ));
                 }
             }

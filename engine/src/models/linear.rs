@@ -69,14 +69,18 @@ impl Predictor for Linear {
     }
 }
 
-/// Weighted means, centred X and y.
-fn centre(
-    x: ArrayView2<f64>,
-    y: ArrayView1<f64>,
-    w: ArrayView1<f64>,
-) -> Result<(Array1<f64>, f64, Array2<f64>, Array1<f64>), FitError> {
+/// Weighted column means of X, weighted mean of y, and the centred X and y.
+struct Centred {
+    xm: Array1<f64>,
+    ym: f64,
+    xc: Array2<f64>,
+    yc: Array1<f64>,
+}
+
+fn centre(x: ArrayView2<f64>, y: ArrayView1<f64>, w: ArrayView1<f64>) -> Result<Centred, FitError> {
     let sw = w.sum();
-    if !(sw > 0.0) || w.iter().any(|v| !(*v >= 0.0) || !v.is_finite()) {
+    let valid = |v: f64| v.is_finite() && v >= 0.0;
+    if !(valid(sw) && sw > 0.0 && w.iter().all(|v| valid(*v))) {
         return Err(FitError::Invalid(
             "row weights must be finite, non-negative, not all 0".into(),
         ));
@@ -85,7 +89,7 @@ fn centre(
     let ym = y.dot(&w) / sw;
     let xc = &x - &xm;
     let yc = &y - ym;
-    Ok((xm, ym, xc, yc))
+    Ok(Centred { xm, ym, xc, yc })
 }
 
 impl Ols {
@@ -101,7 +105,7 @@ impl Ols {
                 "OLS with {p} columns needs more than {p} training rows, has {n}"
             )));
         }
-        let (xm, ym, mut xc, yc) = centre(x, y, w)?;
+        let Centred { xm, ym, mut xc, yc } = centre(x, y, w)?;
         let sq: Array1<f64> = w.mapv(f64::sqrt);
         for (mut row, s) in xc.axis_iter_mut(Axis(0)).zip(sq.iter()) {
             row *= *s;
@@ -141,7 +145,7 @@ impl Ridge {
         y: ArrayView1<f64>,
         w: ArrayView1<f64>,
     ) -> Result<Linear, FitError> {
-        let (xm, ym, xc, yc) = centre(x, y, w)?;
+        let Centred { xm, ym, xc, yc } = centre(x, y, w)?;
         let xw = &xc * &w.insert_axis(Axis(1));
         let mut a = xw.t().dot(&xc);
         for j in 0..a.nrows() {
@@ -171,7 +175,7 @@ mod tests {
     #[test]
     fn ols_recovers_exact_line_and_flags_collinearity() {
         let x = array![[1.0, 0.0], [2.0, 1.0], [3.0, 0.0], [4.0, 1.0], [5.0, 3.0]];
-        let y = x.column(0).mapv(|v| 2.0 * v) + x.column(1).mapv(|v| -1.0 * v) + 0.5;
+        let y = x.column(0).mapv(|v| 2.0 * v) + x.column(1).mapv(|v| -v) + 0.5;
         let w = Array1::ones(5);
         let m = Ols.fit_linear(x.view(), y.view(), w.view()).unwrap();
         assert!((m.intercept - 0.5).abs() < 1e-12 && (m.coef[0] - 2.0).abs() < 1e-12);

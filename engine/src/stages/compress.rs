@@ -109,14 +109,13 @@ impl Pca {
                 .map_err(|e| FitError::NoConvergence(format!("eigendecomposition: {e}")))
         };
         let mut components = Array2::zeros((self.k, p));
-        let all_vals: Array1<f64>;
-        if n >= p {
+        let all_vals: Array1<f64> = if n >= p {
             let cov = xc.t().dot(&xc);
             let (vals, vecs) = eig(cov)?;
             for c in 0..self.k {
                 components.row_mut(c).assign(&vecs.column(c));
             }
-            all_vals = vals;
+            vals
         } else {
             let gram = xc.dot(&xc.t());
             let (vals, vecs) = eig(gram)?;
@@ -131,8 +130,8 @@ impl Pca {
                 let v = xc.t().dot(&vecs.column(c)) / s2.sqrt();
                 components.row_mut(c).assign(&v);
             }
-            all_vals = vals;
-        }
+            vals
+        };
         for mut row in components.axis_iter_mut(Axis(0)) {
             let mut best = 0.0f64;
             for &v in row.iter() {
@@ -189,18 +188,23 @@ mod tests {
 
     #[test]
     fn pca_on_hand_checked_data() {
-        // Points on the line y = x plus a small orthogonal wobble: the first component is
-        // (1, 1)/sqrt(2) (worked by hand); the wide (n < p) path agrees with the tall one.
-        let x = array![[1.0, 1.1], [2.0, 1.9], [3.0, 3.1], [4.0, 3.9]];
+        // x = (1,2,3,4), y = (2,1,4,3): centred cross-products [[5,3],[3,5]], whose
+        // eigenvectors are (1,1)/sqrt(2) (eigenvalue 8) and (1,-1)/sqrt(2) (eigenvalue 2),
+        // worked by hand; explained variance 8/(n-1) = 8/3, ratio 0.8.
+        let x = array![[1.0, 2.0], [2.0, 1.0], [3.0, 4.0], [4.0, 3.0]];
         let names = vec!["a".to_string(), "b".to_string()];
         let f = Pca { k: 1 }.fit_pca(x.view(), &names).unwrap();
         let c = f.components.row(0);
         let h = std::f64::consts::FRAC_1_SQRT_2;
-        assert!((c[0] - h).abs() < 0.01 && (c[1] - h).abs() < 0.01, "{c}");
+        assert!((c[0] - h).abs() < 1e-12 && (c[1] - h).abs() < 1e-12, "{c}");
+        assert!((f.explained_variance[0] - 8.0 / 3.0).abs() < 1e-12);
+        assert!((f.explained_variance_ratio[0] - 0.8).abs() < 1e-12);
+        // The wide path (fewer rows than columns) gives unit-length loadings.
         let wide = x.t().to_owned();
         let names4: Vec<String> = (0..4).map(|i| format!("c{i}")).collect();
         let tall = Pca { k: 1 }.fit_pca(wide.view(), &names4).unwrap();
         assert_eq!(tall.components.ncols(), 4);
+        assert!((tall.components.row(0).dot(&tall.components.row(0)) - 1.0).abs() < 1e-12);
         assert!(Pca { k: 3 }.fit_pca(x.view(), &names).is_err());
     }
 }

@@ -1,0 +1,89 @@
+//! Results are a pure function of config + data + seed, whatever the thread count.
+
+use crate::common::toy;
+use forkmap::sweep::Sweep;
+use std::sync::Mutex;
+
+fn fingerprint(threads: usize) -> Vec<(String, Vec<u64>)> {
+    let p = toy();
+    let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
+    let out = Mutex::new(Vec::new());
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .unwrap();
+    pool.install(|| {
+        sweep.run(&|r| {
+            let bits = r.predictions.iter().map(|q| q.value.to_bits()).collect();
+            out.lock()
+                .unwrap()
+                .push((p.space.specs[r.spec].id.clone(), bits));
+        })
+    });
+    let mut v = out.into_inner().unwrap();
+    v.sort();
+    v
+}
+
+#[test]
+fn one_and_two_threads_give_identical_bits() {
+    let a = fingerprint(1);
+    let b = fingerprint(2);
+    assert_eq!(a.len(), toy().space.specs.len());
+    assert!(a == b, "threads 1 and 2 differ");
+}
+
+#[test]
+fn spec_ids_are_stable_under_reordering() {
+    let p = toy();
+    let text =
+        std::fs::read_to_string(crate::common::root().join("configs/toy-quick.toml")).unwrap();
+    let reordered = text
+        .replace(
+            "fill = [\"mean\", \"median\"]",
+            "fill = [\"median\", \"mean\"]",
+        )
+        .replace(
+            "model = [\"ols\", \"ridge\", \"tree\", \"forest\"]",
+            "model = [\"forest\", \"tree\", \"ridge\", \"ols\"]",
+        )
+        .replace("alpha = [0.1, 1.0, 10.0]", "alpha = [10, 1, 0.1]");
+    assert_ne!(text, reordered);
+    let cfg =
+        forkmap::config::Config::from_toml(&reordered, &crate::common::root().join("configs"), "t")
+            .unwrap();
+    let q = forkmap::run::prepare_config(cfg).unwrap();
+    let mut a: Vec<&str> = p.space.specs.iter().map(|s| s.id.as_str()).collect();
+    let mut b: Vec<&str> = q.space.specs.iter().map(|s| s.id.as_str()).collect();
+    a.sort();
+    b.sort();
+    assert_eq!(a, b);
+    let s = forkmap::space::Spec::from_choices(p.space.specs[0].choices.clone());
+    assert_eq!(s.id, p.space.specs[0].id);
+}
+
+/// The id is the first 16 hex digits of sha256 of the canonical form. The expected value
+/// was computed outside the project with Python's hashlib:
+/// sha256(b"fill=mean;pool=core[0123abcd];scale=standardise;compress=pca(k=3);model=ridge(alpha=0.1);weighting=rows")
+#[test]
+fn spec_id_is_sha256_of_canonical_form() {
+    use forkmap::space::{Choice, Spec};
+    let c = |dim: &'static str, option: &str, params: Vec<(&'static str, f64)>| Choice {
+        dim,
+        option: option.into(),
+        params,
+        members: None,
+        digest: None,
+    };
+    let mut pool = c("pool", "core", vec![]);
+    pool.digest = Some("0123abcd".into());
+    let spec = Spec::from_choices(vec![
+        c("fill", "mean", vec![]),
+        pool,
+        c("scale", "standardise", vec![]),
+        c("compress", "pca", vec![("k", 3.0)]),
+        c("model", "ridge", vec![("alpha", 0.1)]),
+        c("weighting", "rows", vec![]),
+    ]);
+    assert_eq!(spec.id, "d8e20b69e46fe893");
+}

@@ -1,0 +1,11 @@
+//! forkmap's integration tests (one binary, so arrow/parquet link once).
+//! Reference values come from `tests/reference/` (see make_reference.py) or from
+//! `FORKMAP_REFERENCE_DIR` when the test command has regenerated them.
+
+mod bad_input;
+mod common;
+mod determinism;
+mod end_to_end;
+mod folds_prop;
+mod leak;
+mod reference;

@@ -1,0 +1,69 @@
+"""Read a forkmap run directory with DuckDB and pyarrow, as a meta-analyst would, and check
+the output contract. Usage: python tests/python/check_run.py RUN_DIR CONFIG_SPECS
+
+Prints one line per check and a closing 'N passed, N failed' line; exits non-zero on any
+failure.
+"""
+
+import json
+import os
+import sys
+
+import duckdb
+import pyarrow.dataset as ds
+
+run = sys.argv[1]
+passed, failed = 0, 0
+
+
+def check(name, cond, detail=""):
+    global passed, failed
+    if cond:
+        passed += 1
+        print(f"ok    {name}")
+    else:
+        failed += 1
+        print(f"FAIL  {name} {detail}")
+
+
+manifest = json.load(open(os.path.join(run, "manifest.json")))
+n_specs = manifest["specs"]
+rows = manifest["rows"] * manifest["folds"]["repeats"]
+
+specs_glob = os.path.join(run, "specs", "*.parquet")
+preds_glob = os.path.join(run, "predictions", "*.parquet")
+
+# DuckDB
+con = duckdb.connect()
+n = con.execute(f"select count(*) from '{specs_glob}'").fetchone()[0]
+check("duckdb: one spec row per spec", n == n_specs, f"{n} vs {n_specs}")
+u = con.execute(f"select count(distinct spec_id) from '{specs_glob}'").fetchone()[0]
+check("duckdb: spec ids unique", u == n_specs)
+bad = con.execute(f"select count(*) from '{specs_glob}' where status <> 'ok'").fetchone()[0]
+check("duckdb: all statuses ok", bad == 0, f"{bad} not ok")
+best = con.execute(f"select max(skill) from '{specs_glob}'").fetchone()[0]
+check("duckdb: best skill > 0", best is not None and best > 0, f"best {best}")
+np_ = con.execute(f"select count(*) from '{preds_glob}'").fetchone()[0]
+check("duckdb: predictions = specs x rows x repeats", np_ == n_specs * rows, f"{np_}")
+# MAE recomputed from the predictions table equals the specs table's MAE.
+diff = con.execute(
+    f"""select max(abs(s.mae - p.mae)) from '{specs_glob}' s join
+        (select spec_id, avg(abs(observed - predicted)) mae from '{preds_glob}' group by 1) p
+        using (spec_id)"""
+).fetchone()[0]
+check("duckdb: specs.mae = mean |observed - predicted|", diff is not None and diff < 1e-9, f"{diff}")
+top = con.execute(f"select model, max(skill) from '{specs_glob}' group by 1 order by 2 desc").fetchall()
+check("duckdb: group by model", len(top) >= 2)
+
+# pyarrow
+t = ds.dataset(os.path.join(run, "specs"), format="parquet").to_table()
+check("pyarrow: specs rows", t.num_rows == n_specs)
+for c in ["spec_id", "fill", "pool", "scale", "compress", "model", "weighting", "status", "mae", "rmse", "r2", "baseline_mae", "skill", "seconds"]:
+    check(f"pyarrow: specs column {c}", c in t.column_names)
+p = ds.dataset(os.path.join(run, "predictions"), format="parquet").to_table()
+check("pyarrow: predictions rows", p.num_rows == n_specs * rows)
+for c in ["spec_id", "unit", "wave", "observed", "predicted", "fold", "repeat"]:
+    check(f"pyarrow: predictions column {c}", c in p.column_names)
+
+print(f"{passed} passed, {failed} failed")
+sys.exit(1 if failed else 0)

@@ -1,0 +1,110 @@
+"""Write the reference values forkmap's Rust tests compare against.
+
+Every value here comes from a library outside the project (scikit-learn, statsmodels,
+numpy) or from data they ship; nothing is computed by forkmap. Run:
+
+    python tests/reference/make_reference.py [OUT_DIR]
+
+OUT_DIR defaults to this folder (the committed copies). The test command regenerates them
+into target/reference and the Rust tests read that folder (FORKMAP_REFERENCE_DIR), so CI
+checks against the libraries as installed, not only against committed numbers.
+"""
+
+import json
+import os
+import sys
+
+import numpy as np
+import sklearn
+import statsmodels
+import statsmodels.api as sm
+from sklearn.datasets import load_diabetes
+from sklearn.linear_model import Ridge
+from sklearn.metrics import mean_absolute_error, mean_squared_error, r2_score
+from sklearn.tree import DecisionTreeRegressor
+
+out = sys.argv[1] if len(sys.argv) > 1 else os.path.dirname(os.path.abspath(__file__))
+os.makedirs(out, exist_ok=True)
+versions = {
+    "numpy": np.__version__,
+    "scikit-learn": sklearn.__version__,
+    "statsmodels": statsmodels.__version__,
+}
+
+
+def dump(name, obj):
+    obj["_source_versions"] = versions
+    with open(os.path.join(out, name), "w") as f:
+        json.dump(obj, f, indent=1, sort_keys=True)
+        f.write("\n")
+
+
+# Metrics on fixed vectors. The first pair is the example of scikit-learn's documentation
+# of mean_absolute_error / mean_squared_error / r2_score; the second is a fixed seeded draw.
+rng = np.random.default_rng(7)
+cases = [([3.0, -0.5, 2.0, 7.0], [2.5, 0.0, 2.0, 8.0])]
+a = rng.normal(10, 3, 50)
+cases.append((a.tolist(), (a + rng.normal(0, 1.5, 50)).tolist()))
+metric_cases = []
+for t, p in cases:
+    metric_cases.append(
+        {
+            "observed": t,
+            "predicted": p,
+            "mae": mean_absolute_error(t, p),
+            "rmse": float(np.sqrt(mean_squared_error(t, p))),
+            "r2": r2_score(t, p),
+        }
+    )
+dump("metrics.json", {"cases": metric_cases})
+
+# Longley (NIST StRD); the data ship with statsmodels. statsmodels' OLS fit is stored as
+# a second, independent reference beside NIST's certified values (held in the Rust test).
+longley = sm.datasets.longley.load_pandas()
+exog = sm.add_constant(longley.exog, prepend=True)
+fit = sm.OLS(longley.endog, exog).fit()
+dump(
+    "longley.json",
+    {
+        "x": longley.exog.values.tolist(),
+        "x_columns": list(longley.exog.columns),
+        "y": longley.endog.values.tolist(),
+        "statsmodels_params": fit.params.values.tolist(),
+    },
+)
+
+# Diabetes (Efron et al. 2004), shipped with scikit-learn (scaled features).
+X, y = load_diabetes(return_X_y=True)
+weights = np.array([1.0 + (i % 3) for i in range(len(y))])  # integer weights 1, 2, 3
+ridge = []
+for alpha in [0.1, 1.0, 10.0]:
+    m = Ridge(alpha=alpha).fit(X, y)
+    mw = Ridge(alpha=alpha).fit(X, y, sample_weight=weights)
+    ridge.append(
+        {
+            "alpha": alpha,
+            "coef": m.coef_.tolist(),
+            "intercept": float(m.intercept_),
+            "weighted_coef": mw.coef_.tolist(),
+            "weighted_intercept": float(mw.intercept_),
+        }
+    )
+# Principal components of the diabetes features by numpy's SVD.
+Xc = X - X.mean(axis=0)
+s = np.linalg.svd(Xc, compute_uv=False)
+ev = s**2 / (len(y) - 1)
+# A depth-3 regression tree (min 5 rows per leaf); in-sample predictions.
+tree = DecisionTreeRegressor(max_depth=3, min_samples_leaf=5, random_state=0).fit(X, y)
+dump(
+    "diabetes.json",
+    {
+        "x": X.tolist(),
+        "y": y.tolist(),
+        "weights": weights.tolist(),
+        "ridge": ridge,
+        "pca_explained_variance": ev.tolist(),
+        "pca_explained_variance_ratio": (ev / ev.sum()).tolist(),
+        "tree_depth3_leaf5_predictions": tree.predict(X).tolist(),
+    },
+)
+print(f"reference values written to {out}")
