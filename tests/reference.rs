@@ -15,7 +15,7 @@ use ndarray::Array1;
 fn metrics_match_scikit_learn() {
     let r = reference("metrics.json");
     let cases = r["cases"].as_array().expect("cases");
-    assert!(cases.len() >= 2);
+    assert!(cases.len() >= 3);
     for c in cases {
         let (o, p) = (f64s(&c["observed"]), f64s(&c["predicted"]));
         close(
@@ -31,6 +31,27 @@ fn metrics_match_scikit_learn() {
             "rmse",
         );
         close(metrics::r2(&o, &p), c["r2"].as_f64().unwrap(), 1e-12, "r2");
+        // scipy.stats.spearmanr; numpy quantile (linear) for the top quartile; a per-unit
+        // mean of absolute errors computed with numpy.
+        close(
+            metrics::spearman(&o, &p),
+            c["spearman"].as_f64().unwrap(),
+            1e-12,
+            "spearman",
+        );
+        close(
+            metrics::top_quartile_mae(&o, &p),
+            c["top_quartile_mae"].as_f64().unwrap(),
+            1e-12,
+            "top quartile mae",
+        );
+        let units: Vec<usize> = f64s(&c["units"]).iter().map(|u| *u as usize).collect();
+        close(
+            metrics::unit_mae(&o, &p, &units),
+            c["unit_mae"].as_f64().unwrap(),
+            1e-12,
+            "unit mae",
+        );
     }
 }
 

@@ -67,6 +67,32 @@ pub struct DataSection {
     /// Cell texts read as missing.
     #[serde(default = "default_missing")]
     pub missing: Vec<String>,
+    /// What the outcome measures: `any` (default), `proportion` (in [0, 1]) or `percent`
+    /// (in [0, 100]); the logit transform needs one of the last two.
+    #[serde(default)]
+    pub outcome_kind: OutcomeKind,
+    /// Optional column with the standard error of each row's outcome (for `invvar`).
+    pub standard_error: Option<String>,
+}
+
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq, Eq, Default)]
+#[serde(rename_all = "lowercase")]
+pub enum OutcomeKind {
+    #[default]
+    Any,
+    Proportion,
+    Percent,
+}
+
+impl OutcomeKind {
+    /// Full scale of a bounded outcome.
+    pub fn scale(self) -> Option<f64> {
+        match self {
+            OutcomeKind::Any => None,
+            OutcomeKind::Proportion => Some(1.0),
+            OutcomeKind::Percent => Some(100.0),
+        }
+    }
 }
 
 pub fn default_missing() -> Vec<String> {
@@ -191,6 +217,8 @@ const DATA_KEYS: &[&str] = &[
     "ignore",
     "codebook",
     "missing",
+    "outcome_kind",
+    "standard_error",
 ];
 const FOLD_KEYS: &[&str] = &["scheme", "k", "repeats"];
 const OUTPUT_KEYS: &[&str] = &["batch_specs"];

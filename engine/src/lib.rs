@@ -18,6 +18,7 @@ pub mod sink;
 pub mod space;
 pub mod stages;
 pub mod sweep;
+pub mod transform;
 pub mod weights;
 
 pub use error::{Error, FitError, Result};

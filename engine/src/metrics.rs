@@ -1,5 +1,7 @@
 //! Error metrics on pooled out-of-fold predictions.
 
+use std::collections::HashMap;
+
 /// Mean absolute error.
 pub fn mae(obs: &[f64], pred: &[f64]) -> f64 {
     obs.iter()
@@ -32,6 +34,81 @@ pub fn r2(obs: &[f64], pred: &[f64]) -> f64 {
     }
 }
 
+/// Ranks 1..n with ties given their average rank.
+pub fn ranks(v: &[f64]) -> Vec<f64> {
+    let mut idx: Vec<usize> = (0..v.len()).collect();
+    idx.sort_by(|&a, &b| v[a].total_cmp(&v[b]));
+    let mut r = vec![0.0; v.len()];
+    let mut i = 0;
+    while i < idx.len() {
+        let mut j = i;
+        while j + 1 < idx.len() && v[idx[j + 1]] == v[idx[i]] {
+            j += 1;
+        }
+        let avg = (i + j) as f64 / 2.0 + 1.0;
+        for &k in &idx[i..=j] {
+            r[k] = avg;
+        }
+        i = j + 1;
+    }
+    r
+}
+
+/// Pearson correlation (NaN when either side is constant).
+pub fn pearson(a: &[f64], b: &[f64]) -> f64 {
+    let n = a.len() as f64;
+    let (ma, mb) = (a.iter().sum::<f64>() / n, b.iter().sum::<f64>() / n);
+    let (mut sab, mut saa, mut sbb) = (0.0, 0.0, 0.0);
+    for (x, y) in a.iter().zip(b) {
+        sab += (x - ma) * (y - mb);
+        saa += (x - ma) * (x - ma);
+        sbb += (y - mb) * (y - mb);
+    }
+    if saa == 0.0 || sbb == 0.0 {
+        f64::NAN
+    } else {
+        sab / (saa * sbb).sqrt()
+    }
+}
+
+/// Spearman rank correlation: Pearson correlation of average ranks (as scipy's
+/// `spearmanr`).
+pub fn spearman(a: &[f64], b: &[f64]) -> f64 {
+    pearson(&ranks(a), &ranks(b))
+}
+
+/// MAE over the rows whose observed outcome is at or above the 75th percentile of the
+/// observed outcomes (numpy's linear quantile): the high-outcome units that upweighting
+/// is meant to help.
+pub fn top_quartile_mae(obs: &[f64], pred: &[f64]) -> f64 {
+    let cut = crate::weights::quantile(obs, 0.75);
+    let (mut s, mut n) = (0.0, 0usize);
+    for (o, p) in obs.iter().zip(pred) {
+        if *o >= cut {
+            s += (o - p).abs();
+            n += 1;
+        }
+    }
+    s / n as f64
+}
+
+/// MAE with every unit counting once: the mean over units of each unit's mean absolute
+/// error.
+pub fn unit_mae(obs: &[f64], pred: &[f64], unit: &[usize]) -> f64 {
+    let mut acc: HashMap<usize, (f64, usize)> = HashMap::new();
+    for ((o, p), u) in obs.iter().zip(pred).zip(unit) {
+        let e = acc.entry(*u).or_default();
+        e.0 += (o - p).abs();
+        e.1 += 1;
+    }
+    let mut per: Vec<(usize, f64)> = acc
+        .into_iter()
+        .map(|(u, (s, n))| (u, s / n as f64))
+        .collect();
+    per.sort_by_key(|(u, _)| *u);
+    per.iter().map(|(_, m)| m).sum::<f64>() / per.len() as f64
+}
+
 /// The metrics of one spec.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Scores {
@@ -41,10 +118,13 @@ pub struct Scores {
     pub baseline_mae: f64,
     /// 1 - mae / baseline_mae.
     pub skill: f64,
+    pub top_quartile_mae: f64,
+    pub unit_mae: f64,
+    pub spearman: f64,
 }
 
 impl Scores {
-    pub fn compute(obs: &[f64], pred: &[f64], baseline: &[f64]) -> Scores {
+    pub fn compute(obs: &[f64], pred: &[f64], baseline: &[f64], unit: &[usize]) -> Scores {
         let m = mae(obs, pred);
         let b = mae(obs, baseline);
         Scores {
@@ -53,6 +133,55 @@ impl Scores {
             r2: r2(obs, pred),
             baseline_mae: b,
             skill: 1.0 - m / b,
+            top_quartile_mae: top_quartile_mae(obs, pred),
+            unit_mae: unit_mae(obs, pred, unit),
+            spearman: spearman(obs, pred),
         }
+    }
+
+    /// (column name, value) of every metric, in output order.
+    pub fn columns(&self) -> [(&'static str, f64); 8] {
+        [
+            ("mae", self.mae),
+            ("rmse", self.rmse),
+            ("r2", self.r2),
+            ("baseline_mae", self.baseline_mae),
+            ("skill", self.skill),
+            ("top_quartile_mae", self.top_quartile_mae),
+            ("unit_mae", self.unit_mae),
+            ("spearman", self.spearman),
+        ]
+    }
+}
+
+/// Metric column names, in output order.
+pub const METRIC_COLUMNS: [&str; 8] = [
+    "mae",
+    "rmse",
+    "r2",
+    "baseline_mae",
+    "skill",
+    "top_quartile_mae",
+    "unit_mae",
+    "spearman",
+];
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn ranks_average_ties() {
+        // Worked by hand: [10, 20, 20, 5] -> ranks [2, 3.5, 3.5, 1].
+        assert_eq!(ranks(&[10.0, 20.0, 20.0, 5.0]), vec![2.0, 3.5, 3.5, 1.0]);
+    }
+
+    #[test]
+    fn unit_mae_counts_units_once() {
+        // Unit 0: errors 1 and 3 (mean 2); unit 1: error 4 -> (2 + 4) / 2 = 3; row MAE 8/3.
+        let obs = [0.0, 0.0, 0.0];
+        let pred = [1.0, 3.0, 4.0];
+        assert!((unit_mae(&obs, &pred, &[0, 0, 1]) - 3.0).abs() < 1e-12);
+        assert!((mae(&obs, &pred) - 8.0 / 3.0).abs() < 1e-12);
     }
 }

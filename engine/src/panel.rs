@@ -38,6 +38,10 @@ pub struct Panel {
     pub indicators: Vec<String>,
     /// Codebook entries by indicator name (may be empty).
     pub codebook: BTreeMap<String, CodebookEntry>,
+    /// Standard error of each row's outcome, when the data declare a column for it.
+    pub se: Option<Array1<f64>>,
+    /// Full scale of a bounded outcome (1 for proportions, 100 for percents).
+    pub outcome_scale: Option<f64>,
 }
 
 impl Panel {
@@ -88,6 +92,8 @@ impl Panel {
             x,
             indicators,
             codebook: BTreeMap::new(),
+            se: None,
+            outcome_scale: None,
         })
     }
 
@@ -350,6 +356,11 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
         .as_deref()
         .map(|w| col_index(w, "wave"))
         .transpose()?;
+    let se_j = d
+        .standard_error
+        .as_deref()
+        .map(|c| col_index(c, "standard error"))
+        .transpose()?;
     for ig in &d.ignore {
         col_index(ig, "ignored")?;
     }
@@ -478,10 +489,46 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
     }
 
     // Indicator columns.
-    let named: Vec<usize> = [Some(unit_j), Some(outcome_j), wave_j]
+    let named: Vec<usize> = [Some(unit_j), Some(outcome_j), wave_j, se_j]
         .into_iter()
         .flatten()
         .collect();
+    if let Some(scale) = d.outcome_kind.scale() {
+        if let Some(i) = y.iter().position(|v| *v < 0.0 || *v > scale) {
+            return Err(data_err(
+                path,
+                format!(
+                    "{}, outcome `{}` is {}: data.outcome_kind declares values in [0, {scale}]",
+                    t.where_row(i),
+                    d.outcome,
+                    y[i]
+                ),
+            ));
+        }
+    }
+    let se = match se_j {
+        None => None,
+        Some(j) => {
+            let v = numeric(j).map_err(|(i, s)| not_number(j, i, &s))?;
+            let mut out = Array1::zeros(n);
+            for (i, c) in v.iter().enumerate() {
+                match c {
+                    Some(s) if s.is_finite() && *s > 0.0 => out[i] = *s,
+                    _ => {
+                        return Err(data_err(
+                            path,
+                            format!(
+                                "{}, standard error `{}` must be a positive number",
+                                t.where_row(i),
+                                t.names[j]
+                            ),
+                        ))
+                    }
+                }
+            }
+            Some(out)
+        }
+    };
     let mut chosen: Vec<(usize, Vec<Option<f64>>)> = Vec::new();
     match &d.indicators {
         IndicatorSelection::List(list) => {
@@ -570,7 +617,8 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
         names.push(name.clone());
     }
     let mut panel = Panel::new(units, waves, y, x, names)?;
-    panel.codebook = BTreeMap::new();
+    panel.se = se;
+    panel.outcome_scale = d.outcome_kind.scale();
     Ok(panel)
 }
 

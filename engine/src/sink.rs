@@ -192,23 +192,12 @@ impl<'a> ParquetSink<'a> {
         cols.push(Arc::new(StringArray::from_iter(
             rs.iter().map(|r| r.message.as_deref()),
         )));
-        let metric = |f: fn(&crate::metrics::Scores) -> f64| -> ArrayRef {
-            Arc::new(Float64Array::from_iter(
-                rs.iter().map(|r| r.scores.as_ref().map(f)),
-            ))
-        };
-        for (name, f) in [
-            (
-                "mae",
-                (|s: &crate::metrics::Scores| s.mae) as fn(&crate::metrics::Scores) -> f64,
-            ),
-            ("rmse", |s| s.rmse),
-            ("r2", |s| s.r2),
-            ("baseline_mae", |s| s.baseline_mae),
-            ("skill", |s| s.skill),
-        ] {
-            fields.push(Field::new(name, DataType::Float64, true));
-            cols.push(metric(f));
+        for (k, name) in crate::metrics::METRIC_COLUMNS.iter().enumerate() {
+            fields.push(Field::new(*name, DataType::Float64, true));
+            cols.push(Arc::new(Float64Array::from_iter(
+                rs.iter()
+                    .map(|r| r.scores.as_ref().map(|s| s.columns()[k].1)),
+            )));
         }
         fields.push(Field::new("n_predictions", DataType::Int64, false));
         cols.push(Arc::new(Int64Array::from_iter_values(

@@ -13,12 +13,21 @@ use std::sync::Arc;
 
 /// The choice dimensions, in the order of the stage tree (stages first, then the model
 /// level). The registry of each lives in its own module (see [`options_of`]).
-pub const DIMENSIONS: &[&str] = &["fill", "pool", "scale", "compress", "model", "weighting"];
+pub const DIMENSIONS: &[&str] = &[
+    "transform",
+    "fill",
+    "pool",
+    "scale",
+    "compress",
+    "model",
+    "weighting",
+];
 /// Dimensions fitted as shared stages, in tree order.
 pub const STAGE_DIMENSIONS: &[&str] = &["fill", "pool", "scale", "compress"];
 /// Default option of a dimension the config leaves out.
 pub fn default_option(dim: &str) -> &'static str {
     match dim {
+        "transform" => "identity",
         "fill" => "median",
         "pool" => "all",
         "scale" => "standardise",
@@ -59,6 +68,7 @@ pub struct OptionDecl {
 /// Declared options of a dimension (pools are built from the config and codebook).
 pub fn options_of(dim: &str) -> Vec<OptionDecl> {
     match dim {
+        "transform" => crate::transform::OPTIONS.to_vec(),
         "fill" => crate::stages::fill::OPTIONS.to_vec(),
         "scale" => crate::stages::scale::OPTIONS.to_vec(),
         "compress" => crate::stages::compress::OPTIONS.to_vec(),
@@ -415,6 +425,22 @@ impl ChoiceSpace {
                 }
                 out
             };
+            if *dim == "transform" {
+                for c in &expanded {
+                    crate::transform::check_domain(
+                        &c.option,
+                        panel.y.as_slice().unwrap_or(&[]),
+                        panel.outcome_scale,
+                    )
+                    .map_err(|m| space_err(cfg, format!("choices.transform: {m}")))?;
+                }
+            }
+            if *dim == "weighting"
+                && panel.se.is_none()
+                && expanded.iter().any(|c| c.option == "invvar")
+            {
+                return Err(space_err(cfg, "choices.weighting `invvar` needs data.standard_error (a column of standard errors)".into()));
+            }
             options.push(expanded);
         }
         for opt in cfg.grid.keys() {

@@ -19,6 +19,7 @@ use crate::models::{FitInput, Predictor, Regressor};
 use crate::panel::Panel;
 use crate::space::{ChoiceSpace, Spec, STAGE_DIMENSIONS};
 use crate::stages::{Fitted, Stage, StageInput};
+use crate::transform::Target;
 use ndarray::{Array1, Array2, Axis};
 use rayon::prelude::*;
 use std::panic::{catch_unwind, AssertUnwindSafe};
@@ -61,6 +62,8 @@ pub struct SpecResult {
 pub struct FittedSpec {
     pub chain: Vec<Arc<dyn Fitted>>,
     pub model: Box<dyn Predictor>,
+    /// Back-transform of the model's predictions to the outcome's scale.
+    pub target: Arc<dyn Target>,
 }
 
 impl FittedSpec {
@@ -70,7 +73,9 @@ impl FittedSpec {
         for st in &self.chain {
             cur = st.apply(cur.view());
         }
-        self.model.predict(cur.view())
+        self.model
+            .predict(cur.view())
+            .mapv(|z| self.target.inverse(z))
     }
 }
 
@@ -92,18 +97,31 @@ impl Node {
     }
 }
 
+/// The top of the stage tree: one outcome transform and the stages below it.
+struct TargetNode {
+    label: String,
+    target: Arc<dyn Target>,
+    children: Vec<Node>,
+}
+
 /// Per-fold data at a node.
 struct FoldState {
     train: Array2<f64>,
     test: Array2<f64>,
     names: Vec<String>,
     chain: Vec<Arc<dyn Fitted>>,
+    /// Training outcome under the node's transform.
+    y: Arc<Array1<f64>>,
+    target: Arc<dyn Target>,
 }
 
 /// Per-fold context shared by every spec.
 struct FoldCtx {
+    /// Training outcome on its own scale.
     y_train: Array1<f64>,
     train_units: Vec<usize>,
+    /// Standard errors of the training rows, when declared.
+    train_se: Option<Vec<f64>>,
     baseline: f64,
 }
 
@@ -114,7 +132,7 @@ pub struct Sweep<'a> {
     pub folds: &'a FoldPlan,
     pub seed: u64,
     pub audit: Option<Arc<dyn Audit>>,
-    roots: Vec<Node>,
+    roots: Vec<TargetNode>,
     models: Vec<Arc<dyn Regressor>>,
     ctx: Vec<FoldCtx>,
 }
@@ -149,10 +167,25 @@ impl<'a> Sweep<'a> {
     ) -> Result<Sweep<'a>> {
         let all: Vec<usize> = (0..space.specs.len()).collect();
         let chosen = subset.unwrap_or(&all);
-        let mut roots: Vec<Node> = Vec::new();
+        let mut roots: Vec<TargetNode> = Vec::new();
         for &si in chosen {
             let spec = &space.specs[si];
-            let mut level_nodes = &mut roots;
+            let tc = spec.choice("transform");
+            let tlabel = tc.canonical();
+            let ti = match roots.iter().position(|r| r.label == tlabel) {
+                Some(i) => i,
+                None => {
+                    let target =
+                        crate::transform::build(tc, panel.outcome_scale).map_err(Error::Space)?;
+                    roots.push(TargetNode {
+                        label: tlabel,
+                        target,
+                        children: Vec::new(),
+                    });
+                    roots.len() - 1
+                }
+            };
+            let mut level_nodes = &mut roots[ti].children;
             for (level, dim) in STAGE_DIMENSIONS.iter().enumerate() {
                 let choice = spec.choice(dim);
                 let label = choice.canonical();
@@ -189,6 +222,10 @@ impl<'a> Sweep<'a> {
                 let y_train: Array1<f64> = f.train.iter().map(|&i| panel.y[i]).collect();
                 let baseline = y_train.mean().unwrap_or(0.0);
                 FoldCtx {
+                    train_se: panel
+                        .se
+                        .as_ref()
+                        .map(|se| f.train.iter().map(|&i| se[i]).collect()),
                     y_train,
                     train_units: f.train.iter().map(|&i| panel.row_unit[i]).collect(),
                     baseline,
@@ -223,7 +260,7 @@ impl<'a> Sweep<'a> {
         fn count(n: &[Node]) -> usize {
             n.iter().map(|c| 1 + count(&c.children)).sum()
         }
-        count(&self.roots)
+        self.roots.iter().map(|r| count(&r.children)).sum()
     }
 
     /// Run every spec; each result is handed to `emit` as soon as it is ready (from any
@@ -239,20 +276,27 @@ impl<'a> Sweep<'a> {
                 );
             }
         }
-        let base: Vec<FoldState> = self
-            .folds
-            .folds
-            .iter()
-            .map(|f| FoldState {
-                train: self.panel.x.select(Axis(0), &f.train),
-                test: self.panel.x.select(Axis(0), &f.test),
-                names: self.panel.indicators.clone(),
-                chain: Vec::new(),
-            })
-            .collect();
-        self.roots
-            .par_iter()
-            .for_each(|n| self.run_node(n, &base, emit));
+        self.roots.par_iter().for_each(|root| {
+            let base: Vec<FoldState> = (0..self.folds.folds.len())
+                .map(|fi| self.base_state(fi, &root.target))
+                .collect();
+            root.children
+                .par_iter()
+                .for_each(|n| self.run_node(n, &base, emit));
+        });
+    }
+
+    /// Raw indicator rows of a fold and its training outcome under `target`.
+    fn base_state(&self, fi: usize, target: &Arc<dyn Target>) -> FoldState {
+        let f = &self.folds.folds[fi];
+        FoldState {
+            train: self.panel.x.select(Axis(0), &f.train),
+            test: self.panel.x.select(Axis(0), &f.test),
+            names: self.panel.indicators.clone(),
+            chain: Vec::new(),
+            y: Arc::new(self.ctx[fi].y_train.mapv(|v| target.forward(v))),
+            target: target.clone(),
+        }
     }
 
     fn run_node(&self, node: &Node, parent: &[FoldState], emit: &(dyn Fn(SpecResult) + Sync)) {
@@ -264,7 +308,7 @@ impl<'a> Sweep<'a> {
                 let fold = &self.folds.folds[fi];
                 let input = StageInput {
                     x: p.train.view(),
-                    y: self.ctx[fi].y_train.view(),
+                    y: p.y.view(),
                     rows: &fold.train,
                     names: &p.names,
                 };
@@ -281,6 +325,8 @@ impl<'a> Sweep<'a> {
                     test,
                     names,
                     chain,
+                    y: p.y.clone(),
+                    target: p.target.clone(),
                 })
             })
             .collect();
@@ -324,10 +370,11 @@ impl<'a> Sweep<'a> {
         let spec: &Spec = &self.space.specs[si];
         let ctx = &self.ctx[fi];
         let w = crate::weights::weights(
-            &spec.choice("weighting").option,
+            spec.choice("weighting"),
             &crate::weights::WeightInput {
                 units: &ctx.train_units,
                 y: ctx.y_train.as_slice().unwrap_or(&[]),
+                se: ctx.train_se.as_deref(),
             },
         )
         .map_err(FitError::Invalid)?;
@@ -335,7 +382,7 @@ impl<'a> Sweep<'a> {
         let seed = mix(mix(self.seed, spec.stream()), fi as u64);
         let input = FitInput {
             x: st.train.view(),
-            y: ctx.y_train.view(),
+            y: st.y.view(),
             w: w.view(),
             seed,
         };
@@ -353,10 +400,11 @@ impl<'a> Sweep<'a> {
         let mut preds = Vec::with_capacity(n_pred);
         let mut obs = Vec::with_capacity(n_pred);
         let mut base = Vec::with_capacity(n_pred);
+        let mut units = Vec::with_capacity(n_pred);
         for (fi, st) in states.iter().enumerate() {
             let fold = &self.folds.folds[fi];
             let out = self.fit_fold(si, fi, st).and_then(|m| {
-                let p = guarded(|| Ok(m.predict(st.test.view())))?;
+                let p = guarded(|| Ok(m.predict(st.test.view()).mapv(|z| st.target.inverse(z))))?;
                 match p.iter().position(|v| !v.is_finite()) {
                     Some(k) => Err(FitError::Invalid(format!(
                         "non-finite prediction for row {}",
@@ -375,6 +423,7 @@ impl<'a> Sweep<'a> {
                             value: p[k],
                         });
                         obs.push(self.panel.y[row]);
+                        units.push(self.panel.row_unit[row]);
                         base.push(self.ctx[fi].baseline);
                     }
                 }
@@ -398,7 +447,7 @@ impl<'a> Sweep<'a> {
             spec: si,
             status: "ok",
             message: None,
-            scores: Some(Scores::compute(&obs, &values, &base)),
+            scores: Some(Scores::compute(&obs, &values, &base, &units)),
             seconds: t0.elapsed().as_secs_f64(),
             predictions: preds,
         }
@@ -408,17 +457,14 @@ impl<'a> Sweep<'a> {
     pub fn fit_spec(&self, si: usize, fi: usize) -> std::result::Result<FittedSpec, FitError> {
         let spec = &self.space.specs[si];
         let fold = &self.folds.folds[fi];
-        let mut st = FoldState {
-            train: self.panel.x.select(Axis(0), &fold.train),
-            test: self.panel.x.select(Axis(0), &fold.test),
-            names: self.panel.indicators.clone(),
-            chain: Vec::new(),
-        };
+        let target = crate::transform::build(spec.choice("transform"), self.panel.outcome_scale)
+            .map_err(FitError::Invalid)?;
+        let mut st = self.base_state(fi, &target);
         for dim in STAGE_DIMENSIONS {
             let stage = crate::stages::build(spec.choice(dim)).map_err(FitError::Invalid)?;
             let input = StageInput {
                 x: st.train.view(),
-                y: self.ctx[fi].y_train.view(),
+                y: st.y.view(),
                 rows: &fold.train,
                 names: &st.names,
             };
@@ -433,6 +479,7 @@ impl<'a> Sweep<'a> {
         Ok(FittedSpec {
             chain: st.chain,
             model,
+            target,
         })
     }
 }

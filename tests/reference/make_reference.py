@@ -15,6 +15,8 @@ import os
 import sys
 
 import numpy as np
+import scipy
+import scipy.stats
 import sklearn
 import statsmodels
 import statsmodels.api as sm
@@ -26,7 +28,8 @@ from sklearn.tree import DecisionTreeRegressor
 out = sys.argv[1] if len(sys.argv) > 1 else os.path.dirname(os.path.abspath(__file__))
 os.makedirs(out, exist_ok=True)
 versions = {
-    "numpy": np.__version__,
+        "numpy": np.__version__,
+    "scipy": scipy.__version__,
     "scikit-learn": sklearn.__version__,
     "statsmodels": statsmodels.__version__,
 }
@@ -45,15 +48,25 @@ rng = np.random.default_rng(7)
 cases = [([3.0, -0.5, 2.0, 7.0], [2.5, 0.0, 2.0, 8.0])]
 a = rng.normal(10, 3, 50)
 cases.append((a.tolist(), (a + rng.normal(0, 1.5, 50)).tolist()))
+# A case with ties (for ranks) and repeated units.
+cases.append(([1.0, 2.0, 2.0, 3.0, 5.0, 5.0, 8.0, 9.0], [1.5, 2.5, 1.0, 3.0, 4.0, 6.5, 8.0, 7.0]))
 metric_cases = []
 for t, p in cases:
+    t_, p_ = np.asarray(t), np.asarray(p)
+    units = [i // 2 for i in range(len(t))]  # rows 0-1 are unit 0, rows 2-3 unit 1, ...
+    err = np.abs(t_ - p_)
+    per_unit = [err[[k for k in range(len(t)) if units[k] == u]].mean() for u in sorted(set(units))]
     metric_cases.append(
         {
             "observed": t,
             "predicted": p,
+            "units": units,
             "mae": mean_absolute_error(t, p),
             "rmse": float(np.sqrt(mean_squared_error(t, p))),
             "r2": r2_score(t, p),
+            "spearman": float(scipy.stats.spearmanr(t, p).statistic),
+            "top_quartile_mae": float(err[t_ >= np.quantile(t_, 0.75)].mean()),
+            "unit_mae": float(np.mean(per_unit)),
         }
     )
 dump("metrics.json", {"cases": metric_cases})
