@@ -250,3 +250,41 @@ fn integer_weights_equal_duplicated_rows() {
         close(*p, *q, 1e-9, "weighted tree = duplicated tree");
     }
 }
+
+/// NMF against scikit-learn's NMF (init "nndsvd", solver "cd", tight tolerance) on a
+/// fixed non-negative matrix: our final ||X - WH||_F is at most 1.01 x scikit-learn's;
+/// the objective never rises; projecting the training rows onto H reproduces W.
+#[test]
+fn nmf_matches_scikit_learn_objective() {
+    let r = reference("nmf.json");
+    let x = matrix(&r["x"]);
+    for case in r["cases"].as_array().expect("cases") {
+        let k = case["k"].as_u64().unwrap() as usize;
+        let sk = case["sklearn_objective"].as_f64().unwrap();
+        let f = forkmap::stages::nmf::fit(x.view(), k, 5000, 1e-10).expect("nmf");
+        let ours = *f.objective.last().unwrap();
+        eprintln!(
+            "nmf k={k}: ours {ours}, scikit-learn {sk}, ratio {:.6}",
+            ours / sk
+        );
+        assert!(
+            ours <= 1.01 * sk,
+            "k={k}: objective {ours} vs scikit-learn {sk}"
+        );
+        for pair in f.objective.windows(2) {
+            // Rounding slack: 1e-12 of the starting objective.
+            assert!(
+                pair[1] <= pair[0] * (1.0 + 1e-12) + 1e-12 * f.objective[0],
+                "k={k}: objective rose {pair:?}"
+            );
+        }
+        let w = forkmap::stages::nmf::project(x.view(), &f.h);
+        let scale = f.w.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+        for (a, b) in w.iter().zip(f.w.iter()) {
+            assert!(
+                (a - b).abs() <= 1e-4 * scale,
+                "k={k}: projected W {a} vs fitted {b}"
+            );
+        }
+    }
+}

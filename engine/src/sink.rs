@@ -21,7 +21,7 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 /// Names of the output tables (one folder each under the run directory).
-pub const TABLES: &[&str] = &["specs", "predictions"];
+pub const TABLES: &[&str] = &["specs", "predictions", "loadings"];
 
 pub struct ParquetSink<'a> {
     dir: PathBuf,
@@ -134,6 +134,8 @@ impl<'a> ParquetSink<'a> {
         let name = format!("part-{:05}.parquet", self.next_part);
         let preds = self.predictions_batch()?;
         write_parquet_atomic(&self.dir.join("predictions"), &name, &preds)?;
+        let loadings = self.loadings_batch()?;
+        write_parquet_atomic(&self.dir.join("loadings"), &name, &loadings)?;
         let specs = self.specs_batch()?;
         write_parquet_atomic(&self.dir.join("specs"), &name, &specs)?;
         self.written_specs += self.buffer.len();
@@ -208,6 +210,35 @@ impl<'a> ParquetSink<'a> {
             rs.iter().map(|r| r.seconds),
         )));
         RecordBatch::try_new(Arc::new(Schema::new(fields)), cols).map_err(|e| self.batch_err(e))
+    }
+
+    fn loadings_batch(&self) -> Result<RecordBatch> {
+        let (mut id, mut comp, mut ind, mut val) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+        for r in &self.buffer {
+            let Some(l) = &r.loadings else { continue };
+            let sid = self.space.specs[r.spec].id.as_str();
+            for (c, cname) in l.components.iter().enumerate() {
+                for (j, iname) in l.indicators.iter().enumerate() {
+                    id.push(sid);
+                    comp.push(cname.as_str());
+                    ind.push(iname.as_str());
+                    val.push(l.values[[c, j]]);
+                }
+            }
+        }
+        let schema = Schema::new(vec![
+            Field::new("spec_id", DataType::Utf8, false),
+            Field::new("component", DataType::Utf8, false),
+            Field::new("indicator", DataType::Utf8, false),
+            Field::new("loading", DataType::Float64, false),
+        ]);
+        let cols: Vec<ArrayRef> = vec![
+            Arc::new(StringArray::from(id)),
+            Arc::new(StringArray::from(comp)),
+            Arc::new(StringArray::from(ind)),
+            Arc::new(Float64Array::from(val)),
+        ];
+        RecordBatch::try_new(Arc::new(schema), cols).map_err(|e| self.batch_err(e))
     }
 
     fn predictions_batch(&self) -> Result<RecordBatch> {

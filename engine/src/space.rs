@@ -479,13 +479,25 @@ impl ChoiceSpace {
             }
             rules.push(parts.join(" and "));
         }
+        // Automatic: NMF needs non-negative input, which standardising never gives.
+        let si = DIMENSIONS.iter().position(|d| *d == "scale").unwrap_or(0);
+        let ci = DIMENSIONS
+            .iter()
+            .position(|d| *d == "compress")
+            .unwrap_or(0);
+        let auto_nmf = options[ci].iter().any(|c| c.option == "nmf")
+            && options[si].iter().any(|c| c.option == "standardise");
+        if auto_nmf {
+            rules.push("compress in [nmf] and scale in [standardise] (automatic: NMF needs non-negative input)".into());
+        }
         let matches = |choices: &[Choice]| {
-            cfg.exclude.iter().any(|rule| {
-                rule.iter().all(|(dim, names)| {
-                    let di = DIMENSIONS.iter().position(|d| d == dim).unwrap_or(0);
-                    names.items().contains(&choices[di].option.as_str())
+            (choices[ci].option == "nmf" && choices[si].option == "standardise")
+                || cfg.exclude.iter().any(|rule| {
+                    rule.iter().all(|(dim, names)| {
+                        let di = DIMENSIONS.iter().position(|d| d == dim).unwrap_or(0);
+                        names.items().contains(&choices[di].option.as_str())
+                    })
                 })
-            })
         };
         let mut specs = Vec::new();
         let mut excluded = 0usize;
@@ -514,6 +526,24 @@ impl ChoiceSpace {
             return Err(Error::Space(format!(
                 "the exclusions remove all {total} combinations: nothing is left to run"
             )));
+        }
+        // NMF without scaling needs non-negative indicators in its pool.
+        let mut checked: BTreeSet<String> = BTreeSet::new();
+        for s in &specs {
+            if s.choices[ci].option == "nmf"
+                && s.choices[si].option == "none"
+                && checked.insert(s.choice("pool").canonical())
+            {
+                let pool = s.choice("pool");
+                for &j in pool.members.as_deref().map(|m| m.as_slice()).unwrap_or(&[]) {
+                    if let Some(i) = panel.x.column(j).iter().position(|v| *v < 0.0) {
+                        return Err(space_err(cfg, format!(
+                            "compress `nmf` with scale `none` needs non-negative indicators, but `{}` is {} in row {} (pool `{}`): use scale `minmax` or exclude nmf with scale none",
+                            panel.indicators[j], panel.x[[i, j]], i + 1, pool.option
+                        )));
+                    }
+                }
+            }
         }
         let mut ids = BTreeSet::new();
         for s in &specs {

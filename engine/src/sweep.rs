@@ -49,6 +49,9 @@ pub struct Prediction {
 pub struct SpecResult {
     /// Index into [`ChoiceSpace::specs`].
     pub spec: usize,
+    /// Loadings of the spec's compression fitted on all rows (descriptive only: they never
+    /// feed a prediction); `None` without compression.
+    pub loadings: Option<Arc<Loadings>>,
     /// `ok` or the failure cause (`singular`, `invalid`, `no_convergence`, `panic`).
     pub status: &'static str,
     pub message: Option<String>,
@@ -56,6 +59,21 @@ pub struct SpecResult {
     /// Wall seconds spent fitting and predicting this spec's models (stages excluded).
     pub seconds: f64,
     pub predictions: Vec<Prediction>,
+}
+
+/// Components x indicators loadings of a compression.
+#[derive(Debug, Clone)]
+pub struct Loadings {
+    pub components: Vec<String>,
+    pub indicators: Vec<String>,
+    pub values: Array2<f64>,
+}
+
+/// The all-rows state carried beside the fold states, for descriptive outputs.
+struct Whole {
+    x: Array2<f64>,
+    names: Vec<String>,
+    y: Array1<f64>,
 }
 
 /// A fitted spec for one fold: the stage chain and the model. Predicts raw indicator rows.
@@ -132,6 +150,8 @@ pub struct Sweep<'a> {
     pub folds: &'a FoldPlan,
     pub seed: u64,
     pub audit: Option<Arc<dyn Audit>>,
+    /// Also fit each compression on all rows and report its loadings (default true).
+    pub describe: bool,
     roots: Vec<TargetNode>,
     models: Vec<Arc<dyn Regressor>>,
     ctx: Vec<FoldCtx>,
@@ -238,6 +258,7 @@ impl<'a> Sweep<'a> {
             folds,
             seed,
             audit: None,
+            describe: true,
             roots,
             models,
             ctx,
@@ -280,9 +301,14 @@ impl<'a> Sweep<'a> {
             let base: Vec<FoldState> = (0..self.folds.folds.len())
                 .map(|fi| self.base_state(fi, &root.target))
                 .collect();
+            let whole = self.describe.then(|| Whole {
+                x: self.panel.x.clone(),
+                names: self.panel.indicators.clone(),
+                y: self.panel.y.mapv(|v| root.target.forward(v)),
+            });
             root.children
                 .par_iter()
-                .for_each(|n| self.run_node(n, &base, emit));
+                .for_each(|n| self.run_node(n, &base, whole.as_ref(), emit));
         });
     }
 
@@ -299,7 +325,42 @@ impl<'a> Sweep<'a> {
         }
     }
 
-    fn run_node(&self, node: &Node, parent: &[FoldState], emit: &(dyn Fn(SpecResult) + Sync)) {
+    /// Fit a node's stage on all rows (for loadings); `None` when it fails.
+    fn describe(&self, node: &Node, whole: Option<&Whole>) -> Option<Whole> {
+        let w = whole?;
+        let all: Vec<usize> = (0..self.panel.n_rows()).collect();
+        let input = StageInput {
+            x: w.x.view(),
+            y: w.y.view(),
+            rows: &all,
+            names: &w.names,
+        };
+        let f = guarded(|| node.stage.fit(&input)).ok()?;
+        let x = guarded(|| Ok(f.apply(w.x.view()))).ok()?;
+        let names = f.names().to_vec();
+        if node.level + 1 == STAGE_DIMENSIONS.len() {
+            // At the last stage only the loadings are kept: x holds them, names the inputs.
+            let (l, ind) = f.loadings()?;
+            return Some(Whole {
+                x: l.clone(),
+                names: ind.to_vec(),
+                y: Array1::zeros(0),
+            });
+        }
+        Some(Whole {
+            x,
+            names,
+            y: w.y.clone(),
+        })
+    }
+
+    fn run_node(
+        &self,
+        node: &Node,
+        parent: &[FoldState],
+        whole: Option<&Whole>,
+        emit: &(dyn Fn(SpecResult) + Sync),
+    ) {
         let step = STAGE_DIMENSIONS[node.level];
         let states: std::result::Result<Vec<FoldState>, (usize, FitError)> = parent
             .par_iter()
@@ -343,6 +404,7 @@ impl<'a> Sweep<'a> {
                 for si in specs {
                     emit(SpecResult {
                         spec: si,
+                        loadings: None,
                         status: e.cause(),
                         message: Some(msg.clone()),
                         scores: None,
@@ -353,12 +415,27 @@ impl<'a> Sweep<'a> {
                 return;
             }
         };
+        let next = self.describe(node, whole);
         node.children
             .par_iter()
-            .for_each(|c| self.run_node(c, &states, emit));
-        node.specs
-            .par_iter()
-            .for_each(|&si| emit(self.run_spec(si, &states)));
+            .for_each(|c| self.run_node(c, &states, next.as_ref(), emit));
+        let loadings = next
+            .filter(|_| node.level + 1 == STAGE_DIMENSIONS.len())
+            .map(|w| {
+                let components = (1..=w.x.nrows())
+                    .map(|c| format!("{}{c}", node.label.split('(').next().unwrap_or("c")))
+                    .collect();
+                Arc::new(Loadings {
+                    components,
+                    indicators: w.names,
+                    values: w.x,
+                })
+            });
+        node.specs.par_iter().for_each(|&si| {
+            let mut r = self.run_spec(si, &states);
+            r.loadings = loadings.clone();
+            emit(r)
+        });
     }
 
     fn fit_fold(
@@ -430,6 +507,7 @@ impl<'a> Sweep<'a> {
                 Err(e) => {
                     return SpecResult {
                         spec: si,
+                        loadings: None,
                         status: e.cause(),
                         message: Some(format!(
                             "model (repeat {}, fold {}): {e}",
@@ -445,6 +523,7 @@ impl<'a> Sweep<'a> {
         let values: Vec<f64> = preds.iter().map(|p| p.value).collect();
         SpecResult {
             spec: si,
+            loadings: None,
             status: "ok",
             message: None,
             scores: Some(Scores::compute(&obs, &values, &base, &units)),

@@ -120,4 +120,16 @@ dump(
         "tree_depth3_leaf5_predictions": tree.predict(X).tolist(),
     },
 )
+# NMF: a fixed non-negative matrix (low rank plus noise), scikit-learn's NMF with the
+# NNDSVD initialisation and its coordinate-descent solver run to a tight tolerance.
+from sklearn.decomposition import NMF
+
+rng = np.random.default_rng(11)
+Xn = rng.uniform(0, 1, (40, 4)) @ rng.uniform(0, 1, (4, 12)) + rng.uniform(0, 0.1, (40, 12))
+nmf_cases = []
+for k in [2, 3, 5]:
+    m = NMF(n_components=k, init="nndsvd", solver="cd", tol=1e-10, max_iter=5000, random_state=0)
+    m.fit(Xn)
+    nmf_cases.append({"k": k, "sklearn_objective": float(m.reconstruction_err_)})
+dump("nmf.json", {"x": Xn.tolist(), "cases": nmf_cases})
 print(f"reference values written to {out}")

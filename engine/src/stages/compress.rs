@@ -36,7 +36,86 @@ pub const OPTIONS: &[OptionDecl] = &[
         help: "principal components of the training rows",
         weighted: true,
     },
+    OptionDecl {
+        name: "nmf",
+        params: &[
+            ParamDecl {
+                name: "k",
+                kind: ParamKind::Int {
+                    min: 1,
+                    max: 10_000,
+                },
+                default: 5.0,
+                help: "number of non-negative components",
+            },
+            ParamDecl {
+                name: "max_iter",
+                kind: ParamKind::Int {
+                    min: 1,
+                    max: 1_000_000,
+                },
+                default: 500.0,
+                help: "most HALS sweeps",
+            },
+            ParamDecl {
+                name: "tol",
+                kind: ParamKind::Real {
+                    min: 0.0,
+                    max: 1.0,
+                    open_min: false,
+                },
+                default: 1e-6,
+                help: "stop when the objective falls by less than this share",
+            },
+        ],
+        help: "non-negative matrix factorisation (needs scale minmax or non-negative data)",
+        weighted: true,
+    },
 ];
+
+/// Validated NMF parameters.
+pub struct Nmf {
+    pub k: usize,
+    pub max_iter: usize,
+    pub tol: f64,
+}
+
+/// A fitted NMF: rows are projected onto `h` by non-negative least squares.
+pub struct NmfFitted {
+    pub h: Array2<f64>,
+    pub input_names: Vec<String>,
+    names: Vec<String>,
+}
+
+impl Stage for Nmf {
+    fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
+        let (n, p) = input.x.dim();
+        if self.k > p || self.k > n {
+            return Err(FitError::Invalid(format!(
+                "nmf k={} but the training rows have {n} rows and {p} columns",
+                self.k
+            )));
+        }
+        let f = super::nmf::fit(input.x, self.k, self.max_iter, self.tol)?;
+        Ok(Arc::new(NmfFitted {
+            h: f.h,
+            input_names: input.names.to_vec(),
+            names: (1..=self.k).map(|c| format!("nmf{c}")).collect(),
+        }))
+    }
+}
+
+impl Fitted for NmfFitted {
+    fn apply(&self, x: ArrayView2<f64>) -> Array2<f64> {
+        super::nmf::project(x, &self.h)
+    }
+    fn names(&self) -> &[String] {
+        &self.names
+    }
+    fn loadings(&self) -> Option<(&Array2<f64>, &[String])> {
+        Some((&self.h, &self.input_names))
+    }
+}
 
 struct Identity;
 struct IdentityFitted {
@@ -68,6 +147,11 @@ pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
             let k = c.param("k").ok_or("pca needs k")?;
             Ok(Arc::new(Pca { k: k as usize }))
         }
+        "nmf" => Ok(Arc::new(Nmf {
+            k: c.param("k").ok_or("nmf needs k")? as usize,
+            max_iter: c.param("max_iter").ok_or("nmf needs max_iter")? as usize,
+            tol: c.param("tol").ok_or("nmf needs tol")?,
+        })),
         o => Err(format!("unknown compress `{o}`")),
     }
 }
@@ -178,6 +262,9 @@ impl Fitted for PcaFitted {
     }
     fn names(&self) -> &[String] {
         &self.names
+    }
+    fn loadings(&self) -> Option<(&Array2<f64>, &[String])> {
+        Some((&self.components, &self.input_names))
     }
 }
 

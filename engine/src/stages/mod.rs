@@ -8,6 +8,7 @@
 
 pub mod compress;
 pub mod fill;
+pub mod nmf;
 pub mod pool;
 pub mod scale;
 
@@ -39,6 +40,10 @@ pub trait Fitted: Send + Sync {
     fn apply(&self, x: ArrayView2<f64>) -> Array2<f64>;
     /// Names of the output columns.
     fn names(&self) -> &[String];
+    /// For compressions: components x input columns loadings, with the input names.
+    fn loadings(&self) -> Option<(&Array2<f64>, &[String])> {
+        None
+    }
 }
 
 /// Build the stage of a stage-dimension choice.
