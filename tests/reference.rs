@@ -288,3 +288,103 @@ fn nmf_matches_scikit_learn_objective() {
         }
     }
 }
+
+/// Lasso and elastic net against scikit-learn's Lasso / ElasticNet on the diabetes data
+/// (alpha convention: 1/(2n) ||y - Xb||^2 + alpha * l1_ratio * ||b||_1 +
+/// alpha * (1 - l1_ratio) / 2 * ||b||^2), unweighted and with integer sample weights.
+#[test]
+fn lasso_and_elastic_net_match_scikit_learn() {
+    use forkmap::models::elastic::ElasticParams;
+    let r = reference("diabetes.json");
+    let x = matrix(&r["x"]);
+    let y = Array1::from(f64s(&r["y"]));
+    let ones = Array1::ones(y.len());
+    let w = Array1::from(f64s(&r["weights"]));
+    let cases = r["sparse"].as_array().expect("sparse cases");
+    assert!(cases.len() >= 4);
+    for case in cases {
+        let p = ElasticParams {
+            alpha: case["alpha"].as_f64().unwrap(),
+            l1_ratio: case["l1_ratio"].as_f64().unwrap(),
+        };
+        let what = format!("alpha={} l1_ratio={}", p.alpha, p.l1_ratio);
+        let m = p.fit_linear(x.view(), y.view(), ones.view()).expect("fit");
+        for (g, c) in m.coef.iter().zip(f64s(&case["coef"])) {
+            close(*g, c, 1e-6, &format!("{what} coef"));
+        }
+        close(
+            m.intercept,
+            case["intercept"].as_f64().unwrap(),
+            1e-6,
+            &format!("{what} intercept"),
+        );
+        let mw = p.fit_linear(x.view(), y.view(), w.view()).expect("fit");
+        for (g, c) in mw.coef.iter().zip(f64s(&case["weighted_coef"])) {
+            close(*g, c, 1e-6, &format!("{what} weighted coef"));
+        }
+        close(
+            mw.intercept,
+            case["weighted_intercept"].as_f64().unwrap(),
+            1e-6,
+            &format!("{what} weighted intercept"),
+        );
+    }
+}
+
+/// kNN filling against scikit-learn's KNNImputer(n_neighbors=3), fitted on training rows
+/// and applied to them and to new rows.
+#[test]
+fn knn_fill_matches_scikit_learn_knn_imputer() {
+    use forkmap::space::Choice;
+    use forkmap::stages::StageInput;
+    let r = reference("knn_fill.json");
+    let rows: Vec<Vec<f64>> = r["x"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|row| {
+            row.as_array()
+                .unwrap()
+                .iter()
+                .map(|v| v.as_f64().unwrap_or(f64::NAN))
+                .collect()
+        })
+        .collect();
+    let (n, p) = (rows.len(), rows[0].len());
+    let x = ndarray::Array2::from_shape_vec((n, p), rows.into_iter().flatten().collect()).unwrap();
+    let t = r["train_rows"].as_u64().unwrap() as usize;
+    let choice = Choice {
+        dim: "fill",
+        option: "knn".into(),
+        params: vec![
+            ("k", r["k"].as_f64().unwrap()),
+            ("drop_share", 1.0),
+            ("flags", 0.0),
+        ],
+        members: None,
+        digest: None,
+    };
+    let stage = forkmap::stages::fill::build(&choice).unwrap();
+    let names: Vec<String> = (0..p).map(|j| format!("x{j}")).collect();
+    let train = x.slice(ndarray::s![..t, ..]).to_owned();
+    let y = Array1::zeros(t);
+    let idx: Vec<usize> = (0..t).collect();
+    let fitted = stage
+        .fit(&StageInput {
+            x: train.view(),
+            y: y.view(),
+            rows: &idx,
+            names: &names,
+        })
+        .unwrap();
+    let got_train = fitted.apply(train.view());
+    let got_test = fitted.apply(x.slice(ndarray::s![t.., ..]));
+    for (got, want) in [
+        (got_train, matrix(&r["filled_train"])),
+        (got_test, matrix(&r["filled_test"])),
+    ] {
+        for (g, w) in got.iter().zip(want.iter()) {
+            close(*g, *w, 1e-12, "knn-filled value");
+        }
+    }
+}

@@ -74,6 +74,7 @@ pub fn options_of(dim: &str) -> Vec<OptionDecl> {
         "compress" => crate::stages::compress::OPTIONS.to_vec(),
         "model" => crate::models::registry().iter().map(|f| f.decl).collect(),
         "weighting" => crate::weights::OPTIONS.to_vec(),
+        "pool" => crate::stages::pool::OPTIONS.to_vec(),
         _ => Vec::new(),
     }
 }
@@ -288,7 +289,9 @@ fn pool_options(cfg: &Config, panel: &Panel, listed: &[String]) -> Result<Vec<Ch
         }
     }
     for opt in listed {
-        if opt == "all" {
+        if let Some(decl) = crate::stages::pool::OPTIONS.iter().find(|d| d.name == opt) {
+            out.extend(expand(cfg, "pool", decl)?);
+        } else if opt == "all" {
             out.push(pool_choice(
                 "all",
                 (0..panel.indicators.len()).collect(),

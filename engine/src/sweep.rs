@@ -212,7 +212,7 @@ impl<'a> Sweep<'a> {
                 let pos = match level_nodes.iter().position(|n| n.label == label) {
                     Some(p) => p,
                     None => {
-                        let stage = crate::stages::build(choice).map_err(Error::Space)?;
+                        let stage = crate::stages::build(choice, panel).map_err(Error::Space)?;
                         level_nodes.push(Node {
                             label,
                             level,
@@ -540,7 +540,8 @@ impl<'a> Sweep<'a> {
             .map_err(FitError::Invalid)?;
         let mut st = self.base_state(fi, &target);
         for dim in STAGE_DIMENSIONS {
-            let stage = crate::stages::build(spec.choice(dim)).map_err(FitError::Invalid)?;
+            let stage =
+                crate::stages::build(spec.choice(dim), self.panel).map_err(FitError::Invalid)?;
             let input = StageInput {
                 x: st.train.view(),
                 y: st.y.view(),

@@ -102,6 +102,26 @@ for alpha in [0.1, 1.0, 10.0]:
             "weighted_intercept": float(mw.intercept_),
         }
     )
+# Lasso and elastic net (scikit-learn's alpha convention: 1/(2n) squared error + penalty).
+from sklearn.linear_model import ElasticNet, Lasso
+
+sparse = []
+for alpha, l1 in [(0.1, 1.0), (0.5, 1.0), (0.05, 0.5), (0.01, 0.2)]:
+    make = (lambda: Lasso(alpha=alpha, tol=1e-12, max_iter=1_000_000)) if l1 == 1.0 else (
+        lambda: ElasticNet(alpha=alpha, l1_ratio=l1, tol=1e-12, max_iter=1_000_000)
+    )
+    m = make().fit(X, y)
+    mw = make().fit(X, y, sample_weight=weights)
+    sparse.append(
+        {
+            "alpha": alpha,
+            "l1_ratio": l1,
+            "coef": m.coef_.tolist(),
+            "intercept": float(m.intercept_),
+            "weighted_coef": mw.coef_.tolist(),
+            "weighted_intercept": float(mw.intercept_),
+        }
+    )
 # Principal components of the diabetes features by numpy's SVD.
 Xc = X - X.mean(axis=0)
 s = np.linalg.svd(Xc, compute_uv=False)
@@ -114,7 +134,8 @@ dump(
         "x": X.tolist(),
         "y": y.tolist(),
         "weights": weights.tolist(),
-        "ridge": ridge,
+                "ridge": ridge,
+        "sparse": sparse,
         "pca_explained_variance": ev.tolist(),
         "pca_explained_variance_ratio": (ev / ev.sum()).tolist(),
         "tree_depth3_leaf5_predictions": tree.predict(X).tolist(),
@@ -132,4 +153,23 @@ for k in [2, 3, 5]:
     m.fit(Xn)
     nmf_cases.append({"k": k, "sklearn_objective": float(m.reconstruction_err_)})
 dump("nmf.json", {"x": Xn.tolist(), "cases": nmf_cases})
+# kNN gap filling: scikit-learn's KNNImputer fitted on the first 20 rows of a fixed
+# matrix with gaps, applied to those rows and to 10 more.
+from sklearn.impute import KNNImputer
+
+rng = np.random.default_rng(5)
+Xk = rng.normal(0, 1, (30, 5)) @ rng.normal(0, 1, (5, 5))
+Xk[rng.uniform(0, 1, Xk.shape) < 0.15] = np.nan
+imp = KNNImputer(n_neighbors=3).fit(Xk[:20])
+nan_to_none = lambda a: [[None if np.isnan(v) else float(v) for v in row] for row in a]
+dump(
+    "knn_fill.json",
+    {
+        "x": nan_to_none(Xk),
+        "k": 3,
+        "train_rows": 20,
+        "filled_train": imp.transform(Xk[:20]).tolist(),
+        "filled_test": imp.transform(Xk[20:]).tolist(),
+    },
+)
 print(f"reference values written to {out}")

@@ -4,6 +4,7 @@
 //!
 //! Adding a family: one file with its `FAMILY` constant, plus one line in [`registry`].
 
+pub mod elastic;
 pub mod forest;
 pub mod linear;
 pub mod tree;
@@ -41,7 +42,14 @@ pub struct Family {
 
 /// Every model family, in the order `plan` lists them.
 pub fn registry() -> &'static [Family] {
-    static FAMILIES: [Family; 4] = [linear::OLS, linear::RIDGE, tree::FAMILY, forest::FAMILY];
+    static FAMILIES: [Family; 6] = [
+        linear::OLS,
+        linear::RIDGE,
+        elastic::LASSO,
+        elastic::ELASTIC,
+        tree::FAMILY,
+        forest::FAMILY,
+    ];
     &FAMILIES
 }
 

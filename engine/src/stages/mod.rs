@@ -47,10 +47,10 @@ pub trait Fitted: Send + Sync {
 }
 
 /// Build the stage of a stage-dimension choice.
-pub fn build(choice: &Choice) -> Result<Arc<dyn Stage>, String> {
+pub fn build(choice: &Choice, panel: &crate::panel::Panel) -> Result<Arc<dyn Stage>, String> {
     match choice.dim {
         "fill" => fill::build(choice),
-        "pool" => pool::build(choice),
+        "pool" => pool::build(choice, panel),
         "scale" => scale::build(choice),
         "compress" => compress::build(choice),
         other => Err(format!("`{other}` is not a stage dimension")),
