@@ -99,7 +99,7 @@ impl ElasticParams {
         let xm = x.t().dot(&w) / n;
         let ym = y.dot(&w) / n;
         let sq = w.mapv(f64::sqrt);
-        let xs = (&x - &xm) * &sq.view().insert_axis(Axis(1));
+        let xs = (&x - &xm) * sq.view().insert_axis(Axis(1));
         let ys: Array1<f64> = (&y - ym) * &sq;
         let model = ElasticNet::params()
             .penalty(self.alpha)
