@@ -388,3 +388,37 @@ fn knn_fill_matches_scikit_learn_knn_imputer() {
         }
     }
 }
+
+/// PLS regression and PLS scores against scikit-learn's PLSRegression(scale=False) on the
+/// diabetes data. Score columns may differ in sign between implementations (a PLS
+/// component is defined up to sign), so scores are compared up to a per-column sign.
+#[test]
+fn pls_matches_scikit_learn() {
+    use forkmap::models::pls::PlsParams;
+    let r = reference("diabetes.json");
+    let x = matrix(&r["x"]);
+    let y = Array1::from(f64s(&r["y"]));
+    for case in r["pls"].as_array().expect("pls cases") {
+        let k = case["k"].as_u64().unwrap() as usize;
+        let fit = PlsParams { k }.fit_pls(x.view(), y.view()).expect("pls");
+        for (g, c) in fit
+            .predict_rows(x.view())
+            .iter()
+            .zip(f64s(&case["predictions"]))
+        {
+            close(*g, c, 1e-6, &format!("pls k={k} prediction"));
+        }
+        let ours = fit.scores(x.view());
+        let theirs = matrix(&case["x_scores"]);
+        for c in 0..k {
+            let sign = if ours.column(c).dot(&theirs.column(c)) < 0.0 {
+                -1.0
+            } else {
+                1.0
+            };
+            for (a, b) in ours.column(c).iter().zip(theirs.column(c).iter()) {
+                close(sign * a, *b, 1e-6, &format!("pls k={k} score column {c}"));
+            }
+        }
+    }
+}

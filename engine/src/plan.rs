@@ -142,8 +142,9 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
         );
     }
     let mut no_weights = Vec::new();
+    let mi = DIMENSIONS.iter().position(|d| *d == "model").unwrap_or(0);
     for o in options_of("model") {
-        if !o.weighted {
+        if !o.weighted && p.space.options[mi].iter().any(|c| c.option == o.name) {
             no_weights.push(o.name);
         }
     }
@@ -154,7 +155,7 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             let _ = writeln!(t, "  - {x}");
         }
         for n in no_weights {
-            let _ = writeln!(t, "  - model `{n}` ignores row weights");
+            let _ = writeln!(t, "  - model `{n}` takes no row weights: it runs with weighting `rows` only (its other combinations are excluded automatically)");
         }
     }
     PlanReport {

@@ -493,8 +493,31 @@ impl ChoiceSpace {
         if auto_nmf {
             rules.push("compress in [nmf] and scale in [standardise] (automatic: NMF needs non-negative input)".into());
         }
+        // Automatic: families that take no row weights run only with `rows` weighting.
+        let mi = DIMENSIONS.iter().position(|d| *d == "model").unwrap_or(0);
+        let wi = DIMENSIONS
+            .iter()
+            .position(|d| *d == "weighting")
+            .unwrap_or(0);
+        let unweighted: Vec<&'static str> = options_of("model")
+            .iter()
+            .filter(|d| !d.weighted)
+            .map(|d| d.name)
+            .collect();
+        let used_unweighted: Vec<&str> = unweighted
+            .iter()
+            .copied()
+            .filter(|n| options[mi].iter().any(|c| c.option == *n))
+            .collect();
+        if !used_unweighted.is_empty() && options[wi].iter().any(|c| c.option != "rows") {
+            rules.push(format!(
+                "model in [{}] and weighting not rows (automatic: these families take no row weights)",
+                used_unweighted.join(", ")
+            ));
+        }
         let matches = |choices: &[Choice]| {
-            (choices[ci].option == "nmf" && choices[si].option == "standardise")
+            (unweighted.contains(&choices[mi].option.as_str()) && choices[wi].option != "rows")
+                || (choices[ci].option == "nmf" && choices[si].option == "standardise")
                 || cfg.exclude.iter().any(|rule| {
                     rule.iter().all(|(dim, names)| {
                         let di = DIMENSIONS.iter().position(|d| d == dim).unwrap_or(0);

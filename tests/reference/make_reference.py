@@ -122,6 +122,13 @@ for alpha, l1 in [(0.1, 1.0), (0.5, 1.0), (0.05, 0.5), (0.01, 0.2)]:
             "weighted_intercept": float(mw.intercept_),
         }
     )
+# PLS regression without internal scaling (forkmap's scale stage runs before it).
+from sklearn.cross_decomposition import PLSRegression
+
+pls = []
+for k in [1, 2, 4]:
+    m = PLSRegression(n_components=k, scale=False, tol=1e-12, max_iter=1000).fit(X, y)
+    pls.append({"k": k, "predictions": m.predict(X).ravel().tolist(), "x_scores": m.transform(X).tolist()})
 # Principal components of the diabetes features by numpy's SVD.
 Xc = X - X.mean(axis=0)
 s = np.linalg.svd(Xc, compute_uv=False)
@@ -135,7 +142,8 @@ dump(
         "y": y.tolist(),
         "weights": weights.tolist(),
                 "ridge": ridge,
-        "sparse": sparse,
+                "sparse": sparse,
+        "pls": pls,
         "pca_explained_variance": ev.tolist(),
         "pca_explained_variance_ratio": (ev / ev.sum()).tolist(),
         "tree_depth3_leaf5_predictions": tree.predict(X).tolist(),

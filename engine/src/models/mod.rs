@@ -7,6 +7,7 @@
 pub mod elastic;
 pub mod forest;
 pub mod linear;
+pub mod pls;
 pub mod tree;
 
 use crate::error::FitError;
@@ -42,11 +43,12 @@ pub struct Family {
 
 /// Every model family, in the order `plan` lists them.
 pub fn registry() -> &'static [Family] {
-    static FAMILIES: [Family; 6] = [
+    static FAMILIES: [Family; 7] = [
         linear::OLS,
         linear::RIDGE,
         elastic::LASSO,
         elastic::ELASTIC,
+        pls::FAMILY,
         tree::FAMILY,
         forest::FAMILY,
     ];

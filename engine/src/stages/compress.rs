@@ -71,7 +71,50 @@ pub const OPTIONS: &[OptionDecl] = &[
         help: "non-negative matrix factorisation (needs scale minmax or non-negative data)",
         weighted: true,
     },
+    OptionDecl {
+        name: "pls",
+        params: &[crate::models::pls::K],
+        help: "PLS components, supervised by the training outcome",
+        weighted: true,
+    },
 ];
+
+/// PLS components as a compression: supervised by the (transformed) training outcome.
+pub struct PlsStage {
+    pub k: usize,
+}
+
+pub struct PlsStageFitted {
+    fit: crate::models::pls::PlsFit,
+    rotations: Array2<f64>,
+    input_names: Vec<String>,
+    names: Vec<String>,
+}
+
+impl Stage for PlsStage {
+    fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
+        let fit = crate::models::pls::PlsParams { k: self.k }.fit_pls(input.x, input.y)?;
+        let rotations = fit.rotations();
+        Ok(Arc::new(PlsStageFitted {
+            fit,
+            rotations,
+            input_names: input.names.to_vec(),
+            names: (1..=self.k).map(|c| format!("pls{c}")).collect(),
+        }))
+    }
+}
+
+impl Fitted for PlsStageFitted {
+    fn apply(&self, x: ArrayView2<f64>) -> Array2<f64> {
+        self.fit.scores(x)
+    }
+    fn names(&self) -> &[String] {
+        &self.names
+    }
+    fn loadings(&self) -> Option<(&Array2<f64>, &[String])> {
+        Some((&self.rotations, &self.input_names))
+    }
+}
 
 /// Validated NMF parameters.
 pub struct Nmf {
@@ -147,6 +190,9 @@ pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
             let k = c.param("k").ok_or("pca needs k")?;
             Ok(Arc::new(Pca { k: k as usize }))
         }
+        "pls" => Ok(Arc::new(PlsStage {
+            k: c.param("k").ok_or("pls needs k")? as usize,
+        })),
         "nmf" => Ok(Arc::new(Nmf {
             k: c.param("k").ok_or("nmf needs k")? as usize,
             max_iter: c.param("max_iter").ok_or("nmf needs max_iter")? as usize,
