@@ -129,6 +129,33 @@ pls = []
 for k in [1, 2, 4]:
     m = PLSRegression(n_components=k, scale=False, tol=1e-12, max_iter=1000).fit(X, y)
     pls.append({"k": k, "predictions": m.predict(X).ravel().tolist(), "x_scores": m.transform(X).tolist()})
+# Tree ensembles and neighbours: out-of-fold predictions over scikit-learn's KFold(5)
+# (contiguous folds, no shuffle). scikit-learn breaks ties between equally good splits by
+# its random_state, so for the deterministic families the predictions under ten seeds are
+# stored (a row whose prediction differs between seeds sits behind a tie). For the
+# stochastic ensembles the spread of the OOF MAE over five seeds sets the tolerance.
+from sklearn.ensemble import ExtraTreesRegressor, GradientBoostingRegressor, RandomForestRegressor
+from sklearn.model_selection import KFold, cross_val_predict
+from sklearn.neighbors import KNeighborsRegressor
+
+kf = KFold(5)
+oof = {}
+def oof_case(name, make, seeds=None):
+    if seeds is None:
+        ps = [cross_val_predict(make(s), X, y, cv=kf) for s in range(10)]
+        oof[name] = {"predictions_by_seed": [p.tolist() for p in ps], "mae": float(np.abs(ps[0] - y).mean())}
+    else:
+        maes = [float(np.abs(cross_val_predict(make(s), X, y, cv=kf) - y).mean()) for s in seeds]
+        oof[name] = {"mae": float(np.mean(maes)), "mae_seed_sd": float(np.std(maes, ddof=1))}
+
+oof_case("tree_depth4_leaf5", lambda s: DecisionTreeRegressor(max_depth=4, min_samples_leaf=5, random_state=s))
+oof_case("boost_100_rate0.1_depth3_leaf5", lambda s: GradientBoostingRegressor(n_estimators=100, learning_rate=0.1, max_depth=3, min_samples_leaf=5, random_state=s))
+oof_case("nearest_5", lambda s: KNeighborsRegressor(n_neighbors=5))
+# Boosting in sample on all rows, 20 rounds: the algorithm itself, free of the near-ties
+# between collinear features that out-of-fold predictions can fall on.
+boost20 = GradientBoostingRegressor(n_estimators=20, learning_rate=0.1, max_depth=3, min_samples_leaf=5, random_state=0).fit(X, y)
+oof_case("forest_300_tried0.3_leaf3", lambda s: RandomForestRegressor(n_estimators=300, max_features=0.3, min_samples_leaf=3, random_state=s), seeds=range(5))
+oof_case("extra_300_tried1_leaf3", lambda s: ExtraTreesRegressor(n_estimators=300, max_features=1.0, min_samples_leaf=3, random_state=s), seeds=range(5))
 # Principal components of the diabetes features by numpy's SVD.
 Xc = X - X.mean(axis=0)
 s = np.linalg.svd(Xc, compute_uv=False)
@@ -142,7 +169,9 @@ dump(
         "y": y.tolist(),
         "weights": weights.tolist(),
                 "ridge": ridge,
-                "sparse": sparse,
+                        "sparse": sparse,
+                "oof": oof,
+        "boost20_in_sample": boost20.predict(X).tolist(),
         "pls": pls,
         "pca_explained_variance": ev.tolist(),
         "pca_explained_variance_ratio": (ev / ev.sum()).tolist(),

@@ -4,8 +4,11 @@
 //!
 //! Adding a family: one file with its `FAMILY` constant, plus one line in [`registry`].
 
+pub mod boost;
 pub mod elastic;
+pub mod extra;
 pub mod forest;
+pub mod knn;
 pub mod linear;
 pub mod pls;
 pub mod tree;
@@ -43,7 +46,7 @@ pub struct Family {
 
 /// Every model family, in the order `plan` lists them.
 pub fn registry() -> &'static [Family] {
-    static FAMILIES: [Family; 7] = [
+    static FAMILIES: [Family; 10] = [
         linear::OLS,
         linear::RIDGE,
         elastic::LASSO,
@@ -51,6 +54,9 @@ pub fn registry() -> &'static [Family] {
         pls::FAMILY,
         tree::FAMILY,
         forest::FAMILY,
+        extra::FAMILY,
+        boost::FAMILY,
+        knn::FAMILY,
     ];
     &FAMILIES
 }

@@ -15,6 +15,10 @@ use rand::seq::index::sample;
 use rand::Rng;
 use std::sync::Arc;
 
+/// Consecutive values closer than this are not split between (scikit-learn's
+/// FEATURE_THRESHOLD rule), so splits never hinge on rounding noise.
+pub const FEATURE_THRESHOLD: f64 = 1e-7;
+
 pub const DEPTH: ParamDecl = ParamDecl {
     name: "depth",
     kind: ParamKind::Int { min: 1, max: 64 },
@@ -114,6 +118,13 @@ pub enum Candidates<'r, R: Rng> {
         m: usize,
         rng: &'r mut R,
     },
+    /// Extremely randomised splits (Geurts, Ernst & Wehenkel 2006): `m` indicators drawn
+    /// at each split, each with one threshold drawn uniformly between its node minimum and
+    /// maximum; the best of those splits wins.
+    Extra {
+        m: usize,
+        rng: &'r mut R,
+    },
 }
 
 /// Grow a tree on `rows` (indices into x; repeated rows are not allowed, weights carry
@@ -160,12 +171,60 @@ pub fn grow<R: Rng>(
             continue;
         }
         let parent_score = swy * swy / sw;
-        if let Candidates::Sample { m, rng } = &mut cand {
-            features = sample(*rng, p, (*m).min(p)).into_vec();
-            features.sort_unstable();
+        let mut extra_thr: Vec<f64> = Vec::new();
+        match &mut cand {
+            Candidates::All => {}
+            Candidates::Sample { m, rng } => {
+                features = sample(*rng, p, (*m).min(p)).into_vec();
+                features.sort_unstable();
+            }
+            Candidates::Extra { m, rng } => {
+                features = sample(*rng, p, (*m).min(p)).into_vec();
+                features.sort_unstable();
+                extra_thr = features
+                    .iter()
+                    .map(|&f| {
+                        let lo = rs.iter().map(|&i| x[[i, f]]).fold(f64::INFINITY, f64::min);
+                        let hi = rs
+                            .iter()
+                            .map(|&i| x[[i, f]])
+                            .fold(f64::NEG_INFINITY, f64::max);
+                        let u: f64 = rng.gen();
+                        if lo < hi {
+                            lo + u * (hi - lo)
+                        } else {
+                            f64::NAN
+                        }
+                    })
+                    .collect();
+            }
         }
         let mut best: Option<(f64, usize, f64)> = None; // (gain, feature, threshold)
-        for &f in &features {
+        for (fpos, &f) in features.iter().enumerate() {
+            if !extra_thr.is_empty() {
+                let thr = extra_thr[fpos];
+                if thr.is_nan() {
+                    continue;
+                }
+                let (mut lw, mut lwy, mut ln) = (0.0, 0.0, 0usize);
+                for &i in &rs {
+                    if x[[i, f]] <= thr {
+                        lw += w[i];
+                        lwy += w[i] * y[i];
+                        ln += 1;
+                    }
+                }
+                let rw = sw - lw;
+                if ln < params.min_leaf || n - ln < params.min_leaf || lw <= 0.0 || rw <= 0.0 {
+                    continue;
+                }
+                let rwy = swy - lwy;
+                let gain = lwy * lwy / lw + rwy * rwy / rw - parent_score;
+                if best.is_none_or(|(g, _, _)| gain > g) {
+                    best = Some((gain, f, thr));
+                }
+                continue;
+            }
             order.clear();
             order.extend_from_slice(&rs);
             order.sort_by(|&a, &b| x[[a, f]].total_cmp(&x[[b, f]]));
@@ -182,7 +241,7 @@ pub fn grow<R: Rng>(
                     break;
                 }
                 let (a, b) = (x[[i, f]], x[[order[k + 1], f]]);
-                if a == b {
+                if b <= a + FEATURE_THRESHOLD {
                     continue;
                 }
                 let rw = sw - lw;
