@@ -1,11 +1,47 @@
 //! Results are a pure function of config + data + seed, whatever the thread count.
 
-use crate::common::toy;
+use crate::common::{prepared, toy};
 use forkmap::sweep::Sweep;
 use std::sync::Mutex;
 
+/// Every random stream the engine has: fold shuffles with repeats, forests, extremely
+/// randomised trees, subsampled boosting; plus the stages that share work across specs.
+const CFG: &str = r#"
+seed = 11
+[data]
+file = "toy-panel/panel.csv"
+unit = "district"
+wave = "wave"
+outcome = "hardship_pct"
+outcome_kind = "percent"
+ignore = ["region"]
+codebook = "toy-panel/codebook.csv"
+[folds]
+k = 4
+repeats = 2
+[choices]
+transform = ["identity", "logit"]
+fill = ["median", "knn"]
+pool = ["all", "screen"]
+scale = ["minmax"]
+compress = ["none", "nmf", "pls"]
+model = ["forest", "extra", "boost", "ridge"]
+weighting = ["rows", "high"]
+[grid.forest]
+trees = [15]
+[grid.extra]
+trees = [15]
+[grid.boost]
+trees = [20]
+subsample = [0.7]
+[grid.nmf]
+k = [3]
+[grid.pls]
+k = [2]
+"#;
+
 fn fingerprint(threads: usize) -> Vec<(String, Vec<u64>)> {
-    let p = toy();
+    let p = prepared(CFG);
     let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
     let out = Mutex::new(Vec::new());
     let pool = rayon::ThreadPoolBuilder::new()
@@ -29,7 +65,7 @@ fn fingerprint(threads: usize) -> Vec<(String, Vec<u64>)> {
 fn one_and_two_threads_give_identical_bits() {
     let a = fingerprint(1);
     let b = fingerprint(2);
-    assert_eq!(a.len(), toy().space.specs.len());
+    assert_eq!(a.len(), prepared(CFG).space.specs.len());
     assert!(a == b, "threads 1 and 2 differ");
 }
 
@@ -38,16 +74,26 @@ fn spec_ids_are_stable_under_reordering() {
     let p = toy();
     let text =
         std::fs::read_to_string(crate::common::root().join("configs/toy-quick.toml")).unwrap();
-    let reordered = text
-        .replace(
-            "fill = [\"mean\", \"median\"]",
-            "fill = [\"median\", \"mean\"]",
-        )
-        .replace(
-            "model = [\"ols\", \"ridge\", \"tree\", \"forest\"]",
-            "model = [\"forest\", \"tree\", \"ridge\", \"ols\"]",
-        )
-        .replace("alpha = [0.1, 1.0, 10.0]", "alpha = [10, 1, 0.1]");
+    let edits = [
+        (
+            "fill = [\"median\", \"knn\"]",
+            "fill = [\"knn\", \"median\"]",
+        ),
+        (
+            "model = [\"ols\", \"ridge\", \"forest\", \"boost\"]",
+            "model = [\"boost\", \"forest\", \"ridge\", \"ols\"]",
+        ),
+        ("alpha = [1.0, 10.0]", "alpha = [10, 1]"),
+    ];
+    let mut reordered = text.clone();
+    for (from, to) in edits {
+        assert_eq!(
+            reordered.matches(from).count(),
+            1,
+            "the quick config still has `{from}`"
+        );
+        reordered = reordered.replace(from, to);
+    }
     assert_ne!(text, reordered);
     let cfg =
         forkmap::config::Config::from_toml(&reordered, &crate::common::root().join("configs"), "t")

@@ -33,6 +33,8 @@ pub struct Config {
     pub exclude: Vec<BTreeMap<String, OneOrMany>>,
     #[serde(default)]
     pub output: OutputSection,
+    /// Run a seeded random sample of the choice space instead of all of it.
+    pub sample: Option<SampleSection>,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -187,6 +189,13 @@ impl Default for FoldsSection {
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
+pub struct SampleSection {
+    /// Number of specs drawn (without replacement) from the full product.
+    pub specs: usize,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct OutputSection {
     /// Specs per Parquet part.
     #[serde(default = "default_batch")]
@@ -206,7 +215,7 @@ impl Default for OutputSection {
 }
 
 const TOP_KEYS: &[&str] = &[
-    "seed", "data", "folds", "choices", "pools", "grid", "exclude", "output",
+    "seed", "data", "folds", "choices", "pools", "grid", "exclude", "output", "sample",
 ];
 const DATA_KEYS: &[&str] = &[
     "file",
@@ -245,6 +254,7 @@ impl Config {
             .map_err(|e: toml::de::Error| err(e.to_string()))?;
         check_keys(&table, "", TOP_KEYS).map_err(&err)?;
         for (section, keys) in [
+            ("sample", &["specs"][..]),
             ("data", DATA_KEYS),
             ("folds", FOLD_KEYS),
             ("output", OUTPUT_KEYS),

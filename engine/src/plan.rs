@@ -86,7 +86,17 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
     }
     let specs = p.space.specs.len();
     let fits = specs * p.folds.n_fits_per_spec();
-    let _ = writeln!(t, "\nspecs   {specs}");
+    match p.space.sampled_from {
+        Some(total) => {
+            let _ = writeln!(
+                t,
+                "\nspecs   {specs} (a seeded random sample of the {total} specs in the space)"
+            );
+        }
+        None => {
+            let _ = writeln!(t, "\nspecs   {specs}");
+        }
+    }
     let _ = writeln!(
         t,
         "folds   {}: k = {}, repeats = {} -> {} fits per spec, {fits} model fits in all",
@@ -105,36 +115,56 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             "stage tree: {} distinct preparations, each fitted once per fold",
             sweep.n_stage_nodes()
         );
-        // Time up to 3 specs per model family on the first fold (stages refitted: an
-        // overestimate of the shared-stage run).
-        let mut by_family: BTreeMap<&str, Vec<usize>> = BTreeMap::new();
-        for (i, s) in p.space.specs.iter().enumerate() {
-            by_family
-                .entry(s.choice("model").option.as_str())
-                .or_default()
-                .push(i);
-        }
-        let mut total = 0.0;
-        let _ = writeln!(t, "\ntiming probe (first fold, up to 3 specs per family)");
-        for (fam, idx) in &by_family {
-            let picks: Vec<usize> = (0..3.min(idx.len()))
-                .map(|k| idx[k * idx.len() / 3.min(idx.len())])
-                .collect();
+        // Probe: run a seeded random ~2% of the specs (at least 12, at most 200) through
+        // the real sweep on `threads` threads and scale up. The probe shares fewer stages
+        // than the full run, so the estimate errs on the long side.
+        let n = p.space.specs.len();
+        let m = (n / 50).clamp(12, 200).min(n);
+        let mut subset: Vec<usize> = {
+            use rand::SeedableRng;
+            let mut rng =
+                rand_chacha::ChaCha8Rng::seed_from_u64(crate::folds::mix(p.cfg.seed, 0x0091_20BE));
+            rand::seq::index::sample(&mut rng, n, m).into_vec()
+        };
+        subset.sort_unstable();
+        let mut total = f64::NAN;
+        if let Ok(probe) = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&subset)) {
+            let model_secs: std::sync::Mutex<BTreeMap<String, (f64, usize)>> = Default::default();
             let t0 = Instant::now();
-            for &si in &picks {
-                let _ = sweep.fit_spec(si, 0);
+            let run = || {
+                probe.run(&|r| {
+                    if let Ok(mut g) = model_secs.lock() {
+                        let e = g
+                            .entry(p.space.specs[r.spec].choice("model").option.clone())
+                            .or_default();
+                        e.0 += r.seconds;
+                        e.1 += 1;
+                    }
+                })
+            };
+            match rayon::ThreadPoolBuilder::new()
+                .num_threads(threads.max(1))
+                .build()
+            {
+                Ok(pool) => pool.install(run),
+                Err(_) => run(),
             }
-            let per = t0.elapsed().as_secs_f64() / picks.len() as f64;
-            let fam_total = per * idx.len() as f64 * p.folds.n_fits_per_spec() as f64;
-            total += fam_total;
+            total = t0.elapsed().as_secs_f64() * n as f64 / m as f64;
             let _ = writeln!(
                 t,
-                "  {fam:<10} {:>5} specs x {:.4}s per fit",
-                idx.len(),
-                per
+                "\ntiming probe: {m} specs run in {:.2}s; model seconds per spec (all folds):",
+                t0.elapsed().as_secs_f64()
             );
+            let per_family = model_secs.into_inner().unwrap_or_default();
+            for (fam, (secs, count)) in &per_family {
+                let _ = writeln!(
+                    t,
+                    "  {fam:<10} {:.4}s ({count} probed)",
+                    secs / *count as f64
+                );
+            }
         }
-        estimate = total / threads.max(1) as f64;
+        estimate = total;
         let _ = writeln!(
             t,
             "estimated run time on {threads} thread(s): {}",

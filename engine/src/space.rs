@@ -166,6 +166,8 @@ pub struct ChoiceSpace {
     /// Exclusion rules as text, for plan and manifest.
     pub exclusion_rules: Vec<String>,
     pub warnings: Vec<String>,
+    /// When the specs are a seeded random sample: the size of the space sampled from.
+    pub sampled_from: Option<usize>,
 }
 
 fn space_err(cfg: &Config, msg: String) -> Error {
@@ -581,12 +583,37 @@ impl ChoiceSpace {
                 )));
             }
         }
+        let mut sampled_from = None;
+        if let Some(sample) = &cfg.sample {
+            if sample.specs == 0 {
+                return Err(space_err(cfg, "sample.specs must be at least 1".into()));
+            }
+            if sample.specs < specs.len() {
+                use rand::SeedableRng;
+                let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(crate::folds::mix(
+                    cfg.seed,
+                    0x5A4D_504C,
+                ));
+                let mut keep =
+                    rand::seq::index::sample(&mut rng, specs.len(), sample.specs).into_vec();
+                keep.sort_unstable();
+                sampled_from = Some(specs.len());
+                specs = keep.into_iter().map(|i| specs[i].clone()).collect();
+            } else {
+                warnings.push(format!(
+                    "sample.specs = {} is not below the {} specs of the space: all are run",
+                    sample.specs,
+                    specs.len()
+                ));
+            }
+        }
         Ok(ChoiceSpace {
             options,
             specs,
             excluded,
             exclusion_rules: rules,
             warnings,
+            sampled_from,
         })
     }
 
@@ -602,5 +629,47 @@ impl ChoiceSpace {
             }
         }
         out
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// `[grid.NAME]` tables are keyed by option name alone, so an option that takes
+    /// parameters must not share its name with an option of another dimension.
+    #[test]
+    fn parameterised_option_names_are_unique_across_dimensions() {
+        let mut seen: BTreeMap<&str, &str> = BTreeMap::new();
+        for dim in DIMENSIONS {
+            for o in options_of(dim) {
+                if o.params.is_empty() {
+                    continue;
+                }
+                if let Some(other) = seen.insert(o.name, dim) {
+                    panic!("option `{}` of {dim} clashes with {other}", o.name);
+                }
+            }
+        }
+        for dim in DIMENSIONS {
+            for o in options_of(dim) {
+                if let Some(other) = seen.get(o.name) {
+                    assert!(other == dim || o.params.is_empty(), "{}", o.name);
+                }
+            }
+        }
+        assert!(seen.len() >= 10);
+    }
+
+    #[test]
+    fn labels_sort_parameters_by_name() {
+        let c = Choice {
+            dim: "model",
+            option: "tree".into(),
+            params: vec![("min_leaf", 5.0), ("depth", 3.0)],
+            members: None,
+            digest: None,
+        };
+        assert_eq!(c.label(), "tree(depth=3,min_leaf=5)");
     }
 }

@@ -58,12 +58,27 @@ check("duckdb: group by model", len(top) >= 2)
 # pyarrow
 t = ds.dataset(os.path.join(run, "specs"), format="parquet").to_table()
 check("pyarrow: specs rows", t.num_rows == n_specs)
-for c in ["spec_id", "fill", "pool", "scale", "compress", "model", "weighting", "status", "mae", "rmse", "r2", "baseline_mae", "skill", "seconds"]:
+for c in ["spec_id", "transform", "fill", "pool", "scale", "compress", "model", "weighting", "status", "mae", "rmse", "r2", "baseline_mae", "skill", "top_quartile_mae", "unit_mae", "spearman", "seconds"]:
     check(f"pyarrow: specs column {c}", c in t.column_names)
 p = ds.dataset(os.path.join(run, "predictions"), format="parquet").to_table()
 check("pyarrow: predictions rows", p.num_rows == n_specs * rows)
 for c in ["spec_id", "unit", "wave", "observed", "predicted", "fold", "repeat"]:
     check(f"pyarrow: predictions column {c}", c in p.column_names)
+
+# Loadings: one block per compressed spec, none for uncompressed ones.
+loadings_glob = os.path.join(run, "loadings", "*.parquet")
+lc = con.execute(
+    f"""select count(distinct l.spec_id), count(distinct s.spec_id) filter (where s.compress <> 'none')
+        from '{specs_glob}' s left join '{loadings_glob}' l using (spec_id)"""
+).fetchone()
+check("duckdb: loadings for every compressed spec", lc[0] == lc[1] and lc[0] > 0, f"{lc}")
+bad = con.execute(
+    f"""select count(*) from '{loadings_glob}' l join '{specs_glob}' s using (spec_id)
+        where s.compress = 'none'"""
+).fetchone()[0]
+check("duckdb: no loadings for uncompressed specs", bad == 0)
+l = ds.dataset(os.path.join(run, "loadings"), format="parquet").to_table()
+check("pyarrow: loadings columns", l.column_names == ["spec_id", "component", "indicator", "loading"], f"{l.column_names}")
 
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)
