@@ -180,3 +180,30 @@ fn help_on_every_verb() {
         .unwrap();
     assert!(String::from_utf8_lossy(&st.stdout).contains("forkmap"));
 }
+
+/// Every shipped config parses (unknown keys would fail here); the toy ones also prepare.
+#[test]
+fn shipped_configs_parse_and_toy_ones_prepare() {
+    let dir = root().join("configs");
+    let mut n = 0;
+    for e in std::fs::read_dir(&dir).unwrap() {
+        let path = e.unwrap().path();
+        if path.extension().and_then(|x| x.to_str()) != Some("toml") {
+            continue;
+        }
+        let cfg = forkmap::config::Config::from_file(&path)
+            .unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+        if path
+            .file_name()
+            .unwrap()
+            .to_string_lossy()
+            .starts_with("toy-")
+        {
+            let p = forkmap::run::prepare_config(cfg)
+                .unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+            assert!(!p.space.specs.is_empty());
+        }
+        n += 1;
+    }
+    assert!(n >= 3, "configs found: {n}");
+}
