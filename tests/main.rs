@@ -7,5 +7,6 @@ mod common;
 mod determinism;
 mod end_to_end;
 mod folds_prop;
+mod importance;
 mod leak;
 mod reference;

@@ -35,6 +35,9 @@ pub struct Config {
     pub output: OutputSection,
     /// Run a seeded random sample of the choice space instead of all of it.
     pub sample: Option<SampleSection>,
+    /// Which importances every spec reports.
+    #[serde(default)]
+    pub importance: crate::importance::ImportanceSection,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -215,7 +218,16 @@ impl Default for OutputSection {
 }
 
 const TOP_KEYS: &[&str] = &[
-    "seed", "data", "folds", "choices", "pools", "grid", "exclude", "output", "sample",
+    "seed",
+    "data",
+    "folds",
+    "choices",
+    "pools",
+    "grid",
+    "exclude",
+    "output",
+    "sample",
+    "importance",
 ];
 const DATA_KEYS: &[&str] = &[
     "file",
@@ -255,6 +267,7 @@ impl Config {
         check_keys(&table, "", TOP_KEYS).map_err(&err)?;
         for (section, keys) in [
             ("sample", &["specs"][..]),
+            ("importance", &["repeats", "kinds"][..]),
             ("data", DATA_KEYS),
             ("folds", FOLD_KEYS),
             ("output", OUTPUT_KEYS),
@@ -294,6 +307,15 @@ impl Config {
         cfg.source = source.to_string();
         if cfg.folds.repeats == 0 {
             return Err(err("folds.repeats must be at least 1".into()));
+        }
+        for k in &cfg.importance.kinds {
+            if !crate::importance::KINDS.contains(&k.as_str()) {
+                return Err(err(format!(
+                    "importance.kinds: unknown kind `{k}`{}; kinds: {}",
+                    suggest(k, crate::importance::KINDS.iter().copied()),
+                    crate::importance::KINDS.join(", ")
+                )));
+            }
         }
         if cfg.output.batch_specs == 0 {
             return Err(err("output.batch_specs must be at least 1".into()));

@@ -8,6 +8,7 @@
 pub mod config;
 pub mod error;
 pub mod folds;
+pub mod importance;
 pub mod metrics;
 pub mod models;
 pub mod panel;

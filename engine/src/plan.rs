@@ -105,6 +105,29 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
         p.folds.repeats,
         p.folds.n_fits_per_spec()
     );
+    let imp = &p.cfg.importance;
+    if imp.wants("permutation") || imp.wants("group") {
+        let per_fold = imp.repeats
+            * (if imp.wants("permutation") {
+                p.panel.indicators.len()
+            } else {
+                0
+            } + if imp.wants("group") {
+                p.panel.groups().len()
+            } else {
+                0
+            });
+        let _ = writeln!(
+            t,
+            "importance: {} x {} repeat(s) -> up to {} extra pipeline predictions per spec ({} per fold); the timing probe includes them",
+            imp.kinds.join(", "),
+            imp.repeats,
+            per_fold * p.folds.n_fits_per_spec(),
+            per_fold
+        );
+    } else if imp.wants("native") {
+        let _ = writeln!(t, "importance: native only (no extra fits)");
+    }
     let mut estimate = f64::NAN;
     if let (true, Ok(sweep)) = (
         probe,
@@ -128,7 +151,8 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
         };
         subset.sort_unstable();
         let mut total = f64::NAN;
-        if let Ok(probe) = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&subset)) {
+        if let Ok(mut probe) = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&subset)) {
+            probe.importance = Some(p.cfg.importance.clone());
             let model_secs: std::sync::Mutex<BTreeMap<String, (f64, usize)>> = Default::default();
             let t0 = Instant::now();
             let run = || {

@@ -139,7 +139,8 @@ fn manifest(
 
 /// Run every spec of `p` into `out`.
 pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSummary> {
-    let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None)?;
+    let mut sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None)?;
+    sweep.importance = Some(p.cfg.importance.clone());
     let sha = sha256_file(&p.data_path)?;
     let created = check_out_dir(out)?;
     let started = chrono::Utc::now().to_rfc3339();

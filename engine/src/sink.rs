@@ -21,7 +21,7 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 /// Names of the output tables (one folder each under the run directory).
-pub const TABLES: &[&str] = &["specs", "predictions", "loadings"];
+pub const TABLES: &[&str] = &["specs", "predictions", "loadings", "importance"];
 
 pub struct ParquetSink<'a> {
     dir: PathBuf,
@@ -136,6 +136,8 @@ impl<'a> ParquetSink<'a> {
         write_parquet_atomic(&self.dir.join("predictions"), &name, &preds)?;
         let loadings = self.loadings_batch()?;
         write_parquet_atomic(&self.dir.join("loadings"), &name, &loadings)?;
+        let importance = self.importance_batch()?;
+        write_parquet_atomic(&self.dir.join("importance"), &name, &importance)?;
         let specs = self.specs_batch()?;
         write_parquet_atomic(&self.dir.join("specs"), &name, &specs)?;
         self.written_specs += self.buffer.len();
@@ -209,7 +211,61 @@ impl<'a> ParquetSink<'a> {
         cols.push(Arc::new(Float64Array::from_iter_values(
             rs.iter().map(|r| r.seconds),
         )));
+        fields.push(Field::new("importance_seconds", DataType::Float64, false));
+        cols.push(Arc::new(Float64Array::from_iter_values(
+            rs.iter().map(|r| r.importance_seconds),
+        )));
         RecordBatch::try_new(Arc::new(Schema::new(fields)), cols).map_err(|e| self.batch_err(e))
+    }
+
+    fn importance_batch(&self) -> Result<RecordBatch> {
+        let n: usize = self.buffer.iter().map(|r| r.importance.len()).sum();
+        let mut id = Vec::with_capacity(n);
+        let (mut name, mut level, mut kind) = (
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+        );
+        let (mut imp, mut spread, mut rank, mut in_pool) = (
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+        );
+        for r in &self.buffer {
+            let sid = self.space.specs[r.spec].id.as_str();
+            for row in &r.importance {
+                id.push(sid);
+                name.push(&*row.name);
+                level.push(row.level);
+                kind.push(row.kind);
+                imp.push(row.importance);
+                spread.push(row.spread);
+                rank.push(row.rank as i32);
+                in_pool.push(row.in_pool);
+            }
+        }
+        let schema = Schema::new(vec![
+            Field::new("spec_id", DataType::Utf8, false),
+            Field::new("indicator", DataType::Utf8, false),
+            Field::new("level", DataType::Utf8, false),
+            Field::new("kind", DataType::Utf8, false),
+            Field::new("importance", DataType::Float64, false),
+            Field::new("spread", DataType::Float64, false),
+            Field::new("rank", DataType::Int32, false),
+            Field::new("in_pool", DataType::Boolean, false),
+        ]);
+        let cols: Vec<ArrayRef> = vec![
+            Arc::new(StringArray::from(id)),
+            Arc::new(StringArray::from(name)),
+            Arc::new(StringArray::from(level)),
+            Arc::new(StringArray::from(kind)),
+            Arc::new(Float64Array::from(imp)),
+            Arc::new(Float64Array::from(spread)),
+            Arc::new(Int32Array::from(rank)),
+            Arc::new(arrow_array::BooleanArray::from(in_pool)),
+        ];
+        RecordBatch::try_new(Arc::new(schema), cols).map_err(|e| self.batch_err(e))
     }
 
     fn loadings_batch(&self) -> Result<RecordBatch> {

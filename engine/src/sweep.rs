@@ -59,6 +59,10 @@ pub struct SpecResult {
     /// Wall seconds spent fitting and predicting this spec's models (stages excluded).
     pub seconds: f64,
     pub predictions: Vec<Prediction>,
+    /// Importance rows (empty when importances are off or the spec failed).
+    pub importance: Vec<crate::importance::ImportanceRow>,
+    /// Wall seconds spent on importances.
+    pub importance_seconds: f64,
 }
 
 /// Components x indicators loadings of a compression.
@@ -152,6 +156,8 @@ pub struct Sweep<'a> {
     pub audit: Option<Arc<dyn Audit>>,
     /// Also fit each compression on all rows and report its loadings (default true).
     pub describe: bool,
+    /// Importances to compute per spec (none by default; `run` sets the config's).
+    pub importance: Option<crate::importance::ImportanceSection>,
     roots: Vec<TargetNode>,
     models: Vec<Arc<dyn Regressor>>,
     ctx: Vec<FoldCtx>,
@@ -259,6 +265,7 @@ impl<'a> Sweep<'a> {
             seed,
             audit: None,
             describe: true,
+            importance: None,
             roots,
             models,
             ctx,
@@ -410,6 +417,8 @@ impl<'a> Sweep<'a> {
                         scores: None,
                         seconds: 0.0,
                         predictions: Vec::new(),
+                        importance: Vec::new(),
+                        importance_seconds: 0.0,
                     });
                 }
                 return;
@@ -478,6 +487,10 @@ impl<'a> Sweep<'a> {
         let mut obs = Vec::with_capacity(n_pred);
         let mut base = Vec::with_capacity(n_pred);
         let mut units = Vec::with_capacity(n_pred);
+        let mut imp = self.importance.as_ref().map(|cfg| {
+            crate::importance::Accumulator::new(self.panel, &self.space.specs[si], cfg, self.seed)
+        });
+        let mut imp_seconds = 0.0;
         for (fi, st) in states.iter().enumerate() {
             let fold = &self.folds.folds[fi];
             let out = self.fit_fold(si, fi, st).and_then(|m| {
@@ -487,11 +500,31 @@ impl<'a> Sweep<'a> {
                         "non-finite prediction for row {}",
                         fold.test[k] + 1
                     ))),
-                    None => Ok(p),
+                    None => Ok((m, p)),
                 }
             });
             match out {
-                Ok(p) => {
+                Ok((m, p)) => {
+                    if let Some(acc) = imp.as_mut() {
+                        let ti = Instant::now();
+                        let r = guarded(|| {
+                            acc.add_fold(
+                                fi,
+                                &st.chain,
+                                m.as_ref(),
+                                st.target.as_ref(),
+                                &st.names,
+                                st.train.view(),
+                                &fold.test,
+                                &p,
+                            );
+                            Ok(())
+                        });
+                        if r.is_err() {
+                            imp = None;
+                        }
+                        imp_seconds += ti.elapsed().as_secs_f64();
+                    }
                     for (k, &row) in fold.test.iter().enumerate() {
                         preds.push(Prediction {
                             row: row as u32,
@@ -516,6 +549,8 @@ impl<'a> Sweep<'a> {
                         scores: None,
                         seconds: t0.elapsed().as_secs_f64(),
                         predictions: Vec::new(),
+                        importance: Vec::new(),
+                        importance_seconds: 0.0,
                     }
                 }
             }
@@ -527,8 +562,10 @@ impl<'a> Sweep<'a> {
             status: "ok",
             message: None,
             scores: Some(Scores::compute(&obs, &values, &base, &units)),
-            seconds: t0.elapsed().as_secs_f64(),
+            seconds: t0.elapsed().as_secs_f64() - imp_seconds,
             predictions: preds,
+            importance: imp.map(|a| a.finish()).unwrap_or_default(),
+            importance_seconds: imp_seconds,
         }
     }
 

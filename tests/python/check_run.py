@@ -80,5 +80,21 @@ check("duckdb: no loadings for uncompressed specs", bad == 0)
 l = ds.dataset(os.path.join(run, "loadings"), format="parquet").to_table()
 check("pyarrow: loadings columns", l.column_names == ["spec_id", "component", "indicator", "loading"], f"{l.column_names}")
 
+# Importances: every ok spec has permutation rows for every indicator; ranks are 1..n.
+imp_glob = os.path.join(run, "importance", "*.parquet")
+n_ind = manifest["indicators"]
+bad = con.execute(
+    f"""select count(*) from (select spec_id, count(*) c, min(rank) lo, max(rank) hi
+        from '{imp_glob}' where level = 'indicator' and kind = 'permutation' group by 1)
+        where c <> {n_ind} or lo <> 1 or hi <> {n_ind}"""
+).fetchone()[0]
+check("duckdb: permutation importance per indicator, ranks 1..n", bad == 0, f"{bad} specs off")
+cov = con.execute(f"select count(distinct spec_id) from '{imp_glob}'").fetchone()[0]
+check("duckdb: importances for every spec", cov == n_specs, f"{cov}")
+oop = con.execute(f"select count(*) from '{imp_glob}' where not in_pool and importance <> 0").fetchone()[0]
+check("duckdb: out-of-pool indicators have importance 0", oop == 0)
+it = ds.dataset(os.path.join(run, "importance"), format="parquet").to_table()
+check("pyarrow: importance columns", it.column_names == ["spec_id", "indicator", "level", "kind", "importance", "spread", "rank", "in_pool"], f"{it.column_names}")
+
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)

@@ -156,6 +156,11 @@ oof_case("nearest_5", lambda s: KNeighborsRegressor(n_neighbors=5))
 boost20 = GradientBoostingRegressor(n_estimators=20, learning_rate=0.1, max_depth=3, min_samples_leaf=5, random_state=0).fit(X, y)
 oof_case("forest_300_tried0.3_leaf3", lambda s: RandomForestRegressor(n_estimators=300, max_features=0.3, min_samples_leaf=3, random_state=s), seeds=range(5))
 oof_case("extra_300_tried1_leaf3", lambda s: ExtraTreesRegressor(n_estimators=300, max_features=1.0, min_samples_leaf=3, random_state=s), seeds=range(5))
+# Permutation importance of a ridge fitted on all rows, scored in sample (neg MSE).
+from sklearn.inspection import permutation_importance
+
+rp = Ridge(alpha=0.1).fit(X, y)
+pi = permutation_importance(rp, X, y, scoring="neg_mean_squared_error", n_repeats=30, random_state=0)
 # Principal components of the diabetes features by numpy's SVD.
 Xc = X - X.mean(axis=0)
 s = np.linalg.svd(Xc, compute_uv=False)
@@ -169,7 +174,9 @@ dump(
         "y": y.tolist(),
         "weights": weights.tolist(),
                 "ridge": ridge,
-                        "sparse": sparse,
+                                "sparse": sparse,
+        "feature_names": list(load_diabetes().feature_names),
+        "ridge_permutation_importance": {"mean": pi.importances_mean.tolist(), "std": pi.importances_std.tolist()},
                 "oof": oof,
         "boost20_in_sample": boost20.predict(X).tolist(),
         "pls": pls,

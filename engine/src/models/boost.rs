@@ -94,6 +94,12 @@ impl Predictor for Boost {
         }
         out
     }
+    fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
+        Some((
+            "impurity",
+            super::ensemble_impurity(&self.trees, x_train.ncols()),
+        ))
+    }
 }
 
 impl Regressor for BoostParams {

@@ -67,6 +67,12 @@ impl Predictor for Extra {
         }
         out / self.trees.len() as f64
     }
+    fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
+        Some((
+            "impurity",
+            super::ensemble_impurity(&self.trees, x_train.ncols()),
+        ))
+    }
 }
 
 impl Regressor for ExtraParams {

@@ -67,6 +67,22 @@ impl Predictor for Linear {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
         x.dot(&self.coef) + self.intercept
     }
+    /// |coefficient| x training sd of its column: the change in prediction per training
+    /// standard deviation (a standardised coefficient).
+    fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
+        let n = x_train.nrows().max(1) as f64;
+        let v = x_train
+            .columns()
+            .into_iter()
+            .zip(self.coef.iter())
+            .map(|(c, b)| {
+                let m = c.sum() / n;
+                let sd = (c.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / n).sqrt();
+                (b * sd).abs()
+            })
+            .collect();
+        Some(("coefficient", v))
+    }
 }
 
 /// Weighted column means of X, weighted mean of y, and the centred X and y.

@@ -36,6 +36,33 @@ pub trait Regressor: Send + Sync {
 /// A fitted model.
 pub trait Predictor: Send + Sync {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64>;
+    /// The family's own importance of each input column, with its kind (`coefficient`,
+    /// `impurity`); `x_train` are the rows the model was fitted on. `None` when the family
+    /// has none.
+    fn native(&self, _x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
+        None
+    }
+}
+
+/// Scale non-negative values to sum 1 (all zeros stay zeros).
+pub fn normalise(v: Vec<f64>) -> Vec<f64> {
+    let s: f64 = v.iter().sum();
+    if s > 0.0 {
+        v.into_iter().map(|x| x / s).collect()
+    } else {
+        v
+    }
+}
+
+/// Mean of per-tree normalised impurity importances (scikit-learn's ensemble convention).
+pub fn ensemble_impurity(trees: &[tree::Tree], p: usize) -> Vec<f64> {
+    let mut acc = vec![0.0; p];
+    for t in trees {
+        for (a, v) in acc.iter_mut().zip(normalise(t.impurity(p))) {
+            *a += v;
+        }
+    }
+    normalise(acc)
 }
 
 /// A registered family.

@@ -65,6 +65,8 @@ struct Node {
     left: u32,
     right: u32,
     value: f64,
+    /// Weighted squared-error reduction of the split (0 at leaves).
+    gain: f64,
 }
 
 /// A fitted tree.
@@ -96,6 +98,17 @@ impl Tree {
             .map(|n| (n.feature, n.threshold))
             .collect()
     }
+    /// Impurity decrease per feature (`p` features), summed over splits.
+    pub fn impurity(&self, p: usize) -> Vec<f64> {
+        let mut v = vec![0.0; p];
+        for n in &self.nodes {
+            if n.feature != usize::MAX && n.feature < p {
+                v[n.feature] += n.gain;
+            }
+        }
+        v
+    }
+
     pub fn n_leaves(&self) -> usize {
         self.nodes
             .iter()
@@ -107,6 +120,9 @@ impl Tree {
 impl Predictor for Tree {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
         x.rows().into_iter().map(|r| self.predict_row(r)).collect()
+    }
+    fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
+        Some(("impurity", super::normalise(self.impurity(x_train.ncols()))))
     }
 }
 
@@ -156,6 +172,7 @@ pub fn grow<R: Rng>(
         left: 0,
         right: 0,
         value: leaf_value(&rows),
+        gain: 0.0,
     });
     stack.push((0, rows, 0));
     let mut order: Vec<usize> = Vec::new();
@@ -271,6 +288,7 @@ pub fn grow<R: Rng>(
             left: 0,
             right: 0,
             value: leaf_value(&l),
+            gain: 0.0,
         });
         let ri = nodes.len();
         nodes.push(Node {
@@ -279,6 +297,7 @@ pub fn grow<R: Rng>(
             left: 0,
             right: 0,
             value: leaf_value(&r),
+            gain: 0.0,
         });
         nodes[ni] = Node {
             feature: f,
@@ -286,6 +305,7 @@ pub fn grow<R: Rng>(
             left: li as u32,
             right: ri as u32,
             value: nodes[ni].value,
+            gain,
         };
         // Right pushed first so the left subtree is grown first (deterministic order).
         stack.push((ri, r, depth + 1));

@@ -304,14 +304,44 @@ impl Fitted for FittedFill {
         let kept = x.select(Axis(1), &self.keep);
         let p = self.keep.len();
         let mut out = Array2::zeros((x.nrows(), p + self.flagged.len()));
+        // Nan-euclidean distances of every row with gaps to every donor, by matrix
+        // products over the present-value masks:
+        //   sum over coordinates present in both of (a - d)^2
+        //     = (a0^2) . Nd^T + Ma . (d0^2)^T - 2 a0 . d0^T,  count = Ma . Nd^T,
+        // with a0, d0 the values with gaps set to 0 and Ma, Nd the 0/1 present masks.
+        let dists: Option<(Vec<usize>, Array2<f64>)> = self.donors.as_ref().map(|(d, _)| {
+            let gap_rows: Vec<usize> = (0..kept.nrows())
+                .filter(|&i| kept.row(i).iter().any(|v| v.is_nan()))
+                .collect();
+            let a = kept.select(Axis(0), &gap_rows);
+            let a0 = a.mapv(|v| if v.is_nan() { 0.0 } else { v });
+            let ma = a.mapv(|v| if v.is_nan() { 0.0 } else { 1.0 });
+            let d0 = d.mapv(|v| if v.is_nan() { 0.0 } else { v });
+            let nd = d.mapv(|v| if v.is_nan() { 0.0 } else { 1.0 });
+            let s = (&a0 * &a0).dot(&nd.t()) + ma.dot(&(&d0 * &d0).t()) - 2.0 * a0.dot(&d0.t());
+            let c = ma.dot(&nd.t());
+            let pf = p as f64;
+            let dist = ndarray::Zip::from(&s).and(&c).map_collect(|s, c| {
+                if *c > 0.0 {
+                    (pf / c * s.max(0.0)).sqrt()
+                } else {
+                    f64::NAN
+                }
+            });
+            (gap_rows, dist)
+        });
+        let mut gap_pos = 0usize;
         for (i, row) in kept.axis_iter(Axis(0)).enumerate() {
-            // Distances to every donor, once per row that has gaps.
-            let dist: Option<Vec<Option<f64>>> = match &self.donors {
-                Some((d, _)) if row.iter().any(|v| v.is_nan()) => Some(
-                    d.axis_iter(Axis(0))
-                        .map(|r| nan_euclidean(row, r))
-                        .collect(),
-                ),
+            let dist: Option<Vec<Option<f64>>> = match &dists {
+                Some((rows, dm)) if gap_pos < rows.len() && rows[gap_pos] == i => {
+                    gap_pos += 1;
+                    Some(
+                        dm.row(gap_pos - 1)
+                            .iter()
+                            .map(|v| (!v.is_nan()).then_some(*v))
+                            .collect(),
+                    )
+                }
                 _ => None,
             };
             for j in 0..p {
@@ -324,8 +354,13 @@ impl Fitted for FittedFill {
                         .enumerate()
                         .filter_map(|(r, dd)| dd.filter(|_| !d[[r, j]].is_nan()).map(|dd| (dd, r)))
                         .collect();
-                    cand.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-                    cand.truncate(*k);
+                    // The k nearest by (distance, row): a partial selection suffices.
+                    if cand.len() > *k {
+                        cand.select_nth_unstable_by(*k - 1, |a, b| {
+                            a.0.total_cmp(&b.0).then(a.1.cmp(&b.1))
+                        });
+                        cand.truncate(*k);
+                    }
                     if cand.is_empty() {
                         self.values[j]
                     } else {

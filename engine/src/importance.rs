@@ -1,0 +1,353 @@
+//! Importances on the user's own indicators, whatever compression sits in between.
+//!
+//! * `permutation` (level `indicator`): for each fold, the fold's fitted pipeline (fill,
+//!   pool, scale, compress, model and back-transform) predicts its own test rows again
+//!   with indicator j's values replaced by values drawn, by a seeded permutation, from
+//!   j's column over all rows (gaps included, so the fill stage sees them). Importance =
+//!   mean squared error of the pooled out-of-fold predictions with j permuted minus
+//!   without, averaged over `repeats` draws; `spread` is the standard deviation over the
+//!   draws. For a linear model y = x b + e with independent indicators this has
+//!   expectation 2 b_j^2 var(x_j): the permuted column x'_j is independent of everything,
+//!   so the prediction error gains b_j (x_j - x'_j), whose variance is 2 b_j^2 var(x_j).
+//! * `permutation` (level `group`): the same with every indicator of a codebook group
+//!   permuted by one shared row permutation, so collinear indicators share credit.
+//! * `coefficient` / `impurity` (native): the model's own importance of its input
+//!   columns (|coefficient| x training sd; impurity decrease normalised to sum 1),
+//!   averaged over folds. A missingness flag counts for its indicator; a component's
+//!   importance is spread over indicators in proportion to their absolute loadings.
+//!
+//! Indicators outside a spec's pool get importance 0 and `in_pool = false`.
+
+use crate::folds::mix;
+use crate::models::Predictor;
+use crate::panel::Panel;
+use crate::space::Spec;
+use crate::stages::fill::FLAG_SUFFIX;
+use crate::stages::Fitted;
+use crate::transform::Target;
+use ndarray::{Array1, Array2, ArrayView2, Axis};
+use rand::seq::SliceRandom;
+use rand::SeedableRng;
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use std::sync::Arc;
+
+/// `[importance]` settings.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ImportanceSection {
+    /// Permutation draws per indicator and fold (0 turns the permutation kinds off).
+    #[serde(default = "default_repeats")]
+    pub repeats: usize,
+    /// Which kinds: `permutation`, `group`, `native`.
+    #[serde(default = "default_kinds")]
+    pub kinds: Vec<String>,
+}
+
+fn default_repeats() -> usize {
+    3
+}
+fn default_kinds() -> Vec<String> {
+    vec!["permutation".into(), "group".into(), "native".into()]
+}
+
+impl Default for ImportanceSection {
+    fn default() -> Self {
+        ImportanceSection {
+            repeats: default_repeats(),
+            kinds: default_kinds(),
+        }
+    }
+}
+
+pub const KINDS: &[&str] = &["permutation", "group", "native"];
+
+impl ImportanceSection {
+    pub fn wants(&self, kind: &str) -> bool {
+        self.kinds.iter().any(|k| k == kind) && (kind == "native" || self.repeats > 0)
+    }
+}
+
+/// One row of the importance table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ImportanceRow {
+    pub name: Arc<str>,
+    /// `indicator` or `group`.
+    pub level: &'static str,
+    pub kind: &'static str,
+    pub importance: f64,
+    pub spread: f64,
+    pub rank: u32,
+    pub in_pool: bool,
+}
+
+/// Everything a fold contributes, gathered while the spec runs.
+pub struct Accumulator<'a> {
+    panel: &'a Panel,
+    cfg: &'a ImportanceSection,
+    stream: u64,
+    /// Indicators in the pool (panel column indices).
+    pool: Vec<usize>,
+    groups: Vec<(String, Vec<usize>)>,
+    sse_ind: BTreeMap<usize, Vec<f64>>,
+    sse_grp: Vec<Vec<f64>>,
+    sse_base: f64,
+    n: usize,
+    native_kind: Option<&'static str>,
+    native_sum: Vec<f64>,
+    native_folds: usize,
+}
+
+/// Predict raw indicator rows through a fitted chain, model and back-transform.
+pub fn predict_raw(
+    chain: &[Arc<dyn Fitted>],
+    model: &dyn Predictor,
+    target: &dyn Target,
+    x: ArrayView2<f64>,
+) -> Array1<f64> {
+    let mut cur = x.to_owned();
+    for st in chain {
+        cur = st.apply(cur.view());
+    }
+    model.predict(cur.view()).mapv(|z| target.inverse(z))
+}
+
+fn indicator_of(name: &str) -> &str {
+    name.strip_suffix(FLAG_SUFFIX).unwrap_or(name)
+}
+
+impl<'a> Accumulator<'a> {
+    pub fn new(panel: &'a Panel, spec: &Spec, cfg: &'a ImportanceSection, seed: u64) -> Self {
+        let pool: Vec<usize> = match &spec.choice("pool").members {
+            Some(m) => m.to_vec(),
+            None => (0..panel.indicators.len()).collect(),
+        };
+        let groups: Vec<(String, Vec<usize>)> = panel.groups().into_iter().collect();
+        let r = cfg.repeats;
+        Accumulator {
+            panel,
+            cfg,
+            stream: mix(seed, spec.stream()),
+            sse_ind: pool.iter().map(|&j| (j, vec![0.0; r])).collect(),
+            sse_grp: vec![vec![0.0; r]; groups.len()],
+            pool,
+            groups,
+            sse_base: 0.0,
+            n: 0,
+            native_kind: None,
+            native_sum: vec![0.0; panel.indicators.len()],
+            native_folds: 0,
+        }
+    }
+
+    fn draw(&self, fi: usize, key: u64, r: usize) -> Vec<usize> {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(mix(
+            mix(self.stream, fi as u64 + 1),
+            key * 1_000 + r as u64,
+        ));
+        let mut perm: Vec<usize> = (0..self.panel.n_rows()).collect();
+        perm.shuffle(&mut rng);
+        perm
+    }
+
+    fn sse(&self, pred: &Array1<f64>, test: &[usize]) -> f64 {
+        pred.iter()
+            .zip(test)
+            .map(|(p, &i)| (self.panel.y[i] - p).powi(2))
+            .sum()
+    }
+
+    /// Add one fold: its fitted chain and model, names of the model's input columns, the
+    /// model's training rows, the test rows and their unpermuted predictions.
+    #[allow(clippy::too_many_arguments)]
+    pub fn add_fold(
+        &mut self,
+        fi: usize,
+        chain: &[Arc<dyn Fitted>],
+        model: &dyn Predictor,
+        target: &dyn Target,
+        input_names: &[String],
+        x_train: ArrayView2<f64>,
+        test: &[usize],
+        pred: &Array1<f64>,
+    ) {
+        self.sse_base += self.sse(pred, test);
+        self.n += test.len();
+        let raw = self.panel.x.select(Axis(0), test);
+        let permute = |cols: &[usize], perm: &[usize]| -> Array2<f64> {
+            let mut x = raw.clone();
+            for &j in cols {
+                for (k, row) in perm.iter().take(test.len()).enumerate() {
+                    x[[k, j]] = self.panel.x[[*row, j]];
+                }
+            }
+            x
+        };
+        if self.cfg.wants("permutation") {
+            for &j in &self.pool {
+                for r in 0..self.cfg.repeats {
+                    let perm = self.draw(fi, j as u64 + 1, r);
+                    let p = predict_raw(chain, model, target, permute(&[j], &perm).view());
+                    let s = self.sse(&p, test);
+                    if let Some(v) = self.sse_ind.get_mut(&j) {
+                        v[r] += s;
+                    }
+                }
+            }
+        }
+        if self.cfg.wants("group") {
+            for g in 0..self.groups.len() {
+                let members: Vec<usize> = self.groups[g]
+                    .1
+                    .iter()
+                    .copied()
+                    .filter(|j| self.pool.contains(j))
+                    .collect();
+                if members.is_empty() {
+                    continue;
+                }
+                // A one-indicator group draws exactly as its indicator does.
+                let key = if members.len() == 1 {
+                    members[0] as u64 + 1
+                } else {
+                    1_000_000 + g as u64
+                };
+                for r in 0..self.cfg.repeats {
+                    let perm = self.draw(fi, key, r);
+                    let p = predict_raw(chain, model, target, permute(&members, &perm).view());
+                    self.sse_grp[g][r] += self.sse(&p, test);
+                }
+            }
+        }
+        if self.cfg.wants("native") {
+            if let Some((kind, v)) = model.native(x_train) {
+                self.native_kind = Some(kind);
+                self.native_folds += 1;
+                let loadings = chain.last().and_then(|s| s.loadings());
+                for (c, imp) in v.iter().enumerate() {
+                    match &loadings {
+                        Some((l, names)) => {
+                            let total: f64 = l.row(c).iter().map(|x| x.abs()).sum();
+                            if total > 0.0 {
+                                for (q, name) in names.iter().enumerate() {
+                                    if let Some(j) = self.panel.indicator_index(indicator_of(name))
+                                    {
+                                        self.native_sum[j] += imp * l[[c, q]].abs() / total;
+                                    }
+                                }
+                            }
+                        }
+                        None => {
+                            if let Some(j) = input_names
+                                .get(c)
+                                .and_then(|n| self.panel.indicator_index(indicator_of(n)))
+                            {
+                                self.native_sum[j] += imp;
+                            }
+                        }
+                    }
+                }
+            }
+        }
+    }
+
+    /// The rows of this spec, ranks filled in.
+    pub fn finish(self) -> Vec<ImportanceRow> {
+        let n = self.n.max(1) as f64;
+        let base = self.sse_base / n;
+        let summarise = |v: &[f64]| -> (f64, f64) {
+            let d: Vec<f64> = v.iter().map(|s| s / n - base).collect();
+            let m = d.iter().sum::<f64>() / d.len().max(1) as f64;
+            let sd = if d.len() > 1 {
+                (d.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (d.len() - 1) as f64).sqrt()
+            } else {
+                0.0
+            };
+            (m, sd)
+        };
+        let names: Vec<Arc<str>> = self
+            .panel
+            .indicators
+            .iter()
+            .map(|s| Arc::from(s.as_str()))
+            .collect();
+        let mut out = Vec::new();
+        let mut block = |level: &'static str, kind: &'static str, mut rows: Vec<ImportanceRow>| {
+            rows.sort_by(|a, b| {
+                b.importance
+                    .total_cmp(&a.importance)
+                    .then(b.in_pool.cmp(&a.in_pool))
+                    .then(a.name.cmp(&b.name))
+            });
+            for (k, r) in rows.iter_mut().enumerate() {
+                r.rank = k as u32 + 1;
+                r.level = level;
+                r.kind = kind;
+            }
+            out.extend(rows);
+        };
+        let row = |name: Arc<str>, importance: f64, spread: f64, in_pool: bool| ImportanceRow {
+            name,
+            level: "",
+            kind: "",
+            importance,
+            spread,
+            rank: 0,
+            in_pool,
+        };
+        if self.cfg.wants("permutation") {
+            let rows = (0..names.len())
+                .map(|j| match self.sse_ind.get(&j) {
+                    Some(v) => {
+                        let (m, sd) = summarise(v);
+                        row(names[j].clone(), m, sd, true)
+                    }
+                    None => row(names[j].clone(), 0.0, 0.0, false),
+                })
+                .collect();
+            block("indicator", "permutation", rows);
+        }
+        if self.cfg.wants("group") && !self.groups.is_empty() {
+            let rows = self
+                .groups
+                .iter()
+                .enumerate()
+                .map(|(g, (name, members))| {
+                    let in_pool = members.iter().any(|j| self.pool.contains(j));
+                    let (m, sd) = if in_pool {
+                        summarise(&self.sse_grp[g])
+                    } else {
+                        (0.0, 0.0)
+                    };
+                    row(Arc::from(name.as_str()), m, sd, in_pool)
+                })
+                .collect();
+            block("group", "permutation", rows);
+        }
+        if let (true, Some(kind)) = (self.cfg.wants("native"), self.native_kind) {
+            let f = self.native_folds.max(1) as f64;
+            let vals: Vec<f64> = self.native_sum.iter().map(|v| v / f).collect();
+            let rows = (0..names.len())
+                .map(|j| row(names[j].clone(), vals[j], 0.0, self.pool.contains(&j)))
+                .collect();
+            block("indicator", kind, rows);
+            if !self.groups.is_empty() {
+                let rows = self
+                    .groups
+                    .iter()
+                    .map(|(name, members)| {
+                        let in_pool = members.iter().any(|j| self.pool.contains(j));
+                        row(
+                            Arc::from(name.as_str()),
+                            members.iter().map(|&j| vals[j]).sum(),
+                            0.0,
+                            in_pool,
+                        )
+                    })
+                    .collect();
+                block("group", kind, rows);
+            }
+        }
+        out
+    }
+}
