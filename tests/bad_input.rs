@@ -256,6 +256,31 @@ fn cases() -> Vec<Case> {
             expect: &["indicator `x3` is missing in every row"],
         },
         Case {
+            name: "percent outcome out of range",
+            csv: Some(edit(&|l| {
+                let mut f: Vec<String> = l[6].split(',').map(String::from).collect();
+                f[2] = "120".into();
+                l[6] = f.join(",");
+            })),
+            cfg: GOOD_CFG.replace(
+                "outcome = \"y\"",
+                "outcome = \"y\"\noutcome_kind = \"percent\"",
+            ),
+            expect: &["row 6 (line 7)", "outcome `y` is 120", "[0, 100]"],
+        },
+        Case {
+            name: "logit without a bounded outcome",
+            csv: Some(good.clone()),
+            cfg: GOOD_CFG.replace("[choices]", "[choices]\ntransform = [\"logit\"]"),
+            expect: &["choices.transform", "logit", "outcome_kind"],
+        },
+        Case {
+            name: "unknown importance kind",
+            csv: Some(good.clone()),
+            cfg: cfg_with("[importance]\nkinds = [\"permutaton\"]\n"),
+            expect: &["importance.kinds", "did you mean `permutation`"],
+        },
+        Case {
             name: "missing config section",
             csv: Some(good.clone()),
             cfg: "[folds]\nk = 3\n".into(),

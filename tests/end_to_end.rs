@@ -207,3 +207,77 @@ fn shipped_configs_parse_and_toy_ones_prepare() {
     }
     assert!(n >= 3, "configs found: {n}");
 }
+
+/// The same panel read from Parquet (written here with arrow's writer) and from CSV gives
+/// the same specs and the same predictions.
+#[test]
+fn parquet_data_reads_like_csv() {
+    use arrow_array::{ArrayRef, Float64Array, RecordBatch, StringArray};
+    use std::sync::Arc;
+    let p = crate::common::toy();
+    let tmp = tempfile::tempdir().unwrap();
+    let mut fields = vec![
+        arrow_schema::Field::new("district", arrow_schema::DataType::Utf8, false),
+        arrow_schema::Field::new("wave", arrow_schema::DataType::Utf8, false),
+        arrow_schema::Field::new("hardship_pct", arrow_schema::DataType::Float64, false),
+    ];
+    let mut cols: Vec<ArrayRef> = vec![
+        Arc::new(StringArray::from_iter_values(
+            p.panel.row_unit.iter().map(|&u| p.panel.units[u].clone()),
+        )),
+        Arc::new(StringArray::from_iter_values(
+            p.panel
+                .row_wave
+                .iter()
+                .map(|w| w.clone().unwrap_or_default()),
+        )),
+        Arc::new(Float64Array::from(p.panel.y.to_vec())),
+    ];
+    for (j, name) in p.panel.indicators.iter().enumerate() {
+        fields.push(arrow_schema::Field::new(
+            name,
+            arrow_schema::DataType::Float64,
+            true,
+        ));
+        cols.push(Arc::new(Float64Array::from_iter(
+            p.panel
+                .x
+                .column(j)
+                .iter()
+                .map(|v| (!v.is_nan()).then_some(*v)),
+        )));
+    }
+    let batch = RecordBatch::try_new(Arc::new(arrow_schema::Schema::new(fields)), cols).unwrap();
+    let path = tmp.path().join("panel.parquet");
+    let mut w = parquet::arrow::ArrowWriter::try_new(
+        std::fs::File::create(&path).unwrap(),
+        batch.schema(),
+        None,
+    )
+    .unwrap();
+    w.write(&batch).unwrap();
+    w.close().unwrap();
+    let text = std::fs::read_to_string(root().join("configs/toy-quick.toml"))
+        .unwrap()
+        .replace(
+            "file = \"../toy-panel/panel.csv\"",
+            &format!("file = \"{}\"", path.display()),
+        )
+        .replace("ignore = [\"region\"]", "ignore = []");
+    let cfg = forkmap::config::Config::from_toml(&text, &root().join("configs"), "t").unwrap();
+    let q = forkmap::run::prepare_config(cfg).unwrap();
+    assert_eq!(q.panel.indicators, p.panel.indicators);
+    assert_eq!(q.panel.units, p.panel.units);
+    assert_eq!(q.panel.y, p.panel.y);
+    for (a, b) in q.panel.x.iter().zip(p.panel.x.iter()) {
+        assert!((a.is_nan() && b.is_nan()) || a == b);
+    }
+    let ids = |x: &forkmap::run::Prepared| {
+        x.space
+            .specs
+            .iter()
+            .map(|s| s.id.clone())
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(ids(&q), ids(&p));
+}

@@ -222,6 +222,18 @@ fn integer_weights_equal_duplicated_rows() {
     for (p, q) in a.coef.iter().zip(b.coef.iter()) {
         close(*p, *q, 1e-9, "weighted OLS = duplicated OLS");
     }
+    // Ridge: sum_i w_i r_i^2 + alpha ||b||^2 equals the duplicated rows' objective when the
+    // weights are the duplication counts.
+    let ra = Ridge { alpha: 1.0 }
+        .fit_linear(x.view(), y.view(), w.view())
+        .unwrap();
+    let rb = Ridge { alpha: 1.0 }
+        .fit_linear(xd.view(), yd.view(), ones.view())
+        .unwrap();
+    for (p, q) in ra.coef.iter().zip(rb.coef.iter()) {
+        close(*p, *q, 1e-9, "weighted ridge = duplicated ridge");
+    }
+    close(ra.intercept, rb.intercept, 1e-9, "weighted ridge intercept");
     // Tree: weights enter split scores and leaf means; min_leaf counts distinct rows, so
     // compare with min_leaf 1 where duplication cannot change which splits are allowed.
     let params = TreeParams {
