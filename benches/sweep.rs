@@ -1,4 +1,5 @@
-//! Criterion benches: one spec (all folds) and a small sweep on the toy panel.
+//! Criterion benches: one spec (all folds) per model family and a small sweep on the toy
+//! panel (importances off: they are measured by the sweep bench of issue 6 later).
 //! Run: `cargo bench -p forkmap --bench sweep`. Timings are claims only as measured here.
 
 use criterion::{criterion_group, criterion_main, Criterion};
@@ -13,14 +14,24 @@ fn prepared() -> forkmap::run::Prepared {
 
 fn bench(c: &mut Criterion) {
     let p = prepared();
-    let families = ["ridge", "tree", "forest"];
+    // One spec per model family of the demo config (uncompressed when there is one).
+    let mut families: Vec<String> = p
+        .space
+        .specs
+        .iter()
+        .map(|s| s.choice("model").option.clone())
+        .collect();
+    families.sort();
+    families.dedup();
     for fam in families {
+        let of_family = |s: &forkmap::space::Spec| s.choice("model").option == fam;
         let si = p
             .space
             .specs
             .iter()
-            .position(|s| s.choice("model").option == fam && s.choice("compress").option == "none")
-            .expect("a spec of the family");
+            .position(|s| of_family(s) && s.choice("compress").option == "none")
+            .or_else(|| p.space.specs.iter().position(of_family))
+            .expect("a spec of a family listed in the space");
         let sweep =
             Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&[si])).expect("sweep");
         c.bench_function(&format!("one spec, all folds: {fam}"), |b| {
