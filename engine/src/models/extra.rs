@@ -3,11 +3,11 @@
 //! tries one random threshold per candidate indicator. Hand-written on the weighted CART
 //! grower of `tree.rs` (no maintained crate takes row weights).
 
-use super::tree::{grow, Candidates, Tree, TreeParams, MIN_LEAF};
+use super::forest::{tried_count, Ensemble};
+use super::tree::{grow, Candidates, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
-use ndarray::{Array1, ArrayView2};
 use rand::SeedableRng;
 use std::sync::Arc;
 
@@ -55,33 +55,13 @@ pub struct ExtraParams {
     pub min_leaf: usize,
 }
 
-pub struct Extra {
-    trees: Vec<Tree>,
-}
-
-impl Predictor for Extra {
-    fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
-        let mut out = Array1::zeros(x.nrows());
-        for t in &self.trees {
-            out += &t.predict(x);
-        }
-        out / self.trees.len() as f64
-    }
-    fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
-        Some((
-            "impurity",
-            super::ensemble_impurity(&self.trees, x_train.ncols()),
-        ))
-    }
-}
-
 impl Regressor for ExtraParams {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         let (n, p) = input.x.dim();
         if n == 0 || p == 0 {
             return Err(FitError::Invalid("no training rows or no columns".into()));
         }
-        let m = ((self.tried * p as f64).round() as usize).clamp(1, p);
+        let m = tried_count(self.tried, p);
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(input.seed);
         let w: Vec<f64> = input.w.to_vec();
         let rows: Vec<usize> = (0..n).filter(|&i| w[i] > 0.0).collect();
@@ -101,6 +81,6 @@ impl Regressor for ExtraParams {
                 )
             })
             .collect();
-        Ok(Box::new(Extra { trees }))
+        Ok(Box::new(Ensemble { trees }))
     }
 }

@@ -57,11 +57,17 @@ pub struct ForestParams {
     pub min_leaf: usize,
 }
 
-pub struct Forest {
-    trees: Vec<Tree>,
+/// An averaging ensemble of trees (the forest's and the extremely randomised trees').
+pub struct Ensemble {
+    pub trees: Vec<Tree>,
 }
 
-impl Predictor for Forest {
+/// Indicators tried per split: `share` of `p`, rounded, at least one.
+pub fn tried_count(share: f64, p: usize) -> usize {
+    ((share * p as f64).round() as usize).clamp(1, p)
+}
+
+impl Predictor for Ensemble {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
         let mut out = Array1::zeros(x.nrows());
         for t in &self.trees {
@@ -83,7 +89,7 @@ impl Regressor for ForestParams {
         if n == 0 || p == 0 {
             return Err(FitError::Invalid("no training rows or no columns".into()));
         }
-        let m = ((self.tried * p as f64).round() as usize).clamp(1, p);
+        let m = tried_count(self.tried, p);
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(input.seed);
         let params = TreeParams {
             depth: usize::MAX,
@@ -110,6 +116,6 @@ impl Regressor for ForestParams {
                 Candidates::Sample { m, rng: &mut rng },
             ));
         }
-        Ok(Box::new(Forest { trees }))
+        Ok(Box::new(Ensemble { trees }))
     }
 }
