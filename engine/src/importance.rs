@@ -24,6 +24,7 @@ use crate::panel::Panel;
 use crate::space::Spec;
 use crate::stages::fill::FLAG_SUFFIX;
 use crate::stages::Fitted;
+use crate::sweep::predict_chain;
 use crate::transform::Target;
 use ndarray::{Array1, Array2, ArrayView2, Axis};
 use rand::seq::SliceRandom;
@@ -96,20 +97,6 @@ pub struct Accumulator<'a> {
     native_kind: Option<&'static str>,
     native_sum: Vec<f64>,
     native_folds: usize,
-}
-
-/// Predict raw indicator rows through a fitted chain, model and back-transform.
-pub fn predict_raw(
-    chain: &[Arc<dyn Fitted>],
-    model: &dyn Predictor,
-    target: &dyn Target,
-    x: ArrayView2<f64>,
-) -> Array1<f64> {
-    let mut cur = x.to_owned();
-    for st in chain {
-        cur = st.apply(cur.view());
-    }
-    model.predict(cur.view()).mapv(|z| target.inverse(z))
 }
 
 fn indicator_of(name: &str) -> &str {
@@ -187,7 +174,13 @@ impl<'a> Accumulator<'a> {
             for &j in &self.pool {
                 for r in 0..self.cfg.repeats {
                     let perm = self.draw(fi, j as u64 + 1, r);
-                    let p = predict_raw(chain, model, target, permute(&[j], &perm).view());
+                    let p = predict_chain(
+                        chain,
+                        model,
+                        target,
+                        permute(&[j], &perm).view(),
+                        Some(test),
+                    );
                     let s = self.sse(&p, test);
                     if let Some(v) = self.sse_ind.get_mut(&j) {
                         v[r] += s;
@@ -214,7 +207,13 @@ impl<'a> Accumulator<'a> {
                 };
                 for r in 0..self.cfg.repeats {
                     let perm = self.draw(fi, key, r);
-                    let p = predict_raw(chain, model, target, permute(&members, &perm).view());
+                    let p = predict_chain(
+                        chain,
+                        model,
+                        target,
+                        permute(&members, &perm).view(),
+                        Some(test),
+                    );
                     self.sse_grp[g][r] += self.sse(&p, test);
                 }
             }

@@ -65,6 +65,21 @@ pub struct SpecResult {
     pub importance_seconds: f64,
 }
 
+/// Predict raw indicator rows through a fitted chain, a model and the back-transform.
+pub fn predict_chain(
+    chain: &[Arc<dyn Fitted>],
+    model: &dyn Predictor,
+    target: &dyn Target,
+    x: ndarray::ArrayView2<f64>,
+    rows: Option<&[usize]>,
+) -> Array1<f64> {
+    let mut cur = x.to_owned();
+    for st in chain {
+        cur = st.apply_rows(cur.view(), rows);
+    }
+    model.predict(cur.view()).mapv(|z| target.inverse(z))
+}
+
 /// Components x indicators loadings of a compression.
 #[derive(Debug, Clone)]
 pub struct Loadings {
@@ -91,13 +106,23 @@ pub struct FittedSpec {
 impl FittedSpec {
     /// Predict rows of raw indicators (panel columns, NaN for gaps).
     pub fn predict_raw(&self, x: ndarray::ArrayView2<f64>) -> Array1<f64> {
-        let mut cur = x.to_owned();
-        for st in &self.chain {
-            cur = st.apply(cur.view());
-        }
-        self.model
-            .predict(cur.view())
-            .mapv(|z| self.target.inverse(z))
+        predict_chain(
+            &self.chain,
+            self.model.as_ref(),
+            self.target.as_ref(),
+            x,
+            None,
+        )
+    }
+    /// The same for panel rows (their ids let unit-aware stages use the unit's waves).
+    pub fn predict_rows(&self, x: ndarray::ArrayView2<f64>, rows: &[usize]) -> Array1<f64> {
+        predict_chain(
+            &self.chain,
+            self.model.as_ref(),
+            self.target.as_ref(),
+            x,
+            Some(rows),
+        )
     }
 }
 
@@ -343,7 +368,7 @@ impl<'a> Sweep<'a> {
             names: &w.names,
         };
         let f = guarded(|| node.stage.fit(&input)).ok()?;
-        let x = guarded(|| Ok(f.apply(w.x.view()))).ok()?;
+        let x = guarded(|| Ok(f.apply_rows(w.x.view(), Some(&all)))).ok()?;
         let names = f.names().to_vec();
         if node.level + 1 == STAGE_DIMENSIONS.len() {
             // At the last stage only the loadings are kept: x holds them, names the inputs.
@@ -382,9 +407,13 @@ impl<'a> Sweep<'a> {
                 };
                 self.audit(step, fi, input.x.nrows().max(input.y.len()));
                 let fitted = guarded(|| node.stage.fit(&input)).map_err(|e| (fi, e))?;
-                let (train, test) =
-                    guarded(|| Ok((fitted.apply(p.train.view()), fitted.apply(p.test.view()))))
-                        .map_err(|e| (fi, e))?;
+                let (train, test) = guarded(|| {
+                    Ok((
+                        fitted.apply_rows(p.train.view(), Some(&fold.train)),
+                        fitted.apply_rows(p.test.view(), Some(&fold.test)),
+                    ))
+                })
+                .map_err(|e| (fi, e))?;
                 let mut chain = p.chain.clone();
                 let names = fitted.names().to_vec();
                 chain.push(fitted);
@@ -587,8 +616,8 @@ impl<'a> Sweep<'a> {
             };
             self.audit(dim, fi, input.x.nrows().max(input.y.len()));
             let f = guarded(|| stage.fit(&input))?;
-            st.train = f.apply(st.train.view());
-            st.test = f.apply(st.test.view());
+            st.train = f.apply_rows(st.train.view(), Some(&fold.train));
+            st.test = f.apply_rows(st.test.view(), Some(&fold.test));
             st.names = f.names().to_vec();
             st.chain.push(f);
         }

@@ -67,6 +67,12 @@ pub const OPTIONS: &[OptionDecl] = &[
         weighted: true,
     },
     OptionDecl {
+        name: "carry",
+        params: &[DROP, FLAGS],
+        help: "a unit's gap from its own nearest wave; else the training median",
+        weighted: true,
+    },
+    OptionDecl {
         name: "chained",
         params: &[
             ParamDecl {
@@ -98,7 +104,43 @@ enum Rule {
     Mean,
     Median,
     Knn(usize),
-    Chained { rounds: usize, alpha: f64 },
+    Chained {
+        rounds: usize,
+        alpha: f64,
+    },
+    /// Within-unit carry, then the training median.
+    Carry,
+}
+
+/// Unit and wave position of every panel row (for within-unit carry).
+#[derive(Clone)]
+struct Waves {
+    unit: Arc<Vec<usize>>,
+    pos: Arc<Vec<f64>>,
+}
+
+impl Waves {
+    fn of(panel: &crate::panel::Panel) -> Waves {
+        let labels: Vec<String> = panel
+            .row_wave
+            .iter()
+            .map(|w| w.clone().unwrap_or_default())
+            .collect();
+        let numeric: Option<Vec<f64>> = labels.iter().map(|l| l.parse::<f64>().ok()).collect();
+        let pos = numeric.unwrap_or_else(|| {
+            let mut sorted: Vec<&String> = labels.iter().collect();
+            sorted.sort();
+            sorted.dedup();
+            labels
+                .iter()
+                .map(|l| sorted.iter().position(|s| *s == l).unwrap_or(0) as f64)
+                .collect()
+        });
+        Waves {
+            unit: Arc::new(panel.row_unit.clone()),
+            pos: Arc::new(pos),
+        }
+    }
 }
 
 /// One step of a chained fill: column `col` regressed on the other kept columns.
@@ -111,6 +153,7 @@ struct Fill {
     rule: Rule,
     drop_share: f64,
     flags: bool,
+    waves: Option<Waves>,
 }
 
 /// A fitted fill: kept columns, their fill values or donors, and the flag columns.
@@ -124,11 +167,22 @@ struct FittedFill {
     flagged: Vec<usize>,
     /// Chained fill: the regressions, in the order they are applied.
     chain: Vec<ChainStep>,
+    /// Within-unit carry: units and wave positions of the panel rows.
+    waves: Option<Waves>,
     names: Vec<String>,
 }
 
 pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
+    build_with(c, None)
+}
+
+/// Build a fill; within-unit carry needs the panel (units and waves of its rows).
+pub fn build_with(
+    c: &Choice,
+    panel: Option<&crate::panel::Panel>,
+) -> Result<Arc<dyn Stage>, String> {
     let rule = match c.option.as_str() {
+        "carry" => Rule::Carry,
         "mean" => Rule::Mean,
         "median" => Rule::Median,
         "knn" => Rule::Knn(c.param("k").ok_or("knn needs k")? as usize),
@@ -138,10 +192,17 @@ pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
         },
         o => return Err(format!("unknown fill `{o}`")),
     };
+    let waves = match rule {
+        Rule::Carry => Some(Waves::of(
+            panel.ok_or("fill `carry` needs the panel's units and waves")?,
+        )),
+        _ => None,
+    };
     Ok(Arc::new(Fill {
         rule,
         drop_share: c.param("drop_share").unwrap_or(1.0),
         flags: c.param("flags").unwrap_or(0.0) >= 1.0,
+        waves,
     }))
 }
 
@@ -184,7 +245,7 @@ impl Stage for Fill {
                 0.0
             } else {
                 match self.rule {
-                    Rule::Median => median(&mut p),
+                    Rule::Median | Rule::Carry => median(&mut p),
                     Rule::Mean | Rule::Knn(_) | Rule::Chained { .. } => {
                         p.iter().sum::<f64>() / p.len() as f64
                     }
@@ -226,6 +287,7 @@ impl Stage for Fill {
             flagged,
             names,
             chain,
+            waves: self.waves.clone(),
         }))
     }
 }
@@ -299,7 +361,61 @@ impl FittedFill {
     }
 }
 
+impl FittedFill {
+    /// Fill each gap of a row from the nearest wave (ties: the earlier) of the same unit
+    /// among the rows being transformed that have the value. With grouped folds a unit's
+    /// rows are all on one side, so a test row only borrows from its own unit's test rows
+    /// (indicator values, never outcomes).
+    fn carry(&self, x: ArrayView2<f64>, rows: &[usize], w: &Waves) -> Array2<f64> {
+        let mut out = x.to_owned();
+        for i in 0..x.nrows() {
+            for j in 0..x.ncols() {
+                if !x[[i, j]].is_nan() {
+                    continue;
+                }
+                let (u, at) = (w.unit[rows[i]], w.pos[rows[i]]);
+                let mut best: Option<(f64, f64, f64)> = None; // (distance, position, value)
+                for k in 0..x.nrows() {
+                    if k == i || w.unit[rows[k]] != u || x[[k, j]].is_nan() {
+                        continue;
+                    }
+                    let cand = ((w.pos[rows[k]] - at).abs(), w.pos[rows[k]], x[[k, j]]);
+                    if best.is_none_or(|b| (cand.0, cand.1) < (b.0, b.1)) {
+                        best = Some(cand);
+                    }
+                }
+                if let Some((_, _, v)) = best {
+                    out[[i, j]] = v;
+                }
+            }
+        }
+        out
+    }
+}
+
 impl Fitted for FittedFill {
+    fn apply_rows(&self, x: ArrayView2<f64>, rows: Option<&[usize]>) -> Array2<f64> {
+        match (&self.waves, rows) {
+            (Some(w), Some(rows)) if rows.len() == x.nrows() => {
+                let carried = self.carry(x, rows, w);
+                let mut out = self.apply(carried.view());
+                // Flags mark the original gaps, carried or not.
+                let p = self.keep.len();
+                for (f, &j) in self.flagged.iter().enumerate() {
+                    for i in 0..x.nrows() {
+                        out[[i, p + f]] = if x[[i, self.keep[j]]].is_nan() {
+                            1.0
+                        } else {
+                            0.0
+                        };
+                    }
+                }
+                out
+            }
+            _ => self.apply(x),
+        }
+    }
+
     fn apply(&self, x: ArrayView2<f64>) -> Array2<f64> {
         let kept = x.select(Axis(1), &self.keep);
         let p = self.keep.len();
@@ -421,6 +537,7 @@ mod tests {
             rule,
             drop_share: 1.0,
             flags: false,
+            waves: None,
         };
         let mean = mk(Rule::Mean).fit(&input(&x, &y, &names, &rows)).unwrap();
         let med = mk(Rule::Median).fit(&input(&x, &y, &names, &rows)).unwrap();
@@ -443,6 +560,7 @@ mod tests {
             rule: Rule::Mean,
             drop_share: 0.4,
             flags: false,
+            waves: None,
         }
         .fit(&input(&x, &y, &names, &rows))
         .unwrap();
@@ -451,6 +569,7 @@ mod tests {
             rule: Rule::Mean,
             drop_share: 0.5,
             flags: true,
+            waves: None,
         }
         .fit(&input(&x, &y, &names, &rows))
         .unwrap();
@@ -505,6 +624,7 @@ mod chained_tests {
             },
             drop_share: 1.0,
             flags: false,
+            waves: None,
         };
         let f = stage
             .fit(&StageInput {
@@ -519,5 +639,52 @@ mod chained_tests {
         let new = f.apply(array![[10.0, f64::NAN, 0.0]].view());
         assert!((new[[0, 1]] - 21.0).abs() < 0.02, "{}", new[[0, 1]]);
         assert_eq!(new[[0, 0]], 10.0);
+    }
+}
+
+#[cfg(test)]
+mod carry_tests {
+    use super::*;
+    use ndarray::array;
+
+    #[test]
+    fn carry_takes_the_units_nearest_wave_then_the_median() {
+        // Rows: unit 0 waves 2019, 2021, 2024; unit 1 wave 2021. Worked by hand:
+        // unit 0's gap at 2021 takes 2019's value 1 (|2021-2019| = 2 < |2024-2021| = 3);
+        // unit 1 has no other wave, so it takes the training median of (1, 5) = 3.
+        let x = array![[1.0], [f64::NAN], [5.0], [f64::NAN]];
+        let w = Waves {
+            unit: Arc::new(vec![0, 0, 0, 1]),
+            pos: Arc::new(vec![2019.0, 2021.0, 2024.0, 2021.0]),
+        };
+        let stage = Fill {
+            rule: Rule::Carry,
+            drop_share: 1.0,
+            flags: true,
+            waves: Some(w),
+        };
+        let names = vec!["a".to_string()];
+        let y = ndarray::Array1::zeros(4);
+        let rows = [0, 1, 2, 3];
+        let f = stage
+            .fit(&StageInput {
+                x: x.view(),
+                y: y.view(),
+                rows: &rows,
+                names: &names,
+            })
+            .unwrap();
+        let out = f.apply_rows(x.view(), Some(&rows));
+        assert_eq!(out.column(0).to_vec(), vec![1.0, 1.0, 5.0, 3.0]);
+        assert_eq!(
+            out.column(1).to_vec(),
+            vec![0.0, 1.0, 0.0, 1.0],
+            "flags mark original gaps"
+        );
+        // Without row identity (new raw rows): the median.
+        assert_eq!(
+            f.apply(x.view()).column(0).to_vec(),
+            vec![1.0, 3.0, 5.0, 3.0]
+        );
     }
 }

@@ -38,6 +38,11 @@ pub trait Stage: Send + Sync {
 pub trait Fitted: Send + Sync {
     /// Transform rows with the input columns into rows with the output columns.
     fn apply(&self, x: ArrayView2<f64>) -> Array2<f64>;
+    /// The same when the panel row ids of the rows are known (a stage may use a row's
+    /// unit and wave, never its outcome); by default the ids are not needed.
+    fn apply_rows(&self, x: ArrayView2<f64>, _rows: Option<&[usize]>) -> Array2<f64> {
+        self.apply(x)
+    }
     /// Names of the output columns.
     fn names(&self) -> &[String];
     /// For compressions: components x input columns loadings, with the input names.
@@ -49,7 +54,7 @@ pub trait Fitted: Send + Sync {
 /// Build the stage of a stage-dimension choice.
 pub fn build(choice: &Choice, panel: &crate::panel::Panel) -> Result<Arc<dyn Stage>, String> {
     match choice.dim {
-        "fill" => fill::build(choice),
+        "fill" => fill::build_with(choice, Some(panel)),
         "pool" => pool::build(choice, panel),
         "scale" => scale::build(choice),
         "compress" => compress::build(choice),
