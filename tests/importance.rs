@@ -22,6 +22,7 @@ fn sweep(panel: &Panel, choices: &str, repeats: usize) -> (ChoiceSpace, Vec<Spec
     s.importance = Some(ImportanceSection {
         repeats,
         kinds: vec!["permutation".into(), "group".into(), "native".into()],
+        within: None,
     });
     let out = Mutex::new(Vec::new());
     s.run(&|r| out.lock().unwrap().push(r));
@@ -263,4 +264,110 @@ fn compressed_specs_report_raw_indicators() {
         );
         assert!(native.iter().any(|x| x.importance > 0.0));
     }
+}
+
+/// `importance.within`: permutation kinds only for the specs whose skill is within the
+/// band of the best (second pass), native kinds for every spec; the manifest says so.
+#[test]
+fn importance_band_limits_the_permutation_kinds() {
+    use crate::end_to_end::read_table;
+    use arrow_array::{Array, Float64Array, StringArray};
+    let text = r#"
+seed = 2
+[data]
+file = "toy-panel/panel.csv"
+unit = "district"
+wave = "wave"
+outcome = "hardship_pct"
+ignore = ["region"]
+codebook = "toy-panel/codebook.csv"
+[folds]
+k = 4
+[choices]
+pool = ["all", "core", "group:people"]
+model = ["ridge", "tree"]
+[pools]
+core = ["inc_median_income", "cli_heating_degree_days", "prc_tariff_index"]
+[grid.ridge]
+alpha = [0.1, 1, 10, 100]
+[importance]
+repeats = 1
+within = 0.03
+"#;
+    let p = crate::common::prepared(text);
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("run");
+    let s = forkmap::run::run_to_dir(
+        &p,
+        &out,
+        &forkmap::run::RunOptions {
+            threads: 2,
+            quiet: true,
+        },
+    )
+    .unwrap();
+    let best = s.best.unwrap().1;
+    let mut skill = std::collections::HashMap::new();
+    for b in read_table(&out.join("specs")) {
+        let id = b
+            .column_by_name("spec_id")
+            .unwrap()
+            .as_any()
+            .downcast_ref::<StringArray>()
+            .unwrap()
+            .clone();
+        let sk = b
+            .column_by_name("skill")
+            .unwrap()
+            .as_any()
+            .downcast_ref::<Float64Array>()
+            .unwrap()
+            .clone();
+        for i in 0..b.num_rows() {
+            skill.insert(id.value(i).to_string(), sk.value(i));
+        }
+    }
+    let mut perm = std::collections::HashSet::new();
+    let mut native = std::collections::HashSet::new();
+    for b in read_table(&out.join("importance")) {
+        let id = b
+            .column_by_name("spec_id")
+            .unwrap()
+            .as_any()
+            .downcast_ref::<StringArray>()
+            .unwrap()
+            .clone();
+        let kind = b
+            .column_by_name("kind")
+            .unwrap()
+            .as_any()
+            .downcast_ref::<StringArray>()
+            .unwrap()
+            .clone();
+        for i in 0..b.num_rows() {
+            match kind.value(i) {
+                "permutation" => perm.insert(id.value(i).to_string()),
+                _ => native.insert(id.value(i).to_string()),
+            };
+        }
+    }
+    let near: std::collections::HashSet<String> = skill
+        .iter()
+        .filter(|(_, s)| **s >= best - 0.03)
+        .map(|(k, _)| k.clone())
+        .collect();
+    assert!(
+        !near.is_empty() && near.len() < skill.len(),
+        "the band selects some specs: {} of {}",
+        near.len(),
+        skill.len()
+    );
+    assert_eq!(
+        perm, near,
+        "permutation rows exactly for the specs within the band"
+    );
+    assert_eq!(native.len(), skill.len(), "native rows for every spec");
+    let m: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
+    assert_eq!(m["importance_permutation_specs"], near.len());
 }

@@ -267,7 +267,7 @@ impl Config {
         check_keys(&table, "", TOP_KEYS).map_err(&err)?;
         for (section, keys) in [
             ("sample", &["specs"][..]),
-            ("importance", &["repeats", "kinds"][..]),
+            ("importance", &["repeats", "kinds", "within"][..]),
             ("data", DATA_KEYS),
             ("folds", FOLD_KEYS),
             ("output", OUTPUT_KEYS),
@@ -314,6 +314,13 @@ impl Config {
                     "importance.kinds: unknown kind `{k}`{}; kinds: {}",
                     suggest(k, crate::importance::KINDS.iter().copied()),
                     crate::importance::KINDS.join(", ")
+                )));
+            }
+        }
+        if let Some(w) = cfg.importance.within {
+            if !(w.is_finite() && w >= 0.0) {
+                return Err(err(format!(
+                    "importance.within = {w}: must be a skill difference >= 0"
                 )));
             }
         }

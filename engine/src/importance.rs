@@ -43,6 +43,9 @@ pub struct ImportanceSection {
     /// Which kinds: `permutation`, `group`, `native`.
     #[serde(default = "default_kinds")]
     pub kinds: Vec<String>,
+    /// When set, the permutation kinds run only for specs whose skill is within this much
+    /// of the best spec's (a second pass after the sweep); native kinds still run for all.
+    pub within: Option<f64>,
 }
 
 fn default_repeats() -> usize {
@@ -57,6 +60,7 @@ impl Default for ImportanceSection {
         ImportanceSection {
             repeats: default_repeats(),
             kinds: default_kinds(),
+            within: None,
         }
     }
 }
@@ -64,6 +68,25 @@ impl Default for ImportanceSection {
 pub const KINDS: &[&str] = &["permutation", "group", "native"];
 
 impl ImportanceSection {
+    /// The same settings restricted to the given kinds.
+    pub fn only(&self, kinds: &[&str]) -> ImportanceSection {
+        ImportanceSection {
+            repeats: self.repeats,
+            kinds: self
+                .kinds
+                .iter()
+                .filter(|k| kinds.contains(&k.as_str()))
+                .cloned()
+                .collect(),
+            within: None,
+        }
+    }
+
+    /// True when the permutation kinds wait for a second pass over the best specs.
+    pub fn deferred(&self) -> bool {
+        self.within.is_some() && (self.wants("permutation") || self.wants("group"))
+    }
+
     pub fn wants(&self, kind: &str) -> bool {
         self.kinds.iter().any(|k| k == kind) && (kind == "native" || self.repeats > 0)
     }

@@ -125,6 +125,9 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             per_fold * p.folds.n_fits_per_spec(),
             per_fold
         );
+        if let Some(w) = imp.within {
+            let _ = writeln!(t, "            only for specs with skill within {w} of the best (a second pass after the sweep; its cost is not in the estimate)");
+        }
     } else if imp.wants("native") {
         let _ = writeln!(t, "importance: native only (no extra fits)");
     }
@@ -152,7 +155,12 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
         subset.sort_unstable();
         let mut total = f64::NAN;
         if let Ok(mut probe) = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&subset)) {
-            probe.importance = Some(p.cfg.importance.clone());
+            let imp = &p.cfg.importance;
+            probe.importance = Some(if imp.deferred() {
+                imp.only(&["native"])
+            } else {
+                imp.clone()
+            });
             let model_secs: std::sync::Mutex<BTreeMap<String, (f64, usize)>> = Default::default();
             let t0 = Instant::now();
             let run = || {

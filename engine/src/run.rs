@@ -137,10 +137,68 @@ fn manifest(
     m
 }
 
+/// Stream a sweep's results into a sink on `pool`, with progress; returns the skill of
+/// every ok spec (by spec index).
+fn stream(
+    sweep: &Sweep,
+    sink: &mut ParquetSink,
+    pool: &rayon::ThreadPool,
+    total: usize,
+    quiet: bool,
+    out: &Path,
+) -> Result<Vec<(usize, f64)>> {
+    let (tx, rx) = std::sync::mpsc::sync_channel::<SpecResult>(1024);
+    let mut skills: Vec<(usize, f64)> = Vec::new();
+    std::thread::scope(|s| {
+        let writer = s.spawn(|| -> Result<()> {
+            let mut progress = Progress::new(total, quiet);
+            let mut failed: Option<Error> = None;
+            for r in rx {
+                progress.inc();
+                if failed.is_some() {
+                    continue;
+                }
+                if let Some(sc) = &r.scores {
+                    skills.push((r.spec, sc.skill));
+                }
+                if let Err(e) = sink.accept(r) {
+                    failed = Some(e);
+                }
+            }
+            progress.finish();
+            match failed {
+                Some(e) => Err(e),
+                None => sink.flush(),
+            }
+        });
+        pool.install(|| {
+            let emit = |r: SpecResult| {
+                let _ = tx.send(r);
+            };
+            sweep.run(&emit);
+        });
+        drop(tx);
+        writer.join().unwrap_or_else(|_| {
+            Err(Error::Output {
+                path: out.into(),
+                msg: "result writer panicked".into(),
+            })
+        })
+    })?;
+    Ok(skills)
+}
+
 /// Run every spec of `p` into `out`.
 pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSummary> {
+    let imp = &p.cfg.importance;
     let mut sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None)?;
-    sweep.importance = Some(p.cfg.importance.clone());
+    // With `importance.within`, the permutation kinds wait for a second pass over the
+    // specs near the best; the first pass computes the native kind only.
+    sweep.importance = Some(if imp.deferred() {
+        imp.only(&["native"])
+    } else {
+        imp.clone()
+    });
     let sha = sha256_file(&p.data_path)?;
     let created = check_out_dir(out)?;
     let started = chrono::Utc::now().to_rfc3339();
@@ -176,49 +234,38 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             path: out.into(),
             msg: format!("cannot start {} threads: {e}", opts.threads),
         })?;
-    let (tx, rx) = std::sync::mpsc::sync_channel::<SpecResult>(1024);
-    let mut best: Option<(String, f64)> = None;
-    let mut ok = 0usize;
-    let write_result: Result<()> = std::thread::scope(|s| {
-        let writer = s.spawn(|| -> Result<()> {
-            let mut progress = Progress::new(p.space.specs.len(), opts.quiet);
-            let mut failed: Option<Error> = None;
-            for r in rx {
-                progress.inc();
-                if failed.is_some() {
-                    continue;
-                }
-                if let Some(sc) = &r.scores {
-                    ok += 1;
-                    if best.as_ref().is_none_or(|(_, b)| sc.skill > *b) {
-                        best = Some((p.space.specs[r.spec].id.clone(), sc.skill));
-                    }
-                }
-                if let Err(e) = sink.accept(r) {
-                    failed = Some(e);
-                }
-            }
-            progress.finish();
-            match failed {
-                Some(e) => Err(e),
-                None => sink.flush(),
-            }
-        });
-        pool.install(|| {
-            let emit = |r: SpecResult| {
-                let _ = tx.send(r);
-            };
-            sweep.run(&emit);
-        });
-        drop(tx);
-        writer.join().unwrap_or_else(|_| {
-            Err(Error::Output {
-                path: out.into(),
-                msg: "result writer panicked".into(),
-            })
-        })
-    });
-    write_result?;
+    let skills = stream(
+        &sweep,
+        &mut sink,
+        &pool,
+        p.space.specs.len(),
+        opts.quiet,
+        out,
+    )?;
+    let ok = skills.len();
+    let best = skills
+        .iter()
+        .max_by(|a, b| a.1.total_cmp(&b.1))
+        .map(|&(si, sk)| (p.space.specs[si].id.clone(), sk));
+    let mut importance_specs = serde_json::Value::Null;
+    if let (Some(within), Some((_, top))) = (imp.within.filter(|_| imp.deferred()), &best) {
+        let mut subset: Vec<usize> = skills
+            .iter()
+            .filter(|(_, sk)| *sk >= top - within)
+            .map(|(si, _)| *si)
+            .collect();
+        subset.sort_unstable();
+        if !opts.quiet {
+            eprintln!("forkmap: permutation importances for the {} specs within {within} skill of the best", subset.len());
+        }
+        let mut second = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&subset))?;
+        second.describe = false;
+        second.importance = Some(imp.only(&["permutation", "group"]));
+        let mut isink =
+            ParquetSink::importance_pass(out, &p.space, &p.panel, p.cfg.output.batch_specs)?;
+        stream(&second, &mut isink, &pool, subset.len(), opts.quiet, out)?;
+        importance_specs = serde_json::json!(subset.len());
+    }
     let seconds = t0.elapsed().as_secs_f64();
     let failures = sink.failures.clone();
     let extra = serde_json::json!({
@@ -227,6 +274,8 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         "specs_ok": ok,
         "failures": failures,
         "specs_written": sink.written_specs,
+        "importance_within": imp.within,
+        "importance_permutation_specs": importance_specs,
     });
     let last = manifest(p, &sha, opts.threads, &started, "complete", extra);
     write_bytes_atomic(

@@ -32,6 +32,8 @@ pub struct ParquetSink<'a> {
     next_part: usize,
     pub written_specs: usize,
     pub failures: std::collections::BTreeMap<&'static str, usize>,
+    /// Second-pass mode: write only the importance table, parts named `part-iNNNNN`.
+    importance_only: bool,
 }
 
 fn fsync_dir(dir: &Path) -> Result<()> {
@@ -107,7 +109,21 @@ impl<'a> ParquetSink<'a> {
             next_part: 0,
             written_specs: 0,
             failures: Default::default(),
+            importance_only: false,
         })
+    }
+
+    /// A sink for a second importance pass over some specs: it writes importance parts
+    /// only (`importance/part-iNNNNN.parquet`), never the other tables again.
+    pub fn importance_pass(
+        dir: &Path,
+        space: &'a ChoiceSpace,
+        panel: &'a Panel,
+        batch: usize,
+    ) -> Result<Self> {
+        let mut s = ParquetSink::new(dir, space, panel, batch)?;
+        s.importance_only = true;
+        Ok(s)
     }
 
     pub fn accept(&mut self, r: SpecResult) -> Result<()> {
@@ -131,6 +147,15 @@ impl<'a> ParquetSink<'a> {
                 .id
                 .cmp(&self.space.specs[b.spec].id)
         });
+        if self.importance_only {
+            let name = format!("part-i{:05}.parquet", self.next_part);
+            let importance = self.importance_batch()?;
+            write_parquet_atomic(&self.dir.join("importance"), &name, &importance)?;
+            self.written_specs += self.buffer.len();
+            self.buffer.clear();
+            self.next_part += 1;
+            return Ok(());
+        }
         let name = format!("part-{:05}.parquet", self.next_part);
         let preds = self.predictions_batch()?;
         write_parquet_atomic(&self.dir.join("predictions"), &name, &preds)?;
