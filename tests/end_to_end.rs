@@ -34,7 +34,7 @@ pub fn read_table(dir: &Path) -> Vec<RecordBatch> {
     out
 }
 
-fn col<'a, T: 'static>(b: &'a RecordBatch, name: &str) -> &'a T {
+pub fn col<'a, T: 'static>(b: &'a RecordBatch, name: &str) -> &'a T {
     b.column_by_name(name)
         .unwrap_or_else(|| panic!("column {name}"))
         .as_any()

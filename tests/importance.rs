@@ -270,8 +270,8 @@ fn compressed_specs_report_raw_indicators() {
 /// band of the best (second pass), native kinds for every spec; the manifest says so.
 #[test]
 fn importance_band_limits_the_permutation_kinds() {
-    use crate::end_to_end::read_table;
-    use arrow_array::{Array, Float64Array, StringArray};
+    use crate::end_to_end::{col, read_table};
+    use arrow_array::{Float64Array, StringArray};
     let text = r#"
 seed = 2
 [data]
@@ -309,20 +309,8 @@ within = 0.03
     let best = s.best.unwrap().1;
     let mut skill = std::collections::HashMap::new();
     for b in read_table(&out.join("specs")) {
-        let id = b
-            .column_by_name("spec_id")
-            .unwrap()
-            .as_any()
-            .downcast_ref::<StringArray>()
-            .unwrap()
-            .clone();
-        let sk = b
-            .column_by_name("skill")
-            .unwrap()
-            .as_any()
-            .downcast_ref::<Float64Array>()
-            .unwrap()
-            .clone();
+        let id = col::<StringArray>(&b, "spec_id");
+        let sk = col::<Float64Array>(&b, "skill");
         for i in 0..b.num_rows() {
             skill.insert(id.value(i).to_string(), sk.value(i));
         }
@@ -330,20 +318,8 @@ within = 0.03
     let mut perm = std::collections::HashSet::new();
     let mut native = std::collections::HashSet::new();
     for b in read_table(&out.join("importance")) {
-        let id = b
-            .column_by_name("spec_id")
-            .unwrap()
-            .as_any()
-            .downcast_ref::<StringArray>()
-            .unwrap()
-            .clone();
-        let kind = b
-            .column_by_name("kind")
-            .unwrap()
-            .as_any()
-            .downcast_ref::<StringArray>()
-            .unwrap()
-            .clone();
+        let id = col::<StringArray>(&b, "spec_id");
+        let kind = col::<StringArray>(&b, "kind");
         for i in 0..b.num_rows() {
             match kind.value(i) {
                 "permutation" => perm.insert(id.value(i).to_string()),

@@ -3,7 +3,7 @@
 //! tries one random threshold per candidate indicator. Hand-written on the weighted CART
 //! grower of `tree.rs` (no maintained crate takes row weights).
 
-use super::forest::{tried_count, Ensemble};
+use super::forest::{tried_count, Ensemble, TREES};
 use super::tree::{grow, Candidates, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
@@ -15,15 +15,7 @@ pub const FAMILY: Family = Family {
     decl: OptionDecl {
         name: "extra",
         params: &[
-            ParamDecl {
-                name: "trees",
-                kind: ParamKind::Int {
-                    min: 1,
-                    max: 100_000,
-                },
-                default: 200.0,
-                help: "number of trees",
-            },
+            TREES,
             ParamDecl {
                 name: "tried",
                 kind: ParamKind::Real {

@@ -12,19 +12,22 @@ use ndarray::{Array1, ArrayView2};
 use rand::{Rng, SeedableRng};
 use std::sync::Arc;
 
+/// Number of trees (the forest's and the extremely randomised trees').
+pub const TREES: ParamDecl = ParamDecl {
+    name: "trees",
+    kind: ParamKind::Int {
+        min: 1,
+        max: 100_000,
+    },
+    default: 200.0,
+    help: "number of trees",
+};
+
 pub const FAMILY: Family = Family {
     decl: OptionDecl {
         name: "forest",
         params: &[
-            ParamDecl {
-                name: "trees",
-                kind: ParamKind::Int {
-                    min: 1,
-                    max: 100_000,
-                },
-                default: 200.0,
-                help: "number of trees",
-            },
+            TREES,
             ParamDecl {
                 name: "tried",
                 kind: ParamKind::Real {
