@@ -303,6 +303,7 @@ within = 0.03
         &forkmap::run::RunOptions {
             threads: 2,
             quiet: true,
+            restart: false,
         },
     )
     .unwrap();

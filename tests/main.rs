@@ -10,3 +10,4 @@ mod folds_prop;
 mod importance;
 mod leak;
 mod reference;
+mod resume;

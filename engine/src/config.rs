@@ -107,15 +107,18 @@ pub fn default_missing() -> Vec<String> {
         .collect()
 }
 
-#[derive(Debug, Clone, Serialize, Deserialize, PartialEq, Default)]
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 #[serde(untagged)]
 pub enum IndicatorSelection {
-    /// `"auto"`.
+    /// `"auto"` (also the default).
     Auto(AutoWord),
     List(Vec<String>),
-    #[default]
-    #[serde(skip)]
-    Default,
+}
+
+impl Default for IndicatorSelection {
+    fn default() -> Self {
+        IndicatorSelection::Auto(AutoWord::Auto)
+    }
 }
 
 #[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq)]
@@ -404,7 +407,10 @@ mod tests {
     fn minimal_config_gets_defaults() {
         let c = Config::from_toml(MIN, Path::new("/cfg"), "t").unwrap();
         assert_eq!(c.folds.k, 5);
-        assert_eq!(c.data.indicators, IndicatorSelection::Default);
+        assert_eq!(c.data.indicators, IndicatorSelection::Auto(AutoWord::Auto));
+        // The canonical form (stored in the manifest, compared on resume) must exist.
+        let j = c.canonical_json();
+        assert!(j.is_object() && j["data"]["indicators"] == "auto", "{j}");
         assert_eq!(c.resolve(Path::new("p.csv")), PathBuf::from("/cfg/p.csv"));
         assert_eq!(
             c.resolve(Path::new("../d/./p.csv")),

@@ -71,6 +71,17 @@ impl FitError {
     }
 }
 
+/// The `&'static` spelling of a stored failure cause (as read back from a run).
+pub fn cause_name(cause: &str) -> &'static str {
+    match cause {
+        "singular" => "singular",
+        "invalid" => "invalid",
+        "no_convergence" => "no_convergence",
+        "panic" => "panic",
+        _ => "other",
+    }
+}
+
 /// Levenshtein distance, for "did you mean" hints.
 pub fn edit_distance(a: &str, b: &str) -> usize {
     let b: Vec<char> = b.chars().collect();

@@ -14,6 +14,7 @@ pub mod models;
 pub mod panel;
 pub mod plan;
 pub mod progress;
+pub mod resume;
 pub mod run;
 pub mod sink;
 pub mod space;

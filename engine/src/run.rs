@@ -72,34 +72,79 @@ pub struct RunSummary {
 pub struct RunOptions {
     pub threads: usize,
     pub quiet: bool,
+    /// Discard a run of another config, data or version found in the folder.
+    pub restart: bool,
 }
 
-fn check_out_dir(out: &Path) -> Result<bool> {
-    if out.exists() {
-        if !out.is_dir() {
-            return Err(Error::Output {
-                path: out.into(),
-                msg: "exists and is not a directory".into(),
-            });
-        }
-        let mut entries = std::fs::read_dir(out).map_err(|e| Error::Output {
-            path: out.into(),
-            msg: format!("cannot read: {e}"),
-        })?;
-        if entries.next().is_some() {
-            return Err(Error::Output {
-                path: out.into(),
-                msg: "already exists and is not empty: choose a new --out (forkmap never mixes two runs in one folder)".into(),
-            });
-        }
-        Ok(false)
-    } else {
-        std::fs::create_dir_all(out).map_err(|e| Error::Output {
-            path: out.into(),
-            msg: format!("cannot create: {e}"),
-        })?;
-        Ok(true)
+/// How a run starts in its folder.
+enum Start {
+    /// A new run; `created` when forkmap made the folder.
+    Fresh { created: bool },
+    /// The folder holds an unfinished (or finished) run of the same config and data.
+    Resume {
+        done: crate::resume::Done,
+        manifest: serde_json::Value,
+    },
+}
+
+fn out_err(out: &Path, msg: impl Into<String>) -> Error {
+    Error::Output {
+        path: out.into(),
+        msg: msg.into(),
     }
+}
+
+fn open_out(p: &Prepared, out: &Path, sha: &str, restart: bool) -> Result<Start> {
+    if !out.exists() {
+        std::fs::create_dir_all(out).map_err(|e| out_err(out, format!("cannot create: {e}")))?;
+        return Ok(Start::Fresh { created: true });
+    }
+    if !out.is_dir() {
+        return Err(out_err(out, "exists and is not a directory"));
+    }
+    let manifest_path = out.join("manifest.json");
+    if manifest_path.exists() {
+        let text = std::fs::read_to_string(&manifest_path)
+            .map_err(|e| out_err(out, format!("cannot read manifest.json: {e}")))?;
+        let m: serde_json::Value = serde_json::from_str(&text).map_err(|e| {
+            out_err(
+                out,
+                format!("manifest.json is unreadable ({e}): use --restart to discard this run"),
+            )
+        })?;
+        match crate::resume::same_run(&m, &p.cfg.canonical_json(), sha) {
+            Ok(()) if !restart => {
+                return Ok(Start::Resume {
+                    done: crate::resume::scan(out)?,
+                    manifest: m,
+                });
+            }
+            Err(what) if !restart => {
+                return Err(out_err(
+                    out,
+                    format!("holds a run whose {what} differs from this one: resume refused (use --restart to discard that run, or choose another --out)"),
+                ));
+            }
+            _ => {
+                for t in TABLES {
+                    let d = out.join(t);
+                    if d.exists() {
+                        std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
+                    }
+                }
+                std::fs::remove_file(&manifest_path).map_err(|e| Error::io(&manifest_path, e))?;
+            }
+        }
+    }
+    let mut entries =
+        std::fs::read_dir(out).map_err(|e| out_err(out, format!("cannot read: {e}")))?;
+    if entries.next().is_some() {
+        return Err(out_err(
+            out,
+            "already exists, is not empty and holds no forkmap run: choose a new --out (forkmap never mixes its results with other files)",
+        ));
+    }
+    Ok(Start::Fresh { created: false })
 }
 
 fn manifest(
@@ -200,17 +245,54 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         imp.clone()
     });
     let sha = sha256_file(&p.data_path)?;
-    let created = check_out_dir(out)?;
-    let started = chrono::Utc::now().to_rfc3339();
+    let start = open_out(p, out, &sha, opts.restart)?;
     let t0 = std::time::Instant::now();
     let manifest_path = out.join("manifest.json");
+    let (created, done, started, resumes) = match start {
+        Start::Fresh { created } => (
+            created,
+            crate::resume::Done::default(),
+            chrono::Utc::now().to_rfc3339(),
+            0u64,
+        ),
+        Start::Resume { done, manifest } => {
+            let started = manifest["started"]
+                .as_str()
+                .map(str::to_string)
+                .unwrap_or_else(|| chrono::Utc::now().to_rfc3339());
+            (
+                false,
+                done,
+                started,
+                manifest["resumes"].as_u64().unwrap_or(0) + 1,
+            )
+        }
+    };
+    let todo: Vec<usize> = (0..p.space.specs.len())
+        .filter(|&i| !done.ids.contains(&p.space.specs[i].id))
+        .collect();
+    if resumes > 0 {
+        sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&todo))?;
+        sweep.importance = Some(if imp.deferred() {
+            imp.only(&["native"])
+        } else {
+            imp.clone()
+        });
+        if !opts.quiet {
+            eprintln!(
+                "forkmap: resuming: {} specs done, {} to run",
+                done.ids.len(),
+                todo.len()
+            );
+        }
+    }
     let first = manifest(
         p,
         &sha,
         opts.threads,
         &started,
         "running",
-        serde_json::json!({}),
+        serde_json::json!({ "resumes": resumes }),
     );
     if let Err(e) = write_bytes_atomic(
         &manifest_path,
@@ -226,7 +308,8 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             msg: format!("cannot write: {e}"),
         });
     }
-    let mut sink = ParquetSink::new(out, &p.space, &p.panel, p.cfg.output.batch_specs)?;
+    let mut sink = ParquetSink::new(out, &p.space, &p.panel, p.cfg.output.batch_specs)?
+        .starting_at(done.next_part);
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(opts.threads)
         .build()
@@ -234,14 +317,23 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             path: out.into(),
             msg: format!("cannot start {} threads: {e}", opts.threads),
         })?;
-    let skills = stream(
-        &sweep,
-        &mut sink,
-        &pool,
-        p.space.specs.len(),
-        opts.quiet,
-        out,
-    )?;
+    let mut skills = stream(&sweep, &mut sink, &pool, todo.len(), opts.quiet, out)?;
+    let index: std::collections::HashMap<&str, usize> = p
+        .space
+        .specs
+        .iter()
+        .enumerate()
+        .map(|(i, s)| (s.id.as_str(), i))
+        .collect();
+    skills.extend(
+        done.skills
+            .iter()
+            .filter_map(|(id, sk)| index.get(id.as_str()).map(|&i| (i, *sk))),
+    );
+    let mut failures = sink.failures.clone();
+    for cause in &done.failed {
+        *failures.entry(crate::error::cause_name(cause)).or_default() += 1;
+    }
     let ok = skills.len();
     let best = skills
         .iter()
@@ -267,13 +359,14 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         importance_specs = serde_json::json!(subset.len());
     }
     let seconds = t0.elapsed().as_secs_f64();
-    let failures = sink.failures.clone();
+    let written = sink.written_specs + done.ids.len();
     let extra = serde_json::json!({
         "finished": chrono::Utc::now().to_rfc3339(),
         "seconds": seconds,
         "specs_ok": ok,
         "failures": failures,
-        "specs_written": sink.written_specs,
+        "specs_written": written,
+        "resumes": resumes,
         "importance_within": imp.within,
         "importance_permutation_specs": importance_specs,
     });

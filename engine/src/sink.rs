@@ -113,6 +113,12 @@ impl<'a> ParquetSink<'a> {
         })
     }
 
+    /// Continue numbering parts from `next` (resume).
+    pub fn starting_at(mut self, next: usize) -> Self {
+        self.next_part = next;
+        self
+    }
+
     /// A sink for a second importance pass over some specs: it writes importance parts
     /// only (`importance/part-iNNNNN.parquet`), never the other tables again.
     pub fn importance_pass(

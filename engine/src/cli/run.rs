@@ -1,9 +1,12 @@
-//! `forkmap run CONFIG --out RUN_DIR [--threads N] [--quiet]`
+//! `forkmap run CONFIG --out RUN_DIR [--threads N] [--quiet] [--restart]`
 //!
 //! Run every spec of the config on all cores and write RUN_DIR: `manifest.json`,
 //! `specs/part-*.parquet` (one row per spec) and `predictions/part-*.parquet` (one row per
-//! spec and data row and repeat). Everything is checked before RUN_DIR is created; RUN_DIR
-//! must not exist or be empty. Exit code 0 when the sweep completed (failed specs are
+//! spec and data row and repeat), `loadings/`, `importance/`. Everything is checked before
+//! RUN_DIR is created. Running the same command again on an interrupted run resumes it:
+//! specs in complete parts are skipped, the rest run. A RUN_DIR holding a run of another
+//! config, data file or forkmap version is refused unless `--restart` (which discards it);
+//! a non-empty folder that holds no forkmap run is always refused. Exit code 0 when the sweep completed (failed specs are
 //! recorded and counted), 2 on an error.
 
 use std::path::PathBuf;
@@ -23,6 +26,9 @@ pub struct Args {
     /// No progress output.
     #[arg(long)]
     quiet: bool,
+    /// Discard a run of another config, data or version found in RUN_DIR and start afresh.
+    #[arg(long)]
+    restart: bool,
 }
 
 pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
@@ -45,6 +51,7 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         &forkmap::run::RunOptions {
             threads,
             quiet: a.quiet,
+            restart: a.restart,
         },
     )?;
     let failed: usize = s.failures.values().sum();
