@@ -107,27 +107,31 @@ fn kill_at_random_instants_then_resume_equals_an_uninterrupted_run() {
     let tmp = tempfile::tempdir().unwrap();
     let cfg = config(tmp.path(), 3);
     let reference = tmp.path().join("reference");
-    let t0 = Instant::now();
     let st = run(&cfg, &reference, &[]);
     assert!(
         st.status.success(),
         "{}",
         String::from_utf8_lossy(&st.stderr)
     );
-    let full = t0.elapsed();
     let want = fingerprint(&reference);
     assert!(want[0].len() >= 40, "specs: {}", want[0].len());
+    let n_parts = std::fs::read_dir(reference.join("specs")).unwrap().count();
 
-    // Seeded instants (SplitMix64) spread over the uninterrupted run's duration.
+    // Seeded instants (SplitMix64): each kill waits until a seeded number of specs parts
+    // is on disk (so it lands mid-run whatever the machine's load), then a seeded extra
+    // 0-20 ms (so it can land inside a write or a rename).
     let mut s: u64 = 0xC0FFEE;
-    let mut interrupted = 0;
-    for k in 0..10 {
+    let mut next = || {
         s = s.wrapping_add(0x9E37_79B9_7F4A_7C15);
         let mut z = s;
         z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
         z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        let u = ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64;
-        let at = full.mul_f64(0.05 + 0.9 * u);
+        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let mut interrupted = 0;
+    for k in 0..10 {
+        let target = (next() * 0.8 * n_parts as f64) as usize;
+        let extra = std::time::Duration::from_micros((next() * 20_000.0) as u64);
         let out = tmp.path().join(format!("killed-{k}"));
         let mut child = Command::new(env!("CARGO_BIN_EXE_forkmap"))
             .arg("run")
@@ -139,7 +143,27 @@ fn kill_at_random_instants_then_resume_equals_an_uninterrupted_run() {
             .stderr(Stdio::null())
             .spawn()
             .unwrap();
-        std::thread::sleep(at);
+        let t0 = Instant::now();
+        let parts = |d: &Path| {
+            std::fs::read_dir(d.join("specs"))
+                .map(|r| {
+                    r.filter(|e| {
+                        e.as_ref()
+                            .map(|e| !e.file_name().to_string_lossy().starts_with('.'))
+                            .unwrap_or(false)
+                    })
+                    .count()
+                })
+                .unwrap_or(0)
+        };
+        while parts(&out) < target
+            && child.try_wait().unwrap().is_none()
+            && t0.elapsed().as_secs() < 120
+        {
+            std::thread::sleep(std::time::Duration::from_micros(500));
+        }
+        std::thread::sleep(extra);
+        let at = t0.elapsed();
         let finished_before = child.try_wait().unwrap().is_some();
         let _ = child.kill(); // SIGKILL on Unix
         let _ = child.wait();
@@ -161,8 +185,9 @@ fn kill_at_random_instants_then_resume_equals_an_uninterrupted_run() {
             "resume {k} (killed after {at:?}) differs from the uninterrupted run"
         );
     }
+    eprintln!("{interrupted} of 10 kills landed mid-run");
     assert!(
-        interrupted >= 5,
+        interrupted >= 8,
         "only {interrupted} of 10 kills landed mid-run"
     );
 }
