@@ -228,3 +228,27 @@ fn a_changed_config_is_refused_unless_restarted() {
     assert_eq!(m["seed"], 4);
     assert_eq!(m["status"], "complete");
 }
+
+/// A run killed before its manifest existed leaves only forkmap's leftovers (the
+/// manifest's temporary file, empty table folders): the same command starts afresh.
+#[test]
+fn leftovers_of_a_run_killed_at_its_start_are_cleared() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("run");
+    std::fs::create_dir_all(out.join("specs")).unwrap();
+    std::fs::write(out.join("specs/.part-00000.parquet.tmp"), "half").unwrap();
+    std::fs::write(out.join(".manifest.json.tmp"), "{").unwrap();
+    let st = run(&config(tmp.path(), 3), &out, &[]);
+    assert!(
+        st.status.success(),
+        "{}",
+        String::from_utf8_lossy(&st.stderr)
+    );
+    assert!(out.join("manifest.json").exists());
+    // Anything else in the folder is still refused.
+    let other = tmp.path().join("other");
+    std::fs::create_dir_all(&other).unwrap();
+    std::fs::write(other.join("notes.txt"), "mine").unwrap();
+    assert!(!run(&config(tmp.path(), 3), &other, &[]).status.success());
+    assert!(other.join("notes.txt").exists());
+}

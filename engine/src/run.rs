@@ -136,9 +136,38 @@ fn open_out(p: &Prepared, out: &Path, sha: &str, restart: bool) -> Result<Start>
             }
         }
     }
-    let mut entries =
-        std::fs::read_dir(out).map_err(|e| out_err(out, format!("cannot read: {e}")))?;
-    if entries.next().is_some() {
+    // A run killed before its manifest was written leaves only forkmap's own leftovers
+    // (the manifest's temporary file, table folders without parts): start afresh.
+    let entries: Vec<std::path::PathBuf> = std::fs::read_dir(out)
+        .map_err(|e| out_err(out, format!("cannot read: {e}")))?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .collect();
+    let leftover = |p: &std::path::PathBuf| {
+        let name = p.file_name().and_then(|n| n.to_str()).unwrap_or("");
+        if name == ".manifest.json.tmp" {
+            return true;
+        }
+        TABLES.contains(&name)
+            && p.is_dir()
+            && std::fs::read_dir(p)
+                .map(|r| {
+                    r.filter_map(|e| e.ok())
+                        .all(|e| e.file_name().to_string_lossy().starts_with('.'))
+                })
+                .unwrap_or(false)
+    };
+    if !entries.is_empty() && entries.iter().all(leftover) {
+        for p in &entries {
+            let r = if p.is_dir() {
+                std::fs::remove_dir_all(p)
+            } else {
+                std::fs::remove_file(p)
+            };
+            r.map_err(|e| Error::io(p, e))?;
+        }
+        return Ok(Start::Fresh { created: false });
+    }
+    if !entries.is_empty() {
         return Err(out_err(
             out,
             "already exists, is not empty and holds no forkmap run: choose a new --out (forkmap never mixes its results with other files)",
