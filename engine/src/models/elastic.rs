@@ -7,7 +7,7 @@
 //! means (which fits the unpenalised intercept) and rows are scaled by sqrt(w) before the
 //! unweighted solver runs with no intercept.
 
-use super::linear::Linear;
+use super::linear::{centre, Centred, Linear};
 use super::{Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
@@ -87,20 +87,14 @@ impl ElasticParams {
         y: ArrayView1<f64>,
         w: ArrayView1<f64>,
     ) -> Result<Linear, FitError> {
-        let sw = w.sum();
-        if !(sw.is_finite() && sw > 0.0 && w.iter().all(|v| v.is_finite() && *v >= 0.0)) {
-            return Err(FitError::Invalid(
-                "row weights must be finite, non-negative, not all 0".into(),
-            ));
-        }
+        // Weighted centring (shared with OLS and ridge; it also checks the weights), then
+        // weights rescaled to sum to n (scikit-learn's sample_weight convention) enter as
+        // sqrt(w) row scaling.
+        let Centred { xm, ym, xc, yc } = centre(x, y, w)?;
         let n = w.len() as f64;
-        // Rescale weights to sum to n (scikit-learn's convention for sample_weight).
-        let w = w.mapv(|v| v * n / sw);
-        let xm = x.t().dot(&w) / n;
-        let ym = y.dot(&w) / n;
-        let sq = w.mapv(f64::sqrt);
-        let xs = (&x - &xm) * sq.view().insert_axis(Axis(1));
-        let ys: Array1<f64> = (&y - ym) * &sq;
+        let sq = w.mapv(|v| (v * n / w.sum()).sqrt());
+        let xs = xc * sq.view().insert_axis(Axis(1));
+        let ys: Array1<f64> = yc * &sq;
         let model = ElasticNet::params()
             .penalty(self.alpha)
             .l1_ratio(self.l1_ratio)

@@ -86,14 +86,18 @@ impl Predictor for Linear {
 }
 
 /// Weighted column means of X, weighted mean of y, and the centred X and y.
-struct Centred {
-    xm: Array1<f64>,
-    ym: f64,
-    xc: Array2<f64>,
-    yc: Array1<f64>,
+pub(crate) struct Centred {
+    pub xm: Array1<f64>,
+    pub ym: f64,
+    pub xc: Array2<f64>,
+    pub yc: Array1<f64>,
 }
 
-fn centre(x: ArrayView2<f64>, y: ArrayView1<f64>, w: ArrayView1<f64>) -> Result<Centred, FitError> {
+pub(crate) fn centre(
+    x: ArrayView2<f64>,
+    y: ArrayView1<f64>,
+    w: ArrayView1<f64>,
+) -> Result<Centred, FitError> {
     let sw = w.sum();
     let valid = |v: f64| v.is_finite() && v >= 0.0;
     if !(valid(sw) && sw > 0.0 && w.iter().all(|v| valid(*v))) {
