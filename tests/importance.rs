@@ -304,6 +304,7 @@ within = 0.03
             threads: 2,
             quiet: true,
             restart: false,
+            shard: None,
         },
     )
     .unwrap();

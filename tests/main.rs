@@ -11,3 +11,4 @@ mod importance;
 mod leak;
 mod reference;
 mod resume;
+mod shards;

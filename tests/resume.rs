@@ -61,7 +61,7 @@ fn run(cfg: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
 }
 
 /// Every table, as sorted rows of text and bit patterns (seconds columns left out).
-fn fingerprint(out: &Path) -> Vec<Vec<String>> {
+pub fn fingerprint(out: &Path) -> Vec<Vec<String>> {
     let mut tables = Vec::new();
     for t in ["specs", "predictions", "loadings", "importance"] {
         let mut rows: Vec<String> = Vec::new();

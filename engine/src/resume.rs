@@ -40,6 +40,14 @@ fn out_err(path: &Path, msg: String) -> Error {
 
 /// Clean a run directory for resuming and read what is done.
 pub fn scan(out: &Path) -> Result<Done> {
+    let (done, complete) = read_done(out)?;
+    remove_leftovers(out, &complete)?;
+    Ok(done)
+}
+
+/// Read what a run directory holds without changing it: the done specs and the names of
+/// the complete specs parts.
+pub fn read_done(out: &Path) -> Result<(Done, HashSet<String>)> {
     let specs_dir = out.join("specs");
     let mut done = Done::default();
     let mut complete: HashSet<String> = HashSet::new();
@@ -93,7 +101,11 @@ pub fn scan(out: &Path) -> Result<Done> {
             complete.insert(name);
         }
     }
-    // Remove temporaries everywhere and orphan parts of the other tables.
+    Ok((done, complete))
+}
+
+/// Remove temporaries everywhere, orphan parts of the other tables and second-pass parts.
+fn remove_leftovers(out: &Path, complete: &HashSet<String>) -> Result<()> {
     for t in TABLES {
         let dir: PathBuf = out.join(t);
         if !dir.is_dir() {
@@ -113,7 +125,7 @@ pub fn scan(out: &Path) -> Result<Done> {
             }
         }
     }
-    Ok(done)
+    Ok(())
 }
 
 /// Whether a manifest belongs to the same config, data and tool version; `Err` names the

@@ -74,6 +74,8 @@ pub struct RunOptions {
     pub quiet: bool,
     /// Discard a run of another config, data or version found in the folder.
     pub restart: bool,
+    /// Run only this shard of the specs.
+    pub shard: Option<crate::shard::Shard>,
 }
 
 /// How a run starts in its folder.
@@ -94,7 +96,13 @@ fn out_err(out: &Path, msg: impl Into<String>) -> Error {
     }
 }
 
-fn open_out(p: &Prepared, out: &Path, sha: &str, restart: bool) -> Result<Start> {
+fn open_out(
+    p: &Prepared,
+    out: &Path,
+    sha: &str,
+    restart: bool,
+    shard: Option<crate::shard::Shard>,
+) -> Result<Start> {
     if !out.exists() {
         std::fs::create_dir_all(out).map_err(|e| out_err(out, format!("cannot create: {e}")))?;
         return Ok(Start::Fresh { created: true });
@@ -112,7 +120,20 @@ fn open_out(p: &Prepared, out: &Path, sha: &str, restart: bool) -> Result<Start>
                 format!("manifest.json is unreadable ({e}): use --restart to discard this run"),
             )
         })?;
-        match crate::resume::same_run(&m, &p.cfg.canonical_json(), sha) {
+        let same = crate::resume::same_run(&m, &p.cfg.canonical_json(), sha).and_then(|()| {
+            let want = shard.map(|s| s.to_string());
+            let have = m["shard"].as_str().map(str::to_string);
+            if want == have {
+                Ok(())
+            } else {
+                Err(format!(
+                    "shard ({}, this is {})",
+                    have.as_deref().unwrap_or("none"),
+                    want.as_deref().unwrap_or("none")
+                ))
+            }
+        });
+        match same {
             Ok(()) if !restart => {
                 return Ok(Start::Resume {
                     done: crate::resume::scan(out)?,
@@ -274,7 +295,10 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         imp.clone()
     });
     let sha = sha256_file(&p.data_path)?;
-    let start = open_out(p, out, &sha, opts.restart)?;
+    if let Some(sh) = opts.shard {
+        crate::shard::check(&p.space, sh)?;
+    }
+    let start = open_out(p, out, &sha, opts.restart, opts.shard)?;
     let t0 = std::time::Instant::now();
     let manifest_path = out.join("manifest.json");
     let (created, done, started, resumes) = match start {
@@ -297,17 +321,23 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             )
         }
     };
-    let todo: Vec<usize> = (0..p.space.specs.len())
+    let mine: Vec<usize> = match opts.shard {
+        Some(sh) => crate::shard::assign(&p.space, &p.panel, sh),
+        None => (0..p.space.specs.len()).collect(),
+    };
+    let todo: Vec<usize> = mine
+        .iter()
+        .copied()
         .filter(|&i| !done.ids.contains(&p.space.specs[i].id))
         .collect();
-    if resumes > 0 {
+    if todo.len() < p.space.specs.len() {
         sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&todo))?;
         sweep.importance = Some(if imp.deferred() {
             imp.only(&["native"])
         } else {
             imp.clone()
         });
-        if !opts.quiet {
+        if !opts.quiet && resumes > 0 {
             eprintln!(
                 "forkmap: resuming: {} specs done, {} to run",
                 done.ids.len(),
@@ -315,14 +345,13 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             );
         }
     }
-    let first = manifest(
-        p,
-        &sha,
-        opts.threads,
-        &started,
-        "running",
-        serde_json::json!({ "resumes": resumes }),
-    );
+    let shard_fields = serde_json::json!({
+        "shard": opts.shard.map(|s| s.to_string()),
+        "shard_specs": mine.len(),
+    });
+    let mut first_extra = shard_fields.clone();
+    first_extra["resumes"] = serde_json::json!(resumes);
+    let first = manifest(p, &sha, opts.threads, &started, "running", first_extra);
     if let Err(e) = write_bytes_atomic(
         &manifest_path,
         serde_json::to_string_pretty(&first)
@@ -368,28 +397,21 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         .iter()
         .max_by(|a, b| a.1.total_cmp(&b.1))
         .map(|&(si, sk)| (p.space.specs[si].id.clone(), sk));
-    let mut importance_specs = serde_json::Value::Null;
-    if let (Some(within), Some((_, top))) = (imp.within.filter(|_| imp.deferred()), &best) {
-        let mut subset: Vec<usize> = skills
-            .iter()
-            .filter(|(_, sk)| *sk >= top - within)
-            .map(|(si, _)| *si)
-            .collect();
-        subset.sort_unstable();
-        if !opts.quiet {
-            eprintln!("forkmap: permutation importances for the {} specs within {within} skill of the best", subset.len());
+    // The deferred permutation pass needs the best skill of the whole space, which a
+    // shard does not know: `forkmap merge` runs it over the merged shards.
+    let pending = imp.deferred() && imp.within.is_some() && opts.shard.is_some();
+    let importance_specs = if pending {
+        serde_json::Value::Null
+    } else {
+        match permutation_pass(p, out, &skills, &pool, opts.quiet)? {
+            Some(n) => serde_json::json!(n),
+            None => serde_json::Value::Null,
         }
-        let mut second = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&subset))?;
-        second.describe = false;
-        second.importance = Some(imp.only(&["permutation", "group"]));
-        let mut isink =
-            ParquetSink::importance_pass(out, &p.space, &p.panel, p.cfg.output.batch_specs)?;
-        stream(&second, &mut isink, &pool, subset.len(), opts.quiet, out)?;
-        importance_specs = serde_json::json!(subset.len());
-    }
+    };
     let seconds = t0.elapsed().as_secs_f64();
     let written = sink.written_specs + done.ids.len();
-    let extra = serde_json::json!({
+    let mut extra = serde_json::json!({
+        "importance_pending": pending,
         "finished": chrono::Utc::now().to_rfc3339(),
         "seconds": seconds,
         "specs_ok": ok,
@@ -399,6 +421,9 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         "importance_within": imp.within,
         "importance_permutation_specs": importance_specs,
     });
+    if let (Some(e), serde_json::Value::Object(sf)) = (extra.as_object_mut(), shard_fields) {
+        e.extend(sf);
+    }
     let last = manifest(p, &sha, opts.threads, &started, "complete", extra);
     write_bytes_atomic(
         &manifest_path,
@@ -413,4 +438,44 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         seconds,
         best,
     })
+}
+
+/// The deferred permutation-importance pass: with `importance.within`, rerun the specs
+/// whose skill is within that distance of the best (`skills`: spec index and skill of every
+/// ok spec of the whole space) for the permutation kinds, into `part-iNNNNN` parts of
+/// `out/importance`. Returns the number of specs rerun, `None` when nothing is deferred.
+pub fn permutation_pass(
+    p: &Prepared,
+    out: &Path,
+    skills: &[(usize, f64)],
+    pool: &rayon::ThreadPool,
+    quiet: bool,
+) -> Result<Option<usize>> {
+    let imp = &p.cfg.importance;
+    let Some(within) = imp.within.filter(|_| imp.deferred()) else {
+        return Ok(None);
+    };
+    let Some(top) = skills.iter().map(|s| s.1).max_by(f64::total_cmp) else {
+        return Ok(None);
+    };
+    let mut subset: Vec<usize> = skills
+        .iter()
+        .filter(|(_, sk)| *sk >= top - within)
+        .map(|(si, _)| *si)
+        .collect();
+    subset.sort_unstable();
+    subset.dedup();
+    if !quiet {
+        eprintln!(
+            "forkmap: permutation importances for the {} specs within {within} skill of the best",
+            subset.len()
+        );
+    }
+    let mut second = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&subset))?;
+    second.describe = false;
+    second.importance = Some(imp.only(&["permutation", "group"]));
+    let mut isink =
+        ParquetSink::importance_pass(out, &p.space, &p.panel, p.cfg.output.batch_specs)?;
+    stream(&second, &mut isink, pool, subset.len(), quiet, out)?;
+    Ok(Some(subset.len()))
 }

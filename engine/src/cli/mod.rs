@@ -1,6 +1,8 @@
 //! Verb dispatch, logging set-up and error reporting.
 
+mod check;
 mod completions;
+mod merge;
 mod plan;
 mod run;
 
@@ -22,6 +24,8 @@ pub struct Cli {
 enum Verb {
     Plan(plan::Args),
     Run(run::Args),
+    Check(check::Args),
+    Merge(merge::Args),
     Completions(completions::Args),
 }
 
@@ -46,6 +50,8 @@ pub fn main() -> ExitCode {
     let result = match cli.verb {
         Verb::Plan(a) => plan::exec(a),
         Verb::Run(a) => run::exec(a),
+        Verb::Check(a) => check::exec(a),
+        Verb::Merge(a) => merge::exec(a),
         Verb::Completions(a) => completions::exec(a),
     };
     match result {

@@ -6,8 +6,10 @@
 //! RUN_DIR is created. Running the same command again on an interrupted run resumes it:
 //! specs in complete parts are skipped, the rest run. A RUN_DIR holding a run of another
 //! config, data file or forkmap version is refused unless `--restart` (which discards it);
-//! a non-empty folder that holds no forkmap run is always refused. Exit code 0 when the sweep completed (failed specs are
-//! recorded and counted), 2 on an error.
+//! a non-empty folder that holds no forkmap run is always refused. With `--shard I/N` only
+//! shard I of a deterministic, cost-balanced split into N runs (`forkmap merge` joins the
+//! shards; `forkmap check` reports what is missing). Exit code 0 when the sweep completed
+//! (failed specs are recorded and counted), 2 on an error.
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -29,6 +31,10 @@ pub struct Args {
     /// Discard a run of another config, data or version found in RUN_DIR and start afresh.
     #[arg(long)]
     restart: bool,
+    /// Run only shard I of N (1-based), a deterministic cost-balanced share of the specs;
+    /// `forkmap merge` joins the shards.
+    #[arg(long, value_name = "I/N")]
+    shard: Option<forkmap::shard::Shard>,
 }
 
 pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
@@ -38,9 +44,16 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     }
     let threads = super::threads(a.threads);
     if !a.quiet {
+        let share = match a.shard {
+            Some(sh) => format!(
+                "shard {sh}: {} of {}",
+                forkmap::shard::assign(&p.space, &p.panel, sh).len(),
+                p.space.specs.len()
+            ),
+            None => p.space.specs.len().to_string(),
+        };
         eprintln!(
-            "forkmap: {} specs x {} fits on {threads} thread(s) -> {}",
-            p.space.specs.len(),
+            "forkmap: {share} specs x {} fits on {threads} thread(s) -> {}",
             p.folds.n_fits_per_spec(),
             a.out.display()
         );
@@ -52,6 +65,7 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             threads,
             quiet: a.quiet,
             restart: a.restart,
+            shard: a.shard,
         },
     )?;
     let failed: usize = s.failures.values().sum();

@@ -60,6 +60,13 @@ pub const FAMILY: Family = Family {
         help: "gradient boosting of regression trees (squared loss)",
         weighted: true,
     },
+    cost: |c, n, p| {
+        c.param("trees").unwrap_or(100.0)
+            * c.param("subsample").unwrap_or(1.0)
+            * n
+            * p
+            * c.param("depth").unwrap_or(3.0)
+    },
     build: |c: &Choice| {
         Ok(Arc::new(BoostParams {
             trees: int_param(c, "trees")?,

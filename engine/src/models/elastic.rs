@@ -34,6 +34,7 @@ pub const LASSO: Family = Family {
         help: "lasso (L1 penalty)",
         weighted: true,
     },
+    cost: |_c, n, p| 100.0 * n * p,
     build: |c: &Choice| {
         Ok(Arc::new(ElasticParams {
             alpha: c.param("alpha").ok_or("lasso needs alpha")?,
@@ -61,6 +62,7 @@ pub const ELASTIC: Family = Family {
         help: "elastic net (L1 + L2 penalty)",
         weighted: true,
     },
+    cost: |_c, n, p| 100.0 * n * p,
     build: |c: &Choice| {
         Ok(Arc::new(ElasticParams {
             alpha: c.param("alpha").ok_or("elastic needs alpha")?,

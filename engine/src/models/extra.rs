@@ -31,6 +31,13 @@ pub const FAMILY: Family = Family {
         help: "extremely randomised trees",
         weighted: true,
     },
+    cost: |c, n, p| {
+        c.param("trees").unwrap_or(200.0)
+            * (c.param("tried").unwrap_or(1.0) * p).max(1.0)
+            * n
+            * n.log2().max(1.0)
+            * 0.5
+    },
     build: |c: &Choice| {
         Ok(Arc::new(ExtraParams {
             trees: int_param(c, "trees")?,

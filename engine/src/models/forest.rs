@@ -43,6 +43,12 @@ pub const FAMILY: Family = Family {
         help: "random forest (bootstrap, random indicator subsets)",
         weighted: true,
     },
+    cost: |c, n, p| {
+        c.param("trees").unwrap_or(200.0)
+            * (c.param("tried").unwrap_or(0.33) * p).max(1.0)
+            * n
+            * n.log2().max(1.0)
+    },
     build: |c: &Choice| {
         Ok(Arc::new(ForestParams {
             trees: int_param(c, "trees")?,

@@ -23,6 +23,7 @@ pub const FAMILY: Family = Family {
         help: "k-nearest-neighbour regression",
         weighted: true,
     },
+    cost: |_c, n, p| n * n * p,
     build: |c: &Choice| {
         Ok(Arc::new(KnnParams {
             k: int_param(c, "k")?,

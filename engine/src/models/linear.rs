@@ -23,6 +23,7 @@ pub const OLS: Family = Family {
         help: "ordinary least squares",
         weighted: true,
     },
+    cost: |_c, n, p| n * p * p + p * p * p,
     build: |_| Ok(Arc::new(Ols)),
 };
 
@@ -42,6 +43,7 @@ pub const RIDGE: Family = Family {
         help: "ridge regression",
         weighted: true,
     },
+    cost: |_c, n, p| n * p * p + p * p * p,
     build: |c: &Choice| {
         let alpha = c.param("alpha").ok_or("ridge needs alpha")?;
         Ok(Arc::new(Ridge { alpha }))

@@ -68,6 +68,10 @@ pub fn ensemble_impurity(trees: &[tree::Tree], p: usize) -> Vec<f64> {
 /// A registered family.
 pub struct Family {
     pub decl: OptionDecl,
+    /// Relative cost of one fit on `n` rows and `p` input columns, in arbitrary units
+    /// (roughly the passes over the data the algorithm makes). Used to balance shards and,
+    /// calibrated by `plan`'s probe, to estimate run time. Only ratios matter.
+    pub cost: fn(&Choice, f64, f64) -> f64,
     pub build: fn(&Choice) -> Result<Arc<dyn Regressor>, String>,
 }
 
@@ -86,6 +90,15 @@ pub fn registry() -> &'static [Family] {
         knn::FAMILY,
     ];
     &FAMILIES
+}
+
+/// Relative cost of one fit of a model choice on `n` rows and `p` columns.
+pub fn cost(choice: &Choice, n: f64, p: f64) -> f64 {
+    registry()
+        .iter()
+        .find(|f| f.decl.name == choice.option)
+        .map(|f| (f.cost)(choice, n.max(1.0), p.max(1.0)))
+        .unwrap_or(n * p)
 }
 
 /// Build the regressor of a model choice.

@@ -27,6 +27,7 @@ pub const FAMILY: Family = Family {
         help: "partial least squares regression",
         weighted: false,
     },
+    cost: |c, n, p| c.param("k").unwrap_or(2.0) * 4.0 * n * p,
     build: |c: &Choice| {
         Ok(Arc::new(PlsParams {
             k: int_param(c, "k")?,

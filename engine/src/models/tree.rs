@@ -42,6 +42,7 @@ pub const FAMILY: Family = Family {
         help: "regression tree (CART, squared error)",
         weighted: true,
     },
+    cost: |c, n, p| p * n * c.param("depth").unwrap_or(8.0).min(n.log2().max(1.0)),
     build: |c: &Choice| {
         Ok(Arc::new(TreeParams {
             depth: int_param(c, "depth")?,

@@ -1,0 +1,48 @@
+//! `forkmap check RUN... `
+//!
+//! Read one run directory, several, or a folder of shard directories as one run and report
+//! how complete it is: specs present of the whole space, ok and failed (by cause), shards
+//! with no directory, unfinished directories, specs present in more than one directory.
+//! Changes nothing. Exit code 0 when complete, 1 when not, 2 on an error (directories of
+//! different configs, data or versions; unreadable parts).
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+/// Report whether a run, or a set of shards, is complete.
+#[derive(clap::Args)]
+pub struct Args {
+    /// Run directories, or folders holding shard directories.
+    #[arg(required = true)]
+    runs: Vec<PathBuf>,
+}
+
+pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
+    let set = forkmap::results::RunSet::open(&a.runs)?;
+    for d in &set.dirs {
+        println!(
+            "run        {} ({}{}, {} of {} specs)",
+            d.path.display(),
+            d.shard
+                .map(|s| format!("shard {s}"))
+                .unwrap_or_else(|| "whole space".into()),
+            if d.complete() { "" } else { ", unfinished" },
+            d.done.ids.len(),
+            d.expected
+        );
+    }
+    let c = set.completeness();
+    for line in c.describe() {
+        println!("{line}");
+    }
+    if set.importance_pending() {
+        println!("importance permutation pass pending: `forkmap merge` runs it");
+    }
+    if c.is_complete() {
+        println!("complete");
+        Ok(ExitCode::SUCCESS)
+    } else {
+        println!("incomplete");
+        Ok(ExitCode::from(1))
+    }
+}

@@ -1,0 +1,52 @@
+//! `forkmap merge RUN... --out RUN_DIR [--config CONFIG] [--threads N] [--quiet]`
+//!
+//! Merge a complete set of shard directories (or a folder holding them) into one new run
+//! directory, equal row for row to the run one machine would have made. Refused, with the
+//! completeness report, when a shard is missing or unfinished or a spec is in two
+//! directories; nothing is written then. When the config defers permutation importances
+//! (`importance.within`), the merge runs that pass over the whole space; it needs the
+//! config (`--config`, else the file named in the manifests) and the same data file.
+//! Exit code 0 on success, 2 on an error.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+/// Merge shard directories into one run directory.
+#[derive(clap::Args)]
+pub struct Args {
+    /// Shard directories, or folders holding them.
+    #[arg(required = true)]
+    runs: Vec<PathBuf>,
+    /// Run directory to create (must not exist, or be empty).
+    #[arg(long)]
+    out: PathBuf,
+    /// The sweep config, for a deferred permutation-importance pass.
+    #[arg(long)]
+    config: Option<PathBuf>,
+    /// Worker threads for that pass (default: all cores).
+    #[arg(long)]
+    threads: Option<usize>,
+    /// No progress output.
+    #[arg(long)]
+    quiet: bool,
+}
+
+pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
+    let set = forkmap::results::RunSet::open(&a.runs)?;
+    let s = forkmap::merge::merge(
+        &set,
+        &a.out,
+        &forkmap::merge::MergeOptions {
+            threads: super::threads(a.threads),
+            quiet: a.quiet,
+            config: a.config,
+        },
+    )?;
+    println!("merged     {} directories, {} parts", s.dirs, s.parts);
+    println!("specs      {}", s.specs);
+    if let Some(n) = s.permutation_specs {
+        println!("importance permutation pass over {n} specs");
+    }
+    println!("results    {}", a.out.display());
+    Ok(ExitCode::SUCCESS)
+}

@@ -1,0 +1,235 @@
+//! Merging a complete set of shard directories into one run directory that is, table by
+//! table and row by row, the run a single machine would have made.
+//!
+//! The merge is all or nothing: parts are copied (renumbered) into a hidden sibling of the
+//! target, fsynced, the deferred permutation-importance pass (`importance.within`) runs
+//! there over the whole space, the manifest is written, and only then is the folder renamed
+//! into place. An interrupted merge leaves no target; running it again starts over.
+
+use crate::error::{Error, Result};
+use crate::results::RunSet;
+use crate::run::{prepare, sha256_file};
+use crate::sink::{write_bytes_atomic, TABLES};
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+
+pub struct MergeOptions {
+    pub threads: usize,
+    pub quiet: bool,
+    /// The sweep config, needed when the shards deferred permutation importances (else the
+    /// config file named in the manifests is tried).
+    pub config: Option<PathBuf>,
+}
+
+#[derive(Debug)]
+pub struct MergeSummary {
+    pub dirs: usize,
+    pub specs: usize,
+    pub parts: usize,
+    pub permutation_specs: Option<usize>,
+}
+
+fn out_err(path: &Path, msg: impl Into<String>) -> Error {
+    Error::Output {
+        path: path.to_path_buf(),
+        msg: msg.into(),
+    }
+}
+
+fn fsync_dir(dir: &Path) -> Result<()> {
+    std::fs::File::open(dir)
+        .and_then(|f| f.sync_all())
+        .map_err(|e| Error::io(dir, e))
+}
+
+fn copy_synced(from: &Path, to: &Path) -> Result<()> {
+    std::fs::copy(from, to)
+        .map_err(|e| out_err(to, format!("cannot copy {}: {e}", from.display())))?;
+    std::fs::File::open(to)
+        .and_then(|f| f.sync_all())
+        .map_err(|e| Error::io(to, e))
+}
+
+/// Merge `set` into the new run directory `out`.
+pub fn merge(set: &RunSet, out: &Path, opts: &MergeOptions) -> Result<MergeSummary> {
+    let c = set.completeness();
+    if !c.is_complete() {
+        return Err(out_err(
+            out,
+            format!(
+                "not written: the run set is not complete\n  {}",
+                c.describe().join("\n  ")
+            ),
+        ));
+    }
+    let out_empty_dir = out.is_dir()
+        && std::fs::read_dir(out)
+            .map(|mut r| r.next().is_none())
+            .unwrap_or(false);
+    if out.exists() && !out_empty_dir {
+        return Err(out_err(
+            out,
+            "already exists and is not empty: choose a new --out",
+        ));
+    }
+    let name = out
+        .file_name()
+        .and_then(|n| n.to_str())
+        .ok_or_else(|| out_err(out, "needs a folder name"))?;
+    let parent = match out.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    if !parent.is_dir() {
+        return Err(out_err(out, "its parent folder does not exist"));
+    }
+    let tmp = parent.join(format!(".{name}.forkmap-merge"));
+    if tmp.exists() {
+        std::fs::remove_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
+    }
+    let result = write_merged(set, &tmp, opts, &c);
+    let summary = match result {
+        Ok(s) => s,
+        Err(e) => {
+            let _ = std::fs::remove_dir_all(&tmp);
+            return Err(e);
+        }
+    };
+    if out_empty_dir {
+        std::fs::remove_dir(out).map_err(|e| Error::io(out, e))?;
+    }
+    std::fs::rename(&tmp, out)
+        .map_err(|e| out_err(out, format!("cannot move the merged run into place: {e}")))?;
+    fsync_dir(&parent)?;
+    Ok(summary)
+}
+
+fn write_merged(
+    set: &RunSet,
+    tmp: &Path,
+    opts: &MergeOptions,
+    c: &crate::results::Completeness,
+) -> Result<MergeSummary> {
+    for t in TABLES {
+        let d = tmp.join(t);
+        std::fs::create_dir_all(&d).map_err(|e| out_err(&d, format!("cannot create: {e}")))?;
+    }
+    let parts = set.parts();
+    for (k, (dir, part)) in parts.iter().enumerate() {
+        let new = format!("part-{k:05}.parquet");
+        for t in TABLES {
+            let from = dir.join(t).join(part);
+            if from.is_file() {
+                copy_synced(&from, &tmp.join(t).join(&new))?;
+            }
+        }
+    }
+    let mut permutation_specs = None;
+    if !set.importance_pending() {
+        // A finished whole-space run keeps its own permutation pass.
+        let mut k = 0;
+        for d in &set.dirs {
+            for f in crate::results::second_pass_parts(&d.path.join("importance")) {
+                copy_synced(
+                    &f,
+                    &tmp.join("importance").join(format!("part-i{k:05}.parquet")),
+                )?;
+                k += 1;
+            }
+        }
+    } else {
+        let cfg_path = match &opts.config {
+            Some(p) => p.clone(),
+            None => set.manifest()["config_file"]
+                .as_str()
+                .map(PathBuf::from)
+                .filter(|p| p.is_file())
+                .ok_or_else(|| {
+                    out_err(
+                        tmp,
+                        "the shards deferred their permutation importances (importance.within) and the config file named in their manifest is not here: pass --config CONFIG",
+                    )
+                })?,
+        };
+        let p = prepare(&cfg_path)?;
+        let sha = sha256_file(&p.data_path)?;
+        crate::resume::same_run(set.manifest(), &p.cfg.canonical_json(), &sha).map_err(|what| {
+            Error::Config {
+                file: cfg_path.display().to_string(),
+                msg: format!("its {what} differs from the shards' run: cannot finish their importance pass with it"),
+            }
+        })?;
+        let index: HashMap<&str, usize> = p
+            .space
+            .specs
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.id.as_str(), i))
+            .collect();
+        let mut skills: Vec<(usize, f64)> = Vec::new();
+        for d in &set.dirs {
+            for (id, sk) in &d.done.skills {
+                if let Some(&i) = index.get(id.as_str()) {
+                    skills.push((i, *sk));
+                }
+            }
+        }
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(opts.threads)
+            .build()
+            .map_err(|e| out_err(tmp, format!("cannot start {} threads: {e}", opts.threads)))?;
+        permutation_specs = crate::run::permutation_pass(&p, tmp, &skills, &pool, opts.quiet)?;
+    }
+    for t in TABLES {
+        fsync_dir(&tmp.join(t))?;
+    }
+    let mut m = set.manifest().clone();
+    let seconds: f64 = set
+        .dirs
+        .iter()
+        .filter_map(|d| d.manifest["seconds"].as_f64())
+        .sum();
+    if let Some(o) = m.as_object_mut() {
+        o.insert("status".into(), "complete".into());
+        o.insert("shard".into(), serde_json::Value::Null);
+        o.insert("shard_specs".into(), serde_json::json!(c.total));
+        o.insert(
+            "merged_from".into(),
+            serde_json::json!(set
+                .dirs
+                .iter()
+                .map(|d| serde_json::json!({
+                    "path": d.path.display().to_string(),
+                    "shard": d.shard.map(|s| s.to_string()),
+                    "specs": d.done.ids.len(),
+                    "seconds": d.manifest["seconds"],
+                }))
+                .collect::<Vec<_>>()),
+        );
+        o.insert("merged".into(), chrono::Utc::now().to_rfc3339().into());
+        o.insert("seconds".into(), serde_json::json!(seconds));
+        o.insert("specs_written".into(), serde_json::json!(c.present));
+        o.insert("specs_ok".into(), serde_json::json!(c.ok));
+        o.insert("failures".into(), serde_json::json!(c.failures));
+        o.insert("importance_pending".into(), false.into());
+        if permutation_specs.is_some() || set.importance_pending() {
+            o.insert(
+                "importance_permutation_specs".into(),
+                serde_json::json!(permutation_specs),
+            );
+        }
+    }
+    write_bytes_atomic(
+        &tmp.join("manifest.json"),
+        serde_json::to_string_pretty(&m)
+            .unwrap_or_default()
+            .as_bytes(),
+    )?;
+    fsync_dir(tmp)?;
+    Ok(MergeSummary {
+        dirs: set.dirs.len(),
+        specs: c.present,
+        parts: parts.len(),
+        permutation_specs,
+    })
+}

@@ -1,0 +1,237 @@
+//! Shards: `--shard I/N` splits the specs deterministically; `check` reports a shard set's
+//! completeness; `merge` joins a complete set into exactly the single-machine run (all four
+//! tables, bit for bit, seconds columns aside), including the deferred permutation pass.
+
+use crate::common::root;
+use crate::resume::fingerprint;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn config(dir: &Path, seed: u64) -> PathBuf {
+    let text = format!(
+        r#"
+seed = {seed}
+[data]
+file = "{root}/toy-panel/panel.csv"
+unit = "district"
+wave = "wave"
+outcome = "hardship_pct"
+ignore = ["region"]
+codebook = "{root}/toy-panel/codebook.csv"
+[folds]
+k = 4
+[choices]
+pool = ["all", "core"]
+compress = ["none", "pca"]
+model = ["ridge", "tree", "forest", "boost"]
+weighting = ["rows", "high"]
+[pools]
+core = ["inc_median_income", "cli_heating_degree_days", "prc_tariff_index", "hou_pre1950_share"]
+[grid.pca]
+k = [3]
+[grid.ridge]
+alpha = [1, 10]
+[grid.forest]
+trees = [30]
+[grid.boost]
+trees = [30]
+[importance]
+repeats = 1
+kinds = ["permutation", "group", "native"]
+within = 0.03
+[output]
+batch_specs = 3
+"#,
+        root = root().display()
+    );
+    let path = dir.join(format!("shards-{seed}.toml"));
+    std::fs::write(&path, text).unwrap();
+    path
+}
+
+fn forkmap(args: &[&std::ffi::OsStr]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_forkmap"))
+        .args(args)
+        .output()
+        .unwrap()
+}
+
+fn run(cfg: &Path, out: &Path, extra: &[&str]) -> Output {
+    let mut a: Vec<&std::ffi::OsStr> = vec!["run".as_ref(), cfg.as_os_str(), "--out".as_ref()];
+    a.push(out.as_os_str());
+    a.extend(
+        ["--quiet", "--threads", "2"]
+            .iter()
+            .map(std::ffi::OsStr::new),
+    );
+    a.extend(extra.iter().map(std::ffi::OsStr::new));
+    forkmap(&a)
+}
+
+fn ok(o: &Output) -> String {
+    assert!(
+        o.status.success(),
+        "exit {:?}\n{}\n{}",
+        o.status.code(),
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
+    String::from_utf8_lossy(&o.stdout).into_owned()
+}
+
+fn spec_ids(out: &Path) -> Vec<String> {
+    let mut ids: Vec<String> = fingerprint(out)[0]
+        .iter()
+        .map(|r| r.split('|').next().unwrap().to_string())
+        .collect();
+    ids.sort();
+    ids
+}
+
+#[test]
+fn two_and_three_shards_merge_into_the_single_run() {
+    let tmp = tempfile::tempdir().unwrap();
+    let cfg = config(tmp.path(), 11);
+    let single = tmp.path().join("single");
+    ok(&run(&cfg, &single, &[]));
+    let want = fingerprint(&single);
+    let all_ids = spec_ids(&single);
+    assert!(all_ids.len() >= 40, "{} specs", all_ids.len());
+    // The deferred permutation pass ran: some permutation rows, not for every spec.
+    let perm = want[3]
+        .iter()
+        .filter(|r| r.contains("|permutation|"))
+        .count();
+    assert!(perm > 0, "no permutation importances in the single run");
+
+    for n in [2usize, 3] {
+        let base = tmp.path().join(format!("split{n}"));
+        let mut seen: Vec<String> = Vec::new();
+        for i in 1..=n {
+            let dir = base.join(format!("shard-{i}"));
+            ok(&run(&cfg, &dir, &["--shard", &format!("{i}/{n}")]));
+            let ids = spec_ids(&dir);
+            assert!(!ids.is_empty(), "shard {i}/{n} is empty");
+            seen.extend(ids);
+        }
+        seen.sort();
+        assert_eq!(seen, all_ids, "the {n} shards do not partition the specs");
+        let report = ok(&forkmap(&["check".as_ref(), base.as_os_str()]));
+        assert!(
+            report.contains("complete") && !report.contains("incomplete"),
+            "{report}"
+        );
+        assert!(report.contains("pending"), "{report}");
+        let merged = tmp.path().join(format!("merged{n}"));
+        ok(&forkmap(&[
+            "merge".as_ref(),
+            base.as_os_str(),
+            "--out".as_ref(),
+            merged.as_os_str(),
+            "--quiet".as_ref(),
+        ]));
+        let got = fingerprint(&merged);
+        for (t, (g, w)) in ["specs", "predictions", "loadings", "importance"]
+            .iter()
+            .zip(got.iter().zip(&want))
+        {
+            assert_eq!(g.len(), w.len(), "{n} shards: {t} row count");
+            assert!(g == w, "{n} shards: {t} differs from the single run");
+        }
+        let m: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(merged.join("manifest.json")).unwrap())
+                .unwrap();
+        assert_eq!(m["status"], "complete");
+        assert_eq!(m["shard"], serde_json::Value::Null);
+        assert_eq!(m["merged_from"].as_array().unwrap().len(), n);
+        // The merged run is itself a complete run.
+        let report = ok(&forkmap(&["check".as_ref(), merged.as_os_str()]));
+        assert!(report.contains("whole space"), "{report}");
+    }
+}
+
+#[test]
+fn incomplete_duplicated_and_foreign_shard_sets_are_reported_and_refused() {
+    let tmp = tempfile::tempdir().unwrap();
+    let cfg = config(tmp.path(), 12);
+    let base = tmp.path().join("shards");
+    for i in [1, 3] {
+        ok(&run(
+            &cfg,
+            &base.join(format!("s{i}")),
+            &["--shard", &format!("{i}/3")],
+        ));
+    }
+    // Shard 2 is missing.
+    let o = forkmap(&["check".as_ref(), base.as_os_str()]);
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert_eq!(o.status.code(), Some(1), "{text}");
+    assert!(
+        text.contains("missing    shard 2/3") && text.contains("incomplete"),
+        "{text}"
+    );
+    let merged = tmp.path().join("merged");
+    let o = forkmap(&[
+        "merge".as_ref(),
+        base.as_os_str(),
+        "--out".as_ref(),
+        merged.as_os_str(),
+    ]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("not complete") && err.contains("shard 2/3"),
+        "{err}"
+    );
+    assert!(!merged.exists(), "a refused merge wrote its output");
+    assert!(
+        std::fs::read_dir(tmp.path()).unwrap().all(|e| !e
+            .unwrap()
+            .file_name()
+            .to_string_lossy()
+            .contains("merge")),
+        "a refused merge left a temporary folder"
+    );
+
+    // Shard 1 run twice into two folders: its specs are duplicated.
+    ok(&run(&cfg, &base.join("s2"), &["--shard", "2/3"]));
+    ok(&run(&cfg, &base.join("s1-again"), &["--shard", "1/3"]));
+    let o = forkmap(&["check".as_ref(), base.as_os_str()]);
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert_eq!(o.status.code(), Some(1), "{text}");
+    assert!(
+        text.contains("duplicated") && text.contains("s1-again"),
+        "{text}"
+    );
+    std::fs::remove_dir_all(base.join("s1-again")).unwrap();
+    let report = ok(&forkmap(&["check".as_ref(), base.as_os_str()]));
+    assert!(report.ends_with("complete\n"), "{report}");
+
+    // A shard of another config is not part of this run.
+    let other = config(tmp.path(), 13);
+    let foreign = tmp.path().join("foreign");
+    ok(&run(&other, &foreign, &["--shard", "2/3"]));
+    let o = forkmap(&[
+        "check".as_ref(),
+        base.join("s1").as_os_str(),
+        foreign.as_os_str(),
+    ]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("config differs") && err.contains("foreign"),
+        "{err}"
+    );
+
+    // Resuming a shard folder as another shard is refused.
+    let o = run(&cfg, &base.join("s1"), &["--shard", "2/3"]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(err.contains("shard (1/3, this is 2/3)"), "{err}");
+    // Bad shard arguments.
+    for bad in ["0/3", "4/3", "two"] {
+        let o = run(&cfg, &tmp.path().join("bad"), &["--shard", bad]);
+        assert_eq!(o.status.code(), Some(2), "--shard {bad}");
+        assert!(!tmp.path().join("bad").exists());
+    }
+}
