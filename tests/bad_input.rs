@@ -33,7 +33,7 @@ model = ["ridge", "ols"]
 
 struct Case {
     name: &'static str,
-    csv: Option<String>,
+    csv: Option<Vec<u8>>,
     cfg: String,
     expect: &'static [&'static str],
 }
@@ -55,6 +55,10 @@ fn run_case(dir: &Path, c: &Case) -> (i32, String) {
         st.status.code().unwrap_or(-1),
         String::from_utf8_lossy(&st.stderr).to_string(),
     )
+}
+
+fn bytes(s: impl Into<Vec<u8>>) -> Option<Vec<u8>> {
+    Some(s.into())
 }
 
 fn cfg_with(extra: &str) -> String {
@@ -79,13 +83,13 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "missing outcome column",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG.replace("outcome = \"y\"", "outcome = \"yy\""),
             expect: &["outcome column `yy` not found", "did you mean `y`"],
         },
         Case {
             name: "non-numeric cell",
-            csv: Some(edit(&|l| {
+            csv: bytes(edit(&|l| {
                 let mut f: Vec<String> = l[3].split(',').map(String::from).collect();
                 f[4] = "abc".into();
                 l[3] = f.join(",");
@@ -95,7 +99,7 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "infinite outcome",
-            csv: Some(edit(&|l| {
+            csv: bytes(edit(&|l| {
                 let mut f: Vec<String> = l[5].split(',').map(String::from).collect();
                 f[2] = "inf".into();
                 l[5] = f.join(",");
@@ -105,7 +109,7 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "NaN outcome",
-            csv: Some(edit(&|l| {
+            csv: bytes(edit(&|l| {
                 let mut f: Vec<String> = l[1].split(',').map(String::from).collect();
                 f[2] = "NaN".into();
                 l[1] = f.join(",");
@@ -115,7 +119,7 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "duplicate unit and wave",
-            csv: Some(edit(&|l| {
+            csv: bytes(edit(&|l| {
                 let r = l[1].clone();
                 l.push(r);
             })),
@@ -128,37 +132,37 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "fewer units than folds",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG.replace("k = 4", "k = 9"),
             expect: &["9 folds need at least 9 units", "has 8"],
         },
         Case {
             name: "empty dimension",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG.replace("model = [\"ridge\", \"ols\"]", "model = []"),
             expect: &["choices.model is empty"],
         },
         Case {
             name: "exclusions leave nothing",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: cfg_with("[[exclude]]\nmodel = [\"ridge\", \"ols\"]\n"),
             expect: &["exclusions remove all 2 combinations"],
         },
         Case {
             name: "unknown config key",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG.replace("k = 4", "kk = 4"),
             expect: &["unknown key `folds.kk`", "did you mean `k`"],
         },
         Case {
             name: "unknown top-level key",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: format!("sede = 3\n{GOOD_CFG}"),
             expect: &["unknown key `sede`", "did you mean `seed`"],
         },
         Case {
             name: "unknown indicator in a pool",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG
                 .replace("[choices]", "[choices]\npool = [\"mine\"]")
                 .to_string()
@@ -167,55 +171,55 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "unknown pool",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG.replace("[choices]", "[choices]\npool = [\"alll\"]"),
             expect: &["unknown pool `alll`", "did you mean `all`"],
         },
         Case {
             name: "unknown model",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG.replace("\"ols\"", "\"olss\""),
             expect: &["choices.model: unknown option `olss`", "did you mean `ols`"],
         },
         Case {
             name: "grid value out of range",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: cfg_with("[grid.ridge]\nalpha = [1, -2]\n"),
             expect: &["grid.ridge.alpha = -2 is out of range"],
         },
         Case {
             name: "unknown grid parameter",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: cfg_with("[grid.ridge]\nalfa = [1]\n"),
             expect: &["unknown key `grid.ridge.alfa`", "did you mean `alpha`"],
         },
         Case {
             name: "empty data file",
-            csv: Some(String::new()),
+            csv: bytes(String::new()),
             cfg: GOOD_CFG.into(),
             expect: &["panel.csv", "empty"],
         },
         Case {
             name: "header only",
-            csv: Some("unit,wave,y,x1\n".into()),
+            csv: bytes("unit,wave,y,x1\n"),
             cfg: GOOD_CFG.into(),
             expect: &["header but no data rows"],
         },
         Case {
             name: "duplicated column names",
-            csv: Some(good.replacen("x3", "x2", 1)),
+            csv: bytes(good.replacen("x3", "x2", 1)),
             cfg: GOOD_CFG.into(),
             expect: &["column name `x2` appears twice", "columns 5 and 6"],
         },
         Case {
             name: "ragged row",
-            csv: Some(edit(&|l| l[4].push_str(",9"))),
+            csv: bytes(edit(&|l| l[4].push_str(",9"))),
             cfg: GOOD_CFG.into(),
             expect: &["panel.csv", "line 5"],
         },
         Case {
             name: "thousands separator",
-            csv: Some(edit(&|l| {
+            csv: bytes(edit(&|l| {
                 let mut f: Vec<String> = l[2].split(',').map(String::from).collect();
                 f[3] = "\"1,234\"".into();
                 l[2] = f.join(",");
@@ -229,7 +233,7 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "constant indicator",
-            csv: Some(edit(&|l| {
+            csv: bytes(edit(&|l| {
                 for (i, row) in l.iter_mut().enumerate().skip(1) {
                     let mut f: Vec<String> = row.split(',').map(String::from).collect();
                     f[5] = "4".into();
@@ -242,7 +246,7 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "all-missing indicator",
-            csv: Some(edit(&|l| {
+            csv: bytes(edit(&|l| {
                 for row in l.iter_mut().skip(1) {
                     let mut f: Vec<String> = row.split(',').map(String::from).collect();
                     f[5] = "NA".into();
@@ -257,7 +261,7 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "percent outcome out of range",
-            csv: Some(edit(&|l| {
+            csv: bytes(edit(&|l| {
                 let mut f: Vec<String> = l[6].split(',').map(String::from).collect();
                 f[2] = "120".into();
                 l[6] = f.join(",");
@@ -270,33 +274,155 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "logit without a bounded outcome",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG.replace("[choices]", "[choices]\ntransform = [\"logit\"]"),
             expect: &["choices.transform", "logit", "outcome_kind"],
         },
         Case {
             name: "unknown importance kind",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: cfg_with("[importance]\nkinds = [\"permutaton\"]\n"),
             expect: &["importance.kinds", "did you mean `permutation`"],
         },
         Case {
             name: "missing config section",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: "[folds]\nk = 3\n".into(),
             expect: &["missing the [data] section"],
         },
         Case {
             name: "unknown codebook group",
-            csv: Some(good.clone()),
+            csv: bytes(good.clone()),
             cfg: GOOD_CFG
                 .replace("outcome = \"y\"", "outcome = \"y\"\ncodebook = \"cb.csv\"")
                 .replace("[choices]", "[choices]\npool = [\"group:wealth\"]"),
             expect: &["no codebook group `wealth`"],
         },
         Case {
+            name: "bad encoding (Latin-1 byte)",
+            // "u\xE93" as Latin-1 would write an accented unit name.
+            csv: bytes({
+                let mut b = good.clone().into_bytes();
+                let at = good.find("\nu3,").unwrap() + 2;
+                b.insert(at, 0xE9);
+                b
+            }),
+            cfg: GOOD_CFG.into(),
+            expect: &[
+                "panel.csv",
+                "line 8",
+                "not UTF-8",
+                "byte 0xE9",
+                "save the file as UTF-8",
+            ],
+        },
+        Case {
+            name: "UTF-16 file",
+            csv: bytes({
+                let mut b = vec![0xFF, 0xFE];
+                for u in good.encode_utf16() {
+                    b.extend(u.to_le_bytes());
+                }
+                b
+            }),
+            cfg: GOOD_CFG.into(),
+            expect: &["panel.csv", "UTF-16", "save it as UTF-8"],
+        },
+        Case {
+            name: "spreadsheet saved under a .csv name",
+            csv: bytes(b"PK\x03\x04\x14\x00\x06\x00rest of a zip".to_vec()),
+            cfg: GOOD_CFG.into(),
+            expect: &["panel.csv", "spreadsheet", "export"],
+        },
+        Case {
+            name: "NUL byte in a text file",
+            csv: bytes(good.replacen("u2,", "u2\0,", 1)),
+            cfg: GOOD_CFG.into(),
+            expect: &["panel.csv", "line 6", "NUL"],
+        },
+        Case {
+            name: "huge value",
+            csv: bytes(edit(&|l| {
+                let mut f: Vec<String> = l[3].split(',').map(String::from).collect();
+                f[4] = "3e200".into();
+                l[3] = f.join(",");
+            })),
+            cfg: GOOD_CFG.into(),
+            expect: &["row 3 (line 4)", "`x2`", "3e200", "too large"],
+        },
+        Case {
+            name: "negative values under NMF without scaling",
+            csv: bytes(edit(&|l| {
+                let mut f: Vec<String> = l[5].split(',').map(String::from).collect();
+                f[3] = "-2.5".into();
+                l[5] = f.join(",");
+            })),
+            cfg: GOOD_CFG.replace(
+                "[choices]",
+                "[choices]\nscale = [\"none\"]\ncompress = [\"nmf\"]",
+            ) + "[grid.nmf]\nk = [2]\n",
+            expect: &["nmf", "`x1`", "-2.5", "row", "minmax"],
+        },
+        Case {
+            name: "standard error not positive",
+            csv: bytes(edit(&|l| {
+                let mut f: Vec<String> = l[4].split(',').map(String::from).collect();
+                f[5] = "0".into();
+                l[4] = f.join(",");
+            })),
+            cfg: GOOD_CFG.replace(
+                "outcome = \"y\"",
+                "outcome = \"y\"\nstandard_error = \"x3\"",
+            ),
+            expect: &["x3", "row 4 (line 5)", "positive"],
+        },
+        Case {
+            name: "empty unit cell",
+            csv: bytes(edit(&|l| {
+                let mut f: Vec<String> = l[6].split(',').map(String::from).collect();
+                f[0] = String::new();
+                l[6] = f.join(",");
+            })),
+            cfg: GOOD_CFG.into(),
+            expect: &["row 6 (line 7)", "unit"],
+        },
+        Case {
+            name: "unknown file type",
+            csv: bytes(good.clone()),
+            // The config itself as the data file: it exists, but is no table.
+            cfg: GOOD_CFG.replace("panel.csv", "sweep.toml"),
+            expect: &["unknown file type `.toml`", ".csv"],
+        },
+        Case {
+            name: "option listed twice",
+            csv: bytes(good.clone()),
+            cfg: GOOD_CFG.replace("[\"ridge\", \"ols\"]", "[\"ridge\", \"ridge\"]"),
+            expect: &["choices.model", "`ridge` twice"],
+        },
+        Case {
+            name: "grid value not a number",
+            csv: bytes(good.clone()),
+            cfg: cfg_with("[grid.ridge]\nalpha = [\"big\"]\n"),
+            expect: &["grid.ridge.alpha", "not a number"],
+        },
+        Case {
+            name: "negative importance.within",
+            csv: bytes(good.clone()),
+            cfg: cfg_with("[importance]\nwithin = -0.1\n"),
+            expect: &["importance.within", ">= 0"],
+        },
+        Case {
+            name: "codebook without a group column",
+            csv: bytes(good.clone()),
+            cfg: GOOD_CFG.replace(
+                "outcome = \"y\"",
+                "outcome = \"y\"\ncodebook = \"cb-nogroup.csv\"",
+            ),
+            expect: &["cb-nogroup.csv", "group"],
+        },
+        Case {
             name: "leave-one-unit-out with repeats",
-            csv: Some(good),
+            csv: bytes(good),
             cfg: GOOD_CFG.replace("k = 4", "scheme = \"leave-one-unit-out\"\nrepeats = 2"),
             expect: &["leave-one-unit-out", "repeats = 1"],
         },
@@ -306,13 +432,18 @@ fn cases() -> Vec<Case> {
 #[test]
 fn bad_inputs_are_refused_clearly_and_write_nothing() {
     let all = cases();
-    assert!(all.len() >= 12);
+    assert!(all.len() >= 30, "the catalogue has {} cases", all.len());
     let mut failures = Vec::new();
     for c in &all {
         let tmp = tempfile::tempdir().unwrap();
         std::fs::write(
             tmp.path().join("cb.csv"),
             "indicator,group,label\nx1,money,X one\nx2,money,X two\nx3,place,X three\n",
+        )
+        .unwrap();
+        std::fs::write(
+            tmp.path().join("cb-nogroup.csv"),
+            "indicator,label\nx1,X one\nx2,X two\n",
         )
         .unwrap();
         let (code, err) = run_case(tmp.path(), c);
@@ -343,13 +474,63 @@ fn the_good_case_runs() {
     let tmp = tempfile::tempdir().unwrap();
     let c = Case {
         name: "good",
-        csv: Some(good_csv()),
+        csv: bytes(good_csv()),
         cfg: GOOD_CFG.into(),
         expect: &[],
     };
     let (code, err) = run_case(tmp.path(), &c);
     assert_eq!(code, 0, "{err}");
     assert!(tmp.path().join("out/manifest.json").exists());
+}
+
+/// Inputs that look odd but are valid are read, not refused: a UTF-8 byte-order mark (as
+/// spreadsheets write), a quoted plain number (standard CSV quoting), a unit seen in one
+/// wave only under grouped folds (run, with a warning naming it).
+#[test]
+fn odd_but_valid_inputs_are_accepted() {
+    let good = good_csv();
+    let mut bom = vec![0xEF, 0xBB, 0xBF];
+    bom.extend(good.as_bytes());
+    let quoted = good.replacen("\nu3,0,", "\n\"u3\",\"0\",", 1);
+    assert_ne!(quoted, good);
+    let one_row: String = good
+        .lines()
+        .filter(|l| !l.starts_with("u5,1,"))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    let with_quoted_value = {
+        let mut l: Vec<String> = good.lines().map(String::from).collect();
+        let mut f: Vec<String> = l[2].split(',').map(String::from).collect();
+        f[3] = format!("\"{}\"", f[3]);
+        l[2] = f.join(",");
+        l.join("\n") + "\n"
+    };
+    for (name, csv, warn) in [
+        ("UTF-8 byte-order mark", bom, None),
+        ("quoted unit and wave", quoted.into_bytes(), None),
+        ("quoted number", with_quoted_value.into_bytes(), None),
+        (
+            "unit with one row",
+            one_row.into_bytes(),
+            Some("1 of 8 units have one row only (u5)"),
+        ),
+    ] {
+        let tmp = tempfile::tempdir().unwrap();
+        let c = Case {
+            name,
+            csv: Some(csv),
+            cfg: GOOD_CFG.into(),
+            expect: &[],
+        };
+        let (code, err) = run_case(tmp.path(), &c);
+        assert_eq!(code, 0, "{name}: {err}");
+        if let Some(w) = warn {
+            assert!(err.contains(w), "{name}: no warning `{w}` in:\n{err}");
+        }
+        let m = std::fs::read_to_string(tmp.path().join("out/manifest.json")).unwrap();
+        let rows = if name == "unit with one row" { 15 } else { 16 };
+        assert!(m.contains(&format!("\"rows\": {rows}")), "{name}: {m}");
+    }
 }
 
 #[test]

@@ -170,16 +170,59 @@ fn data_err(file: &Path, msg: impl Into<String>) -> Error {
     }
 }
 
+/// Check that CSV bytes are UTF-8 text and return them without a UTF-8 byte-order mark.
+/// UTF-16 files, spreadsheets saved under a .csv name and other encodings are refused with
+/// the line at fault.
+fn utf8_text<'a>(path: &Path, bytes: &'a [u8]) -> Result<&'a [u8]> {
+    if bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]) {
+        return Err(data_err(
+            path,
+            "the file is UTF-16 text (it starts with a UTF-16 byte-order mark): save it as UTF-8 CSV",
+        ));
+    }
+    if bytes.starts_with(b"PK\x03\x04") || bytes.starts_with(&[0xD0, 0xCF, 0x11, 0xE0]) {
+        return Err(data_err(
+            path,
+            "the file is a spreadsheet or archive, not CSV text: export the sheet as UTF-8 CSV",
+        ));
+    }
+    let body = bytes.strip_prefix(&[0xEF, 0xBB, 0xBF]).unwrap_or(bytes);
+    if let Err(e) = std::str::from_utf8(body) {
+        let at = e.valid_up_to();
+        let line = 1 + body[..at].iter().filter(|&&b| b == b'\n').count();
+        let start = body[..at]
+            .iter()
+            .rposition(|&b| b == b'\n')
+            .map_or(0, |i| i + 1);
+        return Err(data_err(
+            path,
+            format!(
+                "line {line} is not UTF-8 text (byte 0x{:02X} at character {} of the line; a Latin-1 or Windows-1252 file?): save the file as UTF-8",
+                body[at],
+                1 + String::from_utf8_lossy(&body[start..at]).chars().count()
+            ),
+        ));
+    }
+    if let Some(i) = body.iter().position(|&b| b == 0) {
+        let line = 1 + body[..i].iter().filter(|&&b| b == b'\n').count();
+        return Err(data_err(
+            path,
+            format!("line {line} holds a NUL byte: this is not a text file"),
+        ));
+    }
+    Ok(body)
+}
+
 fn read_csv(path: &Path) -> Result<RawTable> {
-    let open =
-        || std::fs::File::open(path).map_err(|e| data_err(path, format!("cannot open: {e}")));
-    let meta = std::fs::metadata(path).map_err(|e| data_err(path, format!("cannot open: {e}")))?;
-    if meta.len() == 0 {
+    let bytes = std::fs::read(path).map_err(|e| data_err(path, format!("cannot open: {e}")))?;
+    if bytes.is_empty() {
         return Err(data_err(
             path,
             "the file is empty (expected a header row and data rows)",
         ));
     }
+    let text = utf8_text(path, &bytes)?;
+    let open = || Ok::<_, Error>(std::io::Cursor::new(text));
     let format = arrow_csv::reader::Format::default().with_header(true);
     let (schema, _) = format
         .infer_schema(open()?, Some(0))
@@ -594,7 +637,7 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
                     ));
                 }
                 if val.abs() > 1e150 {
-                    return Err(data_err(path, format!("{}, column `{name}`: value {val} is too large to use safely (|x| > 1e150)", t.where_row(i))));
+                    return Err(data_err(path, format!("{}, column `{name}`: value {val:e} is too large to use safely (|x| > 1e150)", t.where_row(i))));
                 }
                 present += 1;
                 match first {

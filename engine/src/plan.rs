@@ -35,6 +35,25 @@ pub fn warnings(p: &Prepared) -> Vec<String> {
             ));
         }
     }
+    if p.panel.row_wave.iter().any(Option::is_some) {
+        let mut rows = vec![0usize; units];
+        for &u in &p.panel.row_unit {
+            rows[u] += 1;
+        }
+        let single: Vec<&str> = (0..units)
+            .filter(|&u| rows[u] == 1)
+            .map(|u| p.panel.units[u].as_str())
+            .collect();
+        if !single.is_empty() {
+            let shown: Vec<&str> = single.iter().take(5).copied().collect();
+            w.push(format!(
+                "{} of {units} units have one row only ({}{}): accepted (grouped folds keep each unit whole in one fold); their per-unit errors rest on one wave",
+                single.len(),
+                shown.join(", "),
+                if single.len() > shown.len() { ", ..." } else { "" }
+            ));
+        }
+    }
     for c in comp {
         if let Some(k) = c.param("k") {
             if k > limit {

@@ -375,7 +375,8 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             path: out.into(),
             msg: format!("cannot start {} threads: {e}", opts.threads),
         })?;
-    let mut skills = stream(&sweep, &mut sink, &pool, todo.len(), opts.quiet, out)?;
+    let mut skills = stream(&sweep, &mut sink, &pool, todo.len(), opts.quiet, out)
+        .map_err(|e| resumable(e, sink.written_specs + done.ids.len()))?;
     let index: std::collections::HashMap<&str, usize> = p
         .space
         .specs
@@ -478,4 +479,20 @@ pub fn permutation_pass(
         ParquetSink::importance_pass(out, &p.space, &p.panel, p.cfg.output.batch_specs)?;
     stream(&second, &mut isink, pool, subset.len(), quiet, out)?;
     Ok(Some(subset.len()))
+}
+
+/// A write failure mid-run (disk full, folder gone read-only) ends the run with the
+/// complete parts kept: say so, and how to go on.
+fn resumable(e: Error, kept: usize) -> Error {
+    match e {
+        Error::Write { path, msg } => Error::Write {
+            path,
+            msg: format!("{msg}; the {kept} specs in complete parts are kept: free space (or fix the folder) and rerun the same command to resume"),
+        },
+        Error::Io { path, source } => Error::Write {
+            path,
+            msg: format!("{source}; the {kept} specs in complete parts are kept: free space (or fix the folder) and rerun the same command to resume"),
+        },
+        other => other,
+    }
 }
