@@ -8,6 +8,7 @@ mod determinism;
 mod end_to_end;
 mod folds_prop;
 mod importance;
+mod intake_fuzz;
 mod leak;
 mod reference;
 mod resume;
