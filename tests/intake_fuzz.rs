@@ -5,7 +5,7 @@
 //! The default case counts keep the test suite quick; fuzz longer with e.g.
 //! `PROPTEST_CASES=20000 cargo test --release -p forkmap --test forkmap-tests intake_fuzz`.
 //! A failure prints the minimal input that panicked (proptest shrinks it) and is saved
-//! under `proptest-regressions/` to be replayed on every later run.
+//! under `tests/proptest-regressions/` to be replayed on every later run.
 
 use forkmap::config::Config;
 use proptest::prelude::*;
