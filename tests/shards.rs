@@ -235,3 +235,64 @@ fn incomplete_duplicated_and_foreign_shard_sets_are_reported_and_refused() {
         assert!(!tmp.path().join("bad").exists());
     }
 }
+
+/// The split is balanced by expected cost and is a pure function of the spec list: the
+/// same on every call, whatever the order the config lists its options in.
+#[test]
+fn shards_are_balanced_by_expected_cost_and_order_free() {
+    let p = forkmap::run::prepare(&root().join("configs/toy-quick.toml")).unwrap();
+    let costs: Vec<f64> = p
+        .space
+        .specs
+        .iter()
+        .map(|s| forkmap::shard::spec_cost(s, &p.panel))
+        .collect();
+    for n in [2usize, 3, 5, 8] {
+        let owner = forkmap::shard::owners(&p.space, &p.panel, n);
+        assert_eq!(owner, forkmap::shard::owners(&p.space, &p.panel, n));
+        let mut load = vec![0.0; n];
+        for (i, &o) in owner.iter().enumerate() {
+            load[o] += costs[i];
+        }
+        let mean = load.iter().sum::<f64>() / n as f64;
+        let max = load.iter().cloned().fold(0.0, f64::max);
+        let biggest = costs.iter().cloned().fold(0.0, f64::max);
+        // LPT: the fullest shard exceeds the mean by at most one spec's cost.
+        assert!(max <= mean + biggest + 1e-9, "{n} shards: {load:?}");
+        assert!(max / mean < 1.05, "{n} shards: max/mean = {}", max / mean);
+    }
+    // Reversed option order in the config: same specs, so the same split by spec id.
+    let text = std::fs::read_to_string(root().join("configs/toy-quick.toml")).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let reordered = text.replace(
+        "model = [\"ols\", \"ridge\", \"forest\", \"boost\"]",
+        "model = [\"boost\", \"forest\", \"ridge\", \"ols\"]",
+    );
+    assert_ne!(
+        reordered, text,
+        "the config's model line changed: update this test"
+    );
+    let cfg = tmp.path().join("reordered.toml");
+    std::fs::write(
+        &cfg,
+        reordered.replace(
+            "../toy-panel",
+            &root().join("toy-panel").display().to_string(),
+        ),
+    )
+    .unwrap();
+    let q = forkmap::run::prepare(&cfg).unwrap();
+    let by_id = |p: &forkmap::run::Prepared| {
+        let owner = forkmap::shard::owners(&p.space, &p.panel, 3);
+        let mut v: Vec<(String, usize)> = p
+            .space
+            .specs
+            .iter()
+            .zip(owner)
+            .map(|(s, o)| (s.id.clone(), o))
+            .collect();
+        v.sort();
+        v
+    };
+    assert_eq!(by_id(&p), by_id(&q));
+}
