@@ -172,7 +172,8 @@ def main():
     t0 = time.perf_counter()
     rows = Parallel(n_jobs=a.jobs)(delayed(run_spec)(s, X, y, splits, 0) for s in specs)
     wall = time.perf_counter() - t0
-    pq.write_table(pa.Table.from_pylist(rows), a.out)
+    # Rows differ in their parameter columns: take the union (missing = null).
+    pq.write_table(pa.Table.from_pandas(pd.DataFrame(rows), preserve_index=False), a.out)
     print(f"python: {len(rows)} specs x {sum(len(s) for s in splits)} fits in {wall:.1f} s on {a.jobs} jobs",
           file=sys.stderr)
 

@@ -5,7 +5,7 @@
 //! does. `subsample` < 1 fits each tree on a seeded random share of the rows (stochastic
 //! gradient boosting, Friedman 2002). Hand-written: no maintained crate takes row weights.
 
-use super::tree::{grow, Candidates, Tree, TreeParams, MIN_LEAF};
+use super::tree::{grow_presorted, Candidates, Presorted, Tree, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
@@ -127,6 +127,7 @@ impl Regressor for BoostParams {
         let all: Vec<usize> = (0..n).filter(|&i| w[i] > 0.0).collect();
         let take = ((self.subsample * all.len() as f64).round() as usize).clamp(1, all.len());
         let mut trees = Vec::with_capacity(self.trees);
+        let pre = Presorted::new(input.x);
         for _ in 0..self.trees {
             let resid = &input.y - &f;
             let rows: Vec<usize> = if take < all.len() {
@@ -139,8 +140,8 @@ impl Regressor for BoostParams {
             } else {
                 all.clone()
             };
-            let t = grow::<rand_chacha::ChaCha8Rng>(
-                input.x,
+            let t = grow_presorted::<rand_chacha::ChaCha8Rng>(
+                &pre,
                 resid.view(),
                 &w,
                 rows,

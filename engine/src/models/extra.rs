@@ -4,7 +4,7 @@
 //! grower of `tree.rs` (no maintained crate takes row weights).
 
 use super::forest::{tried_count, Ensemble, TREES};
-use super::tree::{grow, Candidates, TreeParams, MIN_LEAF};
+use super::tree::{grow_presorted, Candidates, Presorted, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
@@ -68,10 +68,11 @@ impl Regressor for ExtraParams {
             depth: usize::MAX,
             min_leaf: self.min_leaf,
         };
+        let pre = Presorted::new(input.x);
         let trees = (0..self.trees)
             .map(|_| {
-                grow(
-                    input.x,
+                grow_presorted(
+                    &pre,
                     input.y,
                     &w,
                     rows.clone(),
