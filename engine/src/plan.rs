@@ -160,11 +160,10 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             "stage tree: {} distinct preparations, each fitted once per fold",
             sweep.n_stage_nodes()
         );
-        // Probe: run a seeded random ~2% of the specs (at least 12, at most 200) through
-        // the real sweep on `threads` threads and scale up. The probe shares fewer stages
-        // than the full run, so the estimate errs on the long side.
+        // Probe: run a seeded random ~2% of the specs (at least 30, at most 200) through
+        // the real sweep on `threads` threads, then scale up by the cost model below.
         let n = p.space.specs.len();
-        let m = (n / 50).clamp(12, 200).min(n);
+        let m = (n / 50).clamp(30, 200).min(n);
         let mut subset: Vec<usize> = {
             use rand::SeedableRng;
             let mut rng =
@@ -180,7 +179,13 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             } else {
                 imp.clone()
             });
-            let model_secs: std::sync::Mutex<BTreeMap<String, (f64, usize)>> = Default::default();
+            // Per family: (fit seconds, count, summed cost units, importance seconds).
+            let model_secs: std::sync::Mutex<BTreeMap<String, (f64, usize, f64, f64)>> =
+                Default::default();
+            // Importance seconds by fill option: permuting an indicator reruns the spec's
+            // preparations on the test rows, and the fill dominates that cost.
+            let imp_by_fill: std::sync::Mutex<BTreeMap<String, (f64, usize)>> =
+                Default::default();
             let t0 = Instant::now();
             let run = || {
                 probe.run(&|r| {
@@ -190,6 +195,16 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
                             .or_default();
                         e.0 += r.seconds;
                         e.1 += 1;
+                        e.2 += crate::shard::spec_cost(&p.space.specs[r.spec], &p.panel);
+                        e.3 += r.importance_seconds;
+                        drop(g);
+                        if let Ok(mut f) = imp_by_fill.lock() {
+                            let e = f
+                                .entry(p.space.specs[r.spec].choice("fill").option.clone())
+                                .or_default();
+                            e.0 += r.importance_seconds;
+                            e.1 += 1;
+                        }
                     }
                 })
             };
@@ -200,20 +215,29 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
                 Ok(pool) => pool.install(run),
                 Err(_) => run(),
             }
-            total = t0.elapsed().as_secs_f64() * n as f64 / m as f64;
+            let wall = t0.elapsed().as_secs_f64();
             let _ = writeln!(
                 t,
-                "\ntiming probe: {m} specs run in {:.2}s; model seconds per spec (all folds):",
-                t0.elapsed().as_secs_f64()
+                "\ntiming probe: {m} specs run in {wall:.2}s; model seconds per spec (all folds):"
             );
             let per_family = model_secs.into_inner().unwrap_or_default();
-            for (fam, (secs, count)) in &per_family {
+            for (fam, (secs, count, _, imp)) in &per_family {
                 let _ = writeln!(
                     t,
-                    "  {fam:<10} {:.4}s ({count} probed)",
-                    secs / *count as f64
+                    "  {fam:<10} {:.4}s fits + {:.4}s importances ({count} probed)",
+                    secs / *count as f64,
+                    imp / *count as f64
                 );
             }
+            total = estimate_from_probe(
+                p,
+                &per_family,
+                &imp_by_fill.into_inner().unwrap_or_default(),
+                wall,
+                threads.max(1),
+                probe.n_stage_nodes(),
+                sweep.n_stage_nodes(),
+            );
         }
         estimate = total;
         let _ = writeln!(
@@ -246,6 +270,58 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
         estimate_seconds: estimate,
         warnings: w,
     }
+}
+
+/// The run-time estimate from a probe, by a per-family cost model: each family's fit
+/// seconds per cost unit (see `Family::cost`) measured on the probed specs, applied to the
+/// cost of every spec of the space, plus the mean importance seconds of the probed specs
+/// with the same fill (importances permute every indicator whatever the model, and rerun
+/// the preparations, of which the fill costs most); a family or fill the probe missed
+/// takes the probe's overall rate. Plus the stage fits:
+/// the probe's remaining CPU seconds per stage preparation, times the preparations of the
+/// whole tree. Divided by the threads (the sweep keeps them busy).
+fn estimate_from_probe(
+    p: &Prepared,
+    per_family: &BTreeMap<String, (f64, usize, f64, f64)>,
+    imp_by_fill: &BTreeMap<String, (f64, usize)>,
+    wall: f64,
+    threads: usize,
+    probe_nodes: usize,
+    all_nodes: usize,
+) -> f64 {
+    let (secs, cost, count, imp) = per_family
+        .values()
+        .fold((0.0, 0.0, 0usize, 0.0), |(s, c, k, i), v| {
+            (s + v.0, c + v.2, k + v.1, i + v.3)
+        });
+    if cost <= 0.0 || count == 0 {
+        return f64::NAN;
+    }
+    let overall = (secs / cost, imp / count as f64);
+    let model: f64 = p
+        .space
+        .specs
+        .iter()
+        .map(|s| {
+            let rate = per_family
+                .get(&s.choice("model").option)
+                .filter(|v| v.2 > 0.0)
+                .map_or(overall.0, |v| v.0 / v.2);
+            let imp = imp_by_fill
+                .get(&s.choice("fill").option)
+                .filter(|v| v.1 > 0)
+                .map_or(overall.1, |v| v.0 / v.1 as f64);
+            rate * crate::shard::spec_cost(s, &p.panel) + imp
+        })
+        .sum();
+    let stage_cpu = (wall * threads as f64 - secs - imp).max(0.0);
+    let stages = if probe_nodes > 0 {
+        stage_cpu / probe_nodes as f64 * all_nodes as f64
+    } else {
+        0.0
+    };
+    tracing::debug!(model, stages, stage_cpu, probe_nodes, all_nodes, "plan estimate");
+    (model + stages) / threads as f64
 }
 
 /// `93s`, `12.5 min`, `3.2 h`.
