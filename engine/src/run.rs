@@ -232,8 +232,15 @@ fn manifest(
     m
 }
 
+/// CPU seconds a stream spent in model fits and importances (summed over threads).
+#[derive(Debug, Default, Clone, Copy)]
+struct Work {
+    fit: f64,
+    importance: f64,
+}
+
 /// Stream a sweep's results into a sink on `pool`, with progress; returns the skill of
-/// every ok spec (by spec index).
+/// every ok spec (by spec index) and the work done.
 fn stream(
     sweep: &Sweep,
     sink: &mut ParquetSink,
@@ -241,15 +248,18 @@ fn stream(
     total: usize,
     quiet: bool,
     out: &Path,
-) -> Result<Vec<(usize, f64)>> {
+) -> Result<(Vec<(usize, f64)>, Work)> {
     let (tx, rx) = std::sync::mpsc::sync_channel::<SpecResult>(1024);
     let mut skills: Vec<(usize, f64)> = Vec::new();
+    let mut work = Work::default();
     std::thread::scope(|s| {
         let writer = s.spawn(|| -> Result<()> {
             let mut progress = Progress::new(total, quiet);
             let mut failed: Option<Error> = None;
             for r in rx {
                 progress.inc();
+                work.fit += r.seconds;
+                work.importance += r.importance_seconds;
                 if failed.is_some() {
                     continue;
                 }
@@ -280,7 +290,7 @@ fn stream(
             })
         })
     })?;
-    Ok(skills)
+    Ok((skills, work))
 }
 
 /// Run every spec of `p` into `out`.
@@ -375,8 +385,9 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             path: out.into(),
             msg: format!("cannot start {} threads: {e}", opts.threads),
         })?;
-    let mut skills = stream(&sweep, &mut sink, &pool, todo.len(), opts.quiet, out)
+    let (mut skills, work) = stream(&sweep, &mut sink, &pool, todo.len(), opts.quiet, out)
         .map_err(|e| resumable(e, sink.written_specs + done.ids.len()))?;
+    let sweep_wall = t0.elapsed().as_secs_f64();
     let index: std::collections::HashMap<&str, usize> = p
         .space
         .specs
@@ -413,6 +424,17 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
     let written = sink.written_specs + done.ids.len();
     let mut extra = serde_json::json!({
         "importance_pending": pending,
+        // Where the sweep's time went (this invocation, first pass): worker seconds in
+        // stage fits, model fits and importances, against wall seconds x threads.
+        "work": {
+            "sweep_wall_seconds": sweep_wall,
+            "threads": opts.threads,
+            "stage_seconds": sweep.stage_seconds(),
+            "fit_seconds": work.fit,
+            "importance_seconds": work.importance,
+            "other_share": 1.0 - (sweep.stage_seconds() + work.fit + work.importance)
+                / (sweep_wall * opts.threads as f64).max(1e-9),
+        },
         "finished": chrono::Utc::now().to_rfc3339(),
         "seconds": seconds,
         "specs_ok": ok,

@@ -186,6 +186,8 @@ pub struct Sweep<'a> {
     roots: Vec<TargetNode>,
     models: Vec<Arc<dyn Regressor>>,
     ctx: Vec<FoldCtx>,
+    /// Nanoseconds spent fitting and applying stages (summed over threads).
+    stage_nanos: std::sync::atomic::AtomicU64,
 }
 
 fn panic_text(p: Box<dyn std::any::Any + Send>) -> String {
@@ -294,6 +296,7 @@ impl<'a> Sweep<'a> {
             roots,
             models,
             ctx,
+            stage_nanos: std::sync::atomic::AtomicU64::new(0),
         })
     }
 
@@ -309,6 +312,18 @@ impl<'a> Sweep<'a> {
     }
 
     /// Distinct fitted preparations per fold (the number of stage fits is this x folds).
+    /// Seconds spent fitting and applying stages so far, summed over threads (the
+    /// descriptive all-rows fits for loadings included).
+    pub fn stage_seconds(&self) -> f64 {
+        self.stage_nanos.load(std::sync::atomic::Ordering::Relaxed) as f64 * 1e-9
+    }
+
+    fn add_stage_time(&self, t0: std::time::Instant) {
+        let ns = u64::try_from(t0.elapsed().as_nanos()).unwrap_or(u64::MAX);
+        self.stage_nanos
+            .fetch_add(ns, std::sync::atomic::Ordering::Relaxed);
+    }
+
     pub fn n_stage_nodes(&self) -> usize {
         fn count(n: &[Node]) -> usize {
             n.iter().map(|c| 1 + count(&c.children)).sum()
@@ -406,6 +421,7 @@ impl<'a> Sweep<'a> {
                     names: &p.names,
                 };
                 self.audit(step, fi, input.x.nrows().max(input.y.len()));
+                let t0 = std::time::Instant::now();
                 let fitted = guarded(|| node.stage.fit(&input)).map_err(|e| (fi, e))?;
                 let (train, test) = guarded(|| {
                     Ok((
@@ -414,6 +430,7 @@ impl<'a> Sweep<'a> {
                     ))
                 })
                 .map_err(|e| (fi, e))?;
+                self.add_stage_time(t0);
                 let mut chain = p.chain.clone();
                 let names = fitted.names().to_vec();
                 chain.push(fitted);
@@ -453,7 +470,9 @@ impl<'a> Sweep<'a> {
                 return;
             }
         };
+        let t0 = std::time::Instant::now();
         let next = self.describe(node, whole);
+        self.add_stage_time(t0);
         node.children
             .par_iter()
             .for_each(|c| self.run_node(c, &states, next.as_ref(), emit));

@@ -30,6 +30,11 @@ manifest = json.load(open(os.path.join(run, "manifest.json")))
 n_specs = manifest["specs"]
 rows = manifest["rows"] * manifest["folds"]["repeats"]
 
+w = manifest.get("work", {})
+check("manifest: work accounted (stage, fit, importance seconds; other share in [0, 1))",
+      w.get("fit_seconds", 0) > 0 and w.get("stage_seconds", 0) > 0
+      and 0 <= w.get("other_share", -1) < 1, f"{w}")
+
 specs_glob = os.path.join(run, "specs", "*.parquet")
 preds_glob = os.path.join(run, "predictions", "*.parquet")
 
