@@ -1,4 +1,4 @@
-//! Lasso and elastic net by coordinate descent (linfa-elasticnet), honouring row weights.
+//! Lasso and elastic net by coordinate descent on the Gram matrix, honouring row weights.
 //!
 //! Objective (scikit-learn's convention, with weights w of mean 1):
 //!   1/(2n) sum_i w_i (y_i - b0 - x_i b)^2 + alpha * l1_ratio * ||b||_1
@@ -6,14 +6,18 @@
 //! lasso being l1_ratio = 1. Weights enter exactly: X and y are centred on their weighted
 //! means (which fits the unpenalised intercept) and rows are scaled by sqrt(w) before the
 //! unweighted solver runs with no intercept.
+//!
+//! The solver is hand-written (it replaced linfa-elasticnet, which it matches; see the
+//! tests): cyclic coordinate descent on X'X and X'y, the "covariance updates" of Friedman,
+//! Hastie & Tibshirani (2010, J. Stat. Softw. 33(1), section 2.2), stopped by the duality
+//! gap as scikit-learn's `enet_coordinate_descent_gram` does. With n and p in the tens to
+//! hundreds, one sweep costs p^2 on contiguous memory instead of n p on strided columns.
 
 use super::linear::{centre, Centred, Linear};
 use super::{Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
-use linfa::prelude::*;
-use linfa_elasticnet::ElasticNet;
-use ndarray::{Array1, ArrayView1, ArrayView2, Axis};
+use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
 use std::sync::Arc;
 
 const ALPHA: ParamDecl = ParamDecl {
@@ -97,24 +101,93 @@ impl ElasticParams {
         let sq = w.mapv(|v| (v * n / w.sum()).sqrt());
         let xs = xc * sq.view().insert_axis(Axis(1));
         let ys: Array1<f64> = yc * &sq;
-        let model = ElasticNet::params()
-            .penalty(self.alpha)
-            .l1_ratio(self.l1_ratio)
-            .with_intercept(false)
-            .tolerance(TOL)
-            .max_iterations(MAX_ITER)
-            .fit(&Dataset::new(xs, ys))
-            .map_err(|e| FitError::Invalid(format!("elastic net: {e}")))?;
-        if model.n_steps() >= MAX_ITER {
-            return Err(FitError::NoConvergence(format!(
-                "coordinate descent stopped after {MAX_ITER} sweeps (duality gap {:.3e})",
-                model.duality_gap()
-            )));
-        }
-        let coef = model.hyperplane().to_owned();
+        let coef = gram_cd(&xs, &ys, self.alpha, self.l1_ratio, TOL, MAX_ITER)?;
         let intercept = ym - xm.dot(&coef);
         Ok(Linear { intercept, coef })
     }
+}
+
+/// Minimise 1/(2n) ||y - X b||^2 + alpha l1 ||b||_1 + alpha (1 - l1)/2 ||b||^2 by cyclic
+/// coordinate descent on Q = X'X, q = X'y (everything scaled by n, as scikit-learn does).
+/// Stops when, after a sweep whose largest coefficient change is below `tol` times the
+/// largest coefficient, the duality gap is below `tol` ||y||^2.
+pub fn gram_cd(
+    x: &Array2<f64>,
+    y: &Array1<f64>,
+    alpha: f64,
+    l1_ratio: f64,
+    tol: f64,
+    max_iter: u32,
+) -> Result<Array1<f64>, FitError> {
+    let (n, p) = x.dim();
+    if n == 0 {
+        return Err(FitError::Invalid("elastic net: no rows".into()));
+    }
+    let q_mat = x.t().dot(x);
+    let q = x.t().dot(y);
+    let y2 = y.dot(y);
+    let l1 = alpha * l1_ratio * n as f64;
+    let l2 = alpha * (1.0 - l1_ratio) * n as f64;
+    let mut w = vec![0.0f64; p];
+    let mut h = vec![0.0f64; p]; // Q w
+    if !(y2 > 0.0) || !y2.is_finite() {
+        return Ok(Array1::zeros(p));
+    }
+    let qm = q_mat
+        .as_slice()
+        .ok_or_else(|| FitError::Invalid("elastic net: non-contiguous Gram matrix".into()))?;
+    let mut gap = f64::INFINITY;
+    for _ in 0..max_iter {
+        let (mut w_max, mut d_max) = (0.0f64, 0.0f64);
+        for j in 0..p {
+            let qjj = qm[j * p + j];
+            if qjj == 0.0 {
+                continue;
+            }
+            let row = &qm[j * p..(j + 1) * p];
+            let old = w[j];
+            if old != 0.0 {
+                for (hk, qk) in h.iter_mut().zip(row) {
+                    *hk -= old * qk;
+                }
+            }
+            let t = q[j] - h[j];
+            let new = t.signum() * (t.abs() - l1).max(0.0) / (qjj + l2);
+            w[j] = new;
+            if new != 0.0 {
+                for (hk, qk) in h.iter_mut().zip(row) {
+                    *hk += new * qk;
+                }
+            }
+            d_max = d_max.max((new - old).abs());
+            w_max = w_max.max(new.abs());
+        }
+        if w_max == 0.0 || d_max / w_max < tol {
+            // Duality gap (scikit-learn's enet_coordinate_descent_gram).
+            let q_dot_w: f64 = w.iter().zip(q.iter()).map(|(a, b)| a * b).sum();
+            let w_h: f64 = w.iter().zip(&h).map(|(a, b)| a * b).sum();
+            let w2: f64 = w.iter().map(|a| a * a).sum();
+            let l1_norm: f64 = w.iter().map(|a| a.abs()).sum();
+            let dual_norm = (0..p)
+                .map(|k| (q[k] - h[k] - l2 * w[k]).abs())
+                .fold(0.0f64, f64::max);
+            let r2 = (y2 + w_h - 2.0 * q_dot_w).max(0.0);
+            let (c, mut g) = if dual_norm > l1 {
+                let c = l1 / dual_norm;
+                (c, 0.5 * (r2 + r2 * c * c))
+            } else {
+                (1.0, r2)
+            };
+            g += l1 * l1_norm - c * (y2 - q_dot_w) + 0.5 * l2 * (1.0 + c * c) * w2;
+            gap = g;
+            if g < tol * y2 {
+                return Ok(Array1::from(w));
+            }
+        }
+    }
+    Err(FitError::NoConvergence(format!(
+        "coordinate descent stopped after {max_iter} sweeps (duality gap {gap:.3e})"
+    )))
 }
 
 impl Regressor for ElasticParams {
