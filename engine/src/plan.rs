@@ -184,8 +184,7 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
                 Default::default();
             // Importance seconds by fill option: permuting an indicator reruns the spec's
             // preparations on the test rows, and the fill dominates that cost.
-            let imp_by_fill: std::sync::Mutex<BTreeMap<String, (f64, usize)>> =
-                Default::default();
+            let imp_by_fill: std::sync::Mutex<BTreeMap<String, (f64, usize)>> = Default::default();
             let t0 = Instant::now();
             let run = || {
                 probe.run(&|r| {
@@ -320,7 +319,14 @@ fn estimate_from_probe(
     } else {
         0.0
     };
-    tracing::debug!(model, stages, stage_cpu, probe_nodes, all_nodes, "plan estimate");
+    tracing::debug!(
+        model,
+        stages,
+        stage_cpu,
+        probe_nodes,
+        all_nodes,
+        "plan estimate"
+    );
     (model + stages) / threads as f64
 }
 

@@ -216,13 +216,17 @@ pub fn grow_presorted<R: Rng>(
     }
     let n0 = rows.len();
     let mut root: Vec<u32> = Vec::with_capacity((p + 1) * n0);
-    for f in 0..p {
-        root.extend(
-            pre.order[f * nall..(f + 1) * nall]
-                .iter()
-                .copied()
-                .filter(|&i| flag[i as usize]),
-        );
+    if n0 == nall {
+        root.extend_from_slice(&pre.order);
+    } else {
+        for f in 0..p {
+            root.extend(
+                pre.order[f * nall..(f + 1) * nall]
+                    .iter()
+                    .copied()
+                    .filter(|&i| flag[i as usize]),
+            );
+        }
     }
     root.extend(rows.iter().map(|&i| i as u32));
     let leaf_value = |rs: &[u32]| {
@@ -360,17 +364,22 @@ pub fn grow_presorted<R: Rng>(
             ln += go as usize;
         }
         let rn = n - ln;
-        let mut left: Vec<u32> = Vec::with_capacity((p + 1) * ln);
-        let mut right: Vec<u32> = Vec::with_capacity((p + 1) * rn);
+        // Branch-free stable partition: every row is written to both outputs and only the
+        // cursor of its side moves (one slot of slack at each end).
+        let mut left: Vec<u32> = vec![0; (p + 1) * ln + 1];
+        let mut right: Vec<u32> = vec![0; (p + 1) * rn + 1];
+        let (mut a, mut b) = (0usize, 0usize);
         for list in lists.chunks_exact(n.max(1)).take(p + 1) {
             for &i in list {
-                if flag[i as usize] {
-                    left.push(i);
-                } else {
-                    right.push(i);
-                }
+                let go = flag[i as usize] as usize;
+                left[a] = i;
+                right[b] = i;
+                a += go;
+                b += 1 - go;
             }
         }
+        left.truncate((p + 1) * ln);
+        right.truncate((p + 1) * rn);
         let li = nodes.len();
         nodes.push(Node {
             feature: usize::MAX,
