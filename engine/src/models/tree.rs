@@ -215,18 +215,19 @@ pub fn grow_presorted<R: Rng>(
         flag[i] = true;
     }
     let n0 = rows.len();
-    let mut root: Vec<u32> = Vec::with_capacity((p + 1) * n0);
+    let mut root: Vec<u32>;
     if n0 == nall {
+        root = Vec::with_capacity((p + 1) * n0);
         root.extend_from_slice(&pre.order);
     } else {
-        for f in 0..p {
-            root.extend(
-                pre.order[f * nall..(f + 1) * nall]
-                    .iter()
-                    .copied()
-                    .filter(|&i| flag[i as usize]),
-            );
+        // Branch-free filter of every indicator's order to the rows in (one slot of slack).
+        root = vec![0; p * n0 + 1];
+        let mut a = 0usize;
+        for &i in &pre.order {
+            root[a] = i;
+            a += flag[i as usize] as usize;
         }
+        root.truncate(p * n0);
     }
     root.extend(rows.iter().map(|&i| i as u32));
     let leaf_value = |rs: &[u32]| {
