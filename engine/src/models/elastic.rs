@@ -130,7 +130,13 @@ pub fn gram_cd(
     let l2 = alpha * (1.0 - l1_ratio) * n as f64;
     let mut w = vec![0.0f64; p];
     let mut h = vec![0.0f64; p]; // Q w
-    if y2 == 0.0 || !y2.is_finite() {
+    if !y2.is_finite() {
+        return Err(FitError::Invalid(
+            "elastic net: the outcome's sum of squares is not finite".into(),
+        ));
+    }
+    if y2 == 0.0 {
+        // A constant (centred: zero) outcome: every coefficient is zero.
         return Ok(Array1::zeros(p));
     }
     let qm = q_mat
