@@ -1,5 +1,7 @@
-//! Criterion benches: one spec (all folds) per model family and a small sweep on the toy
-//! panel (importances off: they are measured by the sweep bench of issue 6 later).
+//! Criterion benches on the toy panel: each stage option of the demo config fitted and
+//! applied on one training fold, one spec (all folds) per model family, and a small sweep
+//! (importances off). The side-by-side script (benches/side-by-side) and the scaling table
+//! (benches/scaling) time whole runs.
 //! Run: `cargo bench -p forkmap --bench sweep`. Timings are claims only as measured here.
 
 use criterion::{criterion_group, criterion_main, Criterion};
@@ -10,6 +12,58 @@ use std::sync::Mutex;
 fn prepared() -> forkmap::run::Prepared {
     let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
     forkmap::run::prepare(&root.join("configs/toy-quick.toml")).expect("toy-quick prepares")
+}
+
+/// Every stage option of the demo config, fitted on fold 0's training rows (raw
+/// indicators, so later stages see gaps a fill would have removed only where they cope
+/// with them: fills first, then the rest on the median-filled rows) and applied to them.
+fn stages(c: &mut Criterion) {
+    use forkmap::space::STAGE_DIMENSIONS;
+    use forkmap::stages::{build, StageInput};
+    let p = prepared();
+    let fold = &p.folds.folds[0];
+    let raw = p.panel.x.select(ndarray::Axis(0), &fold.train);
+    let y = p.panel.y.select(ndarray::Axis(0), &fold.train);
+    let names = p.panel.indicators.clone();
+    let median = p.space.options[1]
+        .iter()
+        .find(|c| c.option == "median")
+        .expect("the demo config lists the median fill");
+    let filled = build(median, &p.panel)
+        .expect("median")
+        .fit(&StageInput {
+            x: raw.view(),
+            y: y.view(),
+            rows: &fold.train,
+            names: &names,
+        })
+        .expect("median fill fits")
+        .apply_rows(raw.view(), Some(&fold.train));
+    let mut g = c.benchmark_group("stage fit + apply, one fold");
+    for dim in STAGE_DIMENSIONS {
+        let d = forkmap::space::DIMENSIONS
+            .iter()
+            .position(|x| x == dim)
+            .expect("a stage dimension");
+        for choice in &p.space.options[d] {
+            let stage = build(choice, &p.panel).expect("stage builds");
+            let x = if *dim == "fill" { &raw } else { &filled };
+            let input = StageInput {
+                x: x.view(),
+                y: y.view(),
+                rows: &fold.train,
+                names: &names,
+            };
+            g.bench_function(format!("{dim}: {}", choice.label()), |b| {
+                b.iter(|| {
+                    stage
+                        .fit(&input)
+                        .map(|f| f.apply_rows(x.view(), Some(&fold.train)).len())
+                })
+            });
+        }
+    }
+    g.finish();
 }
 
 fn bench(c: &mut Criterion) {
@@ -54,5 +108,5 @@ fn bench(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, bench);
+criterion_group!(benches, stages, bench);
 criterion_main!(benches);
