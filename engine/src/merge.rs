@@ -10,7 +10,6 @@ use crate::error::{Error, Result};
 use crate::results::RunSet;
 use crate::run::{prepare, sha256_file};
 use crate::sink::{write_bytes_atomic, TABLES};
-use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 pub struct MergeOptions {
@@ -159,13 +158,7 @@ fn write_merged(
                 msg: format!("its {what} differs from the shards' run: cannot finish their importance pass with it"),
             }
         })?;
-        let index: HashMap<&str, usize> = p
-            .space
-            .specs
-            .iter()
-            .enumerate()
-            .map(|(i, s)| (s.id.as_str(), i))
-            .collect();
+        let index = p.space.index_by_id();
         let mut skills: Vec<(usize, f64)> = Vec::new();
         for d in &set.dirs {
             for (id, sk) in &d.done.skills {

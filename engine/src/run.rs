@@ -388,13 +388,7 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
     let (mut skills, work) = stream(&sweep, &mut sink, &pool, todo.len(), opts.quiet, out)
         .map_err(|e| resumable(e, sink.written_specs + done.ids.len()))?;
     let sweep_wall = t0.elapsed().as_secs_f64();
-    let index: std::collections::HashMap<&str, usize> = p
-        .space
-        .specs
-        .iter()
-        .enumerate()
-        .map(|(i, s)| (s.id.as_str(), i))
-        .collect();
+    let index = p.space.index_by_id();
     skills.extend(
         done.skills
             .iter()
