@@ -66,6 +66,75 @@ fn stages(c: &mut Criterion) {
     g.finish();
 }
 
+/// The forest against its floor. Floor (our definition, stated in the README): one pass
+/// over a node's rows per indicator tried there, accumulating the weight and weighted
+/// outcome of each row (the least a split search must do); the forest's grower counts
+/// those row visits (`Tree::scanned`), and the floor kernel does exactly as many.
+fn forest_floor(c: &mut Criterion) {
+    use forkmap::models::forest::ForestParams;
+    use forkmap::models::FitInput;
+    use forkmap::stages::{build, StageInput};
+    let p = prepared();
+    let fold = &p.folds.folds[0];
+    let raw = p.panel.x.select(ndarray::Axis(0), &fold.train);
+    let y = p.panel.y.select(ndarray::Axis(0), &fold.train);
+    let median = p.space.options[1]
+        .iter()
+        .find(|c| c.option == "median")
+        .expect("the demo config lists the median fill");
+    let x = build(median, &p.panel)
+        .expect("median")
+        .fit(&StageInput {
+            x: raw.view(),
+            y: y.view(),
+            rows: &fold.train,
+            names: &p.panel.indicators,
+        })
+        .expect("median fill fits")
+        .apply_rows(raw.view(), Some(&fold.train));
+    let n = x.nrows();
+    let w = ndarray::Array1::<f64>::ones(n);
+    let input = FitInput {
+        x: x.view(),
+        y: y.view(),
+        w: w.view(),
+        seed: 7,
+    };
+    let params = ForestParams {
+        trees: 100,
+        tried: 0.33,
+        min_leaf: 5,
+    };
+    let forest = params.grow_forest(&input).expect("forest fits");
+    let scanned: u64 = forest.trees.iter().map(|t| t.scanned()).sum();
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by(|&a, &b| x[[a, 0]].total_cmp(&x[[b, 0]]));
+    let (wv, yv) = (w.to_vec(), y.to_vec());
+    let passes = scanned / n as u64;
+    let mut g = c.benchmark_group("forest against its floor");
+    g.bench_function(
+        format!(
+            "forest fit: 100 trees, {} rows x {} indicators",
+            n,
+            x.ncols()
+        ),
+        |b| b.iter(|| params.grow_forest(&input).map(|f| f.trees.len())),
+    );
+    g.bench_function(format!("floor: {passes} passes over {n} rows"), |b| {
+        b.iter(|| {
+            let (mut lw, mut lwy) = (0.0f64, 0.0f64);
+            for _ in 0..passes {
+                for &i in std::hint::black_box(&order) {
+                    lw += wv[i];
+                    lwy += wv[i] * yv[i];
+                }
+            }
+            std::hint::black_box((lw, lwy))
+        })
+    });
+    g.finish();
+}
+
 fn bench(c: &mut Criterion) {
     let p = prepared();
     // One spec per model family of the demo config (uncompressed when there is one).
@@ -108,5 +177,5 @@ fn bench(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, stages, bench);
+criterion_group!(benches, forest_floor, stages, bench);
 criterion_main!(benches);

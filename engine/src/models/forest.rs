@@ -94,6 +94,13 @@ impl Predictor for Ensemble {
 
 impl Regressor for ForestParams {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
+        Ok(Box::new(self.grow_forest(input)?))
+    }
+}
+
+impl ForestParams {
+    /// Grow the forest (the `Regressor` boxes it).
+    pub fn grow_forest(&self, input: &FitInput) -> Result<Ensemble, FitError> {
         let (n, p) = input.x.dim();
         if n == 0 || p == 0 {
             return Err(FitError::Invalid("no training rows or no columns".into()));
@@ -126,6 +133,6 @@ impl Regressor for ForestParams {
                 Candidates::Sample { m, rng: &mut rng },
             ));
         }
-        Ok(Box::new(Ensemble { trees }))
+        Ok(Ensemble { trees })
     }
 }
