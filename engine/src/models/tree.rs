@@ -190,6 +190,27 @@ impl Presorted {
     }
 }
 
+/// Stable partition of a node's lists by `go_left` (indexed by row): branch-free, every row
+/// is written to both outputs and only the cursor of its side moves (one slot of slack at
+/// each end). Kept out of line so its loop gets the registers to itself.
+#[inline(never)]
+fn partition(lists: &[u32], go_left: &[bool], ln: usize, rn: usize) -> (Vec<u32>, Vec<u32>) {
+    let k = lists.len() / (ln + rn).max(1);
+    let mut left: Vec<u32> = vec![0; k * ln + 1];
+    let mut right: Vec<u32> = vec![0; k * rn + 1];
+    let (mut a, mut b) = (0usize, 0usize);
+    for &i in lists {
+        let go = go_left[i as usize] as usize;
+        left[a] = i;
+        right[b] = i;
+        a += go;
+        b += 1 - go;
+    }
+    left.truncate(k * ln);
+    right.truncate(k * rn);
+    (left, right)
+}
+
 /// Grow a tree on `rows` (indices into x; repeated rows are not allowed, weights carry
 /// multiplicity) with weights `w` (indexed like x's rows).
 pub fn grow<R: Rng>(
@@ -375,22 +396,7 @@ pub fn grow_presorted<R: Rng>(
             ln += go as usize;
         }
         let rn = n - ln;
-        // Branch-free stable partition: every row is written to both outputs and only the
-        // cursor of its side moves (one slot of slack at each end).
-        let mut left: Vec<u32> = vec![0; (p + 1) * ln + 1];
-        let mut right: Vec<u32> = vec![0; (p + 1) * rn + 1];
-        let (mut a, mut b) = (0usize, 0usize);
-        for list in lists.chunks_exact(n.max(1)).take(p + 1) {
-            for &i in list {
-                let go = flag[i as usize] as usize;
-                left[a] = i;
-                right[b] = i;
-                a += go;
-                b += 1 - go;
-            }
-        }
-        left.truncate((p + 1) * ln);
-        right.truncate((p + 1) * rn);
+        let (left, right) = partition(&lists[..(p + 1) * n], &flag, ln, rn);
         let li = nodes.len();
         nodes.push(Node {
             feature: usize::MAX,
