@@ -14,17 +14,17 @@ fn prepared() -> forkmap::run::Prepared {
     forkmap::run::prepare(&root.join("configs/toy-quick.toml")).expect("toy-quick prepares")
 }
 
-/// Every stage option of the demo config, fitted on fold 0's training rows (raw
-/// indicators, so later stages see gaps a fill would have removed only where they cope
-/// with them: fills first, then the rest on the median-filled rows) and applied to them.
-fn stages(c: &mut Criterion) {
-    use forkmap::space::STAGE_DIMENSIONS;
+/// Fold 0's training rows: raw indicators, outcome, and the same rows median-filled.
+type Fold0 = (
+    ndarray::Array2<f64>,
+    ndarray::Array1<f64>,
+    ndarray::Array2<f64>,
+);
+fn fold0(p: &forkmap::run::Prepared) -> Fold0 {
     use forkmap::stages::{build, StageInput};
-    let p = prepared();
     let fold = &p.folds.folds[0];
     let raw = p.panel.x.select(ndarray::Axis(0), &fold.train);
     let y = p.panel.y.select(ndarray::Axis(0), &fold.train);
-    let names = p.panel.indicators.clone();
     let median = p.space.options[1]
         .iter()
         .find(|c| c.option == "median")
@@ -35,10 +35,23 @@ fn stages(c: &mut Criterion) {
             x: raw.view(),
             y: y.view(),
             rows: &fold.train,
-            names: &names,
+            names: &p.panel.indicators,
         })
         .expect("median fill fits")
         .apply_rows(raw.view(), Some(&fold.train));
+    (raw, y, filled)
+}
+
+/// Every stage option of the demo config, fitted on fold 0's training rows (raw
+/// indicators, so later stages see gaps a fill would have removed only where they cope
+/// with them: fills first, then the rest on the median-filled rows) and applied to them.
+fn stages(c: &mut Criterion) {
+    use forkmap::space::STAGE_DIMENSIONS;
+    use forkmap::stages::{build, StageInput};
+    let p = prepared();
+    let fold = &p.folds.folds[0];
+    let (raw, y, filled) = fold0(&p);
+    let names = p.panel.indicators.clone();
     let mut g = c.benchmark_group("stage fit + apply, one fold");
     for dim in STAGE_DIMENSIONS {
         let d = forkmap::space::DIMENSIONS
@@ -73,25 +86,8 @@ fn stages(c: &mut Criterion) {
 fn forest_floor(c: &mut Criterion) {
     use forkmap::models::forest::ForestParams;
     use forkmap::models::FitInput;
-    use forkmap::stages::{build, StageInput};
     let p = prepared();
-    let fold = &p.folds.folds[0];
-    let raw = p.panel.x.select(ndarray::Axis(0), &fold.train);
-    let y = p.panel.y.select(ndarray::Axis(0), &fold.train);
-    let median = p.space.options[1]
-        .iter()
-        .find(|c| c.option == "median")
-        .expect("the demo config lists the median fill");
-    let x = build(median, &p.panel)
-        .expect("median")
-        .fit(&StageInput {
-            x: raw.view(),
-            y: y.view(),
-            rows: &fold.train,
-            names: &p.panel.indicators,
-        })
-        .expect("median fill fits")
-        .apply_rows(raw.view(), Some(&fold.train));
+    let (_, y, x) = fold0(&p);
     let n = x.nrows();
     let w = ndarray::Array1::<f64>::ones(n);
     let input = FitInput {

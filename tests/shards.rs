@@ -203,6 +203,14 @@ fn incomplete_duplicated_and_foreign_shard_sets_are_reported_and_refused() {
         text.contains("duplicated") && text.contains("s1-again"),
         "{text}"
     );
+    // Each spec is counted once, however many directories hold it.
+    let line = text.lines().find(|l| l.starts_with("specs ")).unwrap();
+    let nums: Vec<usize> = line
+        .split(|c: char| !c.is_ascii_digit())
+        .filter_map(|t| t.parse().ok())
+        .collect();
+    assert_eq!(nums.len(), 4, "{line}");
+    assert!(nums[0] == nums[1] && nums[2] + nums[3] == nums[1], "{line}");
     std::fs::remove_dir_all(base.join("s1-again")).unwrap();
     let report = ok(&forkmap(&["check".as_ref(), base.as_os_str()]));
     assert!(report.ends_with("complete\n"), "{report}");

@@ -271,7 +271,7 @@ impl RunSet {
                 c.duplicated.insert(id.to_string(), dirs);
             }
         }
-        // Ok and failed counts from the first directory holding each spec.
+        // Ok and failed counts: each spec once, however many directories hold it.
         let mut counted: HashSet<&str> = HashSet::new();
         for d in &self.dirs {
             for (id, _) in &d.done.skills {
@@ -279,10 +279,10 @@ impl RunSet {
                     c.ok += 1;
                 }
             }
-        }
-        for d in &self.dirs {
-            for cause in &d.done.failed {
-                *c.failures.entry(cause.clone()).or_default() += 1;
+            for (id, cause) in &d.done.failed {
+                if counted.insert(id.as_str()) {
+                    *c.failures.entry(cause.clone()).or_default() += 1;
+                }
             }
         }
         c

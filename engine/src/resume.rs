@@ -18,8 +18,8 @@ pub struct Done {
     pub ids: HashSet<String>,
     /// (spec id, skill) of the ok specs among them.
     pub skills: Vec<(String, f64)>,
-    /// Failure causes of the failed ones.
-    pub failed: Vec<String>,
+    /// (spec id, failure cause) of the failed ones.
+    pub failed: Vec<(String, String)>,
     /// Next free part number.
     pub next_part: usize,
 }
@@ -93,7 +93,7 @@ pub fn read_done(out: &Path) -> Result<(Done, HashSet<String>)> {
                     if status.value(i) == "ok" && !skill.is_null(i) {
                         done.skills.push((id.clone(), skill.value(i)));
                     } else {
-                        done.failed.push(status.value(i).to_string());
+                        done.failed.push((id.clone(), status.value(i).to_string()));
                     }
                     done.ids.insert(id);
                 }

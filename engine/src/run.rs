@@ -395,7 +395,7 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             .filter_map(|(id, sk)| index.get(id.as_str()).map(|&i| (i, *sk))),
     );
     let mut failures = sink.failures.clone();
-    for cause in &done.failed {
+    for (_, cause) in &done.failed {
         *failures.entry(crate::error::cause_name(cause)).or_default() += 1;
     }
     let ok = skills.len();
@@ -405,7 +405,7 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         .map(|&(si, sk)| (p.space.specs[si].id.clone(), sk));
     // The deferred permutation pass needs the best skill of the whole space, which a
     // shard does not know: `forkmap merge` runs it over the merged shards.
-    let pending = imp.deferred() && imp.within.is_some() && opts.shard.is_some();
+    let pending = imp.deferred() && opts.shard.is_some();
     let importance_specs = if pending {
         serde_json::Value::Null
     } else {
