@@ -5,7 +5,7 @@
 //! does. `subsample` < 1 fits each tree on a seeded random share of the rows (stochastic
 //! gradient boosting, Friedman 2002). Hand-written: no maintained crate takes row weights.
 
-use super::tree::{grow_presorted, Candidates, Presorted, Tree, TreeParams, MIN_LEAF};
+use super::tree::{Candidates, Grower, Presorted, Tree, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
@@ -128,6 +128,7 @@ impl Regressor for BoostParams {
         let take = ((self.subsample * all.len() as f64).round() as usize).clamp(1, all.len());
         let mut trees = Vec::with_capacity(self.trees);
         let pre = Presorted::new(input.x);
+        let mut grower = Grower::new(&pre);
         for _ in 0..self.trees {
             let resid = &input.y - &f;
             let rows: Vec<usize> = if take < all.len() {
@@ -140,8 +141,7 @@ impl Regressor for BoostParams {
             } else {
                 all.clone()
             };
-            let t = grow_presorted::<rand_chacha::ChaCha8Rng>(
-                &pre,
+            let t = grower.grow::<rand_chacha::ChaCha8Rng>(
                 resid.view(),
                 &w,
                 rows,

@@ -4,7 +4,7 @@
 //! grower of `tree.rs` (no maintained crate takes row weights).
 
 use super::forest::{tried_count, Ensemble, TREES};
-use super::tree::{grow_presorted, Candidates, Presorted, TreeParams, MIN_LEAF};
+use super::tree::{Candidates, Grower, Presorted, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
@@ -69,10 +69,10 @@ impl Regressor for ExtraParams {
             min_leaf: self.min_leaf,
         };
         let pre = Presorted::new(input.x);
+        let mut grower = Grower::new(&pre);
         let trees = (0..self.trees)
             .map(|_| {
-                grow_presorted(
-                    &pre,
+                grower.grow(
                     input.y,
                     &w,
                     rows.clone(),

@@ -4,7 +4,7 @@
 //! random subset of indicators tried at each split. Trees grow until `min_leaf` stops
 //! them. Predictions average the trees. The random stream is seeded from the fit seed.
 
-use super::tree::{grow_presorted, Candidates, Presorted, Tree, TreeParams, MIN_LEAF};
+use super::tree::{Candidates, Grower, Presorted, Tree, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
@@ -113,6 +113,7 @@ impl ForestParams {
         };
         let mut trees = Vec::with_capacity(self.trees);
         let pre = Presorted::new(input.x);
+        let mut grower = Grower::new(&pre);
         let mut counts = vec![0u32; n];
         let mut w = vec![0.0; n];
         for _ in 0..self.trees {
@@ -124,8 +125,7 @@ impl ForestParams {
                 w[i] = counts[i] as f64 * input.w[i];
             }
             let rows: Vec<usize> = (0..n).filter(|&i| w[i] > 0.0).collect();
-            trees.push(grow_presorted(
-                &pre,
+            trees.push(grower.grow(
                 input.y,
                 &w,
                 rows,

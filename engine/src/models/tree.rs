@@ -11,7 +11,6 @@ use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use ndarray::{Array1, ArrayView1, ArrayView2};
-use rand::seq::index::sample;
 use rand::Rng;
 use std::sync::Arc;
 
@@ -190,25 +189,191 @@ impl Presorted {
     }
 }
 
-/// Stable partition of a node's lists by `go_left` (indexed by row): branch-free, every row
-/// is written to both outputs and only the cursor of its side moves (one slot of slack at
-/// each end). Kept out of line so its loop gets the registers to itself.
-#[inline(never)]
-fn partition(lists: &[u32], go_left: &[bool], ln: usize, rn: usize) -> (Vec<u32>, Vec<u32>) {
-    let k = lists.len() / (ln + rn).max(1);
-    let mut left: Vec<u32> = vec![0; k * ln + 1];
-    let mut right: Vec<u32> = vec![0; k * rn + 1];
-    let (mut a, mut b) = (0usize, 0usize);
-    for &i in lists {
-        let go = go_left[i as usize] as usize;
-        left[a] = i;
-        right[b] = i;
-        a += go;
-        b += 1 - go;
+/// Draws the indicators tried at a split: `m` of the `p` without replacement, listed in
+/// ascending order (ties between equal gains go to the lowest indicator). A partial
+/// Fisher-Yates shuffle (Durstenfeld 1964) of a permutation reset at each tree: from any
+/// starting permutation its first `m` entries are a uniform draw. A branch-free pass over
+/// a mask lists them in order, so nothing is sorted or allocated per split.
+pub(crate) struct FeatureDraw {
+    perm: Vec<usize>,
+    mask: Vec<bool>,
+}
+
+impl FeatureDraw {
+    pub(crate) fn new(p: usize) -> FeatureDraw {
+        FeatureDraw {
+            perm: (0..p).collect(),
+            mask: vec![false; p],
+        }
     }
-    left.truncate(k * ln);
-    right.truncate(k * rn);
-    (left, right)
+
+    /// Back to the identity permutation (at the start of each tree).
+    pub(crate) fn reset(&mut self) {
+        for (k, v) in self.perm.iter_mut().enumerate() {
+            *v = k;
+        }
+    }
+
+    pub(crate) fn draw<R: Rng>(&mut self, rng: &mut R, m: usize, out: &mut Vec<usize>) {
+        let p = self.perm.len();
+        let m = m.min(p);
+        for i in 0..m {
+            let j = rng.gen_range(i..p);
+            self.perm.swap(i, j);
+            self.mask[self.perm[i]] = true;
+        }
+        out.clear();
+        out.resize(p + 1, 0);
+        let mut c = 0usize;
+        for f in 0..p {
+            out[c] = f;
+            c += self.mask[f] as usize;
+            self.mask[f] = false;
+        }
+        out.truncate(c);
+    }
+}
+
+/// Stable in-place split of one list segment (a node's rows in one indicator's order)
+/// into its children's segments, left rows first. `go_left` is indexed by row. Only the
+/// segments of children that will be split further are written: `keep = (left, right)`.
+/// Branch-free: every row is written to the cursor of each written side and only the
+/// cursor of its own side moves. Left rows are compacted forwards in place (the write
+/// cursor never passes the read cursor); right rows go through `tmp` when both sides are
+/// kept, and are compacted backwards in place when only the right one is.
+#[inline(never)]
+fn split_segment(
+    seg: &mut [u32],
+    go_left: &[bool],
+    ln: usize,
+    keep: (bool, bool),
+    tmp: &mut [u32],
+) {
+    let n = seg.len();
+    match keep {
+        (true, true) => {
+            let (mut a, mut b) = (0usize, 0usize);
+            for k in 0..n {
+                let i = seg[k];
+                let go = go_left[i as usize] as usize;
+                seg[a] = i;
+                tmp[b] = i;
+                a += go;
+                b += 1 - go;
+            }
+            seg[ln..].copy_from_slice(&tmp[..n - ln]);
+        }
+        (true, false) => {
+            let mut a = 0usize;
+            for k in 0..n {
+                let i = seg[k];
+                seg[a] = i;
+                a += go_left[i as usize] as usize;
+            }
+        }
+        (false, true) => {
+            // Backwards; the cursor stays at or above ln - 1 >= 0 and at or above the
+            // read position.
+            let mut b = n - 1;
+            for k in (0..n).rev() {
+                let i = seg[k];
+                seg[b] = i;
+                b -= 1 - go_left[i as usize] as usize;
+            }
+        }
+        (false, false) => {}
+    }
+}
+
+/// What the split search of a node needs to know of it.
+#[derive(Debug, Clone, Copy)]
+struct NodeScan {
+    /// Sum of w and of w y over the node's rows.
+    sw: f64,
+    swy: f64,
+    /// swy^2 / sw.
+    parent_score: f64,
+    /// A split must beat the best so far by more than this.
+    tol: f64,
+    min_leaf: usize,
+    /// Whether the division-free comparison is safe (see `scan_ordered`).
+    prefilter: bool,
+}
+
+/// The best threshold of one indicator at a node, over the node's rows in that
+/// indicator's order, against the best split found so far (`best`, updated in place when
+/// beaten by more than `tol`). Every candidate leaves at least `min_leaf` rows on each
+/// side and falls between distinct values.
+///
+/// When `prefilter` is set (the caller has checked that weights and weighted outcomes are
+/// far from overflow and underflow), a candidate is first compared without dividing:
+/// its score lwy^2/lw + rwy^2/rw times lw rw is checked against the score to beat, with a
+/// relative slack of 1e-9 and an absolute one of 1e-270, far wider than the rounding of
+/// either form. Only candidates that pass are scored exactly, so the choice is the same
+/// as scoring every candidate exactly; most candidates skip the two divisions.
+/// Kept out of line so its loop gets the registers to itself.
+#[inline(never)]
+fn scan_ordered(
+    order: &[u32],
+    col: &[f64],
+    wwy: &[[f64; 2]],
+    node: NodeScan,
+    f: usize,
+    best: &mut Option<(f64, usize, f64)>,
+) {
+    let NodeScan {
+        sw,
+        swy,
+        parent_score,
+        tol,
+        min_leaf: ml,
+        prefilter,
+    } = node;
+    let n = order.len();
+    let to_beat = |best: &Option<(f64, usize, f64)>| match best {
+        Some((g, _, _)) if prefilter => (g + tol + parent_score) * (1.0 - 1e-9),
+        _ => f64::NEG_INFINITY,
+    };
+    let mut bound = to_beat(best);
+    let (mut lw, mut lwy) = (0.0, 0.0);
+    // Rows that go left whatever the threshold (ml - 1 of them).
+    for &i in &order[..ml - 1] {
+        let [a, b] = wwy[i as usize];
+        lw += a;
+        lwy += b;
+    }
+    // Candidates: the first k + 1 rows go left, ml <= k + 1 <= n - ml; `pair` holds
+    // rows k and k + 1, and `a` the value of row k.
+    let mut a = col[order[ml - 1] as usize];
+    for pair in order[ml - 1..n - ml + 1].windows(2) {
+        let [wi, wyi] = wwy[pair[0] as usize];
+        lw += wi;
+        lwy += wyi;
+        let b = col[pair[1] as usize];
+        let lo = a;
+        a = b;
+        if b <= lo + FEATURE_THRESHOLD {
+            continue;
+        }
+        let rw = sw - lw;
+        if lw <= 0.0 || rw <= 0.0 {
+            continue;
+        }
+        let rwy = swy - lwy;
+        let d = lw * rw;
+        if lwy * lwy * rw + rwy * rwy * lw < bound * d - 1e-270 {
+            continue;
+        }
+        let gain = lwy * lwy / lw + rwy * rwy / rw - parent_score;
+        if best.is_none_or(|(g, _, _)| gain > g + tol) {
+            let mut thr = lo + (b - lo) / 2.0;
+            if thr >= b {
+                thr = lo;
+            }
+            *best = Some((gain, f, thr));
+            bound = to_beat(best);
+        }
+    }
 }
 
 /// Grow a tree on `rows` (indices into x; repeated rows are not allowed, weights carry
@@ -224,210 +389,264 @@ pub fn grow<R: Rng>(
     grow_presorted(&Presorted::new(x), y, w, rows, params, cand)
 }
 
-/// [`grow`] on presorted rows. Each node holds its rows once per indicator in that
-/// indicator's order, plus once in ascending row order (sums run in that order); a split
-/// partitions every list stably into the children. The trees are those of a grower that
-/// sorts the node's rows at every node (tested bit for bit).
+/// [`Grower::grow`] with working memory of its own.
 pub fn grow_presorted<R: Rng>(
     pre: &Presorted,
     y: ArrayView1<f64>,
     w: &[f64],
-    mut rows: Vec<usize>,
+    rows: Vec<usize>,
     params: TreeParams,
-    mut cand: Candidates<R>,
+    cand: Candidates<R>,
 ) -> Tree {
-    let (nall, p) = (pre.n, pre.p);
-    rows.sort_unstable();
-    rows.dedup();
-    let mut flag = vec![false; nall];
-    for &i in &rows {
-        flag[i] = true;
-    }
-    let n0 = rows.len();
-    let mut root: Vec<u32>;
-    if n0 == nall {
-        root = Vec::with_capacity((p + 1) * n0);
-        root.extend_from_slice(&pre.order);
-    } else {
-        // Branch-free filter of every indicator's order to the rows in (one slot of slack).
-        root = vec![0; p * n0 + 1];
-        let mut a = 0usize;
-        for &i in &pre.order {
-            root[a] = i;
-            a += flag[i as usize] as usize;
+    Grower::new(pre).grow(y, w, rows, params, cand)
+}
+
+/// Grows trees on presorted rows, keeping its working memory from one tree to the next
+/// (a forest's trees, a boosting's rounds).
+///
+/// All of a tree's lists live in one arena: p + 1 segments of the root's row count, one
+/// per indicator (rows in that indicator's order) and one of rows in ascending order (sums
+/// run in that order). A node owns the same range `start..start + n` of every segment;
+/// a split rearranges that range stably so the left child owns its front and the right
+/// child its back. Nothing is allocated per node, and the segments of a child that will
+/// not be split (too few rows, or at the depth limit) are not rearranged at all. The trees
+/// are those of a grower that sorts the node's rows at every node (tested bit for bit).
+pub struct Grower<'p> {
+    pre: &'p Presorted,
+    lists: Vec<u32>,
+    tmp: Vec<u32>,
+    flag: Vec<bool>,
+    /// (w, w * y) per row.
+    wwy: Vec<[f64; 2]>,
+    draw: FeatureDraw,
+}
+
+impl<'p> Grower<'p> {
+    pub fn new(pre: &'p Presorted) -> Grower<'p> {
+        Grower {
+            pre,
+            lists: Vec::new(),
+            tmp: vec![0; pre.n + 1],
+            flag: vec![false; pre.n],
+            wwy: vec![[0.0; 2]; pre.n],
+            draw: FeatureDraw::new(pre.p),
         }
-        root.truncate(p * n0);
     }
-    root.extend(rows.iter().map(|&i| i as u32));
-    let leaf_value = |rs: &[u32]| {
-        let sw: f64 = rs.iter().map(|&i| w[i as usize]).sum();
-        let swy: f64 = rs.iter().map(|&i| w[i as usize] * y[i as usize]).sum();
-        if sw > 0.0 {
-            swy / sw
+
+    /// Grow one tree; see [`grow`] for `rows` and `w`.
+    pub fn grow<R: Rng>(
+        &mut self,
+        y: ArrayView1<f64>,
+        w: &[f64],
+        mut rows: Vec<usize>,
+        params: TreeParams,
+        mut cand: Candidates<R>,
+    ) -> Tree {
+        let pre = self.pre;
+        let (nall, p) = (pre.n, pre.p);
+        rows.sort_unstable();
+        rows.dedup();
+        let Grower {
+            lists,
+            tmp,
+            flag,
+            wwy,
+            draw,
+            ..
+        } = self;
+        draw.reset();
+        for (i, v) in wwy.iter_mut().enumerate() {
+            *v = [w[i], w[i] * y[i]];
+        }
+        // The division-free comparison of `scan_ordered` is exact only far from overflow
+        // and underflow: every weight in [1e-30, 1e30] and every |sum of w y| <= 1e30.
+        let prefilter = {
+            let (mut wmin, mut sw, mut swa) = (f64::INFINITY, 0.0, 0.0);
+            for &i in &rows {
+                let [a, b] = wwy[i];
+                wmin = wmin.min(a);
+                sw += a;
+                swa += b.abs();
+            }
+            wmin >= 1e-30 && sw <= 1e30 && swa <= 1e30
+        };
+        let n0 = rows.len();
+        lists.clear();
+        if n0 == nall {
+            lists.extend_from_slice(&pre.order);
         } else {
-            0.0
-        }
-    };
-    let mut nodes: Vec<Node> = vec![Node {
-        feature: usize::MAX,
-        threshold: 0.0,
-        left: 0,
-        right: 0,
-        value: leaf_value(&root[p * n0..]),
-        gain: 0.0,
-    }];
-    // (node index, its lists, its row count, depth)
-    let mut stack: Vec<(usize, Vec<u32>, usize, usize)> = vec![(0, root, n0, 0)];
-    let mut scanned = 0u64;
-    let mut features: Vec<usize> = (0..p).collect();
-    while let Some((ni, lists, n, depth)) = stack.pop() {
-        if depth >= params.depth || n < 2 * params.min_leaf {
-            continue;
-        }
-        let rs = &lists[p * n..(p + 1) * n];
-        let sw: f64 = rs.iter().map(|&i| w[i as usize]).sum();
-        let swy: f64 = rs.iter().map(|&i| w[i as usize] * y[i as usize]).sum();
-        if sw <= 0.0 {
-            continue;
-        }
-        let parent_score = swy * swy / sw;
-        let mut extra_thr: Vec<f64> = Vec::new();
-        match &mut cand {
-            Candidates::All => {}
-            Candidates::Sample { m, rng } => {
-                features = sample(*rng, p, (*m).min(p)).into_vec();
-                features.sort_unstable();
+            // Branch-free filter of every indicator's order to the rows in (one slot of
+            // slack).
+            flag.fill(false);
+            for &i in &rows {
+                flag[i] = true;
             }
-            Candidates::Extra { m, rng } => {
-                features = sample(*rng, p, (*m).min(p)).into_vec();
-                features.sort_unstable();
-                extra_thr = features
-                    .iter()
-                    .map(|&f| {
-                        let col = pre.col(f);
-                        let lo = rs
-                            .iter()
-                            .map(|&i| col[i as usize])
-                            .fold(f64::INFINITY, f64::min);
-                        let hi = rs
-                            .iter()
-                            .map(|&i| col[i as usize])
-                            .fold(f64::NEG_INFINITY, f64::max);
-                        let u: f64 = rng.gen();
-                        if lo < hi {
-                            lo + u * (hi - lo)
-                        } else {
-                            f64::NAN
-                        }
-                    })
-                    .collect();
+            lists.resize(p * n0 + 1, 0);
+            let mut a = 0usize;
+            for &i in &pre.order {
+                lists[a] = i;
+                a += flag[i as usize] as usize;
             }
+            lists.truncate(p * n0);
         }
-        let mut best: Option<(f64, usize, f64)> = None; // (gain, feature, threshold)
-        scanned += (features.len() * n) as u64;
-        for (fpos, &f) in features.iter().enumerate() {
-            let col = pre.col(f);
-            if !extra_thr.is_empty() {
-                let thr = extra_thr[fpos];
-                if thr.is_nan() {
-                    continue;
-                }
-                let (mut lw, mut lwy, mut ln) = (0.0, 0.0, 0usize);
-                for &i in rs {
-                    let i = i as usize;
-                    if col[i] <= thr {
-                        lw += w[i];
-                        lwy += w[i] * y[i];
-                        ln += 1;
-                    }
-                }
-                let rw = sw - lw;
-                if ln < params.min_leaf || n - ln < params.min_leaf || lw <= 0.0 || rw <= 0.0 {
-                    continue;
-                }
-                let rwy = swy - lwy;
-                let gain = lwy * lwy / lw + rwy * rwy / rw - parent_score;
-                if best.is_none_or(|(g, _, _)| gain > g) {
-                    best = Some((gain, f, thr));
-                }
+        lists.extend(rows.iter().map(|&i| i as u32));
+        let wwy = &wwy[..];
+        let sums = |rs: &[u32]| {
+            let (mut sw, mut swy) = (0.0, 0.0);
+            for &i in rs {
+                let [a, b] = wwy[i as usize];
+                sw += a;
+                swy += b;
+            }
+            (sw, swy)
+        };
+        let mean = |(sw, swy): (f64, f64)| if sw > 0.0 { swy / sw } else { 0.0 };
+        let leaf = |value: f64| Node {
+            feature: usize::MAX,
+            threshold: 0.0,
+            left: 0,
+            right: 0,
+            value,
+            gain: 0.0,
+        };
+        let mut nodes: Vec<Node> = vec![leaf(mean(sums(&lists[p * n0..])))];
+        let splittable = |n: usize, depth: usize| depth < params.depth && n >= 2 * params.min_leaf;
+        // (node index, start of its range, its row count, depth)
+        let mut stack: Vec<(usize, usize, usize, usize)> = Vec::new();
+        if splittable(n0, 0) {
+            stack.push((0, 0, n0, 0));
+        }
+        let mut scanned = 0u64;
+        let mut features: Vec<usize> = (0..p).collect();
+        let ml = params.min_leaf;
+        while let Some((ni, start, n, depth)) = stack.pop() {
+            let seg = |f: usize| f * n0 + start..f * n0 + start + n;
+            let rs = &lists[seg(p)];
+            let (sw, swy) = sums(rs);
+            if sw <= 0.0 {
                 continue;
             }
-            let order = &lists[f * n..(f + 1) * n];
-            let (mut lw, mut lwy) = (0.0, 0.0);
-            for k in 0..n - 1 {
-                let i = order[k] as usize;
-                lw += w[i];
-                lwy += w[i] * y[i];
-                let left_n = k + 1;
-                if left_n < params.min_leaf {
-                    continue;
-                }
-                if n - left_n < params.min_leaf {
-                    break;
-                }
-                let (a, b) = (col[i], col[order[k + 1] as usize]);
-                if b <= a + FEATURE_THRESHOLD {
-                    continue;
-                }
-                let rw = sw - lw;
-                if lw <= 0.0 || rw <= 0.0 {
-                    continue;
-                }
-                let rwy = swy - lwy;
-                let gain = lwy * lwy / lw + rwy * rwy / rw - parent_score;
-                if best.is_none_or(|(g, _, _)| gain > g + 1e-12 * parent_score.abs().max(1e-300)) {
-                    let mut thr = a + (b - a) / 2.0;
-                    if thr >= b {
-                        thr = a;
-                    }
-                    best = Some((gain, f, thr));
+            let parent_score = swy * swy / sw;
+            let mut extra_thr: Vec<f64> = Vec::new();
+            match &mut cand {
+                Candidates::All => {}
+                Candidates::Sample { m, rng } => draw.draw(*rng, *m, &mut features),
+                Candidates::Extra { m, rng } => {
+                    draw.draw(*rng, *m, &mut features);
+                    extra_thr = features
+                        .iter()
+                        .map(|&f| {
+                            let col = pre.col(f);
+                            let lo = rs
+                                .iter()
+                                .map(|&i| col[i as usize])
+                                .fold(f64::INFINITY, f64::min);
+                            let hi = rs
+                                .iter()
+                                .map(|&i| col[i as usize])
+                                .fold(f64::NEG_INFINITY, f64::max);
+                            let u: f64 = rng.gen();
+                            if lo < hi {
+                                lo + u * (hi - lo)
+                            } else {
+                                f64::NAN
+                            }
+                        })
+                        .collect();
                 }
             }
+            let mut best: Option<(f64, usize, f64)> = None; // (gain, feature, threshold)
+            scanned += (features.len() * n) as u64;
+            let tol = 1e-12 * parent_score.abs().max(1e-300);
+            for (fpos, &f) in features.iter().enumerate() {
+                let col = pre.col(f);
+                if !extra_thr.is_empty() {
+                    let thr = extra_thr[fpos];
+                    if thr.is_nan() {
+                        continue;
+                    }
+                    let (mut lw, mut lwy, mut ln) = (0.0, 0.0, 0usize);
+                    for &i in rs {
+                        let i = i as usize;
+                        if col[i] <= thr {
+                            let [a, b] = wwy[i];
+                            lw += a;
+                            lwy += b;
+                            ln += 1;
+                        }
+                    }
+                    let rw = sw - lw;
+                    if ln < ml || n - ln < ml || lw <= 0.0 || rw <= 0.0 {
+                        continue;
+                    }
+                    let rwy = swy - lwy;
+                    let gain = lwy * lwy / lw + rwy * rwy / rw - parent_score;
+                    if best.is_none_or(|(g, _, _)| gain > g) {
+                        best = Some((gain, f, thr));
+                    }
+                    continue;
+                }
+                scan_ordered(
+                    &lists[seg(f)],
+                    col,
+                    wwy,
+                    NodeScan {
+                        sw,
+                        swy,
+                        parent_score,
+                        tol,
+                        min_leaf: ml,
+                        prefilter,
+                    },
+                    f,
+                    &mut best,
+                );
+            }
+            let Some((gain, f, thr)) = best else { continue };
+            if gain <= 0.0 {
+                continue;
+            }
+            let col = pre.col(f);
+            let (mut l, mut r) = ((0.0, 0.0), (0.0, 0.0));
+            let mut ln = 0;
+            for &i in rs {
+                let go = col[i as usize] <= thr;
+                flag[i as usize] = go;
+                ln += go as usize;
+                let [a, b] = wwy[i as usize];
+                let side = if go { &mut l } else { &mut r };
+                side.0 += a;
+                side.1 += b;
+            }
+            let rn = n - ln;
+            let li = nodes.len();
+            nodes.push(leaf(mean(l)));
+            let ri = nodes.len();
+            nodes.push(leaf(mean(r)));
+            nodes[ni] = Node {
+                feature: f,
+                threshold: thr,
+                left: li as u32,
+                right: ri as u32,
+                value: nodes[ni].value,
+                gain,
+            };
+            let keep = (splittable(ln, depth + 1), splittable(rn, depth + 1));
+            if keep != (false, false) {
+                for s in 0..=p {
+                    split_segment(&mut lists[seg(s)], flag, ln, keep, tmp);
+                }
+            }
+            // Right pushed first so the left subtree is grown first (deterministic order).
+            if keep.1 {
+                stack.push((ri, start + ln, rn, depth + 1));
+            }
+            if keep.0 {
+                stack.push((li, start, ln, depth + 1));
+            }
         }
-        let Some((gain, f, thr)) = best else { continue };
-        if gain <= 0.0 {
-            continue;
-        }
-        let col = pre.col(f);
-        let mut ln = 0;
-        for &i in rs {
-            let go = col[i as usize] <= thr;
-            flag[i as usize] = go;
-            ln += go as usize;
-        }
-        let rn = n - ln;
-        let (left, right) = partition(&lists[..(p + 1) * n], &flag, ln, rn);
-        let li = nodes.len();
-        nodes.push(Node {
-            feature: usize::MAX,
-            threshold: 0.0,
-            left: 0,
-            right: 0,
-            value: leaf_value(&left[p * ln..]),
-            gain: 0.0,
-        });
-        let ri = nodes.len();
-        nodes.push(Node {
-            feature: usize::MAX,
-            threshold: 0.0,
-            left: 0,
-            right: 0,
-            value: leaf_value(&right[p * rn..]),
-            gain: 0.0,
-        });
-        nodes[ni] = Node {
-            feature: f,
-            threshold: thr,
-            left: li as u32,
-            right: ri as u32,
-            value: nodes[ni].value,
-            gain,
-        };
-        // Right pushed first so the left subtree is grown first (deterministic order).
-        stack.push((ri, right, rn, depth + 1));
-        stack.push((li, left, ln, depth + 1));
+        Tree { nodes, scanned }
     }
-    Tree { nodes, scanned }
 }
 
 /// The grower as it was before presorting (a sort of the node's rows per tried indicator
@@ -465,6 +684,7 @@ pub(crate) fn grow_per_node_sort<R: Rng>(
     stack.push((0, rows, 0));
     let mut order: Vec<usize> = Vec::new();
     let mut features: Vec<usize> = (0..p).collect();
+    let mut draw = FeatureDraw::new(p);
     while let Some((ni, rs, depth)) = stack.pop() {
         let n = rs.len();
         if depth >= params.depth || n < 2 * params.min_leaf {
@@ -479,13 +699,9 @@ pub(crate) fn grow_per_node_sort<R: Rng>(
         let mut extra_thr: Vec<f64> = Vec::new();
         match &mut cand {
             Candidates::All => {}
-            Candidates::Sample { m, rng } => {
-                features = sample(*rng, p, (*m).min(p)).into_vec();
-                features.sort_unstable();
-            }
+            Candidates::Sample { m, rng } => draw.draw(*rng, *m, &mut features),
             Candidates::Extra { m, rng } => {
-                features = sample(*rng, p, (*m).min(p)).into_vec();
-                features.sort_unstable();
+                draw.draw(*rng, *m, &mut features);
                 extra_thr = features
                     .iter()
                     .map(|&f| {
