@@ -197,6 +197,23 @@ for k in [2, 3, 5]:
     m.fit(Xn)
     nmf_cases.append({"k": k, "sklearn_objective": float(m.reconstruction_err_)})
 dump("nmf.json", {"x": Xn.tolist(), "cases": nmf_cases})
+# Lasso and elastic net where coordinate descent crawls: 60 rows, 50 collinear indicators
+# (five latent factors plus a little noise, standardised), small penalties, so most
+# coefficients are nonzero. scikit-learn to a tight tolerance.
+rng = np.random.default_rng(23)
+Z = rng.normal(0, 1, (60, 5))
+Xh = Z @ rng.normal(0, 1, (5, 50)) + rng.normal(0, 0.05, (60, 50))
+Xh = (Xh - Xh.mean(axis=0)) / Xh.std(axis=0)
+yh = Xh[:, :8] @ rng.normal(0, 1, 8) + rng.normal(0, 0.5, 60)
+hard = []
+for alpha, l1 in [(0.001, 1.0), (0.01, 1.0), (0.001, 0.5)]:
+    m = (Lasso(alpha=alpha, tol=1e-14, max_iter=10_000_000) if l1 == 1.0 else
+         ElasticNet(alpha=alpha, l1_ratio=l1, tol=1e-14, max_iter=10_000_000)).fit(Xh, yh)
+    b = m.coef_
+    obj = 0.5 / len(yh) * np.sum((yh - m.predict(Xh)) ** 2) + alpha * l1 * np.abs(b).sum() + 0.5 * alpha * (1 - l1) * np.sum(b**2)
+    hard.append({"alpha": alpha, "l1_ratio": l1, "fitted": m.predict(Xh).tolist(), "objective": float(obj),
+                 "nonzero": int(np.sum(b != 0)), "n_iter": int(m.n_iter_)})
+dump("lasso_collinear.json", {"x": Xh.tolist(), "y": yh.tolist(), "cases": hard})
 # kNN gap filling: scikit-learn's KNNImputer fitted on the first 20 rows of a fixed
 # matrix with gaps, applied to those rows and to 10 more.
 from sklearn.impute import KNNImputer
