@@ -161,8 +161,8 @@ struct FittedFill {
     keep: Vec<usize>,
     /// Constant fill per kept column (also the kNN fallback).
     values: Vec<f64>,
-    /// kNN donors: the training rows (kept columns only) and k.
-    donors: Option<(Array2<f64>, usize)>,
+    /// kNN donors: the training rows (kept columns only), k, and their masked forms.
+    donors: Option<Donors>,
     /// Kept-column positions that get a flag column.
     flagged: Vec<usize>,
     /// Chained fill: the regressions, in the order they are applied.
@@ -174,6 +174,31 @@ struct FittedFill {
 
 pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
     build_with(c, None)
+}
+
+/// The donors of a kNN fill with the masked matrices its distances need, made once at
+/// fit time: d0 (gaps set to 0), d0^2 and the 0/1 present mask nd.
+struct Donors {
+    d: Array2<f64>,
+    k: usize,
+    d0: Array2<f64>,
+    d0_sq: Array2<f64>,
+    nd: Array2<f64>,
+}
+
+impl Donors {
+    fn new(d: Array2<f64>, k: usize) -> Donors {
+        let d0 = d.mapv(|v| if v.is_nan() { 0.0 } else { v });
+        let nd = d.mapv(|v| if v.is_nan() { 0.0 } else { 1.0 });
+        let d0_sq = &d0 * &d0;
+        Donors {
+            d,
+            k,
+            d0,
+            d0_sq,
+            nd,
+        }
+    }
 }
 
 /// Build a fill; within-unit carry needs the panel (units and waves of its rows).
@@ -268,7 +293,7 @@ impl Stage for Fill {
             names.push(format!("{}{FLAG_SUFFIX}", names[f]));
         }
         let donors = match self.rule {
-            Rule::Knn(k) => Some((input.x.select(Axis(1), &keep), k)),
+            Rule::Knn(k) => Some(Donors::new(input.x.select(Axis(1), &keep), k)),
             _ => None,
         };
         let chain = match self.rule {
@@ -425,17 +450,15 @@ impl Fitted for FittedFill {
         //   sum over coordinates present in both of (a - d)^2
         //     = (a0^2) . Nd^T + Ma . (d0^2)^T - 2 a0 . d0^T,  count = Ma . Nd^T,
         // with a0, d0 the values with gaps set to 0 and Ma, Nd the 0/1 present masks.
-        let dists: Option<(Vec<usize>, Array2<f64>)> = self.donors.as_ref().map(|(d, _)| {
+        let dists: Option<(Vec<usize>, Array2<f64>)> = self.donors.as_ref().map(|dn| {
             let gap_rows: Vec<usize> = (0..kept.nrows())
                 .filter(|&i| kept.row(i).iter().any(|v| v.is_nan()))
                 .collect();
             let a = kept.select(Axis(0), &gap_rows);
             let a0 = a.mapv(|v| if v.is_nan() { 0.0 } else { v });
             let ma = a.mapv(|v| if v.is_nan() { 0.0 } else { 1.0 });
-            let d0 = d.mapv(|v| if v.is_nan() { 0.0 } else { v });
-            let nd = d.mapv(|v| if v.is_nan() { 0.0 } else { 1.0 });
-            let s = (&a0 * &a0).dot(&nd.t()) + ma.dot(&(&d0 * &d0).t()) - 2.0 * a0.dot(&d0.t());
-            let c = ma.dot(&nd.t());
+            let s = (&a0 * &a0).dot(&dn.nd.t()) + ma.dot(&dn.d0_sq.t()) - 2.0 * a0.dot(&dn.d0.t());
+            let c = ma.dot(&dn.nd.t());
             let pf = p as f64;
             let dist = ndarray::Zip::from(&s).and(&c).map_collect(|s, c| {
                 if *c > 0.0 {
@@ -446,17 +469,33 @@ impl Fitted for FittedFill {
             });
             (gap_rows, dist)
         });
+        // Donors of the current gap row with a distance, by (distance, row): the `near`
+        // nearest sorted at the front. A gap takes the mean of the k nearest donors that
+        // have its column, summed nearest first; they are almost always among the `near`,
+        // and the whole list is searched when they are not (the same donors either way).
+        let mut cand: Vec<(f64, usize)> = Vec::new();
+        let by_distance =
+            |a: &(f64, usize), b: &(f64, usize)| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1));
         let mut gap_pos = 0usize;
         for (i, row) in kept.axis_iter(Axis(0)).enumerate() {
-            let dist: Option<Vec<Option<f64>>> = match &dists {
-                Some((rows, dm)) if gap_pos < rows.len() && rows[gap_pos] == i => {
-                    gap_pos += 1;
-                    Some(
-                        dm.row(gap_pos - 1)
+            let mut near = 0usize;
+            let knn = match (&dists, &self.donors) {
+                (Some((rows, dm)), Some(dn)) if gap_pos < rows.len() && rows[gap_pos] == i => {
+                    cand.clear();
+                    cand.extend(
+                        dm.row(gap_pos)
                             .iter()
-                            .map(|v| (!v.is_nan()).then_some(*v))
-                            .collect(),
-                    )
+                            .enumerate()
+                            .filter(|(_, v)| !v.is_nan())
+                            .map(|(r, v)| (*v, r)),
+                    );
+                    gap_pos += 1;
+                    near = cand.len().min(4 * dn.k + 8);
+                    if near > 0 && near < cand.len() {
+                        cand.select_nth_unstable_by(near - 1, by_distance);
+                    }
+                    cand[..near].sort_unstable_by(by_distance);
+                    Some(dn)
                 }
                 _ => None,
             };
@@ -464,23 +503,31 @@ impl Fitted for FittedFill {
                 let v = row[j];
                 out[[i, j]] = if !v.is_nan() {
                     v
-                } else if let (Some(dist), Some((d, k))) = (&dist, &self.donors) {
-                    let mut cand: Vec<(f64, usize)> = dist
+                } else if let Some(dn) = knn {
+                    let (d, k) = (&dn.d, dn.k);
+                    let mut chosen: Vec<usize> = cand[..near]
                         .iter()
-                        .enumerate()
-                        .filter_map(|(r, dd)| dd.filter(|_| !d[[r, j]].is_nan()).map(|dd| (dd, r)))
+                        .filter(|&&(_, r)| !d[[r, j]].is_nan())
+                        .take(k)
+                        .map(|&(_, r)| r)
                         .collect();
-                    // The k nearest by (distance, row): a partial selection suffices.
-                    if cand.len() > *k {
-                        cand.select_nth_unstable_by(*k - 1, |a, b| {
-                            a.0.total_cmp(&b.0).then(a.1.cmp(&b.1))
-                        });
-                        cand.truncate(*k);
+                    if chosen.len() < k && near < cand.len() {
+                        let mut all: Vec<(f64, usize)> = cand
+                            .iter()
+                            .filter(|&&(_, r)| !d[[r, j]].is_nan())
+                            .copied()
+                            .collect();
+                        if all.len() > k {
+                            all.select_nth_unstable_by(k - 1, by_distance);
+                            all.truncate(k);
+                        }
+                        all.sort_unstable_by(by_distance);
+                        chosen = all.iter().map(|&(_, r)| r).collect();
                     }
-                    if cand.is_empty() {
+                    if chosen.is_empty() {
                         self.values[j]
                     } else {
-                        cand.iter().map(|&(_, r)| d[[r, j]]).sum::<f64>() / cand.len() as f64
+                        chosen.iter().map(|&r| d[[r, j]]).sum::<f64>() / chosen.len() as f64
                     }
                 } else {
                     self.values[j]
