@@ -14,11 +14,22 @@ use std::sync::Mutex;
 
 /// Sweep an in-memory panel under a config's choices; importances with `repeats` draws.
 fn sweep(panel: &Panel, choices: &str, repeats: usize) -> (ChoiceSpace, Vec<SpecResult>) {
+    sweep_sharing(panel, choices, repeats, true)
+}
+
+/// [`sweep`], with or without the shared store of filled draws.
+fn sweep_sharing(
+    panel: &Panel,
+    choices: &str,
+    repeats: usize,
+    share: bool,
+) -> (ChoiceSpace, Vec<SpecResult>) {
     let text = format!("seed = 5\n[data]\nfile = \"unused.csv\"\nunit = \"u\"\noutcome = \"y\"\n[folds]\nk = 5\n{choices}");
     let cfg = Config::from_toml(&text, Path::new("."), "<test>").unwrap();
     let space = ChoiceSpace::build(&cfg, panel).unwrap();
     let folds = FoldPlan::new(panel, &cfg.folds, cfg.seed).unwrap();
     let mut s = Sweep::new(panel, &space, &folds, cfg.seed, None).unwrap();
+    s.share_draws = share;
     s.importance = Some(ImportanceSection {
         repeats,
         kinds: vec!["permutation".into(), "group".into(), "native".into()],
@@ -227,6 +238,52 @@ fn groups_and_pools() {
     assert_eq!(find(rows, "a", "indicator", "permutation").rank, 1);
     let native_d = find(rows, "d", "indicator", "coefficient");
     assert!(!native_d.in_pool && native_d.importance == 0.0);
+}
+
+/// The filled permutation draws shared by the specs below one fill change nothing: the
+/// importances (and predictions) are the same as when every spec fills its own draws, on
+/// a panel with gaps under each fill, several pools, scalings, compressions and models.
+/// And every spec is scored against the same draws: two specs that differ only in a
+/// model setting that does not change the fit get equal permutation importances.
+#[test]
+fn shared_draws_change_nothing() {
+    let mut panel = small_panel();
+    for i in (0..panel.x.nrows()).step_by(7) {
+        panel.x[[i, (i / 7) % 4]] = f64::NAN;
+    }
+    let choices = "[choices]\nfill = [\"mean\", \"knn\", \"chained\"]\npool = [\"all\", \"abc\"]\nscale = [\"standardise\", \"minmax\"]\ncompress = [\"none\", \"pca\"]\nmodel = [\"ridge\", \"forest\"]\n[pools]\nabc = [\"a\", \"b\", \"c\"]\n[grid.pca]\nk = [2]\n[grid.forest]\ntrees = [10]\n";
+    let (space, shared) = sweep_sharing(&panel, choices, 2, true);
+    let (_, own) = sweep_sharing(&panel, choices, 2, false);
+    assert_eq!(shared.len(), space.specs.len());
+    assert_eq!(shared.len(), own.len());
+    let mut permuted = 0;
+    for (a, b) in shared.iter().zip(&own) {
+        assert_eq!(a.spec, b.spec);
+        assert_eq!(a.status, "ok", "{:?}", a.message);
+        assert_eq!(a.predictions, b.predictions);
+        assert_eq!(
+            a.importance,
+            b.importance,
+            "spec {}",
+            space.specs[a.spec].label()
+        );
+        permuted += a
+            .importance
+            .iter()
+            .filter(|r| r.kind == "permutation" && r.importance != 0.0)
+            .count();
+    }
+    assert!(permuted > 100, "{permuted} nonzero permutation importances");
+    // Common draws: ridge with alpha 1e-300 and 1e-299 fit the same coefficients to the
+    // last bit on this well-conditioned panel, so their importances must be equal too.
+    let (_, twins) = sweep(
+        &panel,
+        "[choices]\nmodel = [\"ridge\"]\n[grid.ridge]\nalpha = [1e-300, 1e-299]\n",
+        3,
+    );
+    assert_eq!(twins.len(), 2);
+    assert_eq!(twins[0].predictions, twins[1].predictions);
+    assert_eq!(twins[0].importance, twins[1].importance);
 }
 
 /// Behind PCA or NMF, importances still land on the raw indicators, for permutation and

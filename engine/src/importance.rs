@@ -6,7 +6,11 @@
 //!   j's column over all rows (gaps included, so the fill stage sees them). Importance =
 //!   mean squared error of the pooled out-of-fold predictions with j permuted minus
 //!   without, averaged over `repeats` draws; `spread` is the standard deviation over the
-//!   draws. For a linear model y = x b + e with independent indicators this has
+//!   draws. The draws depend on the run's seed, the fold, the indicator (or group) and the
+//!   repeat, not on the spec: every spec is scored against the same draws (common random
+//!   numbers), so differences between specs are not blurred by differences between
+//!   draws, and a fold's permuted rows, once filled, are shared by all specs below that
+//!   fill ([`Draws`]). For a linear model y = x b + e with independent indicators this has
 //!   expectation 2 b_j^2 var(x_j): the permuted column x'_j is independent of everything,
 //!   so the prediction error gains b_j (x_j - x'_j), whose variance is 2 b_j^2 var(x_j).
 //! * `permutation` (level `group`): the same with every indicator of a codebook group
@@ -30,8 +34,78 @@ use ndarray::{Array1, Array2, ArrayView2, Axis};
 use rand::seq::SliceRandom;
 use rand::SeedableRng;
 use serde::{Deserialize, Serialize};
-use std::collections::BTreeMap;
-use std::sync::Arc;
+use std::collections::{BTreeMap, HashMap};
+use std::sync::{Arc, Mutex, OnceLock};
+
+/// Stream of the permutation draws (mixed with the run's seed; the same for every spec).
+const DRAW_STREAM: u64 = 0x5045_524d_5554_4531;
+
+/// Most bytes of filled permuted rows one [`Draws`] keeps (one fold under one fill).
+pub const DRAWS_BUDGET: usize = 32 << 20;
+
+/// A filled draw, computed by whichever spec asks first.
+type Slot = Arc<OnceLock<Array2<f64>>>;
+
+/// One fold's permuted test rows after its fitted fill, kept for every spec below that
+/// fill: each (permuted columns, repeat) is filled once, on first use. Past
+/// [`DRAWS_BUDGET`] bytes further draws are computed by each spec without being kept.
+/// Results are the same with or without it (tested).
+pub struct Draws {
+    slots: Mutex<HashMap<(Vec<usize>, usize), Slot>>,
+    bytes_each: usize,
+    kept: Mutex<usize>,
+}
+
+impl Draws {
+    /// For `n_test` rows and a fill writing `cols_out` columns.
+    pub fn new(n_test: usize, cols_out: usize) -> Draws {
+        Draws {
+            slots: Mutex::new(HashMap::new()),
+            bytes_each: n_test.saturating_mul(cols_out).saturating_mul(8).max(1),
+            kept: Mutex::new(0),
+        }
+    }
+
+    /// The filled rows of draw (`cols`, `r`), computed by `make` on first use. Others
+    /// asking meanwhile wait for it, so `make` must not wait on rayon work itself (no
+    /// stage runs rayon inside).
+    fn get(&self, cols: &[usize], r: usize, make: impl FnOnce() -> Array2<f64>) -> Slot {
+        let slot = {
+            let mut slots = match self.slots.lock() {
+                Ok(g) => g,
+                Err(p) => p.into_inner(),
+            };
+            match slots.get(&(cols.to_vec(), r)) {
+                Some(s) => Some(s.clone()),
+                None => {
+                    let mut kept = match self.kept.lock() {
+                        Ok(g) => g,
+                        Err(p) => p.into_inner(),
+                    };
+                    if *kept + self.bytes_each <= DRAWS_BUDGET {
+                        *kept += self.bytes_each;
+                        let s = Arc::new(OnceLock::new());
+                        slots.insert((cols.to_vec(), r), s.clone());
+                        Some(s)
+                    } else {
+                        None
+                    }
+                }
+            }
+        };
+        match slot {
+            Some(s) => {
+                s.get_or_init(make);
+                s
+            }
+            None => {
+                let s = Arc::new(OnceLock::new());
+                s.get_or_init(make);
+                s
+            }
+        }
+    }
+}
 
 /// `[importance]` settings.
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -137,7 +211,7 @@ impl<'a> Accumulator<'a> {
         Accumulator {
             panel,
             cfg,
-            stream: mix(seed, spec.stream()),
+            stream: mix(seed, DRAW_STREAM),
             sse_ind: pool.iter().map(|&j| (j, vec![0.0; r])).collect(),
             sse_grp: vec![vec![0.0; r]; groups.len()],
             pool,
@@ -167,13 +241,54 @@ impl<'a> Accumulator<'a> {
             .sum()
     }
 
+    /// Predictions of the fold's pipeline on its test rows with `cols` replaced by draw
+    /// (`key`, `r`). With `draws`, the filled rows come from (or go to) the fold's shared
+    /// store and only the rest of the chain runs here.
+    #[allow(clippy::too_many_arguments)]
+    fn permuted_predict(
+        &self,
+        fi: usize,
+        chain: &[Arc<dyn Fitted>],
+        model: &dyn Predictor,
+        target: &dyn Target,
+        draws: Option<&Draws>,
+        raw: &Array2<f64>,
+        test: &[usize],
+        cols: &[usize],
+        key: u64,
+        r: usize,
+    ) -> Array1<f64> {
+        let permuted = || {
+            let perm = self.draw(fi, key, r);
+            let mut x = raw.clone();
+            for &j in cols {
+                for (k, row) in perm.iter().take(test.len()).enumerate() {
+                    x[[k, j]] = self.panel.x[[*row, j]];
+                }
+            }
+            x
+        };
+        match (draws, chain.split_first()) {
+            (Some(d), Some((fill, rest))) => {
+                let slot = d.get(cols, r, || fill.apply_rows(permuted().view(), Some(test)));
+                match slot.get() {
+                    Some(filled) => predict_chain(rest, model, target, filled.view(), Some(test)),
+                    None => predict_chain(chain, model, target, permuted().view(), Some(test)),
+                }
+            }
+            _ => predict_chain(chain, model, target, permuted().view(), Some(test)),
+        }
+    }
+
     /// Add one fold: its fitted chain and model, names of the model's input columns, the
-    /// model's training rows, the test rows and their unpermuted predictions.
+    /// model's training rows, the test rows and their unpermuted predictions, and the
+    /// fold's shared store of filled draws if there is one (`chain[0]` is then its fill).
     #[allow(clippy::too_many_arguments)]
     pub fn add_fold(
         &mut self,
         fi: usize,
         chain: &[Arc<dyn Fitted>],
+        draws: Option<&Draws>,
         model: &dyn Predictor,
         target: &dyn Target,
         input_names: &[String],
@@ -184,25 +299,21 @@ impl<'a> Accumulator<'a> {
         self.sse_base += self.sse(pred, test);
         self.n += test.len();
         let raw = self.panel.x.select(Axis(0), test);
-        let permute = |cols: &[usize], perm: &[usize]| -> Array2<f64> {
-            let mut x = raw.clone();
-            for &j in cols {
-                for (k, row) in perm.iter().take(test.len()).enumerate() {
-                    x[[k, j]] = self.panel.x[[*row, j]];
-                }
-            }
-            x
-        };
         if self.cfg.wants("permutation") {
-            for &j in &self.pool {
+            for pi in 0..self.pool.len() {
+                let j = self.pool[pi];
                 for r in 0..self.cfg.repeats {
-                    let perm = self.draw(fi, j as u64 + 1, r);
-                    let p = predict_chain(
+                    let p = self.permuted_predict(
+                        fi,
                         chain,
                         model,
                         target,
-                        permute(&[j], &perm).view(),
-                        Some(test),
+                        draws,
+                        &raw,
+                        test,
+                        &[j],
+                        j as u64 + 1,
+                        r,
                     );
                     let s = self.sse(&p, test);
                     if let Some(v) = self.sse_ind.get_mut(&j) {
@@ -229,13 +340,8 @@ impl<'a> Accumulator<'a> {
                     1_000_000 + g as u64
                 };
                 for r in 0..self.cfg.repeats {
-                    let perm = self.draw(fi, key, r);
-                    let p = predict_chain(
-                        chain,
-                        model,
-                        target,
-                        permute(&members, &perm).view(),
-                        Some(test),
+                    let p = self.permuted_predict(
+                        fi, chain, model, target, draws, &raw, test, &members, key, r,
                     );
                     self.sse_grp[g][r] += self.sse(&p, test);
                 }

@@ -160,6 +160,8 @@ struct FoldState {
     /// Training outcome under the node's transform.
     y: Arc<Array1<f64>>,
     target: Arc<dyn Target>,
+    /// The fold's filled permutation draws, shared below the first stage (the fill).
+    draws: Option<Arc<crate::importance::Draws>>,
 }
 
 /// Per-fold context shared by every spec.
@@ -183,6 +185,9 @@ pub struct Sweep<'a> {
     pub describe: bool,
     /// Importances to compute per spec (none by default; `run` sets the config's).
     pub importance: Option<crate::importance::ImportanceSection>,
+    /// Share each fold's filled permutation draws among the specs below one fill (default
+    /// true; the results are the same either way, this only saves work).
+    pub share_draws: bool,
     roots: Vec<TargetNode>,
     models: Vec<Arc<dyn Regressor>>,
     ctx: Vec<FoldCtx>,
@@ -292,6 +297,7 @@ impl<'a> Sweep<'a> {
             seed,
             audit: None,
             describe: true,
+            share_draws: true,
             importance: None,
             roots,
             models,
@@ -369,6 +375,7 @@ impl<'a> Sweep<'a> {
             chain: Vec::new(),
             y: Arc::new(self.ctx[fi].y_train.mapv(|v| target.forward(v))),
             target: target.clone(),
+            draws: None,
         }
     }
 
@@ -434,6 +441,18 @@ impl<'a> Sweep<'a> {
                 let mut chain = p.chain.clone();
                 let names = fitted.names().to_vec();
                 chain.push(fitted);
+                let permutes = self
+                    .importance
+                    .as_ref()
+                    .is_some_and(|c| c.wants("permutation") || c.wants("group"));
+                let draws = if node.level == 0 && self.share_draws && permutes {
+                    Some(Arc::new(crate::importance::Draws::new(
+                        test.nrows(),
+                        test.ncols(),
+                    )))
+                } else {
+                    p.draws.clone()
+                };
                 Ok(FoldState {
                     train,
                     test,
@@ -441,6 +460,7 @@ impl<'a> Sweep<'a> {
                     chain,
                     y: p.y.clone(),
                     target: p.target.clone(),
+                    draws,
                 })
             })
             .collect();
@@ -559,6 +579,7 @@ impl<'a> Sweep<'a> {
                             acc.add_fold(
                                 fi,
                                 &st.chain,
+                                st.draws.as_deref(),
                                 m.as_ref(),
                                 st.target.as_ref(),
                                 &st.names,
