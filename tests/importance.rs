@@ -14,22 +14,22 @@ use std::sync::Mutex;
 
 /// Sweep an in-memory panel under a config's choices; importances with `repeats` draws.
 fn sweep(panel: &Panel, choices: &str, repeats: usize) -> (ChoiceSpace, Vec<SpecResult>) {
-    sweep_sharing(panel, choices, repeats, true)
+    sweep_sharing(panel, choices, repeats, forkmap::importance::DRAWS_BUDGET)
 }
 
-/// [`sweep`], with or without the shared store of filled draws.
+/// [`sweep`], keeping up to `budget` bytes of filled draws per fill (0: none shared).
 fn sweep_sharing(
     panel: &Panel,
     choices: &str,
     repeats: usize,
-    share: bool,
+    budget: usize,
 ) -> (ChoiceSpace, Vec<SpecResult>) {
     let text = format!("seed = 5\n[data]\nfile = \"unused.csv\"\nunit = \"u\"\noutcome = \"y\"\n[folds]\nk = 5\n{choices}");
     let cfg = Config::from_toml(&text, Path::new("."), "<test>").unwrap();
     let space = ChoiceSpace::build(&cfg, panel).unwrap();
     let folds = FoldPlan::new(panel, &cfg.folds, cfg.seed).unwrap();
     let mut s = Sweep::new(panel, &space, &folds, cfg.seed, None).unwrap();
-    s.share_draws = share;
+    s.draws_budget = budget;
     s.importance = Some(ImportanceSection {
         repeats,
         kinds: vec!["permutation".into(), "group".into(), "native".into()],
@@ -241,8 +241,9 @@ fn groups_and_pools() {
 }
 
 /// The filled permutation draws shared by the specs below one fill change nothing: the
-/// importances (and predictions) are the same as when every spec fills its own draws, on
-/// a panel with gaps under each fill, several pools, scalings, compressions and models.
+/// importances (and predictions) are the same as when every spec fills its own draws, and
+/// as when the budget runs out part way (some draws kept, the rest filled by each spec),
+/// on a panel with gaps under each fill, several pools, scalings, compressions and models.
 /// And every spec is scored against the same draws: two specs that differ only in a
 /// model setting that does not change the fit get equal permutation importances.
 #[test]
@@ -252,10 +253,17 @@ fn shared_draws_change_nothing() {
         panel.x[[i, (i / 7) % 4]] = f64::NAN;
     }
     let choices = "[choices]\nfill = [\"mean\", \"knn\", \"chained\"]\npool = [\"all\", \"abc\"]\nscale = [\"standardise\", \"minmax\"]\ncompress = [\"none\", \"pca\"]\nmodel = [\"ridge\", \"forest\"]\n[pools]\nabc = [\"a\", \"b\", \"c\"]\n[grid.pca]\nk = [2]\n[grid.forest]\ntrees = [10]\n";
-    let (space, shared) = sweep_sharing(&panel, choices, 2, true);
-    let (_, own) = sweep_sharing(&panel, choices, 2, false);
+    let (space, shared) = sweep_sharing(&panel, choices, 2, forkmap::importance::DRAWS_BUDGET);
+    let (_, own) = sweep_sharing(&panel, choices, 2, 0);
+    // 16 test rows x 4 columns x 8 bytes = 512 bytes a draw; a fill asks for 50 (5 folds x
+    // 2 repeats x 4 indicators and the group of two), so 40 are kept and 10 are not.
+    let (_, part) = sweep_sharing(&panel, choices, 2, 20 << 10);
     assert_eq!(shared.len(), space.specs.len());
     assert_eq!(shared.len(), own.len());
+    for (a, b) in part.iter().zip(&own) {
+        assert_eq!(a.spec, b.spec);
+        assert_eq!(a.importance, b.importance);
+    }
     let mut permuted = 0;
     for (a, b) in shared.iter().zip(&own) {
         assert_eq!(a.spec, b.spec);

@@ -40,29 +40,39 @@ use std::sync::{Arc, Mutex, OnceLock};
 /// Stream of the permutation draws (mixed with the run's seed; the same for every spec).
 const DRAW_STREAM: u64 = 0x5045_524d_5554_4531;
 
-/// Most bytes of filled permuted rows one [`Draws`] keeps (one fold under one fill).
-pub const DRAWS_BUDGET: usize = 32 << 20;
+/// Most bytes of filled permuted rows kept under one fill, over all its folds (the
+/// default of `Sweep::draws_budget`).
+pub const DRAWS_BUDGET: usize = 48 << 20;
+
+/// Bytes left to keep under one fill, shared by its folds' [`Draws`].
+pub type DrawsBudget = Arc<Mutex<usize>>;
+
+/// A fresh budget of `bytes`.
+pub fn draws_budget(bytes: usize) -> DrawsBudget {
+    Arc::new(Mutex::new(bytes))
+}
 
 /// A filled draw, computed by whichever spec asks first.
 type Slot = Arc<OnceLock<Array2<f64>>>;
 
 /// One fold's permuted test rows after its fitted fill, kept for every spec below that
-/// fill: each (permuted columns, repeat) is filled once, on first use. Past
-/// [`DRAWS_BUDGET`] bytes further draws are computed by each spec without being kept.
+/// fill: each (permuted columns, repeat) is filled once, on first use. Once the fill's
+/// budget (`Sweep::draws_budget` over all its folds) is spent, further draws are computed by
+/// each spec without being kept.
 /// Results are the same with or without it (tested).
 pub struct Draws {
     slots: Mutex<HashMap<(Vec<usize>, usize), Slot>>,
     bytes_each: usize,
-    kept: Mutex<usize>,
+    left: DrawsBudget,
 }
 
 impl Draws {
-    /// For `n_test` rows and a fill writing `cols_out` columns.
-    pub fn new(n_test: usize, cols_out: usize) -> Draws {
+    /// For `n_test` rows and a fill writing `cols_out` columns, spending from `left`.
+    pub fn new(n_test: usize, cols_out: usize, left: DrawsBudget) -> Draws {
         Draws {
             slots: Mutex::new(HashMap::new()),
             bytes_each: n_test.saturating_mul(cols_out).saturating_mul(8).max(1),
-            kept: Mutex::new(0),
+            left,
         }
     }
 
@@ -78,12 +88,12 @@ impl Draws {
             match slots.get(&(cols.to_vec(), r)) {
                 Some(s) => Some(s.clone()),
                 None => {
-                    let mut kept = match self.kept.lock() {
+                    let mut left = match self.left.lock() {
                         Ok(g) => g,
                         Err(p) => p.into_inner(),
                     };
-                    if *kept + self.bytes_each <= DRAWS_BUDGET {
-                        *kept += self.bytes_each;
+                    if *left >= self.bytes_each {
+                        *left -= self.bytes_each;
                         let s = Arc::new(OnceLock::new());
                         slots.insert((cols.to_vec(), r), s.clone());
                         Some(s)

@@ -185,9 +185,10 @@ pub struct Sweep<'a> {
     pub describe: bool,
     /// Importances to compute per spec (none by default; `run` sets the config's).
     pub importance: Option<crate::importance::ImportanceSection>,
-    /// Share each fold's filled permutation draws among the specs below one fill (default
-    /// true; the results are the same either way, this only saves work).
-    pub share_draws: bool,
+    /// Bytes of filled permutation draws kept under one fill and shared by the specs below
+    /// it (default [`crate::importance::DRAWS_BUDGET`]; 0 shares nothing). The results
+    /// are the same whatever the budget; it only saves work.
+    pub draws_budget: usize,
     roots: Vec<TargetNode>,
     models: Vec<Arc<dyn Regressor>>,
     ctx: Vec<FoldCtx>,
@@ -297,7 +298,7 @@ impl<'a> Sweep<'a> {
             seed,
             audit: None,
             describe: true,
-            share_draws: true,
+            draws_budget: crate::importance::DRAWS_BUDGET,
             importance: None,
             roots,
             models,
@@ -416,6 +417,12 @@ impl<'a> Sweep<'a> {
         emit: &(dyn Fn(SpecResult) + Sync),
     ) {
         let step = STAGE_DIMENSIONS[node.level];
+        let permutes = self
+            .importance
+            .as_ref()
+            .is_some_and(|c| c.wants("permutation") || c.wants("group"));
+        let budget = (node.level == 0 && self.draws_budget > 0 && permutes)
+            .then(|| crate::importance::draws_budget(self.draws_budget));
         let states: std::result::Result<Vec<FoldState>, (usize, FitError)> = parent
             .par_iter()
             .enumerate()
@@ -441,17 +448,13 @@ impl<'a> Sweep<'a> {
                 let mut chain = p.chain.clone();
                 let names = fitted.names().to_vec();
                 chain.push(fitted);
-                let permutes = self
-                    .importance
-                    .as_ref()
-                    .is_some_and(|c| c.wants("permutation") || c.wants("group"));
-                let draws = if node.level == 0 && self.share_draws && permutes {
-                    Some(Arc::new(crate::importance::Draws::new(
+                let draws = match &budget {
+                    Some(b) => Some(Arc::new(crate::importance::Draws::new(
                         test.nrows(),
                         test.ncols(),
-                    )))
-                } else {
-                    p.draws.clone()
+                        b.clone(),
+                    ))),
+                    None => p.draws.clone(),
                 };
                 Ok(FoldState {
                     train,
