@@ -64,15 +64,24 @@ pub struct Draws {
     slots: Mutex<HashMap<(Vec<usize>, usize), Slot>>,
     bytes_each: usize,
     left: DrawsBudget,
+    /// Nanoseconds spent filling kept draws (the shared work), summed over threads.
+    nanos: Arc<std::sync::atomic::AtomicU64>,
 }
 
 impl Draws {
-    /// For `n_test` rows and a fill writing `cols_out` columns, spending from `left`.
-    pub fn new(n_test: usize, cols_out: usize, left: DrawsBudget) -> Draws {
+    /// For `n_test` rows and a fill writing `cols_out` columns, spending from `left`;
+    /// the time spent filling kept draws is added to `nanos`.
+    pub fn new(
+        n_test: usize,
+        cols_out: usize,
+        left: DrawsBudget,
+        nanos: Arc<std::sync::atomic::AtomicU64>,
+    ) -> Draws {
         Draws {
             slots: Mutex::new(HashMap::new()),
             bytes_each: n_test.saturating_mul(cols_out).saturating_mul(8).max(1),
             left,
+            nanos,
         }
     }
 
@@ -105,7 +114,14 @@ impl Draws {
         };
         match slot {
             Some(s) => {
-                s.get_or_init(make);
+                s.get_or_init(|| {
+                    let t0 = std::time::Instant::now();
+                    let v = make();
+                    let ns = u64::try_from(t0.elapsed().as_nanos()).unwrap_or(u64::MAX);
+                    self.nanos
+                        .fetch_add(ns, std::sync::atomic::Ordering::Relaxed);
+                    v
+                });
                 s
             }
             None => {

@@ -232,10 +232,13 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
                 p,
                 &per_family,
                 &imp_by_fill.into_inner().unwrap_or_default(),
-                wall,
-                threads.max(1),
-                probe.n_stage_nodes(),
-                sweep.n_stage_nodes(),
+                Probe {
+                    wall,
+                    threads: threads.max(1),
+                    nodes: (probe.n_stage_nodes(), sweep.n_stage_nodes()),
+                    fills: (probe.n_fill_nodes(), sweep.n_fill_nodes()),
+                    shared: probe.shared_draw_seconds(),
+                },
             );
         }
         estimate = total;
@@ -271,23 +274,40 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
     }
 }
 
+/// What the timing probe measured beside the per-spec seconds.
+struct Probe {
+    wall: f64,
+    threads: usize,
+    /// Stage preparations (probe, whole space).
+    nodes: (usize, usize),
+    /// Fill preparations (probe, whole space).
+    fills: (usize, usize),
+    /// CPU seconds the probe spent filling shared permutation draws.
+    shared: f64,
+}
+
 /// The run-time estimate from a probe, by a per-family cost model: each family's fit
 /// seconds per cost unit (see `Family::cost`) measured on the probed specs, applied to the
 /// cost of every spec of the space, plus the mean importance seconds of the probed specs
 /// with the same fill (importances permute every indicator whatever the model, and rerun
-/// the preparations, of which the fill costs most); a family or fill the probe missed
-/// takes the probe's overall rate. Plus the stage fits:
-/// the probe's remaining CPU seconds per stage preparation, times the preparations of the
-/// whole tree. Divided by the threads (the sweep keeps them busy).
+/// the preparations); a family or fill the probe missed takes the probe's overall rate.
+/// The filling of permutation draws is shared by all specs below a fill, so that part of
+/// the importance seconds is counted per fill preparation, not per spec. Plus the stage
+/// fits: the probe's remaining CPU seconds per stage preparation, times the preparations
+/// of the whole tree. Divided by the threads (the sweep keeps them busy).
 fn estimate_from_probe(
     p: &Prepared,
     per_family: &BTreeMap<String, (f64, usize, f64, f64)>,
     imp_by_fill: &BTreeMap<String, (f64, usize)>,
-    wall: f64,
-    threads: usize,
-    probe_nodes: usize,
-    all_nodes: usize,
+    probe: Probe,
 ) -> f64 {
+    let Probe {
+        wall,
+        threads,
+        nodes: (probe_nodes, all_nodes),
+        fills: (probe_fills, all_fills),
+        shared,
+    } = probe;
     let (secs, cost, count, imp) = per_family
         .values()
         .fold((0.0, 0.0, 0usize, 0.0), |(s, c, k, i), v| {
@@ -296,7 +316,13 @@ fn estimate_from_probe(
     if cost <= 0.0 || count == 0 {
         return f64::NAN;
     }
-    let overall = (secs / cost, imp / count as f64);
+    // The part of each spec's importance seconds that is its own (not shared draws).
+    let own = if imp > 0.0 {
+        (1.0 - shared / imp).clamp(0.0, 1.0)
+    } else {
+        1.0
+    };
+    let overall = (secs / cost, own * imp / count as f64);
     let model: f64 = p
         .space
         .specs
@@ -309,10 +335,15 @@ fn estimate_from_probe(
             let imp = imp_by_fill
                 .get(&s.choice("fill").option)
                 .filter(|v| v.1 > 0)
-                .map_or(overall.1, |v| v.0 / v.1 as f64);
+                .map_or(overall.1, |v| own * v.0 / v.1 as f64);
             rate * crate::shard::spec_cost(s, &p.panel) + imp
         })
-        .sum();
+        .sum::<f64>()
+        + if probe_fills > 0 {
+            shared / probe_fills as f64 * all_fills as f64
+        } else {
+            0.0
+        };
     let stage_cpu = (wall * threads as f64 - secs - imp).max(0.0);
     let stages = if probe_nodes > 0 {
         stage_cpu / probe_nodes as f64 * all_nodes as f64
@@ -321,6 +352,10 @@ fn estimate_from_probe(
     };
     tracing::debug!(
         model,
+        shared,
+        own,
+        probe_fills,
+        all_fills,
         stages,
         stage_cpu,
         probe_nodes,

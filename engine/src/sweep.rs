@@ -194,6 +194,8 @@ pub struct Sweep<'a> {
     ctx: Vec<FoldCtx>,
     /// Nanoseconds spent fitting and applying stages (summed over threads).
     stage_nanos: std::sync::atomic::AtomicU64,
+    /// Nanoseconds spent filling shared permutation draws (inside importance seconds).
+    draw_nanos: Arc<std::sync::atomic::AtomicU64>,
 }
 
 fn panic_text(p: Box<dyn std::any::Any + Send>) -> String {
@@ -304,6 +306,7 @@ impl<'a> Sweep<'a> {
             models,
             ctx,
             stage_nanos: std::sync::atomic::AtomicU64::new(0),
+            draw_nanos: Arc::new(std::sync::atomic::AtomicU64::new(0)),
         })
     }
 
@@ -321,6 +324,17 @@ impl<'a> Sweep<'a> {
     /// Distinct fitted preparations per fold (the number of stage fits is this x folds).
     /// Seconds spent fitting and applying stages so far, summed over threads (the
     /// descriptive all-rows fits for loadings included).
+    /// CPU seconds spent filling the permutation draws shared under each fill (part of
+    /// the specs' importance seconds: the spec that asks first fills a draw).
+    pub fn shared_draw_seconds(&self) -> f64 {
+        self.draw_nanos.load(std::sync::atomic::Ordering::Relaxed) as f64 * 1e-9
+    }
+
+    /// Preparations at the first stage (the fill), where permutation draws are shared.
+    pub fn n_fill_nodes(&self) -> usize {
+        self.roots.iter().map(|r| r.children.len()).sum()
+    }
+
     pub fn stage_seconds(&self) -> f64 {
         self.stage_nanos.load(std::sync::atomic::Ordering::Relaxed) as f64 * 1e-9
     }
@@ -453,6 +467,7 @@ impl<'a> Sweep<'a> {
                         test.nrows(),
                         test.ncols(),
                         b.clone(),
+                        self.draw_nanos.clone(),
                     ))),
                     None => p.draws.clone(),
                 };
