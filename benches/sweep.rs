@@ -6,41 +6,11 @@
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use forkmap::sweep::Sweep;
-use std::path::Path;
 use std::sync::Mutex;
 
-fn prepared() -> forkmap::run::Prepared {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
-    forkmap::run::prepare(&root.join("configs/toy-quick.toml")).expect("toy-quick prepares")
-}
-
-/// Fold 0's training rows: raw indicators, outcome, and the same rows median-filled.
-type Fold0 = (
-    ndarray::Array2<f64>,
-    ndarray::Array1<f64>,
-    ndarray::Array2<f64>,
-);
-fn fold0(p: &forkmap::run::Prepared) -> Fold0 {
-    use forkmap::stages::{build, StageInput};
-    let fold = &p.folds.folds[0];
-    let raw = p.panel.x.select(ndarray::Axis(0), &fold.train);
-    let y = p.panel.y.select(ndarray::Axis(0), &fold.train);
-    let median = p.space.options[1]
-        .iter()
-        .find(|c| c.option == "median")
-        .expect("the demo config lists the median fill");
-    let filled = build(median, &p.panel)
-        .expect("median")
-        .fit(&StageInput {
-            x: raw.view(),
-            y: y.view(),
-            rows: &fold.train,
-            names: &p.panel.indicators,
-        })
-        .expect("median fill fits")
-        .apply_rows(raw.view(), Some(&fold.train));
-    (raw, y, filled)
-}
+#[path = "shared.rs"]
+mod shared;
+use shared::{floor_kernel, fold0, prepared};
 
 /// Every stage option of the demo config, fitted on fold 0's training rows (raw
 /// indicators, so later stages see gaps a fill would have removed only where they cope
@@ -117,16 +87,7 @@ fn forest_floor(c: &mut Criterion) {
         |b| b.iter(|| params.grow_forest(&input).map(|f| f.trees.len())),
     );
     g.bench_function(format!("floor: {passes} passes over {n} rows"), |b| {
-        b.iter(|| {
-            let (mut lw, mut lwy) = (0.0f64, 0.0f64);
-            for _ in 0..passes {
-                for &i in std::hint::black_box(&order) {
-                    lw += wv[i];
-                    lwy += wv[i] * yv[i];
-                }
-            }
-            std::hint::black_box((lw, lwy))
-        })
+        b.iter(|| floor_kernel(passes, &order, &wv, &yv))
     });
     g.finish();
 }

@@ -471,25 +471,29 @@ impl<'p> Grower<'p> {
             wmin >= 1e-30 && sw <= 1e30 && swa <= 1e30
         };
         let n0 = rows.len();
-        lists.clear();
+        // The arena holds p + 1 segments of n0 (and one slot of slack); it is sized for
+        // the largest tree once and never cleared: every slot read is written first.
+        let need = (p + 1) * nall + 1;
+        if lists.len() < need {
+            lists.resize(need, 0);
+        }
         if n0 == nall {
-            lists.extend_from_slice(&pre.order);
+            lists[..p * n0].copy_from_slice(&pre.order);
         } else {
-            // Branch-free filter of every indicator's order to the rows in (one slot of
-            // slack).
+            // Branch-free filter of every indicator's order to the rows in.
             flag.fill(false);
             for &i in &rows {
                 flag[i] = true;
             }
-            lists.resize(p * n0 + 1, 0);
             let mut a = 0usize;
             for &i in &pre.order {
                 lists[a] = i;
                 a += flag[i as usize] as usize;
             }
-            lists.truncate(p * n0);
         }
-        lists.extend(rows.iter().map(|&i| i as u32));
+        for (slot, &i) in lists[p * n0..(p + 1) * n0].iter_mut().zip(&rows) {
+            *slot = i as u32;
+        }
         let wwy = &wwy[..];
         let sums = |rs: &[u32]| {
             let (mut sw, mut swy) = (0.0, 0.0);
@@ -509,7 +513,7 @@ impl<'p> Grower<'p> {
             value,
             gain: 0.0,
         };
-        let mut nodes: Vec<Node> = vec![leaf(mean(sums(&lists[p * n0..])))];
+        let mut nodes: Vec<Node> = vec![leaf(mean(sums(&lists[p * n0..(p + 1) * n0])))];
         let splittable = |n: usize, depth: usize| depth < params.depth && n >= 2 * params.min_leaf;
         // (node index, start of its range, its row count, depth)
         let mut stack: Vec<(usize, usize, usize, usize)> = Vec::new();

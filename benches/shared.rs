@@ -1,0 +1,53 @@
+//! Helpers shared by the Criterion benches (`sweep.rs`) and the instruction-count
+//! program (`floor_count.rs`).
+
+use std::path::Path;
+
+pub fn prepared() -> forkmap::run::Prepared {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+    forkmap::run::prepare(&root.join("configs/toy-quick.toml")).expect("toy-quick prepares")
+}
+
+/// Fold 0's training rows: raw indicators, outcome, and the same rows median-filled.
+pub type Fold0 = (
+    ndarray::Array2<f64>,
+    ndarray::Array1<f64>,
+    ndarray::Array2<f64>,
+);
+
+pub fn fold0(p: &forkmap::run::Prepared) -> Fold0 {
+    use forkmap::stages::{build, StageInput};
+    let fold = &p.folds.folds[0];
+    let raw = p.panel.x.select(ndarray::Axis(0), &fold.train);
+    let y = p.panel.y.select(ndarray::Axis(0), &fold.train);
+    let median = p.space.options[1]
+        .iter()
+        .find(|c| c.option == "median")
+        .expect("the demo config lists the median fill");
+    let filled = build(median, &p.panel)
+        .expect("median")
+        .fit(&StageInput {
+            x: raw.view(),
+            y: y.view(),
+            rows: &fold.train,
+            names: &p.panel.indicators,
+        })
+        .expect("median fill fits")
+        .apply_rows(raw.view(), Some(&fold.train));
+    (raw, y, filled)
+}
+
+/// The forest's floor (our definition, stated in the README): `passes` passes over rows
+/// in a sorted order, accumulating each row's weight and weighted outcome, the least a
+/// split search must do per indicator tried at a node.
+#[inline(never)]
+pub fn floor_kernel(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64, f64) {
+    let (mut lw, mut lwy) = (0.0f64, 0.0f64);
+    for _ in 0..passes {
+        for &i in std::hint::black_box(order) {
+            lw += w[i];
+            lwy += w[i] * y[i];
+        }
+    }
+    std::hint::black_box((lw, lwy))
+}
