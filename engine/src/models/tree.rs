@@ -408,7 +408,8 @@ pub fn grow_presorted<R: Rng>(
 /// per indicator (rows in that indicator's order) and one of rows in ascending order (sums
 /// run in that order). A node owns the same range `start..start + n` of every segment;
 /// a split rearranges that range stably so the left child owns its front and the right
-/// child its back. Nothing is allocated per node, and the segments of a child that will
+/// child its back (for extremely randomised splits only the rows segment is kept: they need
+/// no order). Nothing is allocated per node, and the segments of a child that will
 /// not be split (too few rows, or at the depth limit) are not rearranged at all. The trees
 /// are those of a grower that sorts the node's rows at every node (tested bit for bit).
 pub struct Grower<'p> {
@@ -454,6 +455,12 @@ impl<'p> Grower<'p> {
             draw,
             ..
         } = self;
+        // Extremely randomised splits scan the node's rows in row order, so the arena keeps
+        // only the rows; the other candidate rules keep every indicator's order too. (Keeping
+        // only the rows and ordering each tried indicator at the node, by filtering its
+        // presorted order or sorting the node's ranks, executes fewer instructions for a
+        // forest but took longer: measured with benches/forest-floor and Criterion.)
+        let full = !matches!(cand, Candidates::Extra { .. });
         draw.reset();
         for (i, v) in wwy.iter_mut().enumerate() {
             *v = [w[i], w[i] * y[i]];
@@ -477,7 +484,9 @@ impl<'p> Grower<'p> {
         if lists.len() < need {
             lists.resize(need, 0);
         }
-        if n0 == nall {
+        if !full {
+            // Only the rows segment below.
+        } else if n0 == nall {
             lists[..p * n0].copy_from_slice(&pre.order);
         } else {
             // Branch-free filter of every indicator's order to the rows in.
@@ -541,14 +550,12 @@ impl<'p> Grower<'p> {
                         .iter()
                         .map(|&f| {
                             let col = pre.col(f);
-                            let lo = rs
-                                .iter()
-                                .map(|&i| col[i as usize])
-                                .fold(f64::INFINITY, f64::min);
-                            let hi = rs
-                                .iter()
-                                .map(|&i| col[i as usize])
-                                .fold(f64::NEG_INFINITY, f64::max);
+                            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+                            for &i in rs {
+                                let v = col[i as usize];
+                                lo = lo.min(v);
+                                hi = hi.max(v);
+                            }
                             let u: f64 = rng.gen();
                             if lo < hi {
                                 lo + u * (hi - lo)
@@ -569,15 +576,19 @@ impl<'p> Grower<'p> {
                     if thr.is_nan() {
                         continue;
                     }
-                    let (mut lw, mut lwy, mut ln) = (0.0, 0.0, 0usize);
+                    // Branch-free (the side of a row is a coin flip to the branch
+                    // predictor): a row on the right adds +0.0 (its bits masked off),
+                    // which leaves both sums exactly as skipping it would (they start at
+                    // +0.0, so they are never -0.0).
+                    let (mut lw, mut lwy, mut ln) = (0.0f64, 0.0f64, 0usize);
                     for &i in rs {
                         let i = i as usize;
-                        if col[i] <= thr {
-                            let [a, b] = wwy[i];
-                            lw += a;
-                            lwy += b;
-                            ln += 1;
-                        }
+                        let go = col[i] <= thr;
+                        let mask = 0u64.wrapping_sub(go as u64);
+                        let [a, b] = wwy[i];
+                        lw += f64::from_bits(a.to_bits() & mask);
+                        lwy += f64::from_bits(b.to_bits() & mask);
+                        ln += go as usize;
                     }
                     let rw = sw - lw;
                     if ln < ml || n - ln < ml || lw <= 0.0 || rw <= 0.0 {
@@ -637,7 +648,7 @@ impl<'p> Grower<'p> {
             };
             let keep = (splittable(ln, depth + 1), splittable(rn, depth + 1));
             if keep != (false, false) {
-                for s in 0..=p {
+                for s in if full { 0 } else { p }..=p {
                     split_segment(&mut lists[seg(s)], flag, ln, keep, tmp);
                 }
             }
