@@ -23,37 +23,20 @@ fn floor_once(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64, f64) 
 
 fn main() {
     let what = std::env::args().nth(1).unwrap_or_default();
-    let p = shared::prepared();
-    let (_, y, x) = shared::fold0(&p);
-    let n = x.nrows();
-    let w = ndarray::Array1::<f64>::ones(n);
-    let input = FitInput {
-        x: x.view(),
-        y: y.view(),
-        w: w.view(),
-        seed: 7,
-    };
-    let params = ForestParams {
-        trees: 100,
-        tried: 0.33,
-        min_leaf: 5,
-    };
-    let mut order: Vec<usize> = (0..n).collect();
-    order.sort_by(|&a, &b| x[[a, 0]].total_cmp(&x[[b, 0]]));
-    let (wv, yv) = (w.to_vec(), y.to_vec());
+    let case = shared::FloorCase::new();
+    let n = case.x.nrows();
     match what.as_str() {
         "forest" => {
-            let f = forest_once(&params, &input);
+            let f = forest_once(&case.params, &case.input());
             let scanned: u64 = f.trees.iter().map(|t| t.scanned()).sum();
             println!("forest: {} trees, {scanned} row visits", f.trees.len());
         }
         "floor" => {
             // As many row visits as the forest's split search makes (counted by a fit
             // outside the collected function).
-            let f = params.grow_forest(&input).expect("the forest fits");
-            let scanned: u64 = f.trees.iter().map(|t| t.scanned()).sum();
-            let passes = scanned / n as u64;
-            let r = floor_once(passes, &order, &wv, &yv);
+            let passes = case.passes();
+            let (w, y) = (case.w.to_vec(), case.y.to_vec());
+            let r = floor_once(passes, &case.order, &w, &y);
             println!("floor: {passes} passes over {n} rows ({:.3})", r.0);
         }
         _ => {

@@ -51,3 +51,53 @@ pub fn floor_kernel(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64,
     }
     std::hint::black_box((lw, lwy))
 }
+
+/// The forest of the floor comparison: 100 trees (tried 0.33, min_leaf 5) on fold 0 of the
+/// toy panel, median-filled, unit weights; and the row order the floor kernel walks.
+pub struct FloorCase {
+    pub x: ndarray::Array2<f64>,
+    pub y: ndarray::Array1<f64>,
+    pub w: ndarray::Array1<f64>,
+    pub params: forkmap::models::forest::ForestParams,
+    pub order: Vec<usize>,
+}
+
+impl FloorCase {
+    pub fn new() -> FloorCase {
+        let p = prepared();
+        let (_, y, x) = fold0(&p);
+        let n = x.nrows();
+        let mut order: Vec<usize> = (0..n).collect();
+        order.sort_by(|&a, &b| x[[a, 0]].total_cmp(&x[[b, 0]]));
+        FloorCase {
+            w: ndarray::Array1::ones(n),
+            params: forkmap::models::forest::ForestParams {
+                trees: 100,
+                tried: 0.33,
+                min_leaf: 5,
+            },
+            x,
+            y,
+            order,
+        }
+    }
+
+    pub fn input(&self) -> forkmap::models::FitInput<'_> {
+        forkmap::models::FitInput {
+            x: self.x.view(),
+            y: self.y.view(),
+            w: self.w.view(),
+            seed: 7,
+        }
+    }
+
+    /// Passes over the rows the floor makes: the forest's split-search row visits / n.
+    pub fn passes(&self) -> u64 {
+        let f = self
+            .params
+            .grow_forest(&self.input())
+            .expect("the forest fits");
+        let scanned: u64 = f.trees.iter().map(|t| t.scanned()).sum();
+        scanned / self.x.nrows() as u64
+    }
+}

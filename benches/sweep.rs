@@ -10,7 +10,7 @@ use std::sync::Mutex;
 
 #[path = "shared.rs"]
 mod shared;
-use shared::{floor_kernel, fold0, prepared};
+use shared::{floor_kernel, fold0, prepared, FloorCase};
 
 /// Every stage option of the demo config, fitted on fold 0's training rows (raw
 /// indicators, so later stages see gaps a fill would have removed only where they cope
@@ -54,40 +54,23 @@ fn stages(c: &mut Criterion) {
 /// outcome of each row (the least a split search must do); the forest's grower counts
 /// those row visits (`Tree::scanned`), and the floor kernel does exactly as many.
 fn forest_floor(c: &mut Criterion) {
-    use forkmap::models::forest::ForestParams;
-    use forkmap::models::FitInput;
-    let p = prepared();
-    let (_, y, x) = fold0(&p);
-    let n = x.nrows();
-    let w = ndarray::Array1::<f64>::ones(n);
-    let input = FitInput {
-        x: x.view(),
-        y: y.view(),
-        w: w.view(),
-        seed: 7,
-    };
-    let params = ForestParams {
-        trees: 100,
-        tried: 0.33,
-        min_leaf: 5,
-    };
-    let forest = params.grow_forest(&input).expect("forest fits");
-    let scanned: u64 = forest.trees.iter().map(|t| t.scanned()).sum();
-    let mut order: Vec<usize> = (0..n).collect();
-    order.sort_by(|&a, &b| x[[a, 0]].total_cmp(&x[[b, 0]]));
-    let (wv, yv) = (w.to_vec(), y.to_vec());
-    let passes = scanned / n as u64;
+    let case = FloorCase::new();
+    let input = case.input();
+    let params = case.params;
+    let n = case.x.nrows();
+    let passes = case.passes();
+    let (order, wv, yv) = (&case.order, case.w.to_vec(), case.y.to_vec());
     let mut g = c.benchmark_group("forest against its floor");
     g.bench_function(
         format!(
             "forest fit: 100 trees, {} rows x {} indicators",
             n,
-            x.ncols()
+            case.x.ncols()
         ),
         |b| b.iter(|| params.grow_forest(&input).map(|f| f.trees.len())),
     );
     g.bench_function(format!("floor: {passes} passes over {n} rows"), |b| {
-        b.iter(|| floor_kernel(passes, &order, &wv, &yv))
+        b.iter(|| floor_kernel(passes, order, &wv, &yv))
     });
     g.finish();
 }
