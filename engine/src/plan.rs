@@ -323,6 +323,18 @@ fn estimate_from_probe(
         1.0
     };
     let overall = (secs / cost, own * imp / count as f64);
+    if tracing::enabled!(tracing::Level::DEBUG) {
+        let mut by: BTreeMap<&str, f64> = BTreeMap::new();
+        for s in &p.space.specs {
+            let fam = s.choice("model").option.as_str();
+            let rate = per_family
+                .get(fam)
+                .filter(|v| v.2 > 0.0)
+                .map_or(overall.0, |v| v.0 / v.2);
+            *by.entry(fam).or_default() += rate * crate::shard::spec_cost(s, &p.panel);
+        }
+        tracing::debug!(?by, "plan: estimated fit seconds by family");
+    }
     let model: f64 = p
         .space
         .specs
