@@ -1,8 +1,11 @@
 //! Random forest of weighted CART trees (see `tree.rs`): each tree is grown on a
 //! bootstrap sample of the training rows (drawn uniformly; a row drawn c times enters
 //! with weight c x its row weight, as scikit-learn implements bootstrapping), with a fresh
-//! random subset of indicators tried at each split. Trees grow until `min_leaf` stops
-//! them. Predictions average the trees. The random stream is seeded from the fit seed.
+//! random subset of indicators tried at each split: `tried` x p of the indicators that
+//! vary among the node's rows (drawing goes on past constant ones, as scikit-learn's
+//! splitter does; a drawn constant indicator cannot split and would only add noise to
+//! which indicators compete). Trees grow until `min_leaf` stops them. Predictions average
+//! the trees. The random stream is seeded from the fit seed.
 
 use super::tree::{Candidates, Grower, Presorted, Tree, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
@@ -36,7 +39,7 @@ pub const FAMILY: Family = Family {
                     open_min: true,
                 },
                 default: 0.33,
-                help: "share of indicators tried at each split (at least one)",
+                help: "share of indicators tried at each split, among those that vary there (at least one)",
             },
             MIN_LEAF,
         ],

@@ -189,11 +189,12 @@ impl Presorted {
     }
 }
 
-/// Draws the indicators tried at a split: `m` of the `p` without replacement, listed in
-/// ascending order (ties between equal gains go to the lowest indicator). A partial
-/// Fisher-Yates shuffle (Durstenfeld 1964) of a permutation reset at each tree: from any
-/// starting permutation its first `m` entries are a uniform draw. A branch-free pass over
-/// a mask lists them in order, so nothing is sorted or allocated per split.
+/// Draws the indicators tried at a split: `m` of the `p` that vary at the node, without
+/// replacement, listed in ascending order (ties between equal gains go to the lowest
+/// indicator). A partial Fisher-Yates shuffle (Durstenfeld 1964) of a permutation reset
+/// at each tree: from any starting permutation its leading entries are a uniform draw,
+/// and skipping the constant ones leaves a uniform draw among the others. A branch-free
+/// pass over a mask lists them in order, so nothing is sorted or allocated per split.
 pub(crate) struct FeatureDraw {
     perm: Vec<usize>,
     mask: Vec<bool>,
@@ -214,13 +215,29 @@ impl FeatureDraw {
         }
     }
 
-    pub(crate) fn draw<R: Rng>(&mut self, rng: &mut R, m: usize, out: &mut Vec<usize>) {
+    /// Draw `m` indicators for which `varies` holds: drawing goes on until `m` of them
+    /// are found or every indicator was drawn, and only those are listed (as
+    /// scikit-learn's splitters do, so `m` indicators that can split are tried whenever
+    /// there are that many).
+    pub(crate) fn draw<R: Rng>(
+        &mut self,
+        rng: &mut R,
+        m: usize,
+        mut varies: impl FnMut(usize) -> bool,
+        out: &mut Vec<usize>,
+    ) {
         let p = self.perm.len();
         let m = m.min(p);
-        for i in 0..m {
+        let (mut i, mut found) = (0usize, 0usize);
+        while found < m && i < p {
             let j = rng.gen_range(i..p);
             self.perm.swap(i, j);
-            self.mask[self.perm[i]] = true;
+            let f = self.perm[i];
+            if varies(f) {
+                self.mask[f] = true;
+                found += 1;
+            }
+            i += 1;
         }
         out.clear();
         out.resize(p + 1, 0);
@@ -531,6 +548,8 @@ impl<'p> Grower<'p> {
         }
         let mut scanned = 0u64;
         let mut features: Vec<usize> = (0..p).collect();
+        // (min, max) of each indicator drawn at the node, for extremely randomised splits.
+        let mut span = vec![(0.0f64, 0.0f64); p];
         let ml = params.min_leaf;
         while let Some((ni, start, n, depth)) = stack.pop() {
             let seg = |f: usize| f * n0 + start..f * n0 + start + n;
@@ -543,25 +562,32 @@ impl<'p> Grower<'p> {
             let mut extra_thr: Vec<f64> = Vec::new();
             match &mut cand {
                 Candidates::All => {}
-                Candidates::Sample { m, rng } => draw.draw(*rng, *m, &mut features),
+                Candidates::Sample { m, rng } => {
+                    let varies = |f: usize| {
+                        let (o, col) = (&lists[seg(f)], pre.col(f));
+                        col[o[n - 1] as usize] > col[o[0] as usize] + FEATURE_THRESHOLD
+                    };
+                    draw.draw(*rng, *m, varies, &mut features)
+                }
                 Candidates::Extra { m, rng } => {
-                    draw.draw(*rng, *m, &mut features);
+                    let varies = |f: usize| {
+                        let col = pre.col(f);
+                        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+                        for &i in rs {
+                            let v = col[i as usize];
+                            lo = lo.min(v);
+                            hi = hi.max(v);
+                        }
+                        span[f] = (lo, hi);
+                        hi > lo + FEATURE_THRESHOLD
+                    };
+                    draw.draw(*rng, *m, varies, &mut features);
                     extra_thr = features
                         .iter()
                         .map(|&f| {
-                            let col = pre.col(f);
-                            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-                            for &i in rs {
-                                let v = col[i as usize];
-                                lo = lo.min(v);
-                                hi = hi.max(v);
-                            }
+                            let (lo, hi) = span[f];
                             let u: f64 = rng.gen();
-                            if lo < hi {
-                                lo + u * (hi - lo)
-                            } else {
-                                f64::NAN
-                            }
+                            lo + u * (hi - lo)
                         })
                         .collect();
                 }
@@ -714,23 +740,35 @@ pub(crate) fn grow_per_node_sort<R: Rng>(
         let mut extra_thr: Vec<f64> = Vec::new();
         match &mut cand {
             Candidates::All => {}
-            Candidates::Sample { m, rng } => draw.draw(*rng, *m, &mut features),
+            Candidates::Sample { m, rng } => {
+                let varies = |f: usize| {
+                    let lo = rs.iter().map(|&i| x[[i, f]]).fold(f64::INFINITY, f64::min);
+                    let hi = rs
+                        .iter()
+                        .map(|&i| x[[i, f]])
+                        .fold(f64::NEG_INFINITY, f64::max);
+                    hi > lo + FEATURE_THRESHOLD
+                };
+                draw.draw(*rng, *m, varies, &mut features)
+            }
             Candidates::Extra { m, rng } => {
-                draw.draw(*rng, *m, &mut features);
+                let mut span = vec![(0.0, 0.0); p];
+                let varies = |f: usize| {
+                    let lo = rs.iter().map(|&i| x[[i, f]]).fold(f64::INFINITY, f64::min);
+                    let hi = rs
+                        .iter()
+                        .map(|&i| x[[i, f]])
+                        .fold(f64::NEG_INFINITY, f64::max);
+                    span[f] = (lo, hi);
+                    hi > lo + FEATURE_THRESHOLD
+                };
+                draw.draw(*rng, *m, varies, &mut features);
                 extra_thr = features
                     .iter()
                     .map(|&f| {
-                        let lo = rs.iter().map(|&i| x[[i, f]]).fold(f64::INFINITY, f64::min);
-                        let hi = rs
-                            .iter()
-                            .map(|&i| x[[i, f]])
-                            .fold(f64::NEG_INFINITY, f64::max);
+                        let (lo, hi) = span[f];
                         let u: f64 = rng.gen();
-                        if lo < hi {
-                            lo + u * (hi - lo)
-                        } else {
-                            f64::NAN
-                        }
+                        lo + u * (hi - lo)
                     })
                     .collect();
             }
