@@ -98,11 +98,12 @@ pub struct Boost {
 
 impl Predictor for Boost {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
-        let mut out = Array1::from_elem(x.nrows(), self.init);
+        let mut out = vec![self.init; x.nrows()];
+        let x = x.as_standard_layout();
         for t in &self.trees {
-            out.scaled_add(self.rate, &t.predict(x));
+            t.add_to(x.view(), self.rate, &mut out);
         }
-        out
+        Array1::from(out)
     }
     fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
         Some((

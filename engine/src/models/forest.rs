@@ -86,11 +86,14 @@ pub fn tried_count(share: f64, p: usize) -> usize {
 
 impl Predictor for Ensemble {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
-        let mut out = Array1::zeros(x.nrows());
+        // Summed tree by tree in order (as adding the trees' prediction vectors would),
+        // then averaged.
+        let mut out = vec![0.0; x.nrows()];
+        let x = x.as_standard_layout();
         for t in &self.trees {
-            out += &t.predict(x);
+            t.add_to(x.view(), 1.0, &mut out);
         }
-        out / self.trees.len() as f64
+        Array1::from(out) / self.trees.len() as f64
     }
     fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
         Some((

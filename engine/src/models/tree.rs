@@ -80,17 +80,42 @@ pub struct Tree {
 
 impl Tree {
     pub fn predict_row(&self, row: ArrayView1<f64>) -> f64 {
+        match row.as_slice() {
+            Some(r) => self.value_at(r),
+            None => self.value_at(&row.to_vec()),
+        }
+    }
+
+    /// The leaf value for one row (a contiguous slice of indicator values). The child is
+    /// picked without a branch (a row's side is a coin flip to the branch predictor); a
+    /// NaN goes right, as `x <= threshold` fails for it.
+    pub fn value_at(&self, row: &[f64]) -> f64 {
         let mut i = 0usize;
         loop {
             let n = &self.nodes[i];
             if n.feature == usize::MAX {
                 return n.value;
             }
-            i = if row[n.feature] <= n.threshold {
-                n.left as usize
-            } else {
-                n.right as usize
-            };
+            let left = row[n.feature] <= n.threshold;
+            i = [n.right, n.left][usize::from(left)] as usize;
+        }
+    }
+
+    /// Add `scale` x this tree's value for each row of `x` to `out` (`out[i] += scale *
+    /// value`, in row order), reading `x` row-major.
+    pub fn add_to(&self, x: ArrayView2<f64>, scale: f64, out: &mut [f64]) {
+        let xs = x.as_standard_layout();
+        match xs.as_slice() {
+            Some(flat) if x.ncols() > 0 => {
+                for (o, row) in out.iter_mut().zip(flat.chunks_exact(x.ncols())) {
+                    *o += scale * self.value_at(row);
+                }
+            }
+            _ => {
+                for (o, row) in out.iter_mut().zip(x.rows()) {
+                    *o += scale * self.predict_row(row);
+                }
+            }
         }
     }
     /// (feature, threshold) of every split, depth-first, for inspection and tests.
@@ -127,7 +152,14 @@ impl Tree {
 
 impl Predictor for Tree {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
-        x.rows().into_iter().map(|r| self.predict_row(r)).collect()
+        let xs = x.as_standard_layout();
+        match xs.as_slice() {
+            Some(flat) if x.ncols() > 0 => flat
+                .chunks_exact(x.ncols())
+                .map(|r| self.value_at(r))
+                .collect(),
+            _ => x.rows().into_iter().map(|r| self.predict_row(r)).collect(),
+        }
     }
     fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
         Some(("impurity", super::normalise(self.impurity(x_train.ncols()))))
