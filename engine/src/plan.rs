@@ -323,39 +323,28 @@ fn estimate_from_probe(
         1.0
     };
     let overall = (secs / cost, own * imp / count as f64);
-    if tracing::enabled!(tracing::Level::DEBUG) {
-        let mut by: BTreeMap<&str, f64> = BTreeMap::new();
-        for s in &p.space.specs {
-            let fam = s.choice("model").option.as_str();
-            let rate = per_family
-                .get(fam)
-                .filter(|v| v.2 > 0.0)
-                .map_or(overall.0, |v| v.0 / v.2);
-            *by.entry(fam).or_default() += rate * crate::shard::spec_cost(s, &p.panel);
-        }
-        tracing::debug!(?by, "plan: estimated fit seconds by family");
+    // Per spec: fit seconds by its family's rate, plus its own importance seconds; the
+    // fit seconds are also summed by family for the debug log.
+    let mut fit_by_family: BTreeMap<&str, f64> = BTreeMap::new();
+    let mut model = 0.0;
+    for s in &p.space.specs {
+        let fam = s.choice("model").option.as_str();
+        let rate = per_family
+            .get(fam)
+            .filter(|v| v.2 > 0.0)
+            .map_or(overall.0, |v| v.0 / v.2);
+        let fit = rate * crate::shard::spec_cost(s, &p.panel);
+        *fit_by_family.entry(fam).or_default() += fit;
+        let imp = imp_by_fill
+            .get(&s.choice("fill").option)
+            .filter(|v| v.1 > 0)
+            .map_or(overall.1, |v| own * v.0 / v.1 as f64);
+        model += fit + imp;
     }
-    let model: f64 = p
-        .space
-        .specs
-        .iter()
-        .map(|s| {
-            let rate = per_family
-                .get(&s.choice("model").option)
-                .filter(|v| v.2 > 0.0)
-                .map_or(overall.0, |v| v.0 / v.2);
-            let imp = imp_by_fill
-                .get(&s.choice("fill").option)
-                .filter(|v| v.1 > 0)
-                .map_or(overall.1, |v| own * v.0 / v.1 as f64);
-            rate * crate::shard::spec_cost(s, &p.panel) + imp
-        })
-        .sum::<f64>()
-        + if probe_fills > 0 {
-            shared / probe_fills as f64 * all_fills as f64
-        } else {
-            0.0
-        };
+    if probe_fills > 0 {
+        model += shared / probe_fills as f64 * all_fills as f64;
+    }
+    tracing::debug!(?fit_by_family, "plan: estimated fit seconds by family");
     let stage_cpu = (wall * threads as f64 - secs - imp).max(0.0);
     let stages = if probe_nodes > 0 {
         stage_cpu / probe_nodes as f64 * all_nodes as f64

@@ -617,7 +617,6 @@ impl ChoiceSpace {
         })
     }
 
-    /// The (option, parameter) pairs present, for the spec table's parameter columns.
     /// Spec index by spec id.
     pub fn index_by_id(&self) -> std::collections::HashMap<&str, usize> {
         self.specs
@@ -627,6 +626,7 @@ impl ChoiceSpace {
             .collect()
     }
 
+    /// The (option, parameter) pairs present, for the spec table's parameter columns.
     pub fn param_columns(&self) -> Vec<(String, &'static str)> {
         let mut out: Vec<(String, &'static str)> = Vec::new();
         for c in self.options.iter().flatten() {

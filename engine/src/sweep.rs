@@ -321,9 +321,6 @@ impl<'a> Sweep<'a> {
         }
     }
 
-    /// Distinct fitted preparations per fold (the number of stage fits is this x folds).
-    /// Seconds spent fitting and applying stages so far, summed over threads (the
-    /// descriptive all-rows fits for loadings included).
     /// CPU seconds spent filling the permutation draws shared under each fill (part of
     /// the specs' importance seconds: the spec that asks first fills a draw).
     pub fn shared_draw_seconds(&self) -> f64 {
@@ -335,6 +332,8 @@ impl<'a> Sweep<'a> {
         self.roots.iter().map(|r| r.children.len()).sum()
     }
 
+    /// Seconds spent fitting and applying stages so far, summed over threads (the
+    /// descriptive all-rows fits for loadings included).
     pub fn stage_seconds(&self) -> f64 {
         self.stage_nanos.load(std::sync::atomic::Ordering::Relaxed) as f64 * 1e-9
     }
@@ -345,6 +344,7 @@ impl<'a> Sweep<'a> {
             .fetch_add(ns, std::sync::atomic::Ordering::Relaxed);
     }
 
+    /// Distinct fitted preparations per fold (the number of stage fits is this x folds).
     pub fn n_stage_nodes(&self) -> usize {
         fn count(n: &[Node]) -> usize {
             n.iter().map(|c| 1 + count(&c.children)).sum()

@@ -12,6 +12,8 @@
 //! Hastie & Tibshirani (2010, J. Stat. Softw. 33(1), section 2.2), stopped by the duality
 //! gap as scikit-learn's `enet_coordinate_descent_gram` does. With n and p in the tens to
 //! hundreds, one sweep costs p^2 on contiguous memory instead of n p on strided columns.
+//! Once the support and signs hold, the optimum on that support is solved exactly
+//! (`support_solution`) and accepted by the same duality-gap test.
 
 use super::linear::{centre, Centred, Linear};
 use super::{Family, FitInput, Predictor, Regressor};

@@ -630,6 +630,38 @@ mod tests {
         );
     }
 
+    /// A gap takes the k nearest donors that have its column, whether they are among the
+    /// first nearest (the fast path) or further out (the full search). Worked by hand:
+    /// donor r has a = r + 1; the test row has only a = 0, so donors rank by a. With b
+    /// present only from donor 30 on, the two nearest with b are 30 and 31 (b = 130, 131),
+    /// beyond the 4k + 8 = 16 nearest; with b present at donors 5 and 9 as well, those two.
+    #[test]
+    fn knn_fill_finds_donors_with_the_column_near_or_far() {
+        let names = vec!["a".to_string(), "b".to_string()];
+        let mk_donors = |near_b: bool| {
+            Array2::from_shape_fn((40, 2), |(r, j)| match j {
+                0 => r as f64 + 1.0,
+                _ if r >= 30 || (near_b && (r == 5 || r == 9)) => 100.0 + r as f64,
+                _ => f64::NAN,
+            })
+        };
+        let rows: Vec<usize> = (0..40).collect();
+        let y = ndarray::Array1::zeros(40);
+        let stage = Fill {
+            rule: Rule::Knn(2),
+            drop_share: 1.0,
+            flags: false,
+            waves: None,
+        };
+        for (near_b, want) in [(false, 130.5), (true, 107.0)] {
+            let x = mk_donors(near_b);
+            let f = stage.fit(&input(&x, &y, &names, &rows)).unwrap();
+            let out = f.apply(array![[0.0, f64::NAN]].view());
+            assert_eq!(out[[0, 1]], want, "b present near: {near_b}");
+            assert_eq!(out[[0, 0]], 0.0);
+        }
+    }
+
     #[test]
     fn nan_euclidean_matches_the_documented_formula() {
         // scikit-learn's docs example for nan_euclidean_distances: X = [[0, 1], [1, nan]],
