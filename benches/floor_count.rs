@@ -1,9 +1,11 @@
-//! Instructions executed by the forest fit and by its floor (see `shared::floor_kernel`),
-//! counted by valgrind's callgrind: `benches/forest-floor` runs this program twice, once
-//! collecting only inside `forest_once` and once only inside `floor_once`, and prints the
-//! ratio. Unlike a timing, a count does not move with the machine's load. The forest is
-//! the Criterion bench's: 100 trees, tried 0.33, min_leaf 5, on fold 0 of the toy panel.
-//! Usage (what the script does): floor_count forest|floor
+//! Instructions executed by the forest fit and by its floors (see
+//! `shared::floor_kernel_per_node` and `shared::floor_kernel`), counted by valgrind's
+//! callgrind: `benches/forest-floor` runs this program three times, collecting only inside
+//! `forest_once`, `node_floor_once` or `floor_once`, and prints the ratios. Unlike a
+//! timing, a count does not move with the machine's load. The forest is the Criterion
+//! bench's: 100 trees, tried 0.33, min_leaf 5, on fold 0 of the toy panel.
+//! Usage: floor_count forest|node_floor|floor [REPEATS]; repeats (default 1) give a
+//! sampling profiler something to sample (`perf record -g floor_count forest 500`).
 
 #[path = "shared.rs"]
 mod shared;
@@ -17,30 +19,67 @@ fn forest_once(params: &ForestParams, input: &FitInput) -> Ensemble {
 }
 
 #[inline(never)]
+fn node_floor_once(scans: &[[u32; 2]], order: &[usize], w: &[f64], y: &[f64]) -> (f64, f64) {
+    shared::floor_kernel_per_node(scans, order, w, y)
+}
+
+#[inline(never)]
 fn floor_once(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64, f64) {
     shared::floor_kernel(passes, order, w, y)
 }
 
 fn main() {
     let what = std::env::args().nth(1).unwrap_or_default();
+    let repeats: usize = std::env::args()
+        .nth(2)
+        .map_or(Ok(1), |r| r.parse())
+        .unwrap_or_else(|_| {
+            eprintln!("usage: floor_count forest|node_floor|floor [REPEATS]");
+            std::process::exit(2);
+        });
     let case = shared::FloorCase::new();
     let n = case.x.nrows();
     match what.as_str() {
         "forest" => {
-            let f = forest_once(&case.params, &case.input());
+            let input = case.input();
+            let mut f = forest_once(&case.params, &input);
+            for _ in 1..repeats {
+                f = forest_once(&case.params, &input);
+            }
             let scanned: u64 = f.trees.iter().map(|t| t.scanned()).sum();
             println!("forest: {} trees, {scanned} row visits", f.trees.len());
+        }
+        "node_floor" => {
+            // The forest's split searches (made by a fit outside the collected function).
+            let scans = case.scans();
+            let (w, y) = (case.w.to_vec(), case.y.to_vec());
+            let mut r = node_floor_once(&scans, &case.order, &w, &y);
+            for _ in 1..repeats {
+                r = node_floor_once(&scans, &case.order, &w, &y);
+            }
+            let visits: u64 = scans
+                .iter()
+                .map(|&[n, t]| u64::from(n) * u64::from(t))
+                .sum();
+            println!(
+                "node_floor: {} node passes, {visits} row visits ({:.3})",
+                scans.iter().map(|&[_, t]| u64::from(t)).sum::<u64>(),
+                r.0
+            );
         }
         "floor" => {
             // As many row visits as the forest's split search makes (counted by a fit
             // outside the collected function).
             let passes = case.passes();
             let (w, y) = (case.w.to_vec(), case.y.to_vec());
-            let r = floor_once(passes, &case.order, &w, &y);
+            let mut r = floor_once(passes, &case.order, &w, &y);
+            for _ in 1..repeats {
+                r = floor_once(passes, &case.order, &w, &y);
+            }
             println!("floor: {passes} passes over {n} rows ({:.3})", r.0);
         }
         _ => {
-            eprintln!("usage: floor_count forest|floor");
+            eprintln!("usage: floor_count forest|node_floor|floor [REPEATS]");
             std::process::exit(2);
         }
     }

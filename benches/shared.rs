@@ -37,9 +37,10 @@ pub fn fold0(p: &forkmap::run::Prepared) -> Fold0 {
     (raw, y, filled)
 }
 
-/// The forest's floor (our definition, stated in the README): `passes` passes over rows
-/// in a sorted order, accumulating each row's weight and weighted outcome, the least a
-/// split search must do per indicator tried at a node.
+/// The forest's fused floor: `passes` passes over all the rows in a sorted order,
+/// accumulating each row's weight and weighted outcome. It makes as many row visits as the
+/// forest's split search, but in long passes, with none of the start and end of a pass
+/// over a node's few rows: a bound below what any per-node search reaches.
 #[inline(never)]
 pub fn floor_kernel(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64, f64) {
     let (mut lw, mut lwy) = (0.0f64, 0.0f64);
@@ -47,6 +48,30 @@ pub fn floor_kernel(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64,
         for &i in std::hint::black_box(order) {
             lw += w[i];
             lwy += w[i] * y[i];
+        }
+    }
+    std::hint::black_box((lw, lwy))
+}
+
+/// The forest's floor (our definition, stated in the README): for each node whose split
+/// the forest searched, one pass over that node's rows (`scans`: rows, indicators) per
+/// indicator scanned there, accumulating each row's weight and weighted outcome, the least
+/// a split search must do. The passes read the first `rows` entries of a sorted order.
+#[inline(never)]
+pub fn floor_kernel_per_node(
+    scans: &[[u32; 2]],
+    order: &[usize],
+    w: &[f64],
+    y: &[f64],
+) -> (f64, f64) {
+    let (mut lw, mut lwy) = (0.0f64, 0.0f64);
+    let order = std::hint::black_box(order);
+    for &[n, t] in std::hint::black_box(scans) {
+        for _ in 0..t {
+            for &i in &order[..n as usize] {
+                lw += w[i];
+                lwy += w[i] * y[i];
+            }
         }
     }
     std::hint::black_box((lw, lwy))
@@ -91,13 +116,24 @@ impl FloorCase {
         }
     }
 
-    /// Passes over the rows the floor makes: the forest's split-search row visits / n.
-    pub fn passes(&self) -> u64 {
+    /// The forest's split searches: (rows, indicators scanned) per node searched, over
+    /// all its trees.
+    pub fn scans(&self) -> Vec<[u32; 2]> {
         let f = self
             .params
             .grow_forest(&self.input())
             .expect("the forest fits");
-        let scanned: u64 = f.trees.iter().map(|t| t.scanned()).sum();
-        scanned / self.x.nrows() as u64
+        f.trees.iter().flat_map(|t| t.scans().to_vec()).collect()
+    }
+
+    /// Passes over the rows the fused floor makes: the forest's split-search row visits
+    /// / n.
+    pub fn passes(&self) -> u64 {
+        let visits: u64 = self
+            .scans()
+            .iter()
+            .map(|&[n, t]| u64::from(n) * u64::from(t))
+            .sum();
+        visits / self.x.nrows() as u64
     }
 }

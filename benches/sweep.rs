@@ -10,7 +10,7 @@ use std::sync::Mutex;
 
 #[path = "shared.rs"]
 mod shared;
-use shared::{floor_kernel, fold0, prepared, FloorCase};
+use shared::{floor_kernel, floor_kernel_per_node, fold0, prepared, FloorCase};
 
 /// Every stage option of the demo config, fitted on fold 0's training rows (raw
 /// indicators, so later stages see gaps a fill would have removed only where they cope
@@ -51,13 +51,15 @@ fn stages(c: &mut Criterion) {
 
 /// The forest against its floor. Floor (our definition, stated in the README): one pass
 /// over a node's rows per indicator tried there, accumulating the weight and weighted
-/// outcome of each row (the least a split search must do); the forest's grower counts
-/// those row visits (`Tree::scanned`), and the floor kernel does exactly as many.
+/// outcome of each row (the least a split search must do); the forest's grower records
+/// its searches (`Tree::scans`), and the floor kernel replays them node by node. The fused
+/// floor makes as many row visits in long passes over all the rows.
 fn forest_floor(c: &mut Criterion) {
     let case = FloorCase::new();
     let input = case.input();
     let params = case.params;
     let n = case.x.nrows();
+    let scans = case.scans();
     let passes = case.passes();
     let (order, wv, yv) = (&case.order, case.w.to_vec(), case.y.to_vec());
     let mut g = c.benchmark_group("forest against its floor");
@@ -69,7 +71,14 @@ fn forest_floor(c: &mut Criterion) {
         ),
         |b| b.iter(|| params.grow_forest(&input).map(|f| f.trees.len())),
     );
-    g.bench_function(format!("floor: {passes} passes over {n} rows"), |b| {
+    g.bench_function(
+        format!(
+            "floor: one pass per node searched per indicator tried ({} nodes)",
+            scans.len()
+        ),
+        |b| b.iter(|| floor_kernel_per_node(&scans, order, &wv, &yv)),
+    );
+    g.bench_function(format!("fused floor: {passes} passes over {n} rows"), |b| {
         b.iter(|| floor_kernel(passes, order, &wv, &yv))
     });
     g.finish();
