@@ -205,8 +205,9 @@ pub struct Presorted {
     xt: Vec<f64>,
     /// `order[f * n..(f + 1) * n]`: rows by ascending x[., f], ties by row.
     order: Vec<u32>,
-    /// `rank[f * n + i]`: the position of row i in `order[f * n..]` (its ordinal rank).
-    rank: Vec<u32>,
+    /// `rank[f * n + i]`: the position of row i in `order[f * n..]` (its ordinal rank),
+    /// made at first use (only the bitset grower reads it).
+    rank: std::sync::OnceLock<Vec<u32>>,
 }
 
 impl Presorted {
@@ -225,19 +226,27 @@ impl Presorted {
             o.sort_by(|&a, &b| col[a as usize].total_cmp(&col[b as usize]).then(a.cmp(&b)));
             order.extend(o);
         }
-        let mut rank = vec![0u32; n * p];
-        for f in 0..p {
-            for (k, &i) in order[f * n..(f + 1) * n].iter().enumerate() {
-                rank[f * n + i as usize] = k as u32;
-            }
-        }
         Presorted {
             n,
             p,
             xt,
             order,
-            rank,
+            rank: std::sync::OnceLock::new(),
         }
+    }
+
+    /// Every indicator's ranks (see the field).
+    fn rank(&self) -> &[u32] {
+        self.rank.get_or_init(|| {
+            let (n, p) = (self.n, self.p);
+            let mut rank = vec![0u32; n * p];
+            for f in 0..p {
+                for (k, &i) in self.order[f * n..(f + 1) * n].iter().enumerate() {
+                    rank[f * n + i as usize] = k as u32;
+                }
+            }
+            rank
+        })
     }
 
     fn col(&self, f: usize) -> &[f64] {
@@ -402,15 +411,33 @@ impl RowCursor for ListCursor<'_> {
 }
 
 struct BitCursor<'a> {
-    bits: u128,
+    /// The word being read, the word after it, and the rank of the first's bit 0.
+    cur: u64,
+    next: u64,
+    base: usize,
     order: &'a [u32],
+}
+
+impl<'a> BitCursor<'a> {
+    fn new(bits: u128, order: &'a [u32]) -> BitCursor<'a> {
+        BitCursor {
+            cur: bits as u64,
+            next: (bits >> 64) as u64,
+            base: 0,
+            order,
+        }
+    }
 }
 
 impl RowCursor for BitCursor<'_> {
     #[inline(always)]
     fn next_row(&mut self) -> u32 {
-        let r = self.bits.trailing_zeros() as usize;
-        self.bits &= self.bits.wrapping_sub(1);
+        if self.cur == 0 {
+            self.cur = std::mem::take(&mut self.next);
+            self.base = 64;
+        }
+        let r = self.base + self.cur.trailing_zeros() as usize;
+        self.cur &= self.cur.wrapping_sub(1);
         self.order[r & 127]
     }
 }
@@ -703,6 +730,7 @@ impl<'p> Grower<'p> {
         // (min, max) of each indicator drawn at the node, for extremely randomised splits.
         let mut span = vec![(0.0f64, 0.0f64); p];
         let ml = params.min_leaf;
+        let rank: &[u32] = if mode == Lists::Bits { pre.rank() } else { &[] };
         while let Some((ni, start, n, depth, (sw, swy))) = stack.pop() {
             let seg = |f: usize| f * n0 + start..f * n0 + start + n;
             // The indicators' segments, and this node's rows.
@@ -721,7 +749,7 @@ impl<'p> Grower<'p> {
                         let col = pre.col(f);
                         let order = &pre.order[ranked(f)];
                         if mode == Lists::Bits {
-                            let b = rank_bits(rs, &pre.rank[ranked(f)]);
+                            let b = rank_bits(rs, &rank[ranked(f)]);
                             node_bits[f] = b;
                             let (lo, hi) = (b.trailing_zeros(), 127 - b.leading_zeros());
                             return col[order[hi as usize] as usize]
@@ -800,10 +828,7 @@ impl<'p> Grower<'p> {
                 };
                 if mode == Lists::Bits {
                     let order = &pre.order[ranked(f)];
-                    let rows = BitCursor {
-                        bits: node_bits[f],
-                        order,
-                    };
+                    let rows = BitCursor::new(node_bits[f], order);
                     scan_ordered(rows, n, col, wwy, node, f, &mut best);
                 } else {
                     let rows = ListCursor {
