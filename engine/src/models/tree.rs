@@ -205,9 +205,10 @@ pub struct Presorted {
     xt: Vec<f64>,
     /// `order[f * n..(f + 1) * n]`: rows by ascending x[., f], ties by row.
     order: Vec<u32>,
-    /// `rank[f * n + i]`: the position of row i in `order[f * n..]` (its ordinal rank),
-    /// made at first use (only the bitset grower reads it).
-    rank: std::sync::OnceLock<Vec<u32>>,
+    /// `bit[f * n + i]`: the bit of row i's position in `order[f * n..]` (its ordinal
+    /// rank r; `[1 << r, 0]` for r < 64, `[0, 1 << (r - 64)]` above), made at first use
+    /// and only for at most 128 rows (only the bitset grower reads it).
+    bit: std::sync::OnceLock<Vec<[u64; 2]>>,
 }
 
 impl Presorted {
@@ -231,21 +232,22 @@ impl Presorted {
             p,
             xt,
             order,
-            rank: std::sync::OnceLock::new(),
+            bit: std::sync::OnceLock::new(),
         }
     }
 
-    /// Every indicator's ranks (see the field).
-    fn rank(&self) -> &[u32] {
-        self.rank.get_or_init(|| {
+    /// Every indicator's rank bits (see the field); at most 128 rows.
+    fn bits(&self) -> &[[u64; 2]] {
+        debug_assert!(self.n <= 128);
+        self.bit.get_or_init(|| {
             let (n, p) = (self.n, self.p);
-            let mut rank = vec![0u32; n * p];
+            let mut bit = vec![[0u64; 2]; n * p];
             for f in 0..p {
                 for (k, &i) in self.order[f * n..(f + 1) * n].iter().enumerate() {
-                    rank[f * n + i as usize] = k as u32;
+                    bit[f * n + i as usize][(k >> 6) & 1] = 1u64 << (k & 63);
                 }
             }
-            rank
+            bit
         })
     }
 
@@ -374,17 +376,15 @@ fn split_segment(
 /// node's rows, which is what rearranging the order at every split keeps, at one pass over
 /// the node's rows for each indicator drawn there instead of one per indicator at every
 /// split. For at most 128 training rows (the bitset stays in two registers): bit r is set
-/// when the row of rank r is one of `rows`.
+/// when the row of rank r is one of `rows`. Each row's bit comes ready from a table
+/// (`Presorted::bits`), so a row costs a load and an or.
 #[inline]
-fn rank_bits(rows: &[u32], rank: &[u32]) -> u128 {
-    // Two words, so that no carry or shift of 128 bits sits on the loop's chain.
+fn rank_bits(rows: &[u32], bit: &[[u64; 2]]) -> u128 {
     let (mut lo, mut hi) = (0u64, 0u64);
     for &i in rows {
-        let r = rank[i as usize];
-        let bit = 1u64 << (r & 63);
-        let upper = 0u64.wrapping_sub(u64::from(r >> 6));
-        hi |= bit & upper;
-        lo |= bit & !upper;
+        let [a, b] = bit[i as usize];
+        lo |= a;
+        hi |= b;
     }
     u128::from(lo) | (u128::from(hi) << 64)
 }
@@ -730,7 +730,7 @@ impl<'p> Grower<'p> {
         // (min, max) of each indicator drawn at the node, for extremely randomised splits.
         let mut span = vec![(0.0f64, 0.0f64); p];
         let ml = params.min_leaf;
-        let rank: &[u32] = if mode == Lists::Bits { pre.rank() } else { &[] };
+        let bit: &[[u64; 2]] = if mode == Lists::Bits { pre.bits() } else { &[] };
         while let Some((ni, start, n, depth, (sw, swy))) = stack.pop() {
             let seg = |f: usize| f * n0 + start..f * n0 + start + n;
             // The indicators' segments, and this node's rows.
@@ -749,7 +749,7 @@ impl<'p> Grower<'p> {
                         let col = pre.col(f);
                         let order = &pre.order[ranked(f)];
                         if mode == Lists::Bits {
-                            let b = rank_bits(rs, &rank[ranked(f)]);
+                            let b = rank_bits(rs, &bit[ranked(f)]);
                             node_bits[f] = b;
                             let (lo, hi) = (b.trailing_zeros(), 127 - b.leading_zeros());
                             return col[order[hi as usize] as usize]
