@@ -4,7 +4,7 @@
 //! `forest_once`, `node_floor_once` or `floor_once`, and prints the ratios. Unlike a
 //! timing, a count does not move with the machine's load. The forest is the Criterion
 //! bench's: 100 trees, tried 0.33, min_leaf 5, on fold 0 of the toy panel.
-//! Usage: floor_count forest|node_floor|floor [REPEATS]; repeats (default 1) give a
+//! Usage: floor_count forest|node_floor|search_floor|floor [REPEATS]; repeats (default 1) give a
 //! sampling profiler something to sample (`perf record -g floor_count forest 500`).
 
 #[path = "shared.rs"]
@@ -24,6 +24,11 @@ fn node_floor_once(scans: &[[u32; 2]], order: &[usize], w: &[f64], y: &[f64]) ->
 }
 
 #[inline(never)]
+fn search_floor_once(scans: &[[u32; 2]], s: &shared::SearchCase, min_leaf: usize) -> f64 {
+    shared::search_floor_per_node(scans, s, min_leaf)
+}
+
+#[inline(never)]
 fn floor_once(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64, f64) {
     shared::floor_kernel(passes, order, w, y)
 }
@@ -34,7 +39,7 @@ fn main() {
         .nth(2)
         .map_or(Ok(1), |r| r.parse())
         .unwrap_or_else(|_| {
-            eprintln!("usage: floor_count forest|node_floor|floor [REPEATS]");
+            eprintln!("usage: floor_count forest|node_floor|search_floor|floor [REPEATS]");
             std::process::exit(2);
         });
     let case = shared::FloorCase::new();
@@ -67,6 +72,19 @@ fn main() {
                 r.0
             );
         }
+        "search_floor" => {
+            // The forest's split searches again, each pass also scoring every candidate.
+            let scans = case.scans();
+            let ml = case.params.min_leaf;
+            let mut r = search_floor_once(&scans, &case.search, ml);
+            for _ in 1..repeats {
+                r = search_floor_once(&scans, &case.search, ml);
+            }
+            println!(
+                "search_floor: {} node passes, scoring every candidate ({r:.3})",
+                scans.iter().map(|&[_, t]| u64::from(t)).sum::<u64>()
+            );
+        }
         "floor" => {
             // As many row visits as the forest's split search makes (counted by a fit
             // outside the collected function).
@@ -79,7 +97,7 @@ fn main() {
             println!("floor: {passes} passes over {n} rows ({:.3})", r.0);
         }
         _ => {
-            eprintln!("usage: floor_count forest|node_floor|floor [REPEATS]");
+            eprintln!("usage: floor_count forest|node_floor|search_floor|floor [REPEATS]");
             std::process::exit(2);
         }
     }

@@ -10,7 +10,9 @@ use std::sync::Mutex;
 
 #[path = "shared.rs"]
 mod shared;
-use shared::{floor_kernel, floor_kernel_per_node, fold0, prepared, FloorCase};
+use shared::{
+    floor_kernel, floor_kernel_per_node, fold0, prepared, search_floor_per_node, FloorCase,
+};
 
 /// Every stage option of the demo config, fitted on fold 0's training rows (raw
 /// indicators, so later stages see gaps a fill would have removed only where they cope
@@ -52,8 +54,9 @@ fn stages(c: &mut Criterion) {
 /// The forest against its floor. Floor (our definition, stated in the README): one pass
 /// over a node's rows per indicator tried there, accumulating the weight and weighted
 /// outcome of each row (the least a split search must do); the forest's grower records
-/// its searches (`Tree::scans`), and the floor kernel replays them node by node. The fused
-/// floor makes as many row visits in long passes over all the rows.
+/// its searches (`Tree::scans`), and the floor kernel replays them node by node. The search
+/// floor replays them too, also scoring every candidate threshold, as an exact search
+/// must. The fused floor makes as many row visits in long passes over all the rows.
 fn forest_floor(c: &mut Criterion) {
     let case = FloorCase::new();
     let input = case.input();
@@ -77,6 +80,10 @@ fn forest_floor(c: &mut Criterion) {
             scans.len()
         ),
         |b| b.iter(|| floor_kernel_per_node(&scans, order, &wv, &yv)),
+    );
+    g.bench_function(
+        "search floor: the same passes, scoring every candidate threshold",
+        |b| b.iter(|| search_floor_per_node(&scans, &case.search, params.min_leaf)),
     );
     g.bench_function(format!("fused floor: {passes} passes over {n} rows"), |b| {
         b.iter(|| floor_kernel(passes, order, &wv, &yv))
