@@ -223,9 +223,13 @@ impl Presorted {
         let mut order = Vec::with_capacity(n * p);
         for f in 0..p {
             let col = &xt[f * n..(f + 1) * n];
-            let mut o: Vec<u32> = (0..n as u32).collect();
-            o.sort_by(|&a, &b| col[a as usize].total_cmp(&col[b as usize]).then(a.cmp(&b)));
-            order.extend(o);
+            let start = order.len();
+            order.extend(0..n as u32);
+            // No two rows compare equal (ties go by row), so an unstable sort gives the
+            // one order there is.
+            order[start..].sort_unstable_by(|&a, &b| {
+                col[a as usize].total_cmp(&col[b as usize]).then(a.cmp(&b))
+            });
         }
         Presorted {
             n,
@@ -582,9 +586,19 @@ pub struct Grower<'p> {
     draw: FeatureDraw,
     /// Per indicator, its bitset at the node being split ([`Lists::Bits`]).
     node_bits: Vec<u128>,
+    /// Nodes waiting to be split, the indicators tried at a node, and for extremely
+    /// randomised splits each drawn indicator's (min, max) at the node and its threshold.
+    stack: Vec<Pending>,
+    features: Vec<usize>,
+    span: Vec<(f64, f64)>,
+    extra_thr: Vec<f64>,
     /// Tests set this to grow with a given kind of lists instead of the one picked.
     forced_lists: Option<Lists>,
 }
+
+/// A node waiting to be split: its index, the start of its range, its row count, its
+/// depth, and its sums of w and w y (summed over its rows in ascending row order).
+type Pending = (usize, usize, usize, usize, (f64, f64));
 
 /// Which of a node's lists the grower keeps through the splits.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -608,6 +622,10 @@ impl<'p> Grower<'p> {
             wwy: vec![[0.0; 2]; pre.n],
             draw: FeatureDraw::new(pre.p),
             node_bits: vec![0; pre.p],
+            stack: Vec::new(),
+            features: Vec::with_capacity(pre.p),
+            span: vec![(0.0, 0.0); pre.p],
+            extra_thr: Vec::with_capacity(pre.p),
             forced_lists: None,
         }
     }
@@ -632,6 +650,10 @@ impl<'p> Grower<'p> {
             wwy,
             draw,
             node_bits,
+            stack,
+            features,
+            span,
+            extra_thr,
             forced_lists,
             ..
         } = self;
@@ -718,17 +740,13 @@ impl<'p> Grower<'p> {
         let root = sums(&lists[p * n0..(p + 1) * n0]);
         let mut nodes: Vec<Node> = vec![leaf(mean(root))];
         let splittable = |n: usize, depth: usize| depth < params.depth && n >= 2 * params.min_leaf;
-        // (node index, start of its range, its row count, depth, its sums of w and w y:
-        // summed over its rows in ascending row order, as `sums` would)
-        type Pending = (usize, usize, usize, usize, (f64, f64));
-        let mut stack: Vec<Pending> = Vec::new();
+        stack.clear();
         if splittable(n0, 0) {
             stack.push((0, 0, n0, 0, root));
         }
         let mut scans: Vec<[u32; 2]> = Vec::new();
-        let mut features: Vec<usize> = (0..p).collect();
-        // (min, max) of each indicator drawn at the node, for extremely randomised splits.
-        let mut span = vec![(0.0f64, 0.0f64); p];
+        features.clear();
+        features.extend(0..p);
         let ml = params.min_leaf;
         let bit: &[[u64; 2]] = if mode == Lists::Bits { pre.bits() } else { &[] };
         while let Some((ni, start, n, depth, (sw, swy))) = stack.pop() {
@@ -741,7 +759,7 @@ impl<'p> Grower<'p> {
                 continue;
             }
             let parent_score = swy * swy / sw;
-            let mut extra_thr: Vec<f64> = Vec::new();
+            extra_thr.clear();
             match &mut cand {
                 Candidates::All => {}
                 Candidates::Sample { m, rng } => {
@@ -758,7 +776,7 @@ impl<'p> Grower<'p> {
                         let o = &ords[seg(f)];
                         col[o[n - 1] as usize] > col[o[0] as usize] + FEATURE_THRESHOLD
                     };
-                    draw.draw(*rng, *m, varies, &mut features)
+                    draw.draw(*rng, *m, varies, features)
                 }
                 Candidates::Extra { m, rng } => {
                     let varies = |f: usize| {
@@ -772,15 +790,12 @@ impl<'p> Grower<'p> {
                         span[f] = (lo, hi);
                         hi > lo + FEATURE_THRESHOLD
                     };
-                    draw.draw(*rng, *m, varies, &mut features);
-                    extra_thr = features
-                        .iter()
-                        .map(|&f| {
-                            let (lo, hi) = span[f];
-                            let u: f64 = rng.gen();
-                            lo + u * (hi - lo)
-                        })
-                        .collect();
+                    draw.draw(*rng, *m, varies, features);
+                    extra_thr.extend(features.iter().map(|&f| {
+                        let (lo, hi) = span[f];
+                        let u: f64 = rng.gen();
+                        lo + u * (hi - lo)
+                    }));
                 }
             }
             let mut best: Option<(f64, usize, f64)> = None; // (gain, feature, threshold)
