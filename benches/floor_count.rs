@@ -1,11 +1,12 @@
 //! Instructions executed by the forest fit and by its floors (see
-//! `shared::floor_kernel_per_node` and `shared::floor_kernel`), counted by valgrind's
-//! callgrind: `benches/forest-floor` runs this program three times, collecting only inside
-//! `forest_once`, `node_floor_once` or `floor_once`, and prints the ratios. Unlike a
-//! timing, a count does not move with the machine's load. The forest is the Criterion
-//! bench's: 100 trees, tried 0.33, min_leaf 5, on fold 0 of the toy panel.
-//! Usage: floor_count forest|node_floor|search_floor|floor [REPEATS]; repeats (default 1) give a
-//! sampling profiler something to sample (`perf record -g floor_count forest 500`).
+//! `shared::floor_kernel_per_node`, `shared::search_floor_per_node` and
+//! `shared::floor_kernel`), counted by valgrind's callgrind: `benches/forest-floor` runs
+//! this program four times, collecting only inside `forest_once`, `node_floor_once`,
+//! `search_floor_once` or `floor_once`, and prints the ratios. Unlike a timing, a count
+//! does not move with the machine's load. The forest is the Criterion bench's: 100 trees,
+//! tried 0.33, min_leaf 5, on fold 0 of the toy panel.
+//! Usage: floor_count forest|node_floor|search_floor|floor [REPEATS]; repeats (default 1)
+//! give a sampling profiler something to sample (`perf record -g floor_count forest 500`).
 
 #[path = "shared.rs"]
 mod shared;
