@@ -516,16 +516,17 @@ fn scan_ordered<C: RowCursor>(
         let b = col[next as usize];
         let lo = a;
         a = b;
-        if b <= lo + FEATURE_THRESHOLD {
-            continue;
-        }
+        // One branch per candidate, rarely not taken once a good split is known: the
+        // reasons to skip (a tie between values, an empty side, the division-free
+        // comparison) combined without short-circuiting.
         let rw = sw - lw;
-        if lw <= 0.0 || rw <= 0.0 {
-            continue;
-        }
         let rwy = swy - lwy;
         let d = lw * rw;
-        if lwy * lwy * rw + rwy * rwy * lw < bound * d - 1e-270 {
+        let skip = (b <= lo + FEATURE_THRESHOLD)
+            | (lw <= 0.0)
+            | (rw <= 0.0)
+            | (lwy * lwy * rw + rwy * rwy * lw < bound * d - 1e-270);
+        if skip {
             continue;
         }
         let gain = lwy * lwy / lw + rwy * rwy / rw - parent_score;
