@@ -77,6 +77,83 @@ pub struct Tree {
     /// A split search visits each of those rows once per indicator, which is the work it
     /// cannot avoid; the floor benchmark replays it.
     scans: Vec<[u32; 2]>,
+    /// The nodes laid out for prediction ([`Step`]), and the depth of the deepest leaf.
+    steps: Vec<Step>,
+    depth: usize,
+}
+
+/// One node as prediction walks it: x[feature] <= threshold goes to `next[1]`, else to
+/// `next[0]`. A leaf leads to itself both ways, so a walk of the tree's depth ends at the
+/// row's leaf whatever its own depth: every row of a tree takes the same number of steps,
+/// with no branch on where it stands.
+#[derive(Debug, Clone, Copy)]
+struct Step {
+    threshold: f64,
+    feature: u32,
+    next: [u32; 2],
+}
+
+/// Rows walked through a tree side by side (independent chains of loads, so the processor
+/// overlaps them).
+const WALK_BLOCK: usize = 8;
+
+impl Tree {
+    fn new(nodes: Vec<Node>, scans: Vec<[u32; 2]>) -> Tree {
+        let mut steps = Vec::with_capacity(nodes.len());
+        for (i, n) in nodes.iter().enumerate() {
+            steps.push(if n.feature == usize::MAX {
+                Step {
+                    threshold: 0.0,
+                    feature: 0,
+                    next: [i as u32; 2],
+                }
+            } else {
+                Step {
+                    threshold: n.threshold,
+                    feature: n.feature as u32,
+                    next: [n.right, n.left],
+                }
+            });
+        }
+        // Depth of the deepest leaf (children always come after their parent).
+        let mut at = vec![0usize; nodes.len()];
+        let mut depth = 0;
+        for (i, n) in nodes.iter().enumerate() {
+            if n.feature == usize::MAX {
+                depth = depth.max(at[i]);
+            } else {
+                at[n.left as usize] = at[i] + 1;
+                at[n.right as usize] = at[i] + 1;
+            }
+        }
+        Tree {
+            nodes,
+            scans,
+            steps,
+            depth,
+        }
+    }
+
+    /// The leaf of each row of `flat` (row-major, `p` > 0 columns), handed to `visit(row,
+    /// leaf value)` in row order. Rows go through the tree in blocks of [`WALK_BLOCK`], each
+    /// row taking `depth` steps; a NaN goes right, as `x <= threshold` fails for it.
+    fn leaves(&self, flat: &[f64], p: usize, mut visit: impl FnMut(usize, f64)) {
+        let steps = &self.steps[..];
+        for (b, block) in flat.chunks(WALK_BLOCK * p).enumerate() {
+            let m = block.len() / p;
+            let mut at = [0u32; WALK_BLOCK];
+            for _ in 0..self.depth {
+                for (k, a) in at.iter_mut().enumerate().take(m) {
+                    let s = &steps[*a as usize];
+                    let left = block[k * p + s.feature as usize] <= s.threshold;
+                    *a = s.next[usize::from(left)];
+                }
+            }
+            for (k, &a) in at.iter().enumerate().take(m) {
+                visit(b * WALK_BLOCK + k, self.nodes[a as usize].value);
+            }
+        }
+    }
 }
 
 impl Tree {
@@ -108,9 +185,7 @@ impl Tree {
         let xs = x.as_standard_layout();
         match xs.as_slice() {
             Some(flat) if x.ncols() > 0 => {
-                for (o, row) in out.iter_mut().zip(flat.chunks_exact(x.ncols())) {
-                    *o += scale * self.value_at(row);
-                }
+                self.leaves(flat, x.ncols(), |i, v| out[i] += scale * v);
             }
             _ => {
                 for (o, row) in out.iter_mut().zip(x.rows()) {
@@ -164,10 +239,11 @@ impl Predictor for Tree {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
         let xs = x.as_standard_layout();
         match xs.as_slice() {
-            Some(flat) if x.ncols() > 0 => flat
-                .chunks_exact(x.ncols())
-                .map(|r| self.value_at(r))
-                .collect(),
+            Some(flat) if x.ncols() > 0 => {
+                let mut out = vec![0.0; x.nrows()];
+                self.leaves(flat, x.ncols(), |i, v| out[i] = v);
+                Array1::from(out)
+            }
             _ => x.rows().into_iter().map(|r| self.predict_row(r)).collect(),
         }
     }
@@ -906,7 +982,7 @@ impl<'p> Grower<'p> {
                 stack.push((li, start, ln, depth + 1, l));
             }
         }
-        Tree { nodes, scans }
+        Tree::new(nodes, scans)
     }
 }
 
@@ -1088,10 +1164,7 @@ pub(crate) fn grow_per_node_sort<R: Rng>(
         stack.push((ri, r, depth + 1));
         stack.push((li, l, depth + 1));
     }
-    Tree {
-        nodes,
-        scans: Vec::new(),
-    }
+    Tree::new(nodes, Vec::new())
 }
 
 impl Regressor for TreeParams {
@@ -1257,6 +1330,49 @@ mod tests {
                 .then(a.cmp(&b))
         });
         assert_eq!(pre.order, want);
+    }
+
+    /// Prediction in blocks of rows, a fixed number of steps each, finds the leaf the
+    /// node-by-node walk finds (`value_at`), bit for bit: unbalanced trees, rows that tie
+    /// a threshold exactly, NaNs (right), row counts that leave partial blocks, a one-leaf
+    /// tree, and `add_to`'s running sums.
+    #[test]
+    fn block_walk_equals_node_walk() {
+        use rand::{Rng, SeedableRng};
+        let mut g = rand_chacha::ChaCha8Rng::seed_from_u64(9);
+        for case in 0..24 {
+            let (n, p) = (30 + case * 3, 1 + case % 5);
+            let x = ndarray::Array2::from_shape_fn((n, p), |_| g.gen_range(-2.0..2.0f64).round());
+            let y =
+                ndarray::Array1::from_shape_fn(n, |i| x[[i, 0]].powi(3) + g.gen_range(0.0..0.3));
+            let w = vec![1.0; n];
+            let params = TreeParams {
+                depth: if case == 0 { 0 } else { 2 + case % 7 },
+                min_leaf: 1 + case % 3,
+            };
+            let t = grow::<rand_chacha::ChaCha8Rng>(
+                x.view(),
+                y.view(),
+                &w,
+                (0..n).collect(),
+                params,
+                Candidates::All,
+            );
+            let m = 1 + case * 2;
+            let probe = ndarray::Array2::from_shape_fn((m, p), |(i, f)| match (i + f) % 7 {
+                0 => f64::NAN,
+                1 => x[[i % n, f]],
+                _ => g.gen_range(-3.0..3.0),
+            });
+            let want: Vec<f64> = probe.rows().into_iter().map(|r| t.predict_row(r)).collect();
+            let got = t.predict(probe.view());
+            let mut sums = vec![0.5; m];
+            t.add_to(probe.view(), 0.25, &mut sums);
+            for i in 0..m {
+                assert_eq!(got[i].to_bits(), want[i].to_bits(), "case {case}, row {i}");
+                assert_eq!(sums[i].to_bits(), (0.5 + 0.25 * want[i]).to_bits());
+            }
+        }
     }
 
     #[test]
