@@ -11,7 +11,7 @@ use super::{Fitted, Stage, StageInput};
 use crate::error::FitError;
 use crate::panel::Panel;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
-use ndarray::{Array2, ArrayView2, Axis};
+use ndarray::{Array2, ArrayView2, Axis, ShapeBuilder};
 use std::sync::Arc;
 
 /// Declared pool options that take parameters (`all`, groups and named lists take none).
@@ -115,7 +115,15 @@ impl Stage for Pool {
 
 impl Fitted for Select {
     fn apply(&self, x: ArrayView2<f64>) -> Array2<f64> {
-        x.select(Axis(1), &self.columns)
+        // Column by column into column-major order, the layout ndarray's `select` gives
+        // (it joins one view per column, which is slow for many columns); later stages
+        // sum in memory order, so the layout is part of the result.
+        let mut out = Vec::with_capacity(x.nrows() * self.columns.len());
+        for &j in &self.columns {
+            out.extend(x.column(j).iter().copied());
+        }
+        Array2::from_shape_vec((x.nrows(), self.columns.len()).f(), out)
+            .unwrap_or_else(|_| x.select(Axis(1), &self.columns))
     }
     fn names(&self) -> &[String] {
         &self.names
