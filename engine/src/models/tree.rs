@@ -77,9 +77,13 @@ pub struct Tree {
     /// A split search visits each of those rows once per indicator, which is the work it
     /// cannot avoid; the floor benchmark replays it.
     scans: Vec<[u32; 2]>,
-    /// The nodes laid out for prediction ([`Step`]), and the depth of the deepest leaf.
+    /// The nodes laid out for prediction ([`Step`]), the depth of the deepest leaf, and
+    /// how many steps a walk takes before it first checks that its rows all stand on
+    /// leaves: the whole depth, or in a lopsided tree the training rows' mean leaf depth
+    /// (rounded up), then every [`WALK_BURST`] steps.
     steps: Vec<Step>,
     depth: usize,
+    first: usize,
 }
 
 /// One node as prediction walks it: x[feature] <= threshold goes to `next[1]`, else to
@@ -91,14 +95,20 @@ struct Step {
     threshold: f64,
     feature: u32,
     next: [u32; 2],
+    leaf: bool,
 }
 
 /// Rows walked through a tree side by side (independent chains of loads, so the processor
 /// overlaps them).
 const WALK_BLOCK: usize = 8;
 
+/// Steps a walk takes between checks that a block's rows all stand on leaves, after the
+/// first check.
+const WALK_BURST: usize = 4;
+
 impl Tree {
-    fn new(nodes: Vec<Node>, scans: Vec<[u32; 2]>) -> Tree {
+    /// `rows[i]`: the training rows that reached node i (weights aside).
+    fn new(nodes: Vec<Node>, scans: Vec<[u32; 2]>, rows: &[u32]) -> Tree {
         let mut steps = Vec::with_capacity(nodes.len());
         for (i, n) in nodes.iter().enumerate() {
             steps.push(if n.feature == usize::MAX {
@@ -106,31 +116,46 @@ impl Tree {
                     threshold: 0.0,
                     feature: 0,
                     next: [i as u32; 2],
+                    leaf: true,
                 }
             } else {
                 Step {
                     threshold: n.threshold,
                     feature: n.feature as u32,
                     next: [n.right, n.left],
+                    leaf: false,
                 }
             });
         }
-        // Depth of the deepest leaf (children always come after their parent).
+        // Depth of the deepest leaf, and the mean depth of the training rows' leaves
+        // (children always come after their parent).
         let mut at = vec![0usize; nodes.len()];
-        let mut depth = 0;
+        let (mut depth, mut sum, mut count) = (0, 0, 0);
         for (i, n) in nodes.iter().enumerate() {
             if n.feature == usize::MAX {
+                let c = rows.get(i).map_or(1, |&c| c as usize);
                 depth = depth.max(at[i]);
+                sum += c * at[i];
+                count += c;
             } else {
                 at[n.left as usize] = at[i] + 1;
                 at[n.right as usize] = at[i] + 1;
             }
         }
+        // Lopsided (the deepest leaf far below where most rows end): walk the rows' mean
+        // depth, then check for leaves every few steps. Otherwise the whole depth at once.
+        let mean = sum.div_ceil(count.max(1));
+        let first = if depth > 2 * mean + 2 {
+            mean.max(1)
+        } else {
+            depth
+        };
         Tree {
             nodes,
             scans,
             steps,
             depth,
+            first,
         }
     }
 
@@ -138,19 +163,42 @@ impl Tree {
     /// leaf value)` in row order. Rows go through the tree in blocks of [`WALK_BLOCK`], each
     /// row taking `depth` steps; a NaN goes right, as `x <= threshold` fails for it.
     fn leaves(&self, flat: &[f64], p: usize, mut visit: impl FnMut(usize, f64)) {
-        let steps = &self.steps[..];
         for (b, block) in flat.chunks(WALK_BLOCK * p).enumerate() {
             let m = block.len() / p;
             let mut at = [0u32; WALK_BLOCK];
-            for _ in 0..self.depth {
-                for (k, a) in at.iter_mut().enumerate().take(m) {
-                    let s = &steps[*a as usize];
-                    let left = block[k * p + s.feature as usize] <= s.threshold;
-                    *a = s.next[usize::from(left)];
+            if self.first >= self.depth {
+                self.steps_on(&mut at[..m], block, p, self.depth);
+            } else {
+                // `first` steps, then bursts of `WALK_BURST`, stopping once every row of
+                // the block stands on a leaf (in a lopsided tree the deepest leaf can lie
+                // far below most rows' paths).
+                let mut left = self.depth;
+                let mut burst = self.first;
+                while left > 0 {
+                    burst = burst.min(left);
+                    self.steps_on(&mut at[..m], block, p, burst);
+                    left -= burst;
+                    if at[..m].iter().all(|&a| self.steps[a as usize].leaf) {
+                        break;
+                    }
+                    burst = WALK_BURST;
                 }
             }
-            for (k, &a) in at.iter().enumerate().take(m) {
+            for (k, &a) in at[..m].iter().enumerate() {
                 visit(b * WALK_BLOCK + k, self.nodes[a as usize].value);
+            }
+        }
+    }
+
+    /// `count` steps of each row of `block` (row-major, `p` columns) from the node in `at`.
+    #[inline(always)]
+    fn steps_on(&self, at: &mut [u32], block: &[f64], p: usize, count: usize) {
+        let steps = &self.steps[..];
+        for _ in 0..count {
+            for (k, a) in at.iter_mut().enumerate() {
+                let s = &steps[*a as usize];
+                let go = block[k * p + s.feature as usize] <= s.threshold;
+                *a = s.next[usize::from(go)];
             }
         }
     }
@@ -820,6 +868,8 @@ impl<'p> Grower<'p> {
         };
         let root = sums(&lists[p * n0..(p + 1) * n0]);
         let mut nodes: Vec<Node> = vec![leaf(mean(root))];
+        // Training rows reaching each node.
+        let mut reach: Vec<u32> = vec![n0 as u32];
         let splittable = |n: usize, depth: usize| depth < params.depth && n >= 2 * params.min_leaf;
         stack.clear();
         if splittable(n0, 0) {
@@ -960,6 +1010,7 @@ impl<'p> Grower<'p> {
             nodes.push(leaf(mean(l)));
             let ri = nodes.len();
             nodes.push(leaf(mean(r)));
+            reach.extend([ln as u32, rn as u32]);
             nodes[ni] = Node {
                 feature: f,
                 threshold: thr,
@@ -982,7 +1033,7 @@ impl<'p> Grower<'p> {
                 stack.push((li, start, ln, depth + 1, l));
             }
         }
-        Tree::new(nodes, scans)
+        Tree::new(nodes, scans, &reach)
     }
 }
 
@@ -1018,6 +1069,7 @@ pub(crate) fn grow_per_node_sort<R: Rng>(
         value: leaf_value(&rows),
         gain: 0.0,
     });
+    let mut reach: Vec<u32> = vec![rows.len() as u32];
     stack.push((0, rows, 0));
     let mut order: Vec<usize> = Vec::new();
     let mut features: Vec<usize> = (0..p).collect();
@@ -1160,11 +1212,12 @@ pub(crate) fn grow_per_node_sort<R: Rng>(
             value: nodes[ni].value,
             gain,
         };
+        reach.extend([l.len() as u32, r.len() as u32]);
         // Right pushed first so the left subtree is grown first (deterministic order).
         stack.push((ri, r, depth + 1));
         stack.push((li, l, depth + 1));
     }
-    Tree::new(nodes, Vec::new())
+    Tree::new(nodes, Vec::new(), &reach)
 }
 
 impl Regressor for TreeParams {
@@ -1373,6 +1426,72 @@ mod tests {
                 assert_eq!(sums[i].to_bits(), (0.5 + 0.25 * want[i]).to_bits());
             }
         }
+    }
+
+    /// A lopsided tree (a balanced depth-2 tree with a chain of 24 splits under one leaf)
+    /// first checks for leaves at their mean depth and still finds every row's leaf; a
+    /// balanced one walks its whole depth at once.
+    #[test]
+    fn lopsided_tree_walks_in_bursts_to_the_same_leaves() {
+        let leaf = |v: f64| Node {
+            feature: usize::MAX,
+            threshold: 0.0,
+            left: 0,
+            right: 0,
+            value: v,
+            gain: 0.0,
+        };
+        // Leaf `i` becomes a split on `f` at `thr`; returns its (left, right) leaves.
+        let split = |nodes: &mut Vec<Node>, i: usize, f: usize, thr: f64| {
+            let (l, r) = (nodes.len(), nodes.len() + 1);
+            nodes.push(leaf(l as f64));
+            nodes.push(leaf(r as f64));
+            nodes[i] = Node {
+                feature: f,
+                threshold: thr,
+                left: l as u32,
+                right: r as u32,
+                value: 0.0,
+                gain: 1.0,
+            };
+            (l, r)
+        };
+        let mut nodes = vec![leaf(0.0)];
+        let (l, r) = split(&mut nodes, 0, 0, 0.0);
+        let (ll, lr) = split(&mut nodes, l, 1, 0.0);
+        let (rl, mut tail) = split(&mut nodes, r, 1, 0.0);
+        for k in 0..24 {
+            tail = split(&mut nodes, tail, k % 2, 0.5 * k as f64).1;
+        }
+        let balanced = {
+            let mut b = vec![leaf(0.0)];
+            let (l, r) = split(&mut b, 0, 0, 0.0);
+            split(&mut b, l, 1, 0.0);
+            split(&mut b, r, 1, 0.0);
+            Tree::new(b, Vec::new(), &[])
+        };
+        assert_eq!((balanced.depth, balanced.first), (2, 2));
+        // 30 training rows in each depth-2 leaf, one in each of the chain's 25 leaves:
+        // mean depth (180 + 3 + ... + 26 + 26) / 115 = 4.8, first check after 5 steps.
+        let mut reach = vec![1u32; nodes.len()];
+        for i in [ll, lr, rl] {
+            reach[i] = 30;
+        }
+        let t = Tree::new(nodes.clone(), Vec::new(), &reach);
+        assert_eq!((t.depth, t.first), (26, 5));
+        // Counted by leaves alone it is not lopsided (mean depth 13.6 against 26).
+        assert_eq!(Tree::new(nodes, Vec::new(), &[]).first, 26);
+        let probe = ndarray::Array2::from_shape_fn((37, 2), |(i, f)| {
+            (i as f64 - 5.0) * if f == 0 { 0.4 } else { 0.45 }
+        });
+        let got = t.predict(probe.view());
+        let mut deep = 0;
+        for (i, r) in probe.rows().into_iter().enumerate() {
+            let want = t.predict_row(r);
+            assert_eq!(got[i].to_bits(), want.to_bits(), "row {i}");
+            deep += usize::from(want > 10.0);
+        }
+        assert!(deep > 5, "{deep} rows reach deep into the chain");
     }
 
     #[test]
