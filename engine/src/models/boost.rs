@@ -133,6 +133,8 @@ impl Regressor for BoostParams {
         let mut trees = Vec::with_capacity(self.trees);
         let pre = Presorted::new(input.x);
         let mut grower = Grower::new(&pre);
+        // Row-major once, for each round's prediction on the training rows.
+        let xs = input.x.as_standard_layout();
         for _ in 0..self.trees {
             let resid = &input.y - &f;
             let rows: Vec<usize> = if take < all.len() {
@@ -152,7 +154,7 @@ impl Regressor for BoostParams {
                 params,
                 Candidates::All,
             );
-            f.scaled_add(self.rate, &t.predict(input.x));
+            f.scaled_add(self.rate, &t.predict(xs.view()));
             trees.push(t);
         }
         Ok(Box::new(Boost {
