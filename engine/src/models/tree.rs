@@ -161,7 +161,8 @@ impl Tree {
 
     /// The leaf of each row of `flat` (row-major, `p` > 0 columns), handed to `visit(row,
     /// leaf value)` in row order. Rows go through the tree in blocks of [`WALK_BLOCK`], each
-    /// row taking `depth` steps; a NaN goes right, as `x <= threshold` fails for it.
+    /// row taking the tree's depth in steps (fewer in a lopsided tree once the whole block
+    /// stands on leaves); a NaN goes right, as `x <= threshold` fails for it.
     fn leaves(&self, flat: &[f64], p: usize, mut visit: impl FnMut(usize, f64)) {
         for (b, block) in flat.chunks(WALK_BLOCK * p).enumerate() {
             let m = block.len() / p;
