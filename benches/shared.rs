@@ -55,8 +55,9 @@ pub fn floor_kernel(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64,
 
 /// The forest's floor (our definition, stated in the README): for each node whose split
 /// the forest searched, one pass over that node's rows (`scans`: rows, indicators) per
-/// indicator scanned there, accumulating each row's weight and weighted outcome, the least
-/// a split search must do. The passes read the first `rows` entries of a sorted order.
+/// indicator scanned there, accumulating each row's weight and weighted outcome (less than
+/// an exact split search can do, which also scores candidates: see the search floor). The
+/// passes read the first `rows` entries of a sorted order.
 #[inline(never)]
 pub fn floor_kernel_per_node(
     scans: &[[u32; 2]],
@@ -77,17 +78,17 @@ pub fn floor_kernel_per_node(
     std::hint::black_box((lw, lwy))
 }
 
-/// The forest's search floor (our definition, stated in the README): the accumulation
-/// floor above plus what an exact split search cannot skip, scoring every candidate
-/// threshold. For each node the forest searched, one pass over the node's rows per
-/// indicator scanned there, each pass in another indicator's sorted order (the first n
-/// rows of it, as the floor above takes), accumulating the left side's weight and
-/// weighted outcome; at each candidate (at least `min_leaf` rows on each side, between
-/// distinct values) the split's score lwy^2/lw + rwy^2/rw is compared with the node's best
-/// so far, first without dividing and exactly only when it may win (the cheapest exact
-/// comparison we know; a division per candidate would make the floor slower). The node's
-/// totals come from `tot` (per indicator, sums over the first n rows of its order), as a
-/// grower gets them from the parent's split. Returns the sum of the nodes' best scores.
+/// The forest's search floor (our definition, stated in the README): the accumulation floor
+/// above plus what an exact split search cannot skip, scoring every candidate threshold.
+/// For each node the forest searched, one pass over the node's rows per indicator scanned
+/// there, each pass in another indicator's sorted order (the first n rows of it, as the
+/// floor above takes), accumulating the left side's weight and weighted outcome; at each
+/// candidate (at least `min_leaf` rows on each side, between distinct values) the split's
+/// score lwy^2/lw + rwy^2/rw is compared with the node's best so far, first without
+/// dividing and exactly only when it may win (the cheapest exact comparison we know). The
+/// node's totals come from `tot` (per indicator, sums over the first n rows of its order),
+/// as a grower gets them from the parent's split. Returns the sum of the nodes' best
+/// scores.
 #[inline(never)]
 pub fn search_floor_per_node(scans: &[[u32; 2]], s: &SearchCase, min_leaf: usize) -> f64 {
     let SearchCase {

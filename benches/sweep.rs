@@ -53,10 +53,11 @@ fn stages(c: &mut Criterion) {
 
 /// The forest against its floor. Floor (our definition, stated in the README): one pass
 /// over a node's rows per indicator tried there, accumulating the weight and weighted
-/// outcome of each row (the least a split search must do); the forest's grower records
-/// its searches (`Tree::scans`), and the floor kernel replays them node by node. The search
-/// floor replays them too, also scoring every candidate threshold, as an exact search
-/// must. The fused floor makes as many row visits in long passes over all the rows.
+/// outcome of each row (less than a split search can do: it must also score candidates,
+/// which the search floor adds); the forest's grower records its searches (`Tree::scans`),
+/// and the floor kernel replays them node by node. The search floor replays them too, also
+/// scoring every candidate threshold, as an exact search must. The fused floor makes as
+/// many row visits in long passes over all the rows.
 fn forest_floor(c: &mut Criterion) {
     let case = FloorCase::new();
     let input = case.input();

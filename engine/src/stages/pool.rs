@@ -159,4 +159,26 @@ mod tests {
             .unwrap();
         assert_eq!(fixed.names(), &["c".to_string()]);
     }
+
+    /// The gathered columns are ndarray's `select`: the same values in the same memory
+    /// layout (later stages sum in memory order), from row- and column-major inputs, with
+    /// columns out of order and one or many rows.
+    #[test]
+    fn apply_equals_select_in_values_and_layout() {
+        let columns = vec![7, 0, 3, 3, 11];
+        let sel = Select {
+            names: columns.iter().map(|j| format!("c{j}")).collect(),
+            columns,
+        };
+        for rows in [1, 6] {
+            let c = Array2::from_shape_fn((rows, 12), |(i, j)| (i * 12 + j) as f64 * 0.5);
+            let f = c.t().as_standard_layout().into_owned().reversed_axes();
+            for x in [c.view(), f.view()] {
+                let got = sel.apply(x);
+                let want = x.select(Axis(1), &sel.columns);
+                assert_eq!(got, want);
+                assert_eq!(got.strides(), want.strides(), "{rows} rows");
+            }
+        }
+    }
 }
