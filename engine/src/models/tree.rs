@@ -330,11 +330,39 @@ pub struct Presorted {
     xt: Vec<f64>,
     /// `order[f * n..(f + 1) * n]`: rows by ascending x[., f], ties by row.
     order: Vec<u32>,
-    /// `bit[f * n + i]`: the bit of row i's position in `order[f * n..]` (its ordinal
-    /// rank r; `[1 << r, 0]` for r < 64, `[0, 1 << (r - 64)]` above), made at first use
-    /// and only for at most 128 rows (only the bitset grower reads it).
-    bit: std::sync::OnceLock<Vec<[u64; 2]>>,
+    /// Whether some value is NaN (the bitset grower's tie test assumes none).
+    nan: bool,
+    /// The orders in bytes ([`Ranks`]), made at first use and only for at most 128 rows
+    /// (only the bitset grower reads them).
+    ranks: std::sync::OnceLock<Ranks>,
 }
+
+/// Every indicator's order in bytes, for at most 128 rows: small enough (three bytes per
+/// row and indicator) to stay in the first-level cache while a tree is grown, where the
+/// row lists and values (twelve bytes per row and indicator) do not.
+struct Ranks {
+    /// `rank[f * n + i]`: row i's position in indicator f's order (its ordinal rank).
+    rank: Vec<u8>,
+    /// `row[f * n + r]`: the row of rank r (`Presorted::order` in a byte).
+    row: Vec<u8>,
+    /// `next[f * n + r]`: the first rank s > r whose value is not within
+    /// [`FEATURE_THRESHOLD`] of rank r's (`!(x_s <= x_r + FEATURE_THRESHOLD)`), n if none.
+    /// The values rise with the rank, so for ranks r < s the values tie exactly when
+    /// s < next[r]: the split scan's tie test without reading a value (no value is NaN).
+    next: Vec<u8>,
+}
+
+/// The bit of each rank r < 128 as two words: `[1 << r, 0]` below 64, `[0, 1 << (r - 64)]`
+/// from 64.
+const RANK_BIT: [[u64; 2]; 128] = {
+    let mut t = [[0u64; 2]; 128];
+    let mut r = 0;
+    while r < 128 {
+        t[r][r >> 6] = 1u64 << (r & 63);
+        r += 1;
+    }
+    t
+};
 
 impl Presorted {
     pub fn new(x: ArrayView2<f64>) -> Presorted {
@@ -360,27 +388,44 @@ impl Presorted {
             keys.sort_unstable();
             order.extend(keys.iter().map(|&k| k as u32));
         }
+        let nan = xt.iter().any(|v| v.is_nan());
         Presorted {
             n,
             p,
             xt,
             order,
-            bit: std::sync::OnceLock::new(),
+            nan,
+            ranks: std::sync::OnceLock::new(),
         }
     }
 
-    /// Every indicator's rank bits (see the field); at most 128 rows.
-    fn bits(&self) -> &[[u64; 2]] {
+    /// The orders in bytes (see [`Ranks`]); at most 128 rows.
+    fn ranks(&self) -> &Ranks {
         debug_assert!(self.n <= 128);
-        self.bit.get_or_init(|| {
+        self.ranks.get_or_init(|| {
             let (n, p) = (self.n, self.p);
-            let mut bit = vec![[0u64; 2]; n * p];
+            let (mut rank, mut row, mut next) =
+                (vec![0u8; n * p], vec![0u8; n * p], vec![0u8; n * p]);
             for f in 0..p {
-                for (k, &i) in self.order[f * n..(f + 1) * n].iter().enumerate() {
-                    bit[f * n + i as usize][(k >> 6) & 1] = 1u64 << (k & 63);
+                let order = &self.order[f * n..(f + 1) * n];
+                let col = self.col(f);
+                for (r, &i) in order.iter().enumerate() {
+                    rank[f * n + i as usize] = r as u8;
+                    row[f * n + r] = i as u8;
+                }
+                // The values rise with the rank, so next[r] never falls as r rises: one
+                // cursor moved forwards serves every r.
+                let mut s = 1;
+                for r in 0..n {
+                    let x = col[order[r] as usize];
+                    s = s.max(r + 1);
+                    while s < n && col[order[s] as usize] <= x + FEATURE_THRESHOLD {
+                        s += 1;
+                    }
+                    next[f * n + r] = s as u8;
                 }
             }
-            bit
+            Ranks { rank, row, next }
         })
     }
 
@@ -398,6 +443,7 @@ impl Presorted {
 pub(crate) struct FeatureDraw {
     perm: Vec<usize>,
     mask: Vec<bool>,
+    vary: Vec<bool>,
 }
 
 impl FeatureDraw {
@@ -405,6 +451,7 @@ impl FeatureDraw {
         FeatureDraw {
             perm: (0..p).collect(),
             mask: vec![false; p],
+            vary: vec![false; p],
         }
     }
 
@@ -439,6 +486,51 @@ impl FeatureDraw {
             }
             i += 1;
         }
+        self.list(out);
+    }
+
+    /// The same draw as [`draw`](Self::draw), with whether each of the first `m` drawn
+    /// indicators varies asked of all of them at once (`varies_all(fs, vary)` sets
+    /// `vary[k]` for `fs[k]`), then one at a time. The random stream is the same: at
+    /// least `m` indicators are drawn whatever varies, and each draw takes the same
+    /// number from it.
+    pub(crate) fn draw_batched<R: Rng>(
+        &mut self,
+        rng: &mut R,
+        m: usize,
+        mut varies_all: impl FnMut(&[usize], &mut [bool]),
+        out: &mut Vec<usize>,
+    ) {
+        let p = self.perm.len();
+        let m = m.min(p);
+        for i in 0..m {
+            let j = rng.gen_range(i..p);
+            self.perm.swap(i, j);
+        }
+        varies_all(&self.perm[..m], &mut self.vary[..m]);
+        let mut found = 0usize;
+        for (&f, &v) in self.perm[..m].iter().zip(&self.vary[..m]) {
+            self.mask[f] = v;
+            found += v as usize;
+        }
+        let mut i = m;
+        while found < m && i < p {
+            let j = rng.gen_range(i..p);
+            self.perm.swap(i, j);
+            let f = self.perm[i];
+            varies_all(&self.perm[i..=i], &mut self.vary[..1]);
+            if self.vary[0] {
+                self.mask[f] = true;
+                found += 1;
+            }
+            i += 1;
+        }
+        self.list(out);
+    }
+
+    /// The drawn indicators in ascending order, clearing the mask.
+    fn list(&mut self, out: &mut Vec<usize>) {
+        let p = self.perm.len();
         out.clear();
         out.resize(p + 1, 0);
         let mut c = 0usize;
@@ -509,37 +601,68 @@ fn split_segment(
 /// node's rows, which is what rearranging the order at every split keeps, at one pass over
 /// the node's rows for each indicator drawn there instead of one per indicator at every
 /// split. For at most 128 training rows (the bitset stays in two registers): bit r is set
-/// when the row of rank r is one of `rows`. Each row's bit comes ready from a table
-/// (`Presorted::bits`), so a row costs a load and an or.
+/// when the row of rank r is one of `rows`. Each row's rank comes from a byte table and
+/// its bit from [`RANK_BIT`], both small enough to stay in the first-level cache.
 #[inline]
-fn rank_bits(rows: &[u32], bit: &[[u64; 2]]) -> u128 {
+fn rank_bits(rows: &[u32], rank: &[u8]) -> u128 {
     let (mut lo, mut hi) = (0u64, 0u64);
     for &i in rows {
-        let [a, b] = bit[i as usize];
+        let [a, b] = RANK_BIT[usize::from(rank[i as usize]) & 127];
         lo |= a;
         hi |= b;
     }
     u128::from(lo) | (u128::from(hi) << 64)
 }
 
+/// [`rank_bits`] of four indicators in one pass over the rows.
+#[inline]
+fn rank_bits4(rows: &[u32], rank: [&[u8]; 4]) -> [u128; 4] {
+    let mut w = [[0u64; 2]; 4];
+    for &i in rows {
+        for (wj, tab) in w.iter_mut().zip(&rank) {
+            let [a, b] = RANK_BIT[usize::from(tab[i as usize]) & 127];
+            wj[0] |= a;
+            wj[1] |= b;
+        }
+    }
+    w.map(|[lo, hi]| u128::from(lo) | (u128::from(hi) << 64))
+}
+
 /// A node's rows in one indicator's order, handed out one at a time to the split scan:
-/// from the arena's kept order or from a bitset over ranks ([`rank_bits`]). The caller
-/// takes at most as many rows as the node has.
+/// from the arena's kept order or from a bitset over ranks ([`rank_bits`]). Each row
+/// comes with a key that tells ties apart: its value, or its rank. The caller takes at
+/// most as many rows as the node has.
 trait RowCursor {
-    fn next_row(&mut self) -> u32;
+    type Key: Copy;
+    fn next_row(&mut self) -> (u32, Self::Key);
+    /// Whether the row after (key `hi`) ties with the row before (key `lo`):
+    /// x_hi <= x_lo + FEATURE_THRESHOLD.
+    fn tie(&self, lo: Self::Key, hi: Self::Key) -> bool;
+    /// The value of a row with key `k`.
+    fn value(&self, k: Self::Key) -> f64;
 }
 
 struct ListCursor<'a> {
     rows: &'a [u32],
+    col: &'a [f64],
     at: usize,
 }
 
 impl RowCursor for ListCursor<'_> {
+    type Key = f64;
     #[inline(always)]
-    fn next_row(&mut self) -> u32 {
+    fn next_row(&mut self) -> (u32, f64) {
         let i = self.rows[self.at];
         self.at += 1;
-        i
+        (i, self.col[i as usize])
+    }
+    #[inline(always)]
+    fn tie(&self, lo: f64, hi: f64) -> bool {
+        hi <= lo + FEATURE_THRESHOLD
+    }
+    #[inline(always)]
+    fn value(&self, k: f64) -> f64 {
+        k
     }
 }
 
@@ -548,30 +671,31 @@ struct BitCursor<'a> {
     cur: u64,
     next: u64,
     base: usize,
-    order: &'a [u32],
-}
-
-impl<'a> BitCursor<'a> {
-    fn new(bits: u128, order: &'a [u32]) -> BitCursor<'a> {
-        BitCursor {
-            cur: bits as u64,
-            next: (bits >> 64) as u64,
-            base: 0,
-            order,
-        }
-    }
+    /// The indicator's rows by rank and first ranks past a tie ([`Ranks`]), and values.
+    row: &'a [u8],
+    past_tie: &'a [u8],
+    col: &'a [f64],
 }
 
 impl RowCursor for BitCursor<'_> {
+    type Key = usize;
     #[inline(always)]
-    fn next_row(&mut self) -> u32 {
+    fn next_row(&mut self) -> (u32, usize) {
         if self.cur == 0 {
             self.cur = std::mem::take(&mut self.next);
             self.base = 64;
         }
-        let r = self.base + self.cur.trailing_zeros() as usize;
+        let r = (self.base + self.cur.trailing_zeros() as usize) & 127;
         self.cur &= self.cur.wrapping_sub(1);
-        self.order[r & 127]
+        (u32::from(self.row[r]), r)
+    }
+    #[inline(always)]
+    fn tie(&self, lo: usize, hi: usize) -> bool {
+        hi < usize::from(self.past_tie[lo])
+    }
+    #[inline(always)]
+    fn value(&self, k: usize) -> f64 {
+        self.col[usize::from(self.row[k])]
     }
 }
 
@@ -606,7 +730,6 @@ struct NodeScan {
 fn scan_ordered<C: RowCursor>(
     mut rows: C,
     n: usize,
-    col: &[f64],
     wwy: &[[f64; 2]],
     node: NodeScan,
     f: usize,
@@ -628,21 +751,19 @@ fn scan_ordered<C: RowCursor>(
     let (mut lw, mut lwy) = (0.0, 0.0);
     // Rows that go left whatever the threshold (ml - 1 of them).
     for _ in 0..ml - 1 {
-        let [a, b] = wwy[rows.next_row() as usize];
+        let [a, b] = wwy[rows.next_row().0 as usize];
         lw += a;
         lwy += b;
     }
     // Candidates: the first k + 1 rows go left, ml <= k + 1 <= n - ml; `row` is row k,
-    // `a` its value, and `next` row k + 1.
-    let mut row = rows.next_row();
-    let mut a = col[row as usize];
+    // `a` its key, and `next` row k + 1.
+    let (mut row, mut a) = rows.next_row();
     for _ in 0..n + 1 - 2 * ml {
         let [wi, wyi] = wwy[row as usize];
         lw += wi;
         lwy += wyi;
-        let next = rows.next_row();
+        let (next, b) = rows.next_row();
         row = next;
-        let b = col[next as usize];
         let lo = a;
         a = b;
         // One branch per candidate, rarely not taken once a good split is known: the
@@ -651,7 +772,7 @@ fn scan_ordered<C: RowCursor>(
         let rw = sw - lw;
         let rwy = swy - lwy;
         let d = lw * rw;
-        let skip = (b <= lo + FEATURE_THRESHOLD)
+        let skip = rows.tie(lo, b)
             | (lw <= 0.0)
             | (rw <= 0.0)
             | (lwy * lwy * rw + rwy * rwy * lw < bound * d - 1e-270);
@@ -660,6 +781,7 @@ fn scan_ordered<C: RowCursor>(
         }
         let gain = lwy * lwy / lw + rwy * rwy / rw - parent_score;
         if best.is_none_or(|(g, _, _)| gain > g + tol) {
+            let (lo, b) = (rows.value(lo), rows.value(b));
             let mut thr = lo + (b - lo) / 2.0;
             if thr >= b {
                 thr = lo;
@@ -799,11 +921,12 @@ impl<'p> Grower<'p> {
         // the node executed fewer instructions than keeping every order, but took longer.)
         let mode = forced_lists.unwrap_or(match cand {
             Candidates::Extra { .. } => Lists::Rows,
-            Candidates::Sample { m, .. } if 2 * m <= p && nall <= 128 => Lists::Bits,
+            Candidates::Sample { m, .. } if 2 * m <= p && nall <= 128 && !pre.nan => Lists::Bits,
             _ => Lists::Every,
         });
         debug_assert!(
-            mode != Lists::Bits || (nall <= 128 && matches!(cand, Candidates::Sample { .. }))
+            mode != Lists::Bits
+                || (nall <= 128 && !pre.nan && matches!(cand, Candidates::Sample { .. }))
         );
         debug_assert!(mode != Lists::Rows || matches!(cand, Candidates::Extra { .. }));
         draw.reset();
@@ -880,7 +1003,7 @@ impl<'p> Grower<'p> {
         features.clear();
         features.extend(0..p);
         let ml = params.min_leaf;
-        let bit: &[[u64; 2]] = if mode == Lists::Bits { pre.bits() } else { &[] };
+        let ranks = (mode == Lists::Bits).then(|| pre.ranks());
         while let Some((ni, start, n, depth, (sw, swy))) = stack.pop() {
             let seg = |f: usize| f * n0 + start..f * n0 + start + n;
             // The indicators' segments, and this node's rows.
@@ -895,20 +1018,49 @@ impl<'p> Grower<'p> {
             match &mut cand {
                 Candidates::All => {}
                 Candidates::Sample { m, rng } => {
-                    let varies = |f: usize| {
-                        let col = pre.col(f);
-                        let order = &pre.order[ranked(f)];
-                        if mode == Lists::Bits {
-                            let b = rank_bits(rs, &bit[ranked(f)]);
-                            node_bits[f] = b;
-                            let (lo, hi) = (b.trailing_zeros(), 127 - b.leading_zeros());
-                            return col[order[hi as usize] as usize]
-                                > col[order[lo as usize] as usize] + FEATURE_THRESHOLD;
-                        }
-                        let o = &ords[seg(f)];
-                        col[o[n - 1] as usize] > col[o[0] as usize] + FEATURE_THRESHOLD
-                    };
-                    draw.draw(*rng, *m, varies, features)
+                    if let Some(t) = ranks {
+                        // Each drawn indicator's bitset at the node, four indicators to a
+                        // pass over the rows. It varies when its lowest and highest ranks
+                        // are not tied (no value is NaN: the same as
+                        // hi > lo + FEATURE_THRESHOLD).
+                        let varies_all = |fs: &[usize], vary: &mut [bool]| {
+                            let mut k = 0;
+                            while k < fs.len() {
+                                let take = (fs.len() - k).min(4);
+                                let mut tabs: [&[u8]; 4] = [&[]; 4];
+                                for (j, tab) in tabs.iter_mut().enumerate().take(take) {
+                                    *tab = &t.rank[ranked(fs[k + j])];
+                                }
+                                let bits = if take == 4 {
+                                    rank_bits4(rs, tabs)
+                                } else {
+                                    tabs.map(|tab| {
+                                        if tab.is_empty() {
+                                            0
+                                        } else {
+                                            rank_bits(rs, tab)
+                                        }
+                                    })
+                                };
+                                for j in 0..take {
+                                    let (f, b) = (fs[k + j], bits[j]);
+                                    node_bits[f] = b;
+                                    let (lo, hi) = (b.trailing_zeros(), 127 - b.leading_zeros());
+                                    vary[k + j] = hi as usize
+                                        >= usize::from(t.next[ranked(f)][lo as usize & 127]);
+                                }
+                                k += take;
+                            }
+                        };
+                        draw.draw_batched(*rng, *m, varies_all, features)
+                    } else {
+                        let varies = |f: usize| {
+                            let col = pre.col(f);
+                            let o = &ords[seg(f)];
+                            col[o[n - 1] as usize] > col[o[0] as usize] + FEATURE_THRESHOLD
+                        };
+                        draw.draw(*rng, *m, varies, features)
+                    }
                 }
                 Candidates::Extra { m, rng } => {
                     let varies = |f: usize| {
@@ -973,16 +1125,24 @@ impl<'p> Grower<'p> {
                     min_leaf: ml,
                     prefilter,
                 };
-                if mode == Lists::Bits {
-                    let order = &pre.order[ranked(f)];
-                    let rows = BitCursor::new(node_bits[f], order);
-                    scan_ordered(rows, n, col, wwy, node, f, &mut best);
+                if let Some(t) = ranks {
+                    let bits = node_bits[f];
+                    let rows = BitCursor {
+                        cur: bits as u64,
+                        next: (bits >> 64) as u64,
+                        base: 0,
+                        row: &t.row[ranked(f)],
+                        past_tie: &t.next[ranked(f)],
+                        col,
+                    };
+                    scan_ordered(rows, n, wwy, node, f, &mut best);
                 } else {
                     let rows = ListCursor {
                         rows: &ords[seg(f)],
+                        col,
                         at: 0,
                     };
-                    scan_ordered(rows, n, col, wwy, node, f, &mut best);
+                    scan_ordered(rows, n, wwy, node, f, &mut best);
                 }
             }
             let Some((gain, f, thr)) = best else { continue };
@@ -1288,11 +1448,15 @@ mod tests {
                 20 + case % 60
             };
             let p = 1 + case % 9;
-            // Every third case on a coarse grid, so many values tie.
+            // Every third case on a coarse grid, so many values tie; every sixth (from the
+            // fifth) in clusters of values 4e-8 apart, so values closer than
+            // FEATURE_THRESHOLD tie with their neighbours but not always with each other.
             let x = ndarray::Array2::from_shape_fn((n, p), |_| {
                 let v: f64 = g.gen_range(-3.0..3.0);
                 if case % 3 == 0 {
                     v.round()
+                } else if case % 6 == 4 {
+                    v.round() + f64::from(g.gen_range(0..4u8)) * 4e-8
                 } else {
                     v
                 }
