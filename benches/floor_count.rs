@@ -7,12 +7,22 @@
 //! tried 0.33, min_leaf 5, on fold 0 of the toy panel.
 //! Usage: floor_count forest|node_floor|search_floor|floor [REPEATS]; repeats (default 1)
 //! give a sampling profiler something to sample (`perf record -g floor_count forest 500`).
+//! `cargo bench -p forkmap --bench floor_count -- wide ROWS INDICATORS [REPEATS]` (or
+//! `floor_count wide ...`) times the same forest on a synthetic panel
+//! of that shape (values on a 0.001 grid, so some tie) and prints microseconds per forest:
+//! how the grower fares past the toy panel's size, where its tables leave the
+//! first-level cache.
 
 #[path = "shared.rs"]
 mod shared;
 
 use forkmap::models::forest::{Ensemble, ForestParams};
 use forkmap::models::FitInput;
+
+/// The program's arguments, less the `--bench` that `cargo bench` adds.
+fn args() -> impl Iterator<Item = String> {
+    std::env::args().filter(|a| a != "--bench")
+}
 
 #[inline(never)]
 fn forest_once(params: &ForestParams, input: &FitInput) -> Ensemble {
@@ -35,8 +45,11 @@ fn floor_once(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64, f64) 
 }
 
 fn main() {
-    let what = std::env::args().nth(1).unwrap_or_default();
-    let repeats: usize = std::env::args()
+    let what = args().nth(1).unwrap_or_default();
+    if what == "wide" {
+        return wide();
+    }
+    let repeats: usize = args()
         .nth(2)
         .map_or(Ok(1), |r| r.parse())
         .unwrap_or_else(|_| {
@@ -102,4 +115,47 @@ fn main() {
             std::process::exit(2);
         }
     }
+}
+
+/// `floor_count wide ROWS INDICATORS [REPEATS]`: the floor case's forest on a synthetic
+/// panel (uniform values on a 0.001 grid, outcome from two indicators plus noise, unit
+/// weights), timed over REPEATS fits (default 10).
+fn wide() {
+    use rand::{Rng, SeedableRng};
+    let arg = |k: usize| args().nth(k).map(|a| a.parse::<usize>());
+    let (Some(Ok(n)), Some(Ok(p))) = (arg(2), arg(3)) else {
+        eprintln!("usage: floor_count wide ROWS INDICATORS [REPEATS]");
+        std::process::exit(2);
+    };
+    let repeats = match arg(4) {
+        None => 10,
+        Some(Ok(r)) if r > 0 => r,
+        _ => {
+            eprintln!("usage: floor_count wide ROWS INDICATORS [REPEATS]");
+            std::process::exit(2);
+        }
+    };
+    let mut g = rand_chacha::ChaCha8Rng::seed_from_u64(1);
+    let x = ndarray::Array2::from_shape_fn((n, p), |_| {
+        (g.gen_range(0.0..100.0f64) * 1000.0).round() / 1000.0
+    });
+    let y = ndarray::Array1::from_shape_fn(n, |i| {
+        0.3 * x[[i, 0]] + x[[i, 1 % p]].sin() + g.gen_range(0.0..5.0)
+    });
+    let w = ndarray::Array1::ones(n);
+    let params = shared::FloorCase::params();
+    let t = std::time::Instant::now();
+    for r in 0..repeats {
+        let input = FitInput {
+            x: x.view(),
+            y: y.view(),
+            w: w.view(),
+            seed: r as u64,
+        };
+        forest_once(&params, &input);
+    }
+    println!(
+        "wide: {n} rows x {p} indicators, {:.0} us per forest ({repeats} fits)",
+        t.elapsed().as_secs_f64() * 1e6 / repeats as f64
+    );
 }

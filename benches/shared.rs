@@ -202,14 +202,19 @@ impl FloorCase {
         FloorCase {
             search,
             w,
-            params: forkmap::models::forest::ForestParams {
-                trees: 100,
-                tried: 0.33,
-                min_leaf: 5,
-            },
+            params: FloorCase::params(),
             x,
             y,
             order,
+        }
+    }
+
+    /// The forest of the comparison: 100 trees, tried 0.33, min_leaf 5.
+    pub fn params() -> forkmap::models::forest::ForestParams {
+        forkmap::models::forest::ForestParams {
+            trees: 100,
+            tried: 0.33,
+            min_leaf: 5,
         }
     }
 
