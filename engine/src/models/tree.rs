@@ -635,6 +635,10 @@ fn rank_bits4(rows: &[u32], rank: [&[u8]; 4]) -> [u128; 4] {
 trait RowCursor {
     type Key: Copy;
     fn next_row(&mut self) -> (u32, Self::Key);
+    /// The next row without its key (for rows whose value is never compared).
+    fn next_row_only(&mut self) -> u32 {
+        self.next_row().0
+    }
     /// Whether the row after (key `hi`) ties with the row before (key `lo`):
     /// x_hi <= x_lo + FEATURE_THRESHOLD.
     fn tie(&self, lo: Self::Key, hi: Self::Key) -> bool;
@@ -652,9 +656,14 @@ impl RowCursor for ListCursor<'_> {
     type Key = f64;
     #[inline(always)]
     fn next_row(&mut self) -> (u32, f64) {
+        let i = self.next_row_only();
+        (i, self.col[i as usize])
+    }
+    #[inline(always)]
+    fn next_row_only(&mut self) -> u32 {
         let i = self.rows[self.at];
         self.at += 1;
-        (i, self.col[i as usize])
+        i
     }
     #[inline(always)]
     fn tie(&self, lo: f64, hi: f64) -> bool {
@@ -751,7 +760,7 @@ fn scan_ordered<C: RowCursor>(
     let (mut lw, mut lwy) = (0.0, 0.0);
     // Rows that go left whatever the threshold (ml - 1 of them).
     for _ in 0..ml - 1 {
-        let [a, b] = wwy[rows.next_row().0 as usize];
+        let [a, b] = wwy[rows.next_row_only() as usize];
         lw += a;
         lwy += b;
     }
@@ -1027,21 +1036,18 @@ impl<'p> Grower<'p> {
                             let mut k = 0;
                             while k < fs.len() {
                                 let take = (fs.len() - k).min(4);
-                                let mut tabs: [&[u8]; 4] = [&[]; 4];
-                                for (j, tab) in tabs.iter_mut().enumerate().take(take) {
-                                    *tab = &t.rank[ranked(fs[k + j])];
-                                }
-                                let bits = if take == 4 {
-                                    rank_bits4(rs, tabs)
+                                let mut bits = [0u128; 4];
+                                if take == 4 {
+                                    let mut tabs: [&[u8]; 4] = [&[]; 4];
+                                    for (j, tab) in tabs.iter_mut().enumerate() {
+                                        *tab = &t.rank[ranked(fs[k + j])];
+                                    }
+                                    bits = rank_bits4(rs, tabs);
                                 } else {
-                                    tabs.map(|tab| {
-                                        if tab.is_empty() {
-                                            0
-                                        } else {
-                                            rank_bits(rs, tab)
-                                        }
-                                    })
-                                };
+                                    for (j, b) in bits.iter_mut().enumerate().take(take) {
+                                        *b = rank_bits(rs, &t.rank[ranked(fs[k + j])]);
+                                    }
+                                }
                                 for j in 0..take {
                                     let (f, b) = (fs[k + j], bits[j]);
                                     node_bits[f] = b;
