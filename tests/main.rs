@@ -13,3 +13,4 @@ mod leak;
 mod reference;
 mod resume;
 mod shards;
+mod starter;

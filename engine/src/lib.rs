@@ -22,6 +22,7 @@ pub mod shard;
 pub mod sink;
 pub mod space;
 pub mod stages;
+pub mod starter;
 pub mod sweep;
 pub mod transform;
 pub mod weights;

@@ -134,14 +134,14 @@ impl Panel {
 }
 
 /// One column as read from a file, before typing.
-enum RawColumn {
+pub(crate) enum RawColumn {
     Text(Vec<Option<String>>),
     Number(Vec<Option<f64>>),
 }
 
-struct RawTable {
-    names: Vec<String>,
-    columns: Vec<RawColumn>,
+pub(crate) struct RawTable {
+    pub(crate) names: Vec<String>,
+    pub(crate) columns: Vec<RawColumn>,
     /// How to name data row i (0-based) in a message.
     csv: bool,
 }
@@ -154,7 +154,7 @@ impl RawTable {
             format!("row {}", i + 1)
         }
     }
-    fn n_rows(&self) -> usize {
+    pub(crate) fn n_rows(&self) -> usize {
         match self.columns.first() {
             Some(RawColumn::Text(v)) => v.len(),
             Some(RawColumn::Number(v)) => v.len(),
@@ -349,21 +349,7 @@ pub fn load(cfg: &Config) -> Result<Panel> {
             "file not found (paths are relative to the config file)",
         ));
     }
-    let ext = path
-        .extension()
-        .and_then(|e| e.to_str())
-        .unwrap_or("")
-        .to_ascii_lowercase();
-    let table = match ext.as_str() {
-        "csv" => read_csv(&path)?,
-        "parquet" | "pq" => read_parquet(&path)?,
-        other => {
-            return Err(data_err(
-                &path,
-                format!("unknown file type `.{other}`: use .csv, .parquet or .pq"),
-            ))
-        }
-    };
+    let table = read_table(&path)?;
     let mut panel = from_table(cfg, &path, &table)?;
     if let Some(cb) = &cfg.data.codebook {
         panel.codebook = read_codebook(&cfg.resolve(cb), &panel.indicators)?;
@@ -371,7 +357,25 @@ pub fn load(cfg: &Config) -> Result<Panel> {
     Ok(panel)
 }
 
-fn parse_cell(s: &str, missing: &[String]) -> std::result::Result<Option<f64>, ()> {
+/// Read a `.csv`, `.parquet` or `.pq` file into untyped columns (every intake check on the
+/// bytes and the header applies).
+pub(crate) fn read_table(path: &Path) -> Result<RawTable> {
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .unwrap_or("")
+        .to_ascii_lowercase();
+    match ext.as_str() {
+        "csv" => read_csv(path),
+        "parquet" | "pq" => read_parquet(path),
+        other => Err(data_err(
+            path,
+            format!("unknown file type `.{other}`: use .csv, .parquet or .pq"),
+        )),
+    }
+}
+
+pub(crate) fn parse_cell(s: &str, missing: &[String]) -> std::result::Result<Option<f64>, ()> {
     let t = s.trim();
     if missing.iter().any(|m| m == t) {
         return Ok(None);

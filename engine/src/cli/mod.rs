@@ -5,6 +5,7 @@ mod completions;
 mod merge;
 mod plan;
 mod run;
+mod sketch;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -26,6 +27,7 @@ enum Verb {
     Run(run::Args),
     Check(check::Args),
     Merge(merge::Args),
+    Sketch(sketch::Args),
     Completions(completions::Args),
 }
 
@@ -52,6 +54,7 @@ pub fn main() -> ExitCode {
         Verb::Run(a) => run::exec(a),
         Verb::Check(a) => check::exec(a),
         Verb::Merge(a) => merge::exec(a),
+        Verb::Sketch(a) => sketch::exec(a),
         Verb::Completions(a) => completions::exec(a),
     };
     match result {
