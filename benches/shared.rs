@@ -53,7 +53,7 @@ pub fn floor_kernel(passes: u64, order: &[usize], w: &[f64], y: &[f64]) -> (f64,
     std::hint::black_box((lw, lwy))
 }
 
-/// The forest's floor (our definition, stated in the README): for each node whose split
+/// The forest's floor (our definition, in benches/MEASUREMENTS.md): for each node whose split
 /// the forest searched, one pass over that node's rows (`scans`: rows, indicators) per
 /// indicator scanned there, accumulating each row's weight and weighted outcome (less than
 /// an exact split search can do, which also scores candidates: see the search floor). The
@@ -78,7 +78,7 @@ pub fn floor_kernel_per_node(
     std::hint::black_box((lw, lwy))
 }
 
-/// The forest's search floor (our definition, stated in the README): the accumulation floor
+/// The forest's search floor (our definition, in benches/MEASUREMENTS.md): the accumulation floor
 /// above plus what an exact split search cannot skip, scoring every candidate threshold.
 /// For each node the forest searched, one pass over the node's rows per indicator scanned
 /// there, each pass in another indicator's sorted order (the first n rows of it, as the

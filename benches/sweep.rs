@@ -51,7 +51,7 @@ fn stages(c: &mut Criterion) {
     g.finish();
 }
 
-/// The forest against its floor. Floor (our definition, stated in the README): one pass
+/// The forest against its floor. Floor (our definition, in benches/MEASUREMENTS.md): one pass
 /// over a node's rows per indicator tried there, accumulating the weight and weighted
 /// outcome of each row (less than a split search can do: it must also score candidates,
 /// which the search floor adds); the forest's grower records its searches (`Tree::scans`),

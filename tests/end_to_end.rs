@@ -166,7 +166,7 @@ fn plan_prints_dimensions_counts_and_estimate() {
 
 #[test]
 fn help_on_every_verb() {
-    for verb in ["plan", "run", "check", "merge", "completions"] {
+    for verb in ["plan", "run", "check", "gather", "completions"] {
         let st = Command::new(env!("CARGO_BIN_EXE_forkmap"))
             .args([verb, "--help"])
             .output()

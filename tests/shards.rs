@@ -1,5 +1,5 @@
 //! Shards: `--shard I/N` splits the specs deterministically; `check` reports a shard set's
-//! completeness; `merge` joins a complete set into exactly the single-machine run (all four
+//! completeness; `gather` joins a complete set into exactly the single-machine run (all four
 //! tables, bit for bit, seconds columns aside), including the deferred permutation pass.
 
 use crate::common::root;
@@ -89,7 +89,7 @@ fn spec_ids(out: &Path) -> Vec<String> {
 }
 
 #[test]
-fn two_and_three_shards_merge_into_the_single_run() {
+fn two_and_three_shards_gather_into_the_single_run() {
     let tmp = tempfile::tempdir().unwrap();
     let cfg = config(tmp.path(), 11);
     let single = tmp.path().join("single");
@@ -122,15 +122,15 @@ fn two_and_three_shards_merge_into_the_single_run() {
             "{report}"
         );
         assert!(report.contains("pending"), "{report}");
-        let merged = tmp.path().join(format!("merged{n}"));
+        let gathered = tmp.path().join(format!("gathered{n}"));
         ok(&forkmap(&[
-            "merge".as_ref(),
+            "gather".as_ref(),
             base.as_os_str(),
             "--out".as_ref(),
-            merged.as_os_str(),
+            gathered.as_os_str(),
             "--quiet".as_ref(),
         ]));
-        let got = fingerprint(&merged);
+        let got = fingerprint(&gathered);
         for (t, (g, w)) in ["specs", "predictions", "loadings", "importance"]
             .iter()
             .zip(got.iter().zip(&want))
@@ -139,13 +139,13 @@ fn two_and_three_shards_merge_into_the_single_run() {
             assert!(g == w, "{n} shards: {t} differs from the single run");
         }
         let m: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(merged.join("manifest.json")).unwrap())
+            serde_json::from_str(&std::fs::read_to_string(gathered.join("manifest.json")).unwrap())
                 .unwrap();
         assert_eq!(m["status"], "complete");
         assert_eq!(m["shard"], serde_json::Value::Null);
-        assert_eq!(m["merged_from"].as_array().unwrap().len(), n);
-        // The merged run is itself a complete run.
-        let report = ok(&forkmap(&["check".as_ref(), merged.as_os_str()]));
+        assert_eq!(m["gathered_from"].as_array().unwrap().len(), n);
+        // The gathered run is itself a complete run.
+        let report = ok(&forkmap(&["check".as_ref(), gathered.as_os_str()]));
         assert!(report.contains("whole space"), "{report}");
     }
 }
@@ -170,12 +170,12 @@ fn incomplete_duplicated_and_foreign_shard_sets_are_reported_and_refused() {
         text.contains("missing    shard 2/3") && text.contains("incomplete"),
         "{text}"
     );
-    let merged = tmp.path().join("merged");
+    let gathered = tmp.path().join("gathered");
     let o = forkmap(&[
-        "merge".as_ref(),
+        "gather".as_ref(),
         base.as_os_str(),
         "--out".as_ref(),
-        merged.as_os_str(),
+        gathered.as_os_str(),
     ]);
     let err = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(2), "{err}");
@@ -183,14 +183,14 @@ fn incomplete_duplicated_and_foreign_shard_sets_are_reported_and_refused() {
         err.contains("not complete") && err.contains("shard 2/3"),
         "{err}"
     );
-    assert!(!merged.exists(), "a refused merge wrote its output");
+    assert!(!gathered.exists(), "a refused gather wrote its output");
     assert!(
         std::fs::read_dir(tmp.path()).unwrap().all(|e| !e
             .unwrap()
             .file_name()
             .to_string_lossy()
-            .contains("merge")),
-        "a refused merge left a temporary folder"
+            .contains("gather")),
+        "a refused gather left a temporary folder"
     );
 
     // Shard 1 run twice into two folders: its specs are duplicated.

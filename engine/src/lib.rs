@@ -1,4 +1,4 @@
-//! forkmap: multiverse-style sensitivity sweeps on small panels.
+//! forkmap: map how a small panel's findings depend on the analysis choices made.
 //!
 //! Data flows one way: [`config`] -> [`space`] (specs with stable ids) -> [`sweep`] (a
 //! stage tree over [`folds`], [`stages`] fitted in-fold and shared) -> [`models`] ->
@@ -8,8 +8,8 @@
 pub mod config;
 pub mod error;
 pub mod folds;
+pub mod gather;
 pub mod importance;
-pub mod merge;
 pub mod metrics;
 pub mod models;
 pub mod panel;

@@ -5,14 +5,15 @@
 //! ([`Panel::new`]) or derived from another (permuted outcome, subset of units), which is
 //! what later verbs (permutation null, nested estimates) need.
 
-use crate::config::{Config, IndicatorSelection};
+use crate::config::{Config, DataSection, IndicatorSelection};
 use crate::error::{suggest, Error, Result};
-use arrow_array::{Array, RecordBatch};
-use arrow_schema::{DataType, Field, Schema};
 use ndarray::{Array1, Array2};
+use read::{read_csv, read_parquet};
+pub(crate) use read::{RawColumn, RawTable};
 use std::collections::{BTreeMap, HashMap};
 use std::path::Path;
-use std::sync::Arc;
+
+mod read;
 
 /// Codebook entry of one indicator.
 #[derive(Debug, Clone, PartialEq)]
@@ -133,211 +134,11 @@ impl Panel {
     }
 }
 
-/// One column as read from a file, before typing.
-pub(crate) enum RawColumn {
-    Text(Vec<Option<String>>),
-    Number(Vec<Option<f64>>),
-}
-
-pub(crate) struct RawTable {
-    pub(crate) names: Vec<String>,
-    pub(crate) columns: Vec<RawColumn>,
-    /// How to name data row i (0-based) in a message.
-    csv: bool,
-}
-
-impl RawTable {
-    fn where_row(&self, i: usize) -> String {
-        if self.csv {
-            format!("row {} (line {})", i + 1, i + 2)
-        } else {
-            format!("row {}", i + 1)
-        }
-    }
-    pub(crate) fn n_rows(&self) -> usize {
-        match self.columns.first() {
-            Some(RawColumn::Text(v)) => v.len(),
-            Some(RawColumn::Number(v)) => v.len(),
-            None => 0,
-        }
-    }
-}
-
 fn data_err(file: &Path, msg: impl Into<String>) -> Error {
     Error::Data {
         file: file.display().to_string(),
         msg: msg.into(),
     }
-}
-
-/// Check that CSV bytes are UTF-8 text and return them without a UTF-8 byte-order mark.
-/// UTF-16 files, spreadsheets saved under a .csv name and other encodings are refused with
-/// the line at fault.
-fn utf8_text<'a>(path: &Path, bytes: &'a [u8]) -> Result<&'a [u8]> {
-    if bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]) {
-        return Err(data_err(
-            path,
-            "the file is UTF-16 text (it starts with a UTF-16 byte-order mark): save it as UTF-8 CSV",
-        ));
-    }
-    if bytes.starts_with(b"PK\x03\x04") || bytes.starts_with(&[0xD0, 0xCF, 0x11, 0xE0]) {
-        return Err(data_err(
-            path,
-            "the file is a spreadsheet or archive, not CSV text: export the sheet as UTF-8 CSV",
-        ));
-    }
-    let body = bytes.strip_prefix(&[0xEF, 0xBB, 0xBF]).unwrap_or(bytes);
-    if let Err(e) = std::str::from_utf8(body) {
-        let at = e.valid_up_to();
-        let line = 1 + body[..at].iter().filter(|&&b| b == b'\n').count();
-        let start = body[..at]
-            .iter()
-            .rposition(|&b| b == b'\n')
-            .map_or(0, |i| i + 1);
-        return Err(data_err(
-            path,
-            format!(
-                "line {line} is not UTF-8 text (byte 0x{:02X} at character {} of the line; a Latin-1 or Windows-1252 file?): save the file as UTF-8",
-                body[at],
-                1 + String::from_utf8_lossy(&body[start..at]).chars().count()
-            ),
-        ));
-    }
-    if let Some(i) = body.iter().position(|&b| b == 0) {
-        let line = 1 + body[..i].iter().filter(|&&b| b == b'\n').count();
-        return Err(data_err(
-            path,
-            format!("line {line} holds a NUL byte: this is not a text file"),
-        ));
-    }
-    Ok(body)
-}
-
-fn read_csv(path: &Path) -> Result<RawTable> {
-    let bytes = std::fs::read(path).map_err(|e| data_err(path, format!("cannot open: {e}")))?;
-    if bytes.is_empty() {
-        return Err(data_err(
-            path,
-            "the file is empty (expected a header row and data rows)",
-        ));
-    }
-    let text = utf8_text(path, &bytes)?;
-    let open = || Ok::<_, Error>(std::io::Cursor::new(text));
-    let format = arrow_csv::reader::Format::default().with_header(true);
-    let (schema, _) = format
-        .infer_schema(open()?, Some(0))
-        .map_err(|e| data_err(path, format!("cannot read the header: {e}")))?;
-    let names: Vec<String> = schema.fields().iter().map(|f| f.name().clone()).collect();
-    check_names(path, &names)?;
-    let fields: Vec<Field> = names
-        .iter()
-        .map(|n| Field::new(n, DataType::Utf8, true))
-        .collect();
-    let reader = arrow_csv::ReaderBuilder::new(Arc::new(Schema::new(fields)))
-        .with_header(true)
-        .with_batch_size(4096)
-        .build(open()?)
-        .map_err(|e| data_err(path, e.to_string()))?;
-    let mut cols: Vec<Vec<Option<String>>> = vec![Vec::new(); names.len()];
-    for batch in reader {
-        let batch = batch.map_err(|e| data_err(path, e.to_string()))?;
-        for (j, col) in cols.iter_mut().enumerate() {
-            let a = batch
-                .column(j)
-                .as_any()
-                .downcast_ref::<arrow_array::StringArray>()
-                .ok_or_else(|| data_err(path, "internal: CSV column is not text"))?;
-            col.extend(a.iter().map(|v| v.map(str::to_string)));
-        }
-    }
-    Ok(RawTable {
-        names,
-        columns: cols.into_iter().map(RawColumn::Text).collect(),
-        csv: true,
-    })
-}
-
-fn read_parquet(path: &Path) -> Result<RawTable> {
-    let file =
-        std::fs::File::open(path).map_err(|e| data_err(path, format!("cannot open: {e}")))?;
-    let builder = parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder::try_new(file)
-        .map_err(|e| data_err(path, format!("not a readable Parquet file: {e}")))?;
-    let names: Vec<String> = builder
-        .schema()
-        .fields()
-        .iter()
-        .map(|f| f.name().clone())
-        .collect();
-    check_names(path, &names)?;
-    let reader = builder.build().map_err(|e| data_err(path, e.to_string()))?;
-    let mut batches: Vec<RecordBatch> = Vec::new();
-    for b in reader {
-        batches.push(b.map_err(|e| data_err(path, e.to_string()))?);
-    }
-    let mut columns = Vec::with_capacity(names.len());
-    for (j, name) in names.iter().enumerate() {
-        let dt = batches
-            .first()
-            .map(|b| b.column(j).data_type().clone())
-            .unwrap_or(DataType::Utf8);
-        if dt.is_numeric() {
-            let mut v = Vec::new();
-            for b in &batches {
-                let c = arrow_cast::cast(b.column(j), &DataType::Float64)
-                    .map_err(|e| data_err(path, format!("column `{name}`: {e}")))?;
-                let c = c
-                    .as_any()
-                    .downcast_ref::<arrow_array::Float64Array>()
-                    .ok_or_else(|| data_err(path, "internal: cast to f64 failed"))?;
-                v.extend(c.iter());
-            }
-            columns.push(RawColumn::Number(v));
-        } else {
-            let mut v = Vec::new();
-            for b in &batches {
-                let c = arrow_cast::cast(b.column(j), &DataType::Utf8).map_err(|e| {
-                    data_err(
-                        path,
-                        format!("column `{name}` of type {dt} cannot be read: {e}"),
-                    )
-                })?;
-                let c = c
-                    .as_any()
-                    .downcast_ref::<arrow_array::StringArray>()
-                    .ok_or_else(|| data_err(path, "internal: cast to text failed"))?;
-                v.extend(c.iter().map(|s| s.map(str::to_string)));
-            }
-            columns.push(RawColumn::Text(v));
-        }
-    }
-    Ok(RawTable {
-        names,
-        columns,
-        csv: false,
-    })
-}
-
-fn check_names(path: &Path, names: &[String]) -> Result<()> {
-    let mut seen: HashMap<&str, usize> = HashMap::new();
-    for (j, n) in names.iter().enumerate() {
-        if n.trim().is_empty() {
-            return Err(data_err(
-                path,
-                format!("column {} has an empty name", j + 1),
-            ));
-        }
-        if let Some(first) = seen.insert(n.as_str(), j) {
-            return Err(data_err(
-                path,
-                format!(
-                    "column name `{n}` appears twice (columns {} and {})",
-                    first + 1,
-                    j + 1
-                ),
-            ));
-        }
-    }
-    Ok(())
 }
 
 /// Read the config's data file (and codebook) into a validated panel.
@@ -383,113 +184,192 @@ pub(crate) fn parse_cell(s: &str, missing: &[String]) -> std::result::Result<Opt
     t.parse::<f64>().map(Some).map_err(|_| ())
 }
 
+/// Type a raw table into a validated panel, in the order a reader meets the faults: the
+/// named columns, the units and waves, the outcome, the standard error, the indicators.
 fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
     let d = &cfg.data;
-    let col_index = |name: &str, role: &str| -> Result<usize> {
+    let intake = Intake { d, path, t };
+    let roles = intake.roles()?;
+    if t.n_rows() == 0 {
+        return Err(data_err(path, "the file has a header but no data rows"));
+    }
+    let (units, waves) = intake.units_and_waves(&roles)?;
+    intake.check_unique_keys(&units, &waves)?;
+    let y = intake.outcome(roles.outcome)?;
+    let se = roles
+        .standard_error
+        .map(|j| intake.standard_error(j))
+        .transpose()?;
+    let chosen = intake.chosen_indicators(&roles)?;
+    let (x, names) = intake.indicator_matrix(&chosen)?;
+    let mut panel = Panel::new(units, waves, y, x, names)?;
+    panel.se = se;
+    panel.outcome_scale = d.outcome_kind.scale();
+    Ok(panel)
+}
+
+/// The columns the data section names, by position.
+struct Roles {
+    unit: usize,
+    outcome: usize,
+    wave: Option<usize>,
+    standard_error: Option<usize>,
+}
+
+impl Roles {
+    /// The unit, wave, outcome and standard-error columns (never indicators).
+    fn named(&self) -> Vec<usize> {
+        [
+            Some(self.unit),
+            Some(self.outcome),
+            self.wave,
+            self.standard_error,
+        ]
+        .into_iter()
+        .flatten()
+        .collect()
+    }
+}
+
+/// A raw table read against the config's data section; every message names the file and
+/// the row, column or cell at fault.
+struct Intake<'a> {
+    d: &'a DataSection,
+    path: &'a Path,
+    t: &'a RawTable,
+}
+
+impl Intake<'_> {
+    /// The column called `name`, or an error naming its `role` and the closest name.
+    fn col_index(&self, name: &str, role: &str) -> Result<usize> {
+        let t = self.t;
         t.names.iter().position(|n| n == name).ok_or_else(|| {
             data_err(
-                path,
+                self.path,
                 format!(
                     "{role} column `{name}` not found{}",
                     suggest(name, t.names.iter().map(String::as_str))
                 ),
             )
         })
-    };
-    let unit_j = col_index(&d.unit, "unit")?;
-    let outcome_j = col_index(&d.outcome, "outcome")?;
-    let wave_j = d
-        .wave
-        .as_deref()
-        .map(|w| col_index(w, "wave"))
-        .transpose()?;
-    let se_j = d
-        .standard_error
-        .as_deref()
-        .map(|c| col_index(c, "standard error"))
-        .transpose()?;
-    for ig in &d.ignore {
-        col_index(ig, "ignored")?;
-    }
-    let n = t.n_rows();
-    if n == 0 {
-        return Err(data_err(path, "the file has a header but no data rows"));
     }
 
-    let text_of = |j: usize, i: usize| -> Option<String> {
-        match &t.columns[j] {
+    /// Find the named columns; every ignored column must exist too.
+    fn roles(&self) -> Result<Roles> {
+        let d = self.d;
+        let unit = self.col_index(&d.unit, "unit")?;
+        let outcome = self.col_index(&d.outcome, "outcome")?;
+        let wave = d
+            .wave
+            .as_deref()
+            .map(|w| self.col_index(w, "wave"))
+            .transpose()?;
+        let standard_error = d
+            .standard_error
+            .as_deref()
+            .map(|c| self.col_index(c, "standard error"))
+            .transpose()?;
+        for ig in &d.ignore {
+            self.col_index(ig, "ignored")?;
+        }
+        Ok(Roles {
+            unit,
+            outcome,
+            wave,
+            standard_error,
+        })
+    }
+
+    fn text_of(&self, j: usize, i: usize) -> Option<String> {
+        match &self.t.columns[j] {
             RawColumn::Text(v) => v[i].clone(),
             RawColumn::Number(v) => v[i].map(|x| x.to_string()),
         }
-    };
-    // Units and waves.
-    let mut units = Vec::with_capacity(n);
-    let mut waves = Vec::with_capacity(n);
-    for i in 0..n {
-        let u = text_of(unit_j, i)
-            .map(|s| s.trim().to_string())
-            .unwrap_or_default();
-        if u.is_empty() {
-            return Err(data_err(
-                path,
-                format!("{}: unit column `{}` is empty", t.where_row(i), d.unit),
-            ));
-        }
-        units.push(u);
-        let w = match wave_j {
-            Some(j) => {
-                let w = text_of(j, i)
-                    .map(|s| s.trim().to_string())
-                    .unwrap_or_default();
-                if w.is_empty() {
-                    return Err(data_err(
-                        path,
-                        format!(
-                            "{}: wave column `{}` is empty",
-                            t.where_row(i),
-                            d.wave.as_deref().unwrap_or("")
-                        ),
-                    ));
-                }
-                Some(w)
-            }
-            None => None,
-        };
-        waves.push(w);
-    }
-    let mut seen: HashMap<(&str, Option<&str>), usize> = HashMap::new();
-    for i in 0..n {
-        if let Some(first) = seen.insert((units[i].as_str(), waves[i].as_deref()), i) {
-            let what = match &waves[i] {
-                Some(w) => format!("unit `{}` wave `{w}`", units[i]),
-                None => format!("unit `{}` (no wave column is declared)", units[i]),
-            };
-            return Err(data_err(
-                path,
-                format!(
-                    "{what} appears twice: {} and {}",
-                    t.where_row(first),
-                    t.where_row(i)
-                ),
-            ));
-        }
     }
 
-    // A numeric column, with precise messages.
-    let numeric = |j: usize| -> std::result::Result<Vec<Option<f64>>, (usize, String)> {
-        match &t.columns[j] {
+    /// Each row's unit and wave (trimmed; neither may be empty).
+    fn units_and_waves(&self, roles: &Roles) -> Result<(Vec<String>, Vec<Option<String>>)> {
+        let (d, path, t) = (self.d, self.path, self.t);
+        let n = t.n_rows();
+        let mut units = Vec::with_capacity(n);
+        let mut waves = Vec::with_capacity(n);
+        for i in 0..n {
+            let u = self
+                .text_of(roles.unit, i)
+                .map(|s| s.trim().to_string())
+                .unwrap_or_default();
+            if u.is_empty() {
+                return Err(data_err(
+                    path,
+                    format!("{}: unit column `{}` is empty", t.where_row(i), d.unit),
+                ));
+            }
+            units.push(u);
+            let w = match roles.wave {
+                Some(j) => {
+                    let w = self
+                        .text_of(j, i)
+                        .map(|s| s.trim().to_string())
+                        .unwrap_or_default();
+                    if w.is_empty() {
+                        return Err(data_err(
+                            path,
+                            format!(
+                                "{}: wave column `{}` is empty",
+                                t.where_row(i),
+                                d.wave.as_deref().unwrap_or("")
+                            ),
+                        ));
+                    }
+                    Some(w)
+                }
+                None => None,
+            };
+            waves.push(w);
+        }
+        Ok((units, waves))
+    }
+
+    /// Unit + wave identifies a row (a unit alone without a wave column).
+    fn check_unique_keys(&self, units: &[String], waves: &[Option<String>]) -> Result<()> {
+        let t = self.t;
+        let mut seen: HashMap<(&str, Option<&str>), usize> = HashMap::new();
+        for i in 0..units.len() {
+            if let Some(first) = seen.insert((units[i].as_str(), waves[i].as_deref()), i) {
+                let what = match &waves[i] {
+                    Some(w) => format!("unit `{}` wave `{w}`", units[i]),
+                    None => format!("unit `{}` (no wave column is declared)", units[i]),
+                };
+                return Err(data_err(
+                    self.path,
+                    format!(
+                        "{what} appears twice: {} and {}",
+                        t.where_row(first),
+                        t.where_row(i)
+                    ),
+                ));
+            }
+        }
+        Ok(())
+    }
+
+    /// A numeric column (gaps as `None`), or the first cell that is not a number.
+    fn numeric(&self, j: usize) -> std::result::Result<Vec<Option<f64>>, (usize, String)> {
+        match &self.t.columns[j] {
             RawColumn::Number(v) => Ok(v.iter().map(|x| x.filter(|x| !x.is_nan())).collect()),
             RawColumn::Text(v) => v
                 .iter()
                 .enumerate()
                 .map(|(i, c)| match c {
                     None => Ok(None),
-                    Some(s) => parse_cell(s, &d.missing).map_err(|_| (i, s.clone())),
+                    Some(s) => parse_cell(s, &self.d.missing).map_err(|_| (i, s.clone())),
                 })
                 .collect(),
         }
-    };
-    let not_number = |j: usize, i: usize, s: &str| {
+    }
+
+    /// The error for cell `s` of row `i`, column `j`, which is not a number, with a hint.
+    fn not_number(&self, j: usize, i: usize, s: &str) -> Error {
         let hint = if s.contains(',') {
             " (thousands separators and decimal commas are not read; write 1234.5)"
         } else if s.starts_with('"') || s.starts_with('\'') {
@@ -498,175 +378,201 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
             ""
         };
         data_err(
-            path,
+            self.path,
             format!(
                 "{}, column `{}`: `{s}` is not a number{hint}",
-                t.where_row(i),
-                t.names[j]
+                self.t.where_row(i),
+                self.t.names[j]
             ),
         )
-    };
-
-    let y_raw = numeric(outcome_j).map_err(|(i, s)| not_number(outcome_j, i, &s))?;
-    let mut y = Array1::zeros(n);
-    for (i, v) in y_raw.iter().enumerate() {
-        match v {
-            Some(v) if v.is_finite() => y[i] = *v,
-            Some(v) => {
-                return Err(data_err(
-                    path,
-                    format!(
-                        "{}, outcome `{}` is {v}: outcomes must be finite",
-                        t.where_row(i),
-                        d.outcome
-                    ),
-                ))
-            }
-            None => {
-                return Err(data_err(
-                    path,
-                    format!(
-                    "{}, outcome `{}` is missing: remove rows without an outcome before the sweep",
-                    t.where_row(i),
-                    d.outcome
-                ),
-                ))
-            }
-        }
     }
 
-    // Indicator columns.
-    let named: Vec<usize> = [Some(unit_j), Some(outcome_j), wave_j, se_j]
-        .into_iter()
-        .flatten()
-        .collect();
-    if let Some(scale) = d.outcome_kind.scale() {
-        if let Some(i) = y.iter().position(|v| *v < 0.0 || *v > scale) {
-            return Err(data_err(
-                path,
-                format!(
-                    "{}, outcome `{}` is {}: data.outcome_kind declares values in [0, {scale}]",
-                    t.where_row(i),
-                    d.outcome,
-                    y[i]
-                ),
-            ));
-        }
+    /// A column that must be numeric.
+    fn numeric_column(&self, j: usize) -> Result<Vec<Option<f64>>> {
+        self.numeric(j).map_err(|(i, s)| self.not_number(j, i, &s))
     }
-    let se = match se_j {
-        None => None,
-        Some(j) => {
-            let v = numeric(j).map_err(|(i, s)| not_number(j, i, &s))?;
-            let mut out = Array1::zeros(n);
-            for (i, c) in v.iter().enumerate() {
-                match c {
-                    Some(s) if s.is_finite() && *s > 0.0 => out[i] = *s,
-                    _ => {
-                        return Err(data_err(
-                            path,
-                            format!(
-                                "{}, standard error `{}` must be a positive number",
-                                t.where_row(i),
-                                t.names[j]
-                            ),
-                        ))
-                    }
-                }
-            }
-            Some(out)
-        }
-    };
-    let mut chosen: Vec<(usize, Vec<Option<f64>>)> = Vec::new();
-    match &d.indicators {
-        IndicatorSelection::List(list) => {
-            if list.is_empty() {
-                return Err(data_err(path, "data.indicators is an empty list"));
-            }
-            for name in list {
-                let j = col_index(name, "indicator")?;
-                if named.contains(&j) {
-                    return Err(data_err(path, format!("`{name}` is the unit, wave or outcome column and cannot be an indicator")));
-                }
-                let v = numeric(j).map_err(|(i, s)| not_number(j, i, &s))?;
-                chosen.push((j, v));
-            }
-        }
-        _ => {
-            for j in 0..t.names.len() {
-                if named.contains(&j) || d.ignore.contains(&t.names[j]) {
-                    continue;
-                }
-                match numeric(j) {
-                    Ok(v) => chosen.push((j, v)),
-                    Err((i, s)) => {
-                        // A text column (labels, names) is skipped; a mostly numeric column
-                        // with a stray cell is an error, not a silent drop.
-                        let parsed = match &t.columns[j] {
-                            RawColumn::Text(v) => v
-                                .iter()
-                                .flatten()
-                                .filter(|c| parse_cell(c, &d.missing).ok().flatten().is_some())
-                                .count(),
-                            RawColumn::Number(_) => 0,
-                        };
-                        if parsed * 2 > n {
-                            return Err(not_number(j, i, &s));
-                        }
-                        tracing::info!("column `{}` is not numeric: not an indicator", t.names[j]);
-                    }
-                }
-            }
-            if chosen.is_empty() {
-                return Err(data_err(path, "no numeric indicator columns found"));
-            }
-        }
-    }
-    let p = chosen.len();
-    let mut x = Array2::from_elem((n, p), f64::NAN);
-    let mut names = Vec::with_capacity(p);
-    for (k, (j, v)) in chosen.iter().enumerate() {
-        let name = &t.names[*j];
-        let mut present = 0usize;
-        let mut first: Option<f64> = None;
-        let mut constant = true;
-        for (i, c) in v.iter().enumerate() {
-            if let Some(val) = c {
-                if !val.is_finite() {
+
+    /// The outcome: present and finite on every row, and inside the range
+    /// `data.outcome_kind` declares.
+    fn outcome(&self, j: usize) -> Result<Array1<f64>> {
+        let (d, path, t) = (self.d, self.path, self.t);
+        let y_raw = self.numeric_column(j)?;
+        let mut y = Array1::zeros(t.n_rows());
+        for (i, v) in y_raw.iter().enumerate() {
+            match v {
+                Some(v) if v.is_finite() => y[i] = *v,
+                Some(v) => {
                     return Err(data_err(
                         path,
                         format!(
-                            "{}, column `{name}`: value {val} is not finite",
-                            t.where_row(i)
+                            "{}, outcome `{}` is {v}: outcomes must be finite",
+                            t.where_row(i),
+                            d.outcome
                         ),
-                    ));
+                    ))
                 }
-                if val.abs() > 1e150 {
-                    return Err(data_err(path, format!("{}, column `{name}`: value {val:e} is too large to use safely (|x| > 1e150)", t.where_row(i))));
+                None => {
+                    return Err(data_err(
+                        path,
+                        format!(
+                        "{}, outcome `{}` is missing: remove rows without an outcome before the sweep",
+                        t.where_row(i),
+                        d.outcome
+                    ),
+                    ))
                 }
-                present += 1;
-                match first {
-                    None => first = Some(*val),
-                    Some(f) if f != *val => constant = false,
-                    _ => {}
-                }
-                x[[i, k]] = *val;
             }
         }
-        if present == 0 {
-            return Err(data_err(
-                path,
-                format!("indicator `{name}` is missing in every row: list it under data.ignore"),
-            ));
+        if let Some(scale) = d.outcome_kind.scale() {
+            if let Some(i) = y.iter().position(|v| *v < 0.0 || *v > scale) {
+                return Err(data_err(
+                    path,
+                    format!(
+                        "{}, outcome `{}` is {}: data.outcome_kind declares values in [0, {scale}]",
+                        t.where_row(i),
+                        d.outcome,
+                        y[i]
+                    ),
+                ));
+            }
         }
-        if constant {
-            return Err(data_err(path, format!("indicator `{name}` has one value in every row: it cannot explain anything; list it under data.ignore")));
-        }
-        names.push(name.clone());
+        Ok(y)
     }
-    let mut panel = Panel::new(units, waves, y, x, names)?;
-    panel.se = se;
-    panel.outcome_scale = d.outcome_kind.scale();
-    Ok(panel)
+
+    /// The outcome's standard error: a positive number on every row.
+    fn standard_error(&self, j: usize) -> Result<Array1<f64>> {
+        let t = self.t;
+        let v = self.numeric_column(j)?;
+        let mut out = Array1::zeros(t.n_rows());
+        for (i, c) in v.iter().enumerate() {
+            match c {
+                Some(s) if s.is_finite() && *s > 0.0 => out[i] = *s,
+                _ => {
+                    return Err(data_err(
+                        self.path,
+                        format!(
+                            "{}, standard error `{}` must be a positive number",
+                            t.where_row(i),
+                            t.names[j]
+                        ),
+                    ))
+                }
+            }
+        }
+        Ok(out)
+    }
+
+    /// The indicator columns with their cells: the listed ones, or with `"auto"` every
+    /// numeric column not named elsewhere or ignored (a text column is skipped; a mostly
+    /// numeric column with a stray cell is an error).
+    fn chosen_indicators(&self, roles: &Roles) -> Result<Vec<(usize, Vec<Option<f64>>)>> {
+        let (d, path, t) = (self.d, self.path, self.t);
+        let n = t.n_rows();
+        let named = roles.named();
+        let mut chosen: Vec<(usize, Vec<Option<f64>>)> = Vec::new();
+        match &d.indicators {
+            IndicatorSelection::List(list) => {
+                if list.is_empty() {
+                    return Err(data_err(path, "data.indicators is an empty list"));
+                }
+                for name in list {
+                    let j = self.col_index(name, "indicator")?;
+                    if named.contains(&j) {
+                        return Err(data_err(path, format!("`{name}` is the unit, wave or outcome column and cannot be an indicator")));
+                    }
+                    let v = self.numeric_column(j)?;
+                    chosen.push((j, v));
+                }
+            }
+            _ => {
+                for j in 0..t.names.len() {
+                    if named.contains(&j) || d.ignore.contains(&t.names[j]) {
+                        continue;
+                    }
+                    match self.numeric(j) {
+                        Ok(v) => chosen.push((j, v)),
+                        Err((i, s)) => {
+                            // A text column (labels, names) is skipped; a mostly numeric column
+                            // with a stray cell is an error, not a silent drop.
+                            let parsed = match &t.columns[j] {
+                                RawColumn::Text(v) => v
+                                    .iter()
+                                    .flatten()
+                                    .filter(|c| parse_cell(c, &d.missing).ok().flatten().is_some())
+                                    .count(),
+                                RawColumn::Number(_) => 0,
+                            };
+                            if parsed * 2 > n {
+                                return Err(self.not_number(j, i, &s));
+                            }
+                            tracing::info!(
+                                "column `{}` is not numeric: not an indicator",
+                                t.names[j]
+                            );
+                        }
+                    }
+                }
+                if chosen.is_empty() {
+                    return Err(data_err(path, "no numeric indicator columns found"));
+                }
+            }
+        }
+        Ok(chosen)
+    }
+
+    /// The indicator matrix (NaN for a gap) and names; every value finite and at most
+    /// 1e150 in magnitude, and no indicator missing everywhere or constant.
+    fn indicator_matrix(
+        &self,
+        chosen: &[(usize, Vec<Option<f64>>)],
+    ) -> Result<(Array2<f64>, Vec<String>)> {
+        let (path, t) = (self.path, self.t);
+        let (n, p) = (t.n_rows(), chosen.len());
+        let mut x = Array2::from_elem((n, p), f64::NAN);
+        let mut names = Vec::with_capacity(p);
+        for (k, (j, v)) in chosen.iter().enumerate() {
+            let name = &t.names[*j];
+            let mut present = 0usize;
+            let mut first: Option<f64> = None;
+            let mut constant = true;
+            for (i, c) in v.iter().enumerate() {
+                if let Some(val) = c {
+                    if !val.is_finite() {
+                        return Err(data_err(
+                            path,
+                            format!(
+                                "{}, column `{name}`: value {val} is not finite",
+                                t.where_row(i)
+                            ),
+                        ));
+                    }
+                    if val.abs() > 1e150 {
+                        return Err(data_err(path, format!("{}, column `{name}`: value {val:e} is too large to use safely (|x| > 1e150)", t.where_row(i))));
+                    }
+                    present += 1;
+                    match first {
+                        None => first = Some(*val),
+                        Some(f) if f != *val => constant = false,
+                        _ => {}
+                    }
+                    x[[i, k]] = *val;
+                }
+            }
+            if present == 0 {
+                return Err(data_err(
+                    path,
+                    format!(
+                        "indicator `{name}` is missing in every row: list it under data.ignore"
+                    ),
+                ));
+            }
+            if constant {
+                return Err(data_err(path, format!("indicator `{name}` has one value in every row: it cannot explain anything; list it under data.ignore")));
+            }
+            names.push(name.clone());
+        }
+        Ok((x, names))
+    }
 }
 
 /// Read a codebook CSV with columns `indicator`, `group`, `label` (others ignored).

@@ -228,7 +228,7 @@ impl RunSet {
         &self.dirs[0].manifest
     }
 
-    /// Whether any directory deferred its permutation importances to the merge.
+    /// Whether any directory deferred its permutation importances to `gather`.
     pub fn importance_pending(&self) -> bool {
         self.dirs
             .iter()
@@ -288,7 +288,7 @@ impl RunSet {
         c
     }
 
-    /// (directory, part file name) of every complete batch, in merge order.
+    /// (directory, part file name) of every complete batch, in the order `gather` copies them.
     pub fn parts(&self) -> Vec<(&Path, &str)> {
         self.dirs
             .iter()

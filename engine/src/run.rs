@@ -404,7 +404,7 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         .max_by(|a, b| a.1.total_cmp(&b.1))
         .map(|&(si, sk)| (p.space.specs[si].id.clone(), sk));
     // The deferred permutation pass needs the best skill of the whole space, which a
-    // shard does not know: `forkmap merge` runs it over the merged shards.
+    // shard does not know: `forkmap gather` runs it over the gathered shards.
     let pending = imp.deferred() && opts.shard.is_some();
     let importance_specs = if pending {
         serde_json::Value::Null

@@ -1,5 +1,5 @@
 //! Shards: a deterministic, cost-balanced split of a choice space into N parts, so that N
-//! machines (or N tasks of a Slurm job array) each run one part and the parts merge into
+//! machines (or N tasks of a Slurm job array) each run one part and `gather` joins the parts into
 //! exactly the run one machine would have made.
 //!
 //! Each spec gets an expected cost from its model family's cost function (see

@@ -36,7 +36,7 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         println!("{line}");
     }
     if set.importance_pending() {
-        println!("importance permutation pass pending: `forkmap merge` runs it");
+        println!("importance permutation pass pending: `forkmap gather` runs it");
     }
     if c.is_complete() {
         println!("complete");

@@ -2,7 +2,7 @@
 
 mod check;
 mod completions;
-mod merge;
+mod gather;
 mod plan;
 mod run;
 mod sketch;
@@ -10,7 +10,7 @@ mod sketch;
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
 
-/// Multiverse-style sensitivity sweeps on small panels.
+/// Map how a small panel's findings depend on the analysis choices made.
 #[derive(Parser)]
 #[command(name = "forkmap", version, about, long_about = None)]
 pub struct Cli {
@@ -26,7 +26,7 @@ enum Verb {
     Plan(plan::Args),
     Run(run::Args),
     Check(check::Args),
-    Merge(merge::Args),
+    Gather(gather::Args),
     Sketch(sketch::Args),
     Completions(completions::Args),
 }
@@ -53,7 +53,7 @@ pub fn main() -> ExitCode {
         Verb::Plan(a) => plan::exec(a),
         Verb::Run(a) => run::exec(a),
         Verb::Check(a) => check::exec(a),
-        Verb::Merge(a) => merge::exec(a),
+        Verb::Gather(a) => gather::exec(a),
         Verb::Sketch(a) => sketch::exec(a),
         Verb::Completions(a) => completions::exec(a),
     };

@@ -7,7 +7,7 @@
 //! specs in complete parts are skipped, the rest run. A RUN_DIR holding a run of another
 //! config, data file or forkmap version is refused unless `--restart` (which discards it);
 //! a non-empty folder that holds no forkmap run is always refused. With `--shard I/N` only
-//! shard I of a deterministic, cost-balanced split into N runs (`forkmap merge` joins the
+//! shard I of a deterministic, cost-balanced split into N runs (`forkmap gather` joins the
 //! shards; `forkmap check` reports what is missing). Exit code 0 when the sweep completed
 //! (failed specs are recorded and counted), 2 on an error.
 
@@ -32,7 +32,7 @@ pub struct Args {
     #[arg(long)]
     restart: bool,
     /// Run only shard I of N (1-based), a deterministic cost-balanced share of the specs;
-    /// `forkmap merge` joins the shards.
+    /// `forkmap gather` joins the shards.
     #[arg(long, value_name = "I/N")]
     shard: Option<forkmap::shard::Shard>,
 }

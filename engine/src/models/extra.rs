@@ -1,7 +1,7 @@
 //! Extremely randomised trees (Geurts, Ernst & Wehenkel 2006): like the forest, but every
 //! tree sees all training rows (no bootstrap, as scikit-learn's default) and each split
 //! tries one random threshold per candidate indicator. Hand-written on the weighted CART
-//! grower of `tree.rs` (no maintained crate takes row weights).
+//! grower of `tree/` (no maintained crate takes row weights).
 
 use super::forest::{tried_count, Ensemble, TREES};
 use super::tree::{Candidates, Grower, Presorted, TreeParams, MIN_LEAF};

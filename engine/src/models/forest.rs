@@ -1,4 +1,4 @@
-//! Random forest of weighted CART trees (see `tree.rs`): each tree is grown on a
+//! Random forest of weighted CART trees (see `tree/`): each tree is grown on a
 //! bootstrap sample of the training rows (drawn uniformly; a row drawn c times enters
 //! with weight c x its row weight, as scikit-learn implements bootstrapping), with a fresh
 //! random subset of indicators tried at each split: `tried` x p of the indicators that

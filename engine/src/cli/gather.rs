@@ -1,17 +1,17 @@
-//! `forkmap merge RUN... --out RUN_DIR [--config CONFIG] [--threads N] [--quiet]`
+//! `forkmap gather RUN... --out RUN_DIR [--config CONFIG] [--threads N] [--quiet]`
 //!
-//! Merge a complete set of shard directories (or a folder holding them) into one new run
+//! Gather a complete set of shard directories (or a folder holding them) into one new run
 //! directory, equal row for row to the run one machine would have made. Refused, with the
 //! completeness report, when a shard is missing or unfinished or a spec is in two
 //! directories; nothing is written then. When the config defers permutation importances
-//! (`importance.within`), the merge runs that pass over the whole space; it needs the
+//! (`importance.within`), gathering runs that pass over the whole space; it needs the
 //! config (`--config`, else the file named in the manifests) and the same data file.
 //! Exit code 0 on success, 2 on an error.
 
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-/// Merge shard directories into one run directory.
+/// Gather shard directories into one run directory.
 #[derive(clap::Args)]
 pub struct Args {
     /// Shard directories, or folders holding them.
@@ -33,16 +33,16 @@ pub struct Args {
 
 pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     let set = forkmap::results::RunSet::open(&a.runs)?;
-    let s = forkmap::merge::merge(
+    let s = forkmap::gather::gather(
         &set,
         &a.out,
-        &forkmap::merge::MergeOptions {
+        &forkmap::gather::GatherOptions {
             threads: super::threads(a.threads),
             quiet: a.quiet,
             config: a.config,
         },
     )?;
-    println!("merged     {} directories, {} parts", s.dirs, s.parts);
+    println!("gathered   {} directories, {} parts", s.dirs, s.parts);
     println!("specs      {}", s.specs);
     if let Some(n) = s.permutation_specs {
         println!("importance permutation pass over {n} specs");

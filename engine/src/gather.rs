@@ -1,10 +1,10 @@
-//! Merging a complete set of shard directories into one run directory that is, table by
+//! Gathering a complete set of shard directories into one run directory that is, table by
 //! table and row by row, the run a single machine would have made.
 //!
-//! The merge is all or nothing: parts are copied (renumbered) into a hidden sibling of the
+//! Gathering is all or nothing: parts are copied (renumbered) into a hidden sibling of the
 //! target, fsynced, the deferred permutation-importance pass (`importance.within`) runs
 //! there over the whole space, the manifest is written, and only then is the folder renamed
-//! into place. An interrupted merge leaves no target; running it again starts over.
+//! into place. An interrupted gather leaves no target; running it again starts over.
 
 use crate::error::{Error, Result};
 use crate::results::RunSet;
@@ -12,7 +12,7 @@ use crate::run::{prepare, sha256_file};
 use crate::sink::{write_bytes_atomic, TABLES};
 use std::path::{Path, PathBuf};
 
-pub struct MergeOptions {
+pub struct GatherOptions {
     pub threads: usize,
     pub quiet: bool,
     /// The sweep config, needed when the shards deferred permutation importances (else the
@@ -21,7 +21,7 @@ pub struct MergeOptions {
 }
 
 #[derive(Debug)]
-pub struct MergeSummary {
+pub struct GatherSummary {
     pub dirs: usize,
     pub specs: usize,
     pub parts: usize,
@@ -49,8 +49,8 @@ fn copy_synced(from: &Path, to: &Path) -> Result<()> {
         .map_err(|e| Error::io(to, e))
 }
 
-/// Merge `set` into the new run directory `out`.
-pub fn merge(set: &RunSet, out: &Path, opts: &MergeOptions) -> Result<MergeSummary> {
+/// Gather `set` into the new run directory `out`.
+pub fn gather(set: &RunSet, out: &Path, opts: &GatherOptions) -> Result<GatherSummary> {
     let c = set.completeness();
     if !c.is_complete() {
         return Err(out_err(
@@ -82,11 +82,11 @@ pub fn merge(set: &RunSet, out: &Path, opts: &MergeOptions) -> Result<MergeSumma
     if !parent.is_dir() {
         return Err(out_err(out, "its parent folder does not exist"));
     }
-    let tmp = parent.join(format!(".{name}.forkmap-merge"));
+    let tmp = parent.join(format!(".{name}.forkmap-gather"));
     if tmp.exists() {
         std::fs::remove_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
     }
-    let result = write_merged(set, &tmp, opts, &c);
+    let result = write_gathered(set, &tmp, opts, &c);
     let summary = match result {
         Ok(s) => s,
         Err(e) => {
@@ -98,17 +98,17 @@ pub fn merge(set: &RunSet, out: &Path, opts: &MergeOptions) -> Result<MergeSumma
         std::fs::remove_dir(out).map_err(|e| Error::io(out, e))?;
     }
     std::fs::rename(&tmp, out)
-        .map_err(|e| out_err(out, format!("cannot move the merged run into place: {e}")))?;
+        .map_err(|e| out_err(out, format!("cannot move the gathered run into place: {e}")))?;
     fsync_dir(&parent)?;
     Ok(summary)
 }
 
-fn write_merged(
+fn write_gathered(
     set: &RunSet,
     tmp: &Path,
-    opts: &MergeOptions,
+    opts: &GatherOptions,
     c: &crate::results::Completeness,
-) -> Result<MergeSummary> {
+) -> Result<GatherSummary> {
     for t in TABLES {
         let d = tmp.join(t);
         std::fs::create_dir_all(&d).map_err(|e| out_err(&d, format!("cannot create: {e}")))?;
@@ -187,7 +187,7 @@ fn write_merged(
         o.insert("shard".into(), serde_json::Value::Null);
         o.insert("shard_specs".into(), serde_json::json!(c.total));
         o.insert(
-            "merged_from".into(),
+            "gathered_from".into(),
             serde_json::json!(set
                 .dirs
                 .iter()
@@ -199,7 +199,7 @@ fn write_merged(
                 }))
                 .collect::<Vec<_>>()),
         );
-        o.insert("merged".into(), chrono::Utc::now().to_rfc3339().into());
+        o.insert("gathered".into(), chrono::Utc::now().to_rfc3339().into());
         o.insert("seconds".into(), serde_json::json!(seconds));
         o.insert("specs_written".into(), serde_json::json!(c.present));
         o.insert("specs_ok".into(), serde_json::json!(c.ok));
@@ -219,7 +219,7 @@ fn write_merged(
             .as_bytes(),
     )?;
     fsync_dir(tmp)?;
-    Ok(MergeSummary {
+    Ok(GatherSummary {
         dirs: set.dirs.len(),
         specs: c.present,
         parts: parts.len(),
