@@ -28,7 +28,7 @@
 use super::{present, Fitted, Stage, StageInput};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
-use ndarray::{Array2, ArrayView1, ArrayView2, Axis};
+use ndarray::{Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
 use std::sync::Arc;
 
 /// Suffix of missingness-flag columns.
@@ -467,7 +467,9 @@ impl Fitted for FittedFill {
     fn apply(&self, x: ArrayView2<f64>) -> Array2<f64> {
         let kept = x.select(Axis(1), &self.keep);
         let p = self.keep.len();
-        let mut out = Array2::zeros((x.nrows(), p + self.flagged.len()));
+        // Column-major, the layout the pool's selection gave the later stages when the pool
+        // ran after the fill (they sum in memory order, so the layout is part of the result).
+        let mut out = Array2::zeros((x.nrows(), p + self.flagged.len()).f());
         // Nan-euclidean distances of every row with gaps to every donor, by matrix
         // products over the present-value masks:
         //   sum over coordinates present in both of (a - d)^2
