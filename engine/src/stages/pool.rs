@@ -34,7 +34,7 @@ pub const OPTIONS: &[OptionDecl] = &[OptionDecl {
             max: 100_000,
         },
         default: 10.0,
-        help: "indicators kept: largest |correlation| with the outcome on training rows",
+        help: "indicators kept: largest |correlation| with the outcome over the training rows where each has a value",
     }],
     help: "in-fold screening by correlation with the outcome",
     weighted: true,
