@@ -255,8 +255,10 @@ fn shared_draws_change_nothing() {
     let choices = "[choices]\nfill = [\"mean\", \"knn\", \"chained\"]\npool = [\"all\", \"abc\"]\nscale = [\"standardise\", \"minmax\"]\ncompress = [\"none\", \"pca\"]\nmodel = [\"ridge\", \"forest\"]\n[pools]\nabc = [\"a\", \"b\", \"c\"]\n[grid.pca]\nk = [2]\n[grid.forest]\ntrees = [10]\n";
     let (space, shared) = sweep_sharing(&panel, choices, 2, forkmap::importance::DRAWS_BUDGET);
     let (_, own) = sweep_sharing(&panel, choices, 2, 0);
-    // 16 test rows x 4 columns x 8 bytes = 512 bytes a draw; a fill asks for 50 (5 folds x
-    // 2 repeats x 4 indicators and the group of two), so 40 are kept and 10 are not.
+    // Draws are kept per fill node (below one pool). Under pool `all`: 16 test rows x 4
+    // columns x 8 bytes = 512 bytes a draw; a fill asks for 50 (5 folds x 2 repeats x 4
+    // indicators and the group of two), so 40 are kept and 10 are not. Under `abc` (3
+    // columns, 384 bytes, 40 draws) all are kept.
     let (_, part) = sweep_sharing(&panel, choices, 2, 20 << 10);
     assert_eq!(shared.len(), space.specs.len());
     assert_eq!(shared.len(), own.len());

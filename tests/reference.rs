@@ -668,3 +668,69 @@ fn tree_families_match_scikit_learn_out_of_fold() {
         );
     }
 }
+
+/// The screening pool's scores against pandas' `DataFrame.corrwith` (pairwise-complete
+/// Pearson correlation) on a matrix with gaps, and its choice of the 3 highest.
+#[test]
+fn screen_scores_match_pandas_pairwise_complete_correlation() {
+    use forkmap::space::Choice;
+    use forkmap::stages::StageInput;
+    let r = reference("screen.json");
+    let rows: Vec<Vec<f64>> = r["x"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|row| {
+            row.as_array()
+                .unwrap()
+                .iter()
+                .map(|v| v.as_f64().unwrap_or(f64::NAN))
+                .collect()
+        })
+        .collect();
+    let (n, p) = (rows.len(), rows[0].len());
+    let x = ndarray::Array2::from_shape_vec((n, p), rows.into_iter().flatten().collect()).unwrap();
+    assert!(x.iter().any(|v| v.is_nan()), "the reference has gaps");
+    let y = Array1::from(f64s(&r["y"]));
+    let want = f64s(&r["abs_corr"]);
+    let got = forkmap::stages::pool::screen_scores(x.view(), y.view());
+    assert_eq!(got.len(), want.len());
+    assert_eq!(got.len(), p);
+    for (j, (g, w)) in got.iter().zip(&want).enumerate() {
+        close(*g, *w, 1e-12, &format!("|r| of column {j}"));
+    }
+    let names: Vec<String> = (0..p).map(|j| format!("x{j}")).collect();
+    let panel = forkmap::panel::Panel::new(
+        (0..n).map(|i| format!("u{i}")).collect(),
+        vec![None; n],
+        y.clone(),
+        x.clone(),
+        names.clone(),
+    )
+    .unwrap();
+    let choice = Choice {
+        dim: "pool",
+        option: "screen".into(),
+        params: vec![("k", 3.0)],
+        members: None,
+        digest: None,
+    };
+    let stage = forkmap::stages::build(&choice, &panel).unwrap();
+    let idx: Vec<usize> = (0..n).collect();
+    let fitted = stage
+        .fit(&StageInput {
+            x: x.view(),
+            y: y.view(),
+            rows: &idx,
+            names: &names,
+        })
+        .unwrap();
+    let top: Vec<String> = r["top3"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| format!("x{}", v.as_u64().unwrap()))
+        .collect();
+    assert_eq!(top.len(), 3);
+    assert_eq!(fitted.names(), top.as_slice());
+}

@@ -1,16 +1,15 @@
 //! Importances on the user's own indicators, whatever compression sits in between.
 //!
-//! * `permutation` (level `indicator`): for each fold, the fold's fitted pipeline (fill,
-//!   pool, scale, compress, model and back-transform) predicts its own test rows again
+//! * `permutation` (level `indicator`): for each fold, the fold's fitted pipeline (pool,
+//!   fill, scale, compress, model and back-transform) predicts its own test rows again
 //!   with indicator j's values replaced by values drawn, by a seeded permutation, from
 //!   j's column over all rows (gaps included, so the fill stage sees them). Importance =
 //!   mean squared error of the pooled out-of-fold predictions with j permuted minus
 //!   without, averaged over `repeats` draws; `spread` is the standard deviation over the
 //!   draws. The draws depend on the run's seed, the fold, the indicator (or group) and the
 //!   repeat, not on the spec: every spec is scored against the same draws (common random
-//!   numbers), so differences between specs are not blurred by differences between
-//!   draws, and a fold's permuted rows, once filled, are shared by all specs below that
-//!   fill ([`Draws`]). For a linear model y = x b + e with independent indicators this has
+//!   draws, and a fold's permuted rows, once pooled and filled, are shared by all specs
+//!   below that pool and fill ([`Draws`]). For a linear model y = x b + e with independent indicators this has
 //!   expectation 2 b_j^2 var(x_j): the permuted column x'_j is independent of everything,
 //!   so the prediction error gains b_j (x_j - x'_j), whose variance is 2 b_j^2 var(x_j).
 //! * `permutation` (level `group`): the same with every indicator of a codebook group
@@ -20,7 +19,12 @@
 //!   averaged over folds. A missingness flag counts for its indicator; a component's
 //!   importance is spread over indicators in proportion to their absolute loadings.
 //!
-//! Indicators outside a spec's pool get importance 0 and `in_pool = false`.
+//! Pools: the pool is the first stage of a spec's chain, so an indicator outside a fold's
+//! fitted pool cannot move that fold's predictions; its permutation contributes exactly
+//! the unpermuted error of that fold (added without re-predicting). An indicator outside
+//! the pool of every fold (a fixed pool's non-members; for `screen`, an indicator never
+//! screened in) gets importance 0 of every kind and `in_pool = false`; a group, when none
+//! of its members is.
 
 use crate::folds::mix;
 use crate::models::Predictor;
@@ -55,12 +59,15 @@ pub fn draws_budget(bytes: usize) -> DrawsBudget {
 /// A filled draw, computed by whichever spec asks first.
 type Slot = Arc<OnceLock<Array2<f64>>>;
 
-/// One fold's permuted test rows after its fitted fill, kept for every spec below that
-/// fill: each (permuted columns, repeat) is filled once, on first use. Once the fill's
+/// One fold's permuted test rows after its fitted pool and fill (the first `depth` stages
+/// of the chain), kept for every spec below that fill: each (permuted columns, repeat) is
+/// filled once, on first use. Once the fill's
 /// budget (`Sweep::draws_budget` over all its folds) is spent, further draws are computed by
 /// each spec without being kept.
 /// Results are the same with or without it (tested).
 pub struct Draws {
+    /// Leading stages of a chain whose output is kept (the pool and the fill).
+    depth: usize,
     slots: Mutex<HashMap<(Vec<usize>, usize), Slot>>,
     bytes_each: usize,
     left: DrawsBudget,
@@ -69,15 +76,18 @@ pub struct Draws {
 }
 
 impl Draws {
-    /// For `n_test` rows and a fill writing `cols_out` columns, spending from `left`;
-    /// the time spent filling kept draws is added to `nanos`.
+    /// Output of the first `depth` stages of a chain for `n_test` rows and `cols_out`
+    /// columns, spending from `left`; the time spent filling kept draws is added to
+    /// `nanos`.
     pub fn new(
+        depth: usize,
         n_test: usize,
         cols_out: usize,
         left: DrawsBudget,
         nanos: Arc<std::sync::atomic::AtomicU64>,
     ) -> Draws {
         Draws {
+            depth,
             slots: Mutex::new(HashMap::new()),
             bytes_each: n_test.saturating_mul(cols_out).saturating_mul(8).max(1),
             left,
@@ -210,8 +220,11 @@ pub struct Accumulator<'a> {
     panel: &'a Panel,
     cfg: &'a ImportanceSection,
     stream: u64,
-    /// Indicators in the pool (panel column indices).
+    /// Indicators the spec's pool may hold (panel column indices): a fixed pool's
+    /// members, every indicator for `screen`.
     pool: Vec<usize>,
+    /// Per indicator: in the fitted pool of at least one fold so far.
+    used: Vec<bool>,
     groups: Vec<(String, Vec<usize>)>,
     sse_ind: BTreeMap<usize, Vec<f64>>,
     sse_grp: Vec<Vec<f64>>,
@@ -241,6 +254,7 @@ impl<'a> Accumulator<'a> {
             sse_ind: pool.iter().map(|&j| (j, vec![0.0; r])).collect(),
             sse_grp: vec![vec![0.0; r]; groups.len()],
             pool,
+            used: vec![false; panel.indicators.len()],
             groups,
             sse_base: 0.0,
             n: 0,
@@ -294,21 +308,30 @@ impl<'a> Accumulator<'a> {
             }
             x
         };
-        match (draws, chain.split_first()) {
-            (Some(d), Some((fill, rest))) => {
-                let slot = d.get(cols, r, || fill.apply_rows(permuted().view(), Some(test)));
+        match draws.filter(|d| d.depth > 0 && d.depth <= chain.len()) {
+            Some(d) => {
+                let (head, rest) = chain.split_at(d.depth);
+                let slot = d.get(cols, r, || {
+                    let mut x = permuted();
+                    for st in head {
+                        x = st.apply_rows(x.view(), Some(test));
+                    }
+                    x
+                });
                 match slot.get() {
                     Some(filled) => predict_chain(rest, model, target, filled.view(), Some(test)),
                     None => predict_chain(chain, model, target, permuted().view(), Some(test)),
                 }
             }
-            _ => predict_chain(chain, model, target, permuted().view(), Some(test)),
+            None => predict_chain(chain, model, target, permuted().view(), Some(test)),
         }
     }
 
     /// Add one fold: its fitted chain and model, names of the model's input columns, the
     /// model's training rows, the test rows and their unpermuted predictions, and the
-    /// fold's shared store of filled draws if there is one (`chain[0]` is then its fill).
+    /// fold's shared store of pooled and filled draws if there is one. `chain[0]` is the
+    /// fitted pool (the first stage, [`crate::space::STAGE_DIMENSIONS`]): its output
+    /// columns are the indicators this fold's predictions can depend on.
     #[allow(clippy::too_many_arguments)]
     pub fn add_fold(
         &mut self,
@@ -322,12 +345,39 @@ impl<'a> Accumulator<'a> {
         test: &[usize],
         pred: &Array1<f64>,
     ) {
-        self.sse_base += self.sse(pred, test);
+        let unpermuted = self.sse(pred, test);
+        self.sse_base += unpermuted;
         self.n += test.len();
+        // The fold's fitted pool; without one (no chain), every candidate.
+        let mut in_fold = vec![false; self.panel.indicators.len()];
+        match chain.first() {
+            Some(pool) => {
+                for name in pool.names() {
+                    if let Some(j) = self.panel.indicator_index(name) {
+                        in_fold[j] = true;
+                    }
+                }
+            }
+            None => {
+                for &j in &self.pool {
+                    in_fold[j] = true;
+                }
+            }
+        }
+        for (u, f) in self.used.iter_mut().zip(&in_fold) {
+            *u |= *f;
+        }
         let raw = self.panel.x.select(Axis(0), test);
         if self.cfg.wants("permutation") {
             for pi in 0..self.pool.len() {
                 let j = self.pool[pi];
+                if !in_fold[j] {
+                    // Outside this fold's pool: the predictions are the unpermuted ones.
+                    if let Some(v) = self.sse_ind.get_mut(&j) {
+                        v.iter_mut().for_each(|s| *s += unpermuted);
+                    }
+                    continue;
+                }
                 for r in 0..self.cfg.repeats {
                     let p = self.permuted_predict(
                         fi,
@@ -354,9 +404,10 @@ impl<'a> Accumulator<'a> {
                     .1
                     .iter()
                     .copied()
-                    .filter(|j| self.pool.contains(j))
+                    .filter(|&j| in_fold[j])
                     .collect();
                 if members.is_empty() {
+                    self.sse_grp[g].iter_mut().for_each(|s| *s += unpermuted);
                     continue;
                 }
                 // A one-indicator group draws exactly as its indicator does.
@@ -451,7 +502,7 @@ impl<'a> Accumulator<'a> {
         };
         if self.cfg.wants("permutation") {
             let rows = (0..names.len())
-                .map(|j| match self.sse_ind.get(&j) {
+                .map(|j| match self.sse_ind.get(&j).filter(|_| self.used[j]) {
                     Some(v) => {
                         let (m, sd) = summarise(v);
                         row(names[j].clone(), m, sd, true)
@@ -467,7 +518,7 @@ impl<'a> Accumulator<'a> {
                 .iter()
                 .enumerate()
                 .map(|(g, (name, members))| {
-                    let in_pool = members.iter().any(|j| self.pool.contains(j));
+                    let in_pool = members.iter().any(|&j| self.used[j]);
                     let (m, sd) = if in_pool {
                         summarise(&self.sse_grp[g])
                     } else {
@@ -482,7 +533,7 @@ impl<'a> Accumulator<'a> {
             let f = self.native_folds.max(1) as f64;
             let vals: Vec<f64> = self.native_sum.iter().map(|v| v / f).collect();
             let rows = (0..names.len())
-                .map(|j| row(names[j].clone(), vals[j], 0.0, self.pool.contains(&j)))
+                .map(|j| row(names[j].clone(), vals[j], 0.0, self.used[j]))
                 .collect();
             block("indicator", kind, rows);
             if !self.groups.is_empty() {
@@ -490,7 +541,7 @@ impl<'a> Accumulator<'a> {
                     .groups
                     .iter()
                     .map(|(name, members)| {
-                        let in_pool = members.iter().any(|j| self.pool.contains(j));
+                        let in_pool = members.iter().any(|&j| self.used[j]);
                         row(
                             Arc::from(name.as_str()),
                             members.iter().map(|&j| vals[j]).sum(),

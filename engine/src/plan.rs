@@ -157,7 +157,8 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
     ) {
         let _ = writeln!(
             t,
-            "stage tree: {} distinct preparations, each fitted once per fold",
+            "stage tree ({}): {} distinct preparations, each fitted once per fold",
+            crate::space::STAGE_DIMENSIONS.join(" -> "),
             sweep.n_stage_nodes()
         );
         // Probe: run a seeded random ~2% of the specs (at least 30, at most 200) through

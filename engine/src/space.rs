@@ -11,8 +11,9 @@ use sha2::{Digest, Sha256};
 use std::collections::{BTreeMap, BTreeSet};
 use std::sync::Arc;
 
-/// The choice dimensions, in the order of the stage tree (stages first, then the model
-/// level). The registry of each lives in its own module (see [`options_of`]).
+/// The choice dimensions, in the order a spec's id lists them (this order is part of every
+/// spec id, so it never changes; the stage tree's order is [`STAGE_DIMENSIONS`]). The
+/// registry of each lives in its own module (see [`options_of`]).
 pub const DIMENSIONS: &[&str] = &[
     "transform",
     "fill",
@@ -22,8 +23,9 @@ pub const DIMENSIONS: &[&str] = &[
     "model",
     "weighting",
 ];
-/// Dimensions fitted as shared stages, in tree order.
-pub const STAGE_DIMENSIONS: &[&str] = &["fill", "pool", "scale", "compress"];
+/// Dimensions fitted as shared stages, in tree order: the pool first, so that no step
+/// that reads indicator values (the fill included) sees an indicator outside the pool.
+pub const STAGE_DIMENSIONS: &[&str] = &["pool", "fill", "scale", "compress"];
 /// Default option of a dimension the config leaves out.
 pub fn default_option(dim: &str) -> &'static str {
     match dim {

@@ -1,13 +1,17 @@
 //! The sweep: a stage tree over the choice space, run in parallel.
 //!
-//! Specs sharing a preparation prefix (fill -> pool -> scale -> compress) share its fitted
-//! stages: per fold, each distinct node is fitted once on the fold's training rows and
-//! its output feeds every node and model below it. The tree is walked depth first, so at
-//! most one root-to-leaf path of prepared matrices per worker is alive at a time.
+//! The tree: outcome transform -> pool -> fill -> scale -> compress, then the specs
+//! (model x weighting) at the leaves. The pool comes first, so no step that reads
+//! indicator values sees an indicator outside the spec's pool. Specs sharing a
+//! preparation prefix share its fitted stages: per fold, each distinct node is fitted
+//! once on the fold's training rows and its output feeds every node and model below it.
+//! The tree is walked depth first, so at most one root-to-leaf path of prepared matrices
+//! per worker is alive at a time.
 //!
 //! Invariants (tested in `tests/`):
 //! * every fit (stage, weights, baseline, model) sees only the training rows of its fold;
-//!   the [`Audit`] hook records the row ids each one is given;
+//!   the [`Audit`] hook receives, at the call that fits, the row ids behind the data the
+//!   step is handed and the number of data rows handed (`tests/leak.rs`);
 //! * a spec's results depend only on the panel, the fold plan, the run seed and the spec
 //!   (its random stream is keyed by the spec id), never on threads or scheduling;
 //! * a failure inside one spec (or one stage) is recorded, and the sweep goes on.
@@ -26,12 +30,15 @@ use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::sync::Arc;
 use std::time::Instant;
 
-/// Receives the row ids every fitted step is given (for leak-freedom tests and audits).
+/// Receives the row ids every fitted step is handed (for leak-freedom tests and audits).
 pub trait Audit: Send + Sync {
-    /// `step` names the fitted thing (`fill`, `pool`, `scale`, `compress`, `weights`,
-    /// `baseline`, `model`); `fold` indexes [`FoldPlan::folds`]; `rows` are the panel row
-    /// ids the step was given and `data_rows` the number of data rows it was handed (the
-    /// two must agree, or the step saw rows it was not told about).
+    /// `step` names the fitted thing (`pool`, `fill`, `scale`, `compress`, `weights`,
+    /// `baseline`, `model`); `fold` indexes [`FoldPlan::folds`]. `rows` are the panel row
+    /// ids behind the data the step is handed (a stage's [`StageInput::rows`], the rows
+    /// the model's, the weights' and the baseline's inputs were selected by), and
+    /// `data_rows` the largest length among the data it is handed (matrix rows, outcomes,
+    /// weights, units, standard errors): the two must agree, or the step saw rows it was
+    /// not told about. The call is made where the step is fitted, with its actual input.
     fn fitted(&self, step: &str, fold: usize, rows: &[usize], data_rows: usize);
 }
 
@@ -153,6 +160,9 @@ struct TargetNode {
 
 /// Per-fold data at a node.
 struct FoldState {
+    /// Panel row ids of the rows of `train` and `test`, in their order.
+    train_rows: Arc<Vec<usize>>,
+    test_rows: Arc<Vec<usize>>,
     train: Array2<f64>,
     test: Array2<f64>,
     names: Vec<String>,
@@ -160,12 +170,16 @@ struct FoldState {
     /// Training outcome under the node's transform.
     y: Arc<Array1<f64>>,
     target: Arc<dyn Target>,
-    /// The fold's filled permutation draws, shared below the first stage (the fill).
+    /// The fold's pooled and filled permutation draws, shared by the specs below one fill
+    /// node (which also share its pool).
     draws: Option<Arc<crate::importance::Draws>>,
 }
 
-/// Per-fold context shared by every spec.
+/// Per-fold context shared by every spec: the training rows' outcome, units and standard
+/// errors, all selected by `rows`.
 struct FoldCtx {
+    /// Panel row ids of the training rows.
+    rows: Vec<usize>,
     /// Training outcome on its own scale.
     y_train: Array1<f64>,
     train_units: Vec<usize>,
@@ -280,16 +294,18 @@ impl<'a> Sweep<'a> {
             .folds
             .iter()
             .map(|f| {
-                let y_train: Array1<f64> = f.train.iter().map(|&i| panel.y[i]).collect();
+                let rows = f.train.clone();
+                let y_train: Array1<f64> = rows.iter().map(|&i| panel.y[i]).collect();
                 let baseline = y_train.mean().unwrap_or(0.0);
                 FoldCtx {
                     train_se: panel
                         .se
                         .as_ref()
-                        .map(|se| f.train.iter().map(|&i| se[i]).collect()),
+                        .map(|se| rows.iter().map(|&i| se[i]).collect()),
                     y_train,
-                    train_units: f.train.iter().map(|&i| panel.row_unit[i]).collect(),
+                    train_units: rows.iter().map(|&i| panel.row_unit[i]).collect(),
                     baseline,
+                    rows,
                 }
             })
             .collect();
@@ -315,10 +331,22 @@ impl<'a> Sweep<'a> {
         self
     }
 
-    fn audit(&self, step: &str, fold: usize, data_rows: usize) {
+    fn audit(&self, step: &str, fold: usize, rows: &[usize], data_rows: usize) {
         if let Some(a) = &self.audit {
-            a.fitted(step, fold, &self.folds.folds[fold].train, data_rows);
+            a.fitted(step, fold, rows, data_rows);
         }
+    }
+
+    /// Fit a stage on its input, reporting to the audit exactly what it is handed.
+    fn fit_stage(
+        &self,
+        step: &str,
+        fold: usize,
+        stage: &dyn Stage,
+        input: &StageInput,
+    ) -> std::result::Result<Arc<dyn Fitted>, FitError> {
+        self.audit(step, fold, input.rows, input.x.nrows().max(input.y.len()));
+        guarded(|| stage.fit(input))
     }
 
     /// CPU seconds spent filling the permutation draws shared under each fill (part of
@@ -327,9 +355,14 @@ impl<'a> Sweep<'a> {
         self.draw_nanos.load(std::sync::atomic::Ordering::Relaxed) as f64 * 1e-9
     }
 
-    /// Preparations at the first stage (the fill), where permutation draws are shared.
+    /// Preparations at the fill stage (one per transform, pool and fill), where
+    /// permutation draws are shared.
     pub fn n_fill_nodes(&self) -> usize {
-        self.roots.iter().map(|r| r.children.len()).sum()
+        self.roots
+            .iter()
+            .flat_map(|r| &r.children)
+            .map(|pool| pool.children.len())
+            .sum()
     }
 
     /// Seconds spent fitting and applying stages so far, summed over threads (the
@@ -355,15 +388,9 @@ impl<'a> Sweep<'a> {
     /// Run every spec; each result is handed to `emit` as soon as it is ready (from any
     /// worker thread). Runs on the current rayon pool.
     pub fn run(&self, emit: &(dyn Fn(SpecResult) + Sync)) {
-        if let Some(a) = &self.audit {
-            for fi in 0..self.folds.folds.len() {
-                a.fitted(
-                    "baseline",
-                    fi,
-                    &self.folds.folds[fi].train,
-                    self.ctx[fi].y_train.len(),
-                );
-            }
+        for (fi, ctx) in self.ctx.iter().enumerate() {
+            // The baseline (the training mean) was computed from `y_train`.
+            self.audit("baseline", fi, &ctx.rows, ctx.y_train.len());
         }
         self.roots.par_iter().for_each(|root| {
             let base: Vec<FoldState> = (0..self.folds.folds.len())
@@ -383,12 +410,15 @@ impl<'a> Sweep<'a> {
     /// Raw indicator rows of a fold and its training outcome under `target`.
     fn base_state(&self, fi: usize, target: &Arc<dyn Target>) -> FoldState {
         let f = &self.folds.folds[fi];
+        let ctx = &self.ctx[fi];
         FoldState {
-            train: self.panel.x.select(Axis(0), &f.train),
+            train: self.panel.x.select(Axis(0), &ctx.rows),
             test: self.panel.x.select(Axis(0), &f.test),
+            train_rows: Arc::new(ctx.rows.clone()),
+            test_rows: Arc::new(f.test.clone()),
             names: self.panel.indicators.clone(),
             chain: Vec::new(),
-            y: Arc::new(self.ctx[fi].y_train.mapv(|v| target.forward(v))),
+            y: Arc::new(ctx.y_train.mapv(|v| target.forward(v))),
             target: target.clone(),
             draws: None,
         }
@@ -435,26 +465,29 @@ impl<'a> Sweep<'a> {
             .importance
             .as_ref()
             .is_some_and(|c| c.wants("permutation") || c.wants("group"));
-        let budget = (node.level == 0 && self.draws_budget > 0 && permutes)
+        // Filled permutation draws are kept at the fill: below it every spec shares the
+        // same fitted pool and fill, so a draw's filled rows are the same for all of them
+        // (above it, specs under one pool have different fills).
+        let budget = (step == "fill" && self.draws_budget > 0 && permutes)
             .then(|| crate::importance::draws_budget(self.draws_budget));
         let states: std::result::Result<Vec<FoldState>, (usize, FitError)> = parent
             .par_iter()
             .enumerate()
             .map(|(fi, p)| {
-                let fold = &self.folds.folds[fi];
                 let input = StageInput {
                     x: p.train.view(),
                     y: p.y.view(),
-                    rows: &fold.train,
+                    rows: &p.train_rows,
                     names: &p.names,
                 };
-                self.audit(step, fi, input.x.nrows().max(input.y.len()));
                 let t0 = std::time::Instant::now();
-                let fitted = guarded(|| node.stage.fit(&input)).map_err(|e| (fi, e))?;
+                let fitted = self
+                    .fit_stage(step, fi, node.stage.as_ref(), &input)
+                    .map_err(|e| (fi, e))?;
                 let (train, test) = guarded(|| {
                     Ok((
-                        fitted.apply_rows(p.train.view(), Some(&fold.train)),
-                        fitted.apply_rows(p.test.view(), Some(&fold.test)),
+                        fitted.apply_rows(p.train.view(), Some(&p.train_rows)),
+                        fitted.apply_rows(p.test.view(), Some(&p.test_rows)),
                     ))
                 })
                 .map_err(|e| (fi, e))?;
@@ -464,6 +497,7 @@ impl<'a> Sweep<'a> {
                 chain.push(fitted);
                 let draws = match &budget {
                     Some(b) => Some(Arc::new(crate::importance::Draws::new(
+                        chain.len(),
                         test.nrows(),
                         test.ncols(),
                         b.clone(),
@@ -472,6 +506,8 @@ impl<'a> Sweep<'a> {
                     None => p.draws.clone(),
                 };
                 Ok(FoldState {
+                    train_rows: p.train_rows.clone(),
+                    test_rows: p.test_rows.clone(),
                     train,
                     test,
                     names,
@@ -541,16 +577,23 @@ impl<'a> Sweep<'a> {
     ) -> std::result::Result<Box<dyn Predictor>, FitError> {
         let spec: &Spec = &self.space.specs[si];
         let ctx = &self.ctx[fi];
-        let w = crate::weights::weights(
-            spec.choice("weighting"),
-            &crate::weights::WeightInput {
-                units: &ctx.train_units,
-                y: ctx.y_train.as_slice().unwrap_or(&[]),
-                se: ctx.train_se.as_deref(),
-            },
-        )
-        .map_err(FitError::Invalid)?;
-        self.audit("weights", fi, w.len());
+        let winput = crate::weights::WeightInput {
+            units: &ctx.train_units,
+            y: ctx.y_train.as_slice().unwrap_or(&[]),
+            se: ctx.train_se.as_deref(),
+        };
+        self.audit(
+            "weights",
+            fi,
+            &ctx.rows,
+            winput
+                .units
+                .len()
+                .max(winput.y.len())
+                .max(winput.se.map_or(0, |s| s.len())),
+        );
+        let w = crate::weights::weights(spec.choice("weighting"), &winput)
+            .map_err(FitError::Invalid)?;
         let seed = mix(mix(self.seed, spec.stream()), fi as u64);
         let input = FitInput {
             x: st.train.view(),
@@ -561,6 +604,7 @@ impl<'a> Sweep<'a> {
         self.audit(
             "model",
             fi,
+            &st.train_rows,
             input.x.nrows().max(input.y.len()).max(input.w.len()),
         );
         guarded(|| self.models[si].fit(&input))
@@ -584,7 +628,7 @@ impl<'a> Sweep<'a> {
                 match p.iter().position(|v| !v.is_finite()) {
                     Some(k) => Err(FitError::Invalid(format!(
                         "non-finite prediction for row {}",
-                        fold.test[k] + 1
+                        st.test_rows[k] + 1
                     ))),
                     None => Ok((m, p)),
                 }
@@ -602,7 +646,7 @@ impl<'a> Sweep<'a> {
                                 st.target.as_ref(),
                                 &st.names,
                                 st.train.view(),
-                                &fold.test,
+                                &st.test_rows,
                                 &p,
                             );
                             Ok(())
@@ -612,7 +656,7 @@ impl<'a> Sweep<'a> {
                         }
                         imp_seconds += ti.elapsed().as_secs_f64();
                     }
-                    for (k, &row) in fold.test.iter().enumerate() {
+                    for (k, &row) in st.test_rows.iter().enumerate() {
                         preds.push(Prediction {
                             row: row as u32,
                             repeat: fold.repeat as u16,
@@ -659,7 +703,6 @@ impl<'a> Sweep<'a> {
     /// Fit one spec on one fold and return the reusable fitted pipeline.
     pub fn fit_spec(&self, si: usize, fi: usize) -> std::result::Result<FittedSpec, FitError> {
         let spec = &self.space.specs[si];
-        let fold = &self.folds.folds[fi];
         let target = crate::transform::build(spec.choice("transform"), self.panel.outcome_scale)
             .map_err(FitError::Invalid)?;
         let mut st = self.base_state(fi, &target);
@@ -669,13 +712,12 @@ impl<'a> Sweep<'a> {
             let input = StageInput {
                 x: st.train.view(),
                 y: st.y.view(),
-                rows: &fold.train,
+                rows: &st.train_rows,
                 names: &st.names,
             };
-            self.audit(dim, fi, input.x.nrows().max(input.y.len()));
-            let f = guarded(|| stage.fit(&input))?;
-            st.train = f.apply_rows(st.train.view(), Some(&fold.train));
-            st.test = f.apply_rows(st.test.view(), Some(&fold.test));
+            let f = self.fit_stage(dim, fi, stage.as_ref(), &input)?;
+            st.train = f.apply_rows(st.train.view(), Some(&st.train_rows));
+            st.test = f.apply_rows(st.test.view(), Some(&st.test_rows));
             st.names = f.names().to_vec();
             st.chain.push(f);
         }

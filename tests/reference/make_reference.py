@@ -233,4 +233,27 @@ dump(
         "filled_test": imp.transform(Xk[20:]).tolist(),
     },
 )
+# Screening pool: |Pearson correlation| of each column with the outcome over the rows where
+# the column has a value (pairwise-complete), as pandas' DataFrame.corrwith computes it.
+# Every column keeps at least 3 values and varies (forkmap scores those cases 0 by its own
+# rule, checked by hand in engine/src/stages/pool.rs).
+import pandas as pd
+
+rng = np.random.default_rng(11)
+ys = rng.normal(0, 1, 40)
+Xs = rng.normal(0, 1, (40, 8)) + np.outer(ys, [1.0, -0.8, 0.5, 0.3, 0.0, -0.2, 0.1, 0.05])
+Xs[rng.uniform(0, 1, Xs.shape) < 0.25] = np.nan
+Xs[:30, 4] = np.nan  # a column with only 10 values
+corr = pd.DataFrame(Xs).corrwith(pd.Series(ys))
+versions["pandas"] = pd.__version__
+dump(
+    "screen.json",
+    {
+        "x": nan_to_none(Xs),
+        "y": ys.tolist(),
+        "abs_corr": corr.abs().tolist(),
+        # The 3 largest, by a stable sort (ties: the earlier column), in column order.
+        "top3": sorted(np.argsort(-corr.abs().to_numpy(), kind="stable")[:3].tolist()),
+    },
+)
 print(f"reference values written to {out}")

@@ -1,4 +1,7 @@
-//! Gap filling, fitted on the training rows: one rule for every indicator of a spec.
+//! Gap filling, fitted on the training rows: one rule for every indicator of a spec's
+//! pool. The fill runs below the pool (pool -> fill -> scale -> compress), so it sees only
+//! the pool's indicators: the drop rule, the flags, kNN distances and chained regressions
+//! read nothing outside the pool.
 //!
 //! * `mean`, `median`: the training-row mean or median of the indicator.
 //! * `knn`: the mean of the k nearest training rows that have the indicator, with
@@ -7,6 +10,16 @@
 //!   sqrt(p / present * sum of squared differences)). Distances use the raw indicator
 //!   values, as in scikit-learn, so indicators on large scales weigh more. A row with no
 //!   usable donor gets the training mean.
+//! * `carry`: a gap takes the value of the same unit's nearest wave (ties: the earlier)
+//!   among the rows being transformed together, else the training median. With grouped
+//!   folds a unit's rows are all on one side, so a test row borrows only from its own
+//!   unit's test rows: its fill depends on the other rows of its unit, never on another
+//!   unit's rows.
+//! * `chained`: start from the training means; then, `rounds` times, each column with gaps
+//!   (fewest gaps first) is regressed (ridge) on the other columns over the training rows
+//!   where it is observed, and its gaps are replaced by the predictions. Applied to new
+//!   rows, the fitted regressions run in the same order, each row on its own (a row's fill
+//!   depends on that row's values only, bit for bit).
 //!
 //! Every rule also takes `drop_share` (indicators missing in more than this share of the
 //! training rows are dropped; default 1: keep all) and `flags` (1: append a 0/1 column
@@ -15,7 +28,7 @@
 use super::{present, Fitted, Stage, StageInput};
 use crate::error::FitError;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
-use ndarray::{Array2, ArrayView1, ArrayView2, Axis};
+use ndarray::{Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
 use std::sync::Arc;
 
 /// Suffix of missingness-flag columns.
@@ -147,6 +160,25 @@ impl Waves {
 struct ChainStep {
     col: usize,
     model: crate::models::linear::Linear,
+}
+
+impl ChainStep {
+    /// The regression's prediction for one row (its column `col` ignored): the intercept
+    /// plus the products summed in column order. Each row is predicted on its own, in the
+    /// same order whatever the other rows of the batch are, so a row's fill never depends
+    /// on which other rows have gaps (a batched matrix product sums differently for one row
+    /// than for several).
+    fn predict_row(&self, row: ArrayView1<f64>) -> f64 {
+        let mut s = 0.0;
+        let mut k = 0;
+        for (c, v) in row.iter().enumerate() {
+            if c != self.col {
+                s += v * self.model.coef[k];
+                k += 1;
+            }
+        }
+        s + self.model.intercept
+    }
 }
 
 struct Fill {
@@ -353,12 +385,11 @@ fn fit_chain(
                 yo.view(),
                 w.view(),
             )?;
-            let xm = cur.select(Axis(0), &missing[j]).select(Axis(1), &others);
-            let pred = crate::models::Predictor::predict(&model, xm.view());
-            for (k, &i) in missing[j].iter().enumerate() {
-                cur[[i, j]] = pred[k];
+            let step = ChainStep { col: j, model };
+            for &i in &missing[j] {
+                cur[[i, j]] = step.predict_row(cur.row(i));
             }
-            steps.push(ChainStep { col: j, model });
+            steps.push(step);
         }
     }
     Ok(steps)
@@ -368,19 +399,11 @@ impl FittedFill {
     /// Apply the chained regressions to rows already filled with the means; only the
     /// cells in `gaps` change.
     fn run_chain(&self, filled: &mut Array2<f64>, gaps: &Array2<bool>) {
-        let p = self.keep.len();
         for step in &self.chain {
-            let others: Vec<usize> = (0..p).filter(|&c| c != step.col).collect();
-            let rows: Vec<usize> = (0..filled.nrows())
-                .filter(|&i| gaps[[i, step.col]])
-                .collect();
-            if rows.is_empty() {
-                continue;
-            }
-            let xm = filled.select(Axis(0), &rows).select(Axis(1), &others);
-            let pred = crate::models::Predictor::predict(&step.model, xm.view());
-            for (k, &i) in rows.iter().enumerate() {
-                filled[[i, step.col]] = pred[k];
+            for i in 0..filled.nrows() {
+                if gaps[[i, step.col]] {
+                    filled[[i, step.col]] = step.predict_row(filled.row(i));
+                }
             }
         }
     }
@@ -444,7 +467,9 @@ impl Fitted for FittedFill {
     fn apply(&self, x: ArrayView2<f64>) -> Array2<f64> {
         let kept = x.select(Axis(1), &self.keep);
         let p = self.keep.len();
-        let mut out = Array2::zeros((x.nrows(), p + self.flagged.len()));
+        // Column-major, the layout the pool's selection gave the later stages when the pool
+        // ran after the fill (they sum in memory order, so the layout is part of the result).
+        let mut out = Array2::zeros((x.nrows(), p + self.flagged.len()).f());
         // Nan-euclidean distances of every row with gaps to every donor, by matrix
         // products over the present-value masks:
         //   sum over coordinates present in both of (a - d)^2
@@ -718,6 +743,70 @@ mod chained_tests {
         let new = f.apply(array![[10.0, f64::NAN, 0.0]].view());
         assert!((new[[0, 1]] - 21.0).abs() < 0.02, "{}", new[[0, 1]]);
         assert_eq!(new[[0, 0]], 10.0);
+    }
+}
+
+#[cfg(test)]
+mod chained_row_tests {
+    use super::*;
+
+    /// A row's chained fill is the same, bit for bit, whether the row is filled alone or
+    /// in a batch with other rows that have gaps in the same or other columns (a batched
+    /// matrix product sums a one-row batch in another order than a many-row one).
+    #[test]
+    fn chained_fill_of_a_row_does_not_depend_on_the_batch() {
+        let (n, p) = (40, 12);
+        let mut s = 7u64;
+        let mut next = || {
+            s = s
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (s >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let x = Array2::from_shape_fn((n, p), |(i, j)| {
+            let v = (i as f64 * 0.37 + j as f64 * 1.3).sin() * 10.0 + next();
+            if (i * 5 + j * 3) % 7 == 0 {
+                f64::NAN
+            } else {
+                v
+            }
+        });
+        let names: Vec<String> = (0..p).map(|j| format!("x{j}")).collect();
+        let y = ndarray::Array1::zeros(n);
+        let rows: Vec<usize> = (0..n).collect();
+        let stage = Fill {
+            rule: Rule::Chained {
+                rounds: 3,
+                alpha: 0.5,
+            },
+            drop_share: 1.0,
+            flags: false,
+            waves: None,
+        };
+        let f = stage
+            .fit(&StageInput {
+                x: x.view(),
+                y: y.view(),
+                rows: &rows,
+                names: &names,
+            })
+            .unwrap();
+        let batch = f.apply(x.view());
+        let mut gaps = 0;
+        for i in 0..n {
+            let alone = f.apply(x.slice(ndarray::s![i..i + 1, ..]));
+            for j in 0..p {
+                gaps += usize::from(x[[i, j]].is_nan());
+                assert_eq!(
+                    alone[[0, j]].to_bits(),
+                    batch[[i, j]].to_bits(),
+                    "row {i} column {j}: {} alone, {} in the batch",
+                    alone[[0, j]],
+                    batch[[i, j]]
+                );
+            }
+        }
+        assert!(gaps > 50, "{gaps} gaps");
     }
 }
 

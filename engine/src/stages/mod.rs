@@ -1,4 +1,7 @@
-//! Preparation stages fitted inside a training fold: fill -> pool -> scale -> compress.
+//! Preparation stages fitted inside a training fold: pool -> fill -> scale -> compress.
+//!
+//! The pool comes first: it selects raw indicator columns (gaps included), so no later
+//! step reads an indicator outside the spec's pool.
 //!
 //! A [`Stage`] is a validated, unfitted option. [`Stage::fit`] sees only a
 //! [`StageInput`], which holds the training rows of one fold and nothing else; the fitted

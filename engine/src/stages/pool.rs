@@ -1,17 +1,27 @@
 //! Indicator pools: which indicators a spec may use.
 //!
-//! `all`, `group:NAME` and named lists are fixed by the config; their members are matched
-//! by name, so an indicator the fill stage dropped is skipped and its missingness flag
-//! (when present) follows it. `screen` is fitted: the k indicators with the largest
-//! absolute Pearson correlation with the (transformed) outcome on the training rows
-//! (ties keep column order).
+//! The pool is the first stage of the tree (pool -> fill -> scale -> compress): it acts on
+//! the raw indicator columns, gaps included, before any step that reads indicator values,
+//! so everything below it (the fill's drop rule, missingness flags, kNN distances, chained
+//! regressions, scaling, compression, the model) sees only the pool's indicators. A spec's
+//! predictions do not depend on the values or gaps of indicators outside its pool
+//! (`tests/pools.rs`), and their importances are 0 with `in_pool = false`.
+//!
+//! * `all`, `group:NAME` and named lists are fixed by the config: their members, matched
+//!   by name, in panel column order.
+//! * `screen` is fitted on a fold's training rows as they are, gaps included: each
+//!   indicator scores the absolute Pearson correlation between its values and the
+//!   (transformed) training outcome over the training rows where it has a value
+//!   (pairwise-complete rows; pandas' `DataFrame.corrwith` computes the same). An indicator
+//!   with fewer than 3 such rows, or with zero variance of the indicator or of the outcome
+//!   over them, scores 0. The k highest scores are kept (ties: the earlier column first),
+//!   in panel column order; with k at least the number of indicators, all are kept.
 
-use super::fill::FLAG_SUFFIX;
 use super::{Fitted, Stage, StageInput};
 use crate::error::FitError;
 use crate::panel::Panel;
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
-use ndarray::{Array2, ArrayView2, Axis, ShapeBuilder};
+use ndarray::{Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
 use std::sync::Arc;
 
 /// Declared pool options that take parameters (`all`, groups and named lists take none).
@@ -24,7 +34,7 @@ pub const OPTIONS: &[OptionDecl] = &[OptionDecl {
             max: 100_000,
         },
         default: 10.0,
-        help: "indicators kept: largest |correlation| with the outcome on training rows",
+        help: "indicators kept: largest |correlation| with the outcome over the training rows where each has a value",
     }],
     help: "in-fold screening by correlation with the outcome",
     weighted: true,
@@ -58,56 +68,64 @@ pub fn build(c: &Choice, panel: &Panel) -> Result<Arc<dyn Stage>, String> {
     )))
 }
 
-fn is_flag(name: &str) -> bool {
-    name.ends_with(FLAG_SUFFIX)
+/// Screening scores of the columns of `x` against `y` (see the module doc): |Pearson r|
+/// over the rows where the column has a value, 0 with fewer than 3 such rows or zero
+/// variance of either side over them.
+pub fn screen_scores(x: ArrayView2<f64>, y: ArrayView1<f64>) -> Vec<f64> {
+    x.columns()
+        .into_iter()
+        .map(|col| {
+            let (a, b): (Vec<f64>, Vec<f64>) = col
+                .iter()
+                .zip(y.iter())
+                .filter(|(v, _)| !v.is_nan())
+                .map(|(v, t)| (*v, *t))
+                .unzip();
+            if a.len() < 3 {
+                return 0.0;
+            }
+            let r = crate::metrics::pearson(&a, &b);
+            if r.is_finite() {
+                r.abs()
+            } else {
+                0.0
+            }
+        })
+        .collect()
 }
 
-/// Columns of `names` for the chosen indicators, each followed by its flag if present.
-fn with_flags(names: &[String], chosen: &[usize]) -> Vec<usize> {
-    let mut cols = Vec::new();
-    for &j in chosen {
-        cols.push(j);
-    }
-    for &j in chosen {
-        let flag = format!("{}{FLAG_SUFFIX}", names[j]);
-        if let Some(f) = names.iter().position(|n| *n == flag) {
-            cols.push(f);
-        }
-    }
-    cols
+/// The `k` columns with the highest scores (ties: the earlier column), in column order.
+fn top_k(scores: &[f64], k: usize) -> Vec<usize> {
+    let mut order: Vec<usize> = (0..scores.len()).collect();
+    order.sort_by(|&a, &b| scores[b].total_cmp(&scores[a]).then(a.cmp(&b)));
+    order.truncate(k);
+    order.sort_unstable();
+    order
 }
 
 impl Stage for Pool {
     fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
-        let chosen: Vec<usize> = match self {
-            Pool::Fixed(members) => members
-                .iter()
-                .filter_map(|m| input.names.iter().position(|n| n == m))
-                .collect(),
-            Pool::Screen(k) => {
-                let y = input.y.to_vec();
-                let mut scored: Vec<(f64, usize)> = input
-                    .names
-                    .iter()
-                    .enumerate()
-                    .filter(|(_, n)| !is_flag(n))
-                    .map(|(j, _)| {
-                        let c = crate::metrics::pearson(&input.x.column(j).to_vec(), &y);
-                        (if c.is_nan() { 0.0 } else { c.abs() }, j)
-                    })
-                    .collect();
-                scored.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
-                let mut c: Vec<usize> = scored.into_iter().take(*k).map(|(_, j)| j).collect();
+        let columns: Vec<usize> = match self {
+            Pool::Fixed(members) => {
+                let mut c = Vec::with_capacity(members.len());
+                for m in members {
+                    match input.names.iter().position(|n| n == m) {
+                        Some(j) => c.push(j),
+                        None => {
+                            return Err(FitError::Invalid(format!(
+                                "pool member `{m}` is not among the indicators"
+                            )))
+                        }
+                    }
+                }
                 c.sort_unstable();
                 c
             }
+            Pool::Screen(k) => top_k(&screen_scores(input.x, input.y), *k),
         };
-        if chosen.is_empty() {
-            return Err(FitError::Invalid(
-                "no indicator of the pool is left (all dropped by the fill's drop rule)".into(),
-            ));
+        if columns.is_empty() {
+            return Err(FitError::Invalid("the pool has no indicator".into()));
         }
-        let columns = with_flags(input.names, &chosen);
         let names = columns.iter().map(|&j| input.names[j].clone()).collect();
         Ok(Arc::new(Select { columns, names }))
     }
@@ -154,10 +172,53 @@ mod tests {
         };
         let f = Pool::Screen(2).fit(&input).unwrap();
         assert_eq!(f.names(), &["a".to_string(), "b".to_string()]);
-        let fixed = Pool::Fixed(vec!["c".into(), "zz".into()])
+        let fixed = Pool::Fixed(vec!["c".into(), "a".into()])
             .fit(&input)
             .unwrap();
-        assert_eq!(fixed.names(), &["c".to_string()]);
+        assert_eq!(fixed.names(), &["a".to_string(), "c".to_string()]);
+        assert!(Pool::Fixed(vec!["c".into(), "zz".into()])
+            .fit(&input)
+            .is_err());
+    }
+
+    /// Screening reads the raw training rows with their gaps. Worked by hand: `a` has a
+    /// gap in row 2; over rows 0, 1, 3 it is (1, 2, 4) against y (1, 2, 4): r = 1. `b`
+    /// has only two values: score 0. `c` is constant where present: score 0. `d` is
+    /// (4, 3, 2, 1) against y (1, 2, 3, 4): |r| = 1, tied with `a`; the earlier column
+    /// wins a tie, so k = 1 keeps `a`, k = 2 keeps `a` and `d`, and k = 3 adds `b`, the
+    /// first of the zero scores.
+    #[test]
+    fn screening_uses_pairwise_complete_rows() {
+        let nan = f64::NAN;
+        let x = array![
+            [1.0, nan, 5.0, 4.0],
+            [2.0, 7.0, nan, 3.0],
+            [nan, nan, 5.0, 2.0],
+            [4.0, 1.0, 5.0, 1.0]
+        ];
+        let y = array![1.0, 2.0, 3.0, 4.0];
+        let s = screen_scores(x.view(), y.view());
+        assert!(
+            (s[0] - 1.0).abs() < 1e-15 && (s[3] - 1.0).abs() < 1e-15,
+            "{s:?}"
+        );
+        assert_eq!((s[1], s[2]), (0.0, 0.0));
+        let names: Vec<String> = ["a", "b", "c", "d"].iter().map(|s| s.to_string()).collect();
+        let input = StageInput {
+            x: x.view(),
+            y: y.view(),
+            rows: &[0, 1, 2, 3],
+            names: &names,
+        };
+        for (k, want) in [
+            (1, vec!["a"]),
+            (2, vec!["a", "d"]),
+            (3, vec!["a", "b", "d"]),
+        ] {
+            let f = Pool::Screen(k).fit(&input).unwrap();
+            assert_eq!(f.names(), want.as_slice(), "k = {k}");
+        }
+        assert_eq!(Pool::Screen(9).fit(&input).unwrap().names().len(), 4);
     }
 
     /// The gathered columns are ndarray's `select`: the same values in the same memory
