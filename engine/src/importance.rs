@@ -20,7 +20,14 @@
 //!   averaged over folds. A missingness flag counts for its indicator; a component's
 //!   importance is spread over indicators in proportion to their absolute loadings.
 //!
-//! Indicators outside a spec's pool get importance 0 and `in_pool = false`.
+//! Indicators outside a spec's pool get importance 0 and `in_pool = false`. Predictions go
+//! through the spec's own back-transform of the fold (the plain inverse, or the smearing
+//! estimate over that fold's training residuals).
+//!
+//! When a fold's importances cannot be computed (a permuted prediction that is not finite,
+//! e.g. a transform's inverse overflowing on a permuted collinear indicator, or a panic),
+//! the spec keeps its status and metrics but gets no importance rows, and a note in the
+//! `notes` column of `specs` says which fold and indicator; the run summary counts them.
 
 use crate::folds::mix;
 use crate::models::Predictor;
@@ -309,6 +316,8 @@ impl<'a> Accumulator<'a> {
     /// Add one fold: its fitted chain and model, names of the model's input columns, the
     /// model's training rows, the test rows and their unpermuted predictions, and the
     /// fold's shared store of filled draws if there is one (`chain[0]` is then its fill).
+    /// An error says why the fold's importances cannot be computed (the accumulator must
+    /// then be discarded).
     #[allow(clippy::too_many_arguments)]
     pub fn add_fold(
         &mut self,
@@ -321,7 +330,18 @@ impl<'a> Accumulator<'a> {
         x_train: ArrayView2<f64>,
         test: &[usize],
         pred: &Array1<f64>,
-    ) {
+    ) -> Result<(), String> {
+        let finite = |p: &Array1<f64>, what: &dyn Fn() -> String| -> Result<(), String> {
+            match p.iter().position(|v| !v.is_finite()) {
+                Some(k) => Err(format!(
+                    "{} gives a non-finite prediction for row {}",
+                    what(),
+                    test[k] + 1
+                )),
+                None => Ok(()),
+            }
+        };
+        finite(pred, &|| "the unpermuted pipeline".to_string())?;
         self.sse_base += self.sse(pred, test);
         self.n += test.len();
         let raw = self.panel.x.select(Axis(0), test);
@@ -341,6 +361,9 @@ impl<'a> Accumulator<'a> {
                         j as u64 + 1,
                         r,
                     );
+                    finite(&p, &|| {
+                        format!("permuting `{}` (draw {r})", self.panel.indicators[j])
+                    })?;
                     let s = self.sse(&p, test);
                     if let Some(v) = self.sse_ind.get_mut(&j) {
                         v[r] += s;
@@ -369,6 +392,9 @@ impl<'a> Accumulator<'a> {
                     let p = self.permuted_predict(
                         fi, chain, model, target, draws, &raw, test, &members, key, r,
                     );
+                    finite(&p, &|| {
+                        format!("permuting group `{}` (draw {r})", self.groups[g].0)
+                    })?;
                     self.sse_grp[g][r] += self.sse(&p, test);
                 }
             }
@@ -403,6 +429,7 @@ impl<'a> Accumulator<'a> {
                 }
             }
         }
+        Ok(())
     }
 
     /// The rows of this spec, ranks filled in.

@@ -42,6 +42,9 @@ pub struct Panel {
     pub se: Option<Array1<f64>>,
     /// Full scale of a bounded outcome (1 for proportions, 100 for percents).
     pub outcome_scale: Option<f64>,
+    /// Columns `data.indicators = "auto"` left out because most of their cells are text
+    /// (plan warns and lists them; the manifest records them as `skipped_columns`).
+    pub skipped: Vec<String>,
 }
 
 impl Panel {
@@ -94,6 +97,7 @@ impl Panel {
             codebook: BTreeMap::new(),
             se: None,
             outcome_scale: None,
+            skipped: Vec::new(),
         })
     }
 
@@ -573,6 +577,7 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
         }
     };
     let mut chosen: Vec<(usize, Vec<Option<f64>>)> = Vec::new();
+    let mut skipped: Vec<String> = Vec::new();
     match &d.indicators {
         IndicatorSelection::List(list) => {
             if list.is_empty() {
@@ -608,7 +613,7 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
                         if parsed * 2 > n {
                             return Err(not_number(j, i, &s));
                         }
-                        tracing::info!("column `{}` is not numeric: not an indicator", t.names[j]);
+                        skipped.push(t.names[j].clone());
                     }
                 }
             }
@@ -662,6 +667,7 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
     let mut panel = Panel::new(units, waves, y, x, names)?;
     panel.se = se;
     panel.outcome_scale = d.outcome_kind.scale();
+    panel.skipped = skipped;
     Ok(panel)
 }
 

@@ -10,7 +10,11 @@
 //!   the [`Audit`] hook records the row ids each one is given;
 //! * a spec's results depend only on the panel, the fold plan, the run seed and the spec
 //!   (its random stream is keyed by the spec id), never on threads or scheduling;
-//! * a failure inside one spec (or one stage) is recorded, and the sweep goes on.
+//! * a failure inside one spec (or one stage) is recorded, and the sweep goes on;
+//! * what a spec's fits did that changes what its numbers mean, without failing it (an
+//!   indicator dropped in a fold, an iteration limit reached, importances that could not
+//!   be computed), is recorded in [`SpecResult::notes`]: one place, written to the `notes`
+//!   column of `specs`.
 
 use crate::error::{Error, FitError, Result};
 use crate::folds::{mix, FoldPlan};
@@ -55,6 +59,12 @@ pub struct SpecResult {
     /// `ok` or the failure cause (`singular`, `invalid`, `no_convergence`, `panic`).
     pub status: &'static str,
     pub message: Option<String>,
+    /// Notes on an ok (or failed) spec, in fold order, each naming its repeat, fold and
+    /// step (`repeat 0, fold 2: fill `median`: ...`); written `; `-joined to the `notes`
+    /// column of `specs` (null when empty).
+    pub notes: Vec<String>,
+    /// True when importances were asked for but could not be computed (a note says why).
+    pub importance_failed: bool,
     pub scores: Option<Scores>,
     /// Wall seconds spent fitting and predicting this spec's models (stages excluded).
     pub seconds: f64,
@@ -64,6 +74,9 @@ pub struct SpecResult {
     /// Wall seconds spent on importances.
     pub importance_seconds: f64,
 }
+
+/// A fold's fitted model and its back-transform.
+type FoldFit = (Box<dyn Predictor>, Arc<dyn Target>);
 
 /// Predict raw indicator rows through a fitted chain, a model and the back-transform.
 pub fn predict_chain(
@@ -99,8 +112,11 @@ struct Whole {
 pub struct FittedSpec {
     pub chain: Vec<Arc<dyn Fitted>>,
     pub model: Box<dyn Predictor>,
-    /// Back-transform of the model's predictions to the outcome's scale.
+    /// Back-transform of the model's predictions to the outcome's scale (with the fold's
+    /// training residuals under `smear = 1`).
     pub target: Arc<dyn Target>,
+    /// Notes of the fold's stage fits (as in [`SpecResult::notes`]).
+    pub notes: Vec<String>,
 }
 
 impl FittedSpec {
@@ -162,6 +178,8 @@ struct FoldState {
     target: Arc<dyn Target>,
     /// The fold's filled permutation draws, shared below the first stage (the fill).
     draws: Option<Arc<crate::importance::Draws>>,
+    /// Notes of the stages fitted so far on this fold.
+    notes: Vec<String>,
 }
 
 /// Per-fold context shared by every spec.
@@ -171,6 +189,7 @@ struct FoldCtx {
     train_units: Vec<usize>,
     /// Standard errors of the training rows, when declared.
     train_se: Option<Vec<f64>>,
+    /// The training outcomes' median ([`crate::metrics::baseline`]).
     baseline: f64,
 }
 
@@ -232,7 +251,8 @@ impl<'a> Sweep<'a> {
         for &si in chosen {
             let spec = &space.specs[si];
             let tc = spec.choice("transform");
-            let tlabel = tc.canonical();
+            // Specs differing only in the back-transform share the fitted scale's tree.
+            let tlabel = crate::transform::fit_key(tc);
             let ti = match roots.iter().position(|r| r.label == tlabel) {
                 Some(i) => i,
                 None => {
@@ -281,7 +301,7 @@ impl<'a> Sweep<'a> {
             .iter()
             .map(|f| {
                 let y_train: Array1<f64> = f.train.iter().map(|&i| panel.y[i]).collect();
-                let baseline = y_train.mean().unwrap_or(0.0);
+                let baseline = crate::metrics::baseline(y_train.as_slice().unwrap_or(&[]));
                 FoldCtx {
                     train_se: panel
                         .se
@@ -391,6 +411,7 @@ impl<'a> Sweep<'a> {
             y: Arc::new(self.ctx[fi].y_train.mapv(|v| target.forward(v))),
             target: target.clone(),
             draws: None,
+            notes: Vec::new(),
         }
     }
 
@@ -459,6 +480,13 @@ impl<'a> Sweep<'a> {
                 })
                 .map_err(|e| (fi, e))?;
                 self.add_stage_time(t0);
+                let mut notes = p.notes.clone();
+                notes.extend(fitted.notes().into_iter().map(|n| {
+                    format!(
+                        "repeat {}, fold {}: {step} `{}`: {n}",
+                        fold.repeat, fold.index, node.label
+                    )
+                }));
                 let mut chain = p.chain.clone();
                 let names = fitted.names().to_vec();
                 chain.push(fitted);
@@ -479,6 +507,7 @@ impl<'a> Sweep<'a> {
                     y: p.y.clone(),
                     target: p.target.clone(),
                     draws,
+                    notes,
                 })
             })
             .collect();
@@ -498,6 +527,8 @@ impl<'a> Sweep<'a> {
                         loadings: None,
                         status: e.cause(),
                         message: Some(msg.clone()),
+                        notes: Vec::new(),
+                        importance_failed: false,
                         scores: None,
                         seconds: 0.0,
                         predictions: Vec::new(),
@@ -533,12 +564,15 @@ impl<'a> Sweep<'a> {
         });
     }
 
+    /// Fit a spec's model on a fold's prepared training rows; with it, the fold's
+    /// back-transform (the plain inverse, or Duan's smearing estimate over the model's
+    /// in-sample residuals on these training rows under `smear = 1`).
     fn fit_fold(
         &self,
         si: usize,
         fi: usize,
         st: &FoldState,
-    ) -> std::result::Result<Box<dyn Predictor>, FitError> {
+    ) -> std::result::Result<FoldFit, FitError> {
         let spec: &Spec = &self.space.specs[si];
         let ctx = &self.ctx[fi];
         let w = crate::weights::weights(
@@ -547,6 +581,7 @@ impl<'a> Sweep<'a> {
                 units: &ctx.train_units,
                 y: ctx.y_train.as_slice().unwrap_or(&[]),
                 se: ctx.train_se.as_deref(),
+                target: Some(st.target.as_ref()),
             },
         )
         .map_err(FitError::Invalid)?;
@@ -563,7 +598,23 @@ impl<'a> Sweep<'a> {
             fi,
             input.x.nrows().max(input.y.len()).max(input.w.len()),
         );
-        guarded(|| self.models[si].fit(&input))
+        let model = guarded(|| self.models[si].fit(&input))?;
+        if !crate::transform::smears(spec.choice("transform")) {
+            return Ok((model, st.target.clone()));
+        }
+        let fitted = guarded(|| Ok(model.predict(st.train.view())))?;
+        let residuals: Vec<f64> = st.y.iter().zip(fitted.iter()).map(|(z, f)| z - f).collect();
+        if let Some(k) = residuals.iter().position(|e| !e.is_finite()) {
+            return Err(FitError::Invalid(format!(
+                "smearing: non-finite training residual for row {}",
+                self.folds.folds[fi].train[k] + 1
+            )));
+        }
+        let smeared: Arc<dyn Target> = Arc::new(crate::transform::Smeared {
+            inner: st.target.clone(),
+            residuals,
+        });
+        Ok((model, smeared))
     }
 
     fn run_spec(&self, si: usize, states: &[FoldState]) -> SpecResult {
@@ -577,20 +628,23 @@ impl<'a> Sweep<'a> {
             crate::importance::Accumulator::new(self.panel, &self.space.specs[si], cfg, self.seed)
         });
         let mut imp_seconds = 0.0;
+        let mut notes: Vec<String> = Vec::new();
+        let mut importance_failed = false;
         for (fi, st) in states.iter().enumerate() {
             let fold = &self.folds.folds[fi];
-            let out = self.fit_fold(si, fi, st).and_then(|m| {
-                let p = guarded(|| Ok(m.predict(st.test.view()).mapv(|z| st.target.inverse(z))))?;
+            notes.extend(st.notes.iter().cloned());
+            let out = self.fit_fold(si, fi, st).and_then(|(m, back)| {
+                let p = guarded(|| Ok(m.predict(st.test.view()).mapv(|z| back.inverse(z))))?;
                 match p.iter().position(|v| !v.is_finite()) {
                     Some(k) => Err(FitError::Invalid(format!(
                         "non-finite prediction for row {}",
                         fold.test[k] + 1
                     ))),
-                    None => Ok((m, p)),
+                    None => Ok((m, back, p)),
                 }
             });
             match out {
-                Ok((m, p)) => {
+                Ok((m, back, p)) => {
                     if let Some(acc) = imp.as_mut() {
                         let ti = Instant::now();
                         let r = guarded(|| {
@@ -599,16 +653,25 @@ impl<'a> Sweep<'a> {
                                 &st.chain,
                                 st.draws.as_deref(),
                                 m.as_ref(),
-                                st.target.as_ref(),
+                                back.as_ref(),
                                 &st.names,
                                 st.train.view(),
                                 &fold.test,
                                 &p,
-                            );
-                            Ok(())
+                            )
+                            .map_err(FitError::Invalid)
                         });
-                        if r.is_err() {
+                        if let Err(e) = r {
+                            let e = match e {
+                                FitError::Invalid(m) => m,
+                                other => other.to_string(),
+                            };
                             imp = None;
+                            importance_failed = true;
+                            notes.push(format!(
+                                "repeat {}, fold {}: importance: {e}; the spec has no importance rows",
+                                fold.repeat, fold.index
+                            ));
                         }
                         imp_seconds += ti.elapsed().as_secs_f64();
                     }
@@ -633,6 +696,8 @@ impl<'a> Sweep<'a> {
                             "model (repeat {}, fold {}): {e}",
                             fold.repeat, fold.index
                         )),
+                        notes,
+                        importance_failed,
                         scores: None,
                         seconds: t0.elapsed().as_secs_f64(),
                         predictions: Vec::new(),
@@ -648,6 +713,8 @@ impl<'a> Sweep<'a> {
             loadings: None,
             status: "ok",
             message: None,
+            notes,
+            importance_failed,
             scores: Some(Scores::compute(&obs, &values, &base, &units)),
             seconds: t0.elapsed().as_secs_f64() - imp_seconds,
             predictions: preds,
@@ -674,16 +741,25 @@ impl<'a> Sweep<'a> {
             };
             self.audit(dim, fi, input.x.nrows().max(input.y.len()));
             let f = guarded(|| stage.fit(&input))?;
+            st.notes.extend(f.notes().into_iter().map(|n| {
+                format!(
+                    "repeat {}, fold {}: {dim} `{}`: {n}",
+                    fold.repeat,
+                    fold.index,
+                    spec.choice(dim).canonical()
+                )
+            }));
             st.train = f.apply_rows(st.train.view(), Some(&fold.train));
             st.test = f.apply_rows(st.test.view(), Some(&fold.test));
             st.names = f.names().to_vec();
             st.chain.push(f);
         }
-        let model = self.fit_fold(si, fi, &st)?;
+        let (model, back) = self.fit_fold(si, fi, &st)?;
         Ok(FittedSpec {
             chain: st.chain,
             model,
-            target,
+            target: back,
+            notes: st.notes,
         })
     }
 }
