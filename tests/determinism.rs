@@ -40,33 +40,102 @@ k = [3]
 k = [2]
 "#;
 
-fn fingerprint(threads: usize) -> Vec<(String, Vec<u64>)> {
+/// Everything a spec's result holds, as bits: status, message, notes, every metric,
+/// every prediction and every importance row.
+#[derive(Debug, PartialEq, Eq, PartialOrd, Ord)]
+struct Print {
+    id: String,
+    status: String,
+    message: Option<String>,
+    notes: Vec<String>,
+    importance_failed: bool,
+    scores: Vec<u64>,
+    predictions: Vec<(u32, u16, u16, u64)>,
+    importance: Vec<(String, String, String, u64, u64, u32, bool)>,
+}
+
+fn print_of(p: &forkmap::run::Prepared, r: &forkmap::sweep::SpecResult) -> Print {
+    Print {
+        id: p.space.specs[r.spec].id.clone(),
+        status: r.status.to_string(),
+        message: r.message.clone(),
+        notes: r.notes.clone(),
+        importance_failed: r.importance_failed,
+        scores: r
+            .scores
+            .map(|s| s.columns().iter().map(|(_, v)| v.to_bits()).collect())
+            .unwrap_or_default(),
+        predictions: r
+            .predictions
+            .iter()
+            .map(|q| (q.row, q.repeat, q.fold, q.value.to_bits()))
+            .collect(),
+        importance: r
+            .importance
+            .iter()
+            .map(|i| {
+                (
+                    i.name.to_string(),
+                    i.level.to_string(),
+                    i.kind.to_string(),
+                    i.importance.to_bits(),
+                    i.spread.to_bits(),
+                    i.rank,
+                    i.in_pool,
+                )
+            })
+            .collect(),
+    }
+}
+
+/// The whole space without importances, then every fifth spec again with every
+/// importance kind (permutation draws, groups, native; shared draws under each fill).
+fn fingerprint(threads: usize) -> (Vec<Print>, Vec<Print>) {
     let p = prepared(CFG);
-    let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
-    let out = Mutex::new(Vec::new());
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build()
         .unwrap();
-    pool.install(|| {
-        sweep.run(&|r| {
-            let bits = r.predictions.iter().map(|q| q.value.to_bits()).collect();
-            out.lock()
-                .unwrap()
-                .push((p.space.specs[r.spec].id.clone(), bits));
-        })
+    let collect = |sweep: &Sweep| {
+        let out = Mutex::new(Vec::new());
+        pool.install(|| sweep.run(&|r| out.lock().unwrap().push(print_of(&p, &r))));
+        let mut v = out.into_inner().unwrap();
+        v.sort();
+        v
+    };
+    let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
+    let all = collect(&sweep);
+    let some: Vec<usize> = (0..p.space.specs.len()).step_by(5).collect();
+    let mut with_importance =
+        Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&some)).unwrap();
+    with_importance.importance = Some(forkmap::importance::ImportanceSection {
+        repeats: 1,
+        kinds: vec!["permutation".into(), "group".into(), "native".into()],
+        within: None,
     });
-    let mut v = out.into_inner().unwrap();
-    v.sort();
-    v
+    (all, collect(&with_importance))
 }
 
 #[test]
 fn one_and_two_threads_give_identical_bits() {
-    let a = fingerprint(1);
-    let b = fingerprint(2);
-    assert_eq!(a.len(), prepared(CFG).space.specs.len());
-    assert!(a == b, "threads 1 and 2 differ");
+    let (a, ai) = fingerprint(1);
+    let (b, bi) = fingerprint(2);
+    let n = prepared(CFG).space.specs.len();
+    assert_eq!(a.len(), n);
+    assert_eq!(ai.len(), n.div_ceil(5));
+    assert!(a
+        .iter()
+        .all(|x| x.status == "ok" && !x.predictions.is_empty()));
+    // Importances were computed and compared (not two empty lists).
+    assert!(
+        ai.iter().all(|x| !x.importance.is_empty()),
+        "importances missing"
+    );
+    assert_eq!(a.len(), b.len());
+    for (x, y) in a.iter().zip(&b).chain(ai.iter().zip(&bi)) {
+        assert!(x == y, "threads 1 and 2 differ for spec {}", x.id);
+    }
+    assert_eq!(ai.len(), bi.len());
 }
 
 #[test]

@@ -269,6 +269,7 @@ fn parquet_data_reads_like_csv() {
     assert_eq!(q.panel.indicators, p.panel.indicators);
     assert_eq!(q.panel.units, p.panel.units);
     assert_eq!(q.panel.y, p.panel.y);
+    assert_eq!(q.panel.x.dim(), p.panel.x.dim());
     for (a, b) in q.panel.x.iter().zip(p.panel.x.iter()) {
         assert!((a.is_nan() && b.is_nan()) || a == b);
     }

@@ -157,6 +157,12 @@ fn ridge_ranking_matches_scikit_learn_permutation_importance() {
     let rows = &res[0].importance;
     let sk = &r["ridge_permutation_importance"];
     let (m, s) = (f64s(&sk["mean"]), f64s(&sk["std"]));
+    assert_eq!(
+        m.len(),
+        names.len(),
+        "one scikit-learn importance per feature"
+    );
+    assert_eq!(s.len(), names.len());
     let mut checked = 0;
     for a in 0..names.len() {
         for b in 0..names.len() {
@@ -262,6 +268,7 @@ fn shared_draws_change_nothing() {
     let (_, part) = sweep_sharing(&panel, choices, 2, 20 << 10);
     assert_eq!(shared.len(), space.specs.len());
     assert_eq!(shared.len(), own.len());
+    assert_eq!(part.len(), own.len());
     for (a, b) in part.iter().zip(&own) {
         assert_eq!(a.spec, b.spec);
         assert_eq!(a.importance, b.importance);

@@ -10,6 +10,7 @@ mod folds_prop;
 mod importance;
 mod intake_fuzz;
 mod leak;
+mod numbers;
 mod pools;
 mod reference;
 mod resume;

@@ -1,6 +1,6 @@
 //! Estimators and metrics against references outside the project.
 
-use crate::common::{close, f64s, matrix, reference};
+use crate::common::{cases, close, close_to_scale, f64s, matrix, pairs, reference, scale_of};
 use forkmap::metrics;
 use forkmap::models::linear::{Ols, Ridge};
 use forkmap::models::tree::{grow, Candidates, TreeParams};
@@ -14,10 +14,9 @@ use ndarray::Array1;
 #[test]
 fn metrics_match_scikit_learn() {
     let r = reference("metrics.json");
-    let cases = r["cases"].as_array().expect("cases");
-    assert!(cases.len() >= 3);
-    for c in cases {
+    for c in cases(&r["cases"], 3, "metric cases") {
         let (o, p) = (f64s(&c["observed"]), f64s(&c["predicted"]));
+        assert_eq!(o.len(), p.len(), "metric case lengths");
         close(
             metrics::mae(&o, &p),
             c["mae"].as_f64().unwrap(),
@@ -46,12 +45,33 @@ fn metrics_match_scikit_learn() {
             "top quartile mae",
         );
         let units: Vec<usize> = f64s(&c["units"]).iter().map(|u| *u as usize).collect();
+        assert_eq!(units.len(), o.len(), "unit list length");
         close(
             metrics::unit_mae(&o, &p, &units),
             c["unit_mae"].as_f64().unwrap(),
             1e-12,
             "unit mae",
         );
+        // The baseline: numpy.median of the case's training outcomes, its MAE on the
+        // observed values, and skill = 1 - mae / baseline_mae.
+        let train = f64s(&c["train"]);
+        assert!(!train.is_empty(), "baseline training outcomes");
+        let b = metrics::baseline(&train);
+        close(
+            b,
+            c["baseline"].as_f64().unwrap(),
+            1e-12,
+            "baseline (median)",
+        );
+        let s = metrics::Scores::compute(&o, &p, &vec![b; o.len()], &units);
+        close(
+            s.baseline_mae,
+            c["baseline_mae"].as_f64().unwrap(),
+            1e-12,
+            "baseline mae",
+        );
+        close(s.skill, c["skill"].as_f64().unwrap(), 1e-12, "skill");
+        close(s.mae, c["mae"].as_f64().unwrap(), 1e-12, "scores mae");
     }
 }
 
@@ -87,16 +107,23 @@ fn ols_matches_nist_longley_certified_values() {
     let got: Vec<f64> = std::iter::once(m.intercept)
         .chain(m.coef.iter().copied())
         .collect();
-    for (j, (g, c)) in got.iter().zip(NIST_LONGLEY).enumerate() {
-        let d = sig_digits(*g, c);
+    for (j, (g, c)) in pairs(&got, &NIST_LONGLEY, "Longley coefficients")
+        .into_iter()
+        .enumerate()
+    {
+        let d = sig_digits(g, c);
         assert!(
             d >= 7.0,
             "coefficient {j}: {g} vs certified {c}: {d:.1} significant digits"
         );
     }
     // statsmodels agrees with NIST (sanity of the recalled constants).
-    for (s, c) in f64s(&r["statsmodels_params"]).iter().zip(NIST_LONGLEY) {
-        assert!(sig_digits(*s, c) >= 7.0, "statsmodels {s} vs NIST {c}");
+    for (s, c) in pairs(
+        &f64s(&r["statsmodels_params"]),
+        &NIST_LONGLEY,
+        "statsmodels",
+    ) {
+        assert!(sig_digits(s, c) >= 7.0, "statsmodels {s} vs NIST {c}");
     }
 }
 
@@ -109,13 +136,17 @@ fn ridge_matches_scikit_learn_on_diabetes() {
     let y = Array1::from(f64s(&r["y"]));
     let ones = Array1::ones(y.len());
     let w = Array1::from(f64s(&r["weights"]));
-    for case in r["ridge"].as_array().expect("ridge cases") {
+    for case in cases(&r["ridge"], 3, "ridge cases") {
         let alpha = case["alpha"].as_f64().unwrap();
         let m = Ridge { alpha }
             .fit_linear(x.view(), y.view(), ones.view())
             .expect("fit");
-        for (g, c) in m.coef.iter().zip(f64s(&case["coef"])) {
-            close(*g, c, 1e-6, &format!("ridge alpha={alpha} coef"));
+        for (g, c) in pairs(
+            m.coef.as_slice().unwrap(),
+            &f64s(&case["coef"]),
+            "ridge coef",
+        ) {
+            close(g, c, 1e-6, &format!("ridge alpha={alpha} coef"));
         }
         close(
             m.intercept,
@@ -126,8 +157,12 @@ fn ridge_matches_scikit_learn_on_diabetes() {
         let mw = Ridge { alpha }
             .fit_linear(x.view(), y.view(), w.view())
             .expect("fit");
-        for (g, c) in mw.coef.iter().zip(f64s(&case["weighted_coef"])) {
-            close(*g, c, 1e-6, &format!("weighted ridge alpha={alpha} coef"));
+        for (g, c) in pairs(
+            mw.coef.as_slice().unwrap(),
+            &f64s(&case["weighted_coef"]),
+            "weighted ridge coef",
+        ) {
+            close(g, c, 1e-6, &format!("weighted ridge alpha={alpha} coef"));
         }
         close(
             mw.intercept,
@@ -148,6 +183,8 @@ fn pca_explained_variance_matches_numpy_svd() {
     let f = Pca { k }.fit_pca(x.view(), &names).expect("pca");
     let ev = f64s(&r["pca_explained_variance"]);
     let ratio = f64s(&r["pca_explained_variance_ratio"]);
+    assert_eq!(ev.len(), x.ncols(), "numpy gives one variance per column");
+    assert_eq!(ratio.len(), x.ncols());
     for c in 0..k {
         close(f.explained_variance[c], ev[c], 1e-9, "explained variance");
         close(
@@ -161,10 +198,11 @@ fn pca_explained_variance_matches_numpy_svd() {
     let g = f.components.dot(&f.components.t());
     for i in 0..k {
         for j in 0..k {
-            close(
+            close_to_scale(
                 g[[i, j]],
                 if i == j { 1.0 } else { 0.0 },
                 1e-10,
+                1.0,
                 "orthonormal loadings",
             );
         }
@@ -191,12 +229,15 @@ fn tree_matches_scikit_learn_on_diabetes() {
         Candidates::All,
     );
     let p = t.predict(x.view());
-    for (i, (g, c)) in p
-        .iter()
-        .zip(f64s(&r["tree_depth3_leaf5_predictions"]))
-        .enumerate()
+    for (i, (g, c)) in pairs(
+        p.as_slice().unwrap(),
+        &f64s(&r["tree_depth3_leaf5_predictions"]),
+        "tree predictions",
+    )
+    .into_iter()
+    .enumerate()
     {
-        close(*g, c, 1e-9, &format!("tree prediction row {i}"));
+        close(g, c, 1e-9, &format!("tree prediction row {i}"));
     }
 }
 
@@ -219,8 +260,13 @@ fn integer_weights_equal_duplicated_rows() {
     let ones = Array1::ones(yd.len());
     let a = Ols.fit_linear(x.view(), y.view(), w.view()).unwrap();
     let b = Ols.fit_linear(xd.view(), yd.view(), ones.view()).unwrap();
-    for (p, q) in a.coef.iter().zip(b.coef.iter()) {
-        close(*p, *q, 1e-9, "weighted OLS = duplicated OLS");
+    assert_eq!(wv.len(), y.len());
+    for (p, q) in pairs(
+        a.coef.as_slice().unwrap(),
+        b.coef.as_slice().unwrap(),
+        "OLS",
+    ) {
+        close(p, q, 1e-9, "weighted OLS = duplicated OLS");
     }
     // Ridge: sum_i w_i r_i^2 + alpha ||b||^2 equals the duplicated rows' objective when the
     // weights are the duplication counts.
@@ -230,8 +276,12 @@ fn integer_weights_equal_duplicated_rows() {
     let rb = Ridge { alpha: 1.0 }
         .fit_linear(xd.view(), yd.view(), ones.view())
         .unwrap();
-    for (p, q) in ra.coef.iter().zip(rb.coef.iter()) {
-        close(*p, *q, 1e-9, "weighted ridge = duplicated ridge");
+    for (p, q) in pairs(
+        ra.coef.as_slice().unwrap(),
+        rb.coef.as_slice().unwrap(),
+        "ridge",
+    ) {
+        close(p, q, 1e-9, "weighted ridge = duplicated ridge");
     }
     close(ra.intercept, rb.intercept, 1e-9, "weighted ridge intercept");
     // Tree: weights enter split scores and leaf means; min_leaf counts distinct rows, so
@@ -258,8 +308,8 @@ fn integer_weights_equal_duplicated_rows() {
         Candidates::All,
     );
     let (pa, pb) = (ta.predict(x.view()), tb.predict(x.view()));
-    for (p, q) in pa.iter().zip(pb.iter()) {
-        close(*p, *q, 1e-9, "weighted tree = duplicated tree");
+    for (p, q) in pairs(pa.as_slice().unwrap(), pb.as_slice().unwrap(), "tree") {
+        close(p, q, 1e-9, "weighted tree = duplicated tree");
     }
 }
 
@@ -270,7 +320,7 @@ fn integer_weights_equal_duplicated_rows() {
 fn nmf_matches_scikit_learn_objective() {
     let r = reference("nmf.json");
     let x = matrix(&r["x"]);
-    for case in r["cases"].as_array().expect("cases") {
+    for case in cases(&r["cases"], 3, "nmf cases") {
         let k = case["k"].as_u64().unwrap() as usize;
         let sk = case["sklearn_objective"].as_f64().unwrap();
         let f = forkmap::stages::nmf::fit(x.view(), k, 5000, 1e-10).expect("nmf");
@@ -292,6 +342,7 @@ fn nmf_matches_scikit_learn_objective() {
         }
         let w = forkmap::stages::nmf::project(x.view(), &f.h);
         let scale = f.w.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+        assert_eq!(w.dim(), f.w.dim(), "k={k}: projected W shape");
         for (a, b) in w.iter().zip(f.w.iter()) {
             assert!(
                 (a - b).abs() <= 1e-4 * scale,
@@ -312,17 +363,17 @@ fn lasso_and_elastic_net_match_scikit_learn() {
     let y = Array1::from(f64s(&r["y"]));
     let ones = Array1::ones(y.len());
     let w = Array1::from(f64s(&r["weights"]));
-    let cases = r["sparse"].as_array().expect("sparse cases");
-    assert!(cases.len() >= 4);
-    for case in cases {
+    for case in cases(&r["sparse"], 4, "sparse cases") {
         let p = ElasticParams {
             alpha: case["alpha"].as_f64().unwrap(),
             l1_ratio: case["l1_ratio"].as_f64().unwrap(),
         };
         let what = format!("alpha={} l1_ratio={}", p.alpha, p.l1_ratio);
         let m = p.fit_linear(x.view(), y.view(), ones.view()).expect("fit");
-        for (g, c) in m.coef.iter().zip(f64s(&case["coef"])) {
-            close(*g, c, 1e-6, &format!("{what} coef"));
+        // Relative to the largest coefficient: a lasso sets some exactly to 0.
+        let coef = f64s(&case["coef"]);
+        for (g, c) in pairs(m.coef.as_slice().unwrap(), &coef, "coef") {
+            close_to_scale(g, c, 1e-6, scale_of(&coef), &format!("{what} coef"));
         }
         close(
             m.intercept,
@@ -331,8 +382,15 @@ fn lasso_and_elastic_net_match_scikit_learn() {
             &format!("{what} intercept"),
         );
         let mw = p.fit_linear(x.view(), y.view(), w.view()).expect("fit");
-        for (g, c) in mw.coef.iter().zip(f64s(&case["weighted_coef"])) {
-            close(*g, c, 1e-6, &format!("{what} weighted coef"));
+        let coef = f64s(&case["weighted_coef"]);
+        for (g, c) in pairs(mw.coef.as_slice().unwrap(), &coef, "weighted coef") {
+            close_to_scale(
+                g,
+                c,
+                1e-6,
+                scale_of(&coef),
+                &format!("{what} weighted coef"),
+            );
         }
         close(
             mw.intercept,
@@ -358,9 +416,7 @@ fn lasso_on_collinear_indicators_matches_scikit_learn() {
     let ones = Array1::ones(y.len());
     let mean = y.sum() / n;
     let spread = (y.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / n).sqrt();
-    let cases = r["cases"].as_array().expect("cases");
-    assert_eq!(cases.len(), 3);
-    for case in cases {
+    for case in cases(&r["cases"], 3, "collinear lasso cases") {
         let p = ElasticParams {
             alpha: case["alpha"].as_f64().unwrap(),
             l1_ratio: case["l1_ratio"].as_f64().unwrap(),
@@ -381,7 +437,10 @@ fn lasso_on_collinear_indicators_matches_scikit_learn() {
             obj <= sk * (1.0 + 1e-9),
             "objective {obj} above scikit-learn's {sk}"
         );
-        for (i, (a, b)) in fitted.iter().zip(f64s(&case["fitted"])).enumerate() {
+        for (i, (a, b)) in pairs(fitted.as_slice().unwrap(), &f64s(&case["fitted"]), "fitted")
+            .into_iter()
+            .enumerate()
+        {
             assert!(
                 (a - b).abs() <= 1e-6 * spread,
                 "alpha={} l1_ratio={} row {i}: fitted {a} vs {b}",
@@ -444,8 +503,11 @@ fn knn_fill_matches_scikit_learn_knn_imputer() {
         (got_train, matrix(&r["filled_train"])),
         (got_test, matrix(&r["filled_test"])),
     ] {
+        assert_eq!(got.dim(), want.dim(), "knn-filled shape");
+        // Relative to the matrix's largest value: filled cells can be near 0.
+        let scale = scale_of(want.as_slice().unwrap());
         for (g, w) in got.iter().zip(want.iter()) {
-            close(*g, *w, 1e-12, "knn-filled value");
+            close_to_scale(*g, *w, 1e-12, scale, "knn-filled value");
         }
     }
 }
@@ -459,26 +521,32 @@ fn pls_matches_scikit_learn() {
     let r = reference("diabetes.json");
     let x = matrix(&r["x"]);
     let y = Array1::from(f64s(&r["y"]));
-    for case in r["pls"].as_array().expect("pls cases") {
+    for case in cases(&r["pls"], 3, "pls cases") {
         let k = case["k"].as_u64().unwrap() as usize;
         let fit = PlsParams { k }.fit_pls(x.view(), y.view()).expect("pls");
-        for (g, c) in fit
-            .predict_rows(x.view())
-            .iter()
-            .zip(f64s(&case["predictions"]))
-        {
-            close(*g, c, 1e-6, &format!("pls k={k} prediction"));
+        let pred = fit.predict_rows(x.view());
+        for (g, c) in pairs(pred.as_slice().unwrap(), &f64s(&case["predictions"]), "pls") {
+            close(g, c, 1e-6, &format!("pls k={k} prediction"));
         }
         let ours = fit.scores(x.view());
         let theirs = matrix(&case["x_scores"]);
+        assert_eq!(ours.dim(), theirs.dim(), "pls k={k} score shape");
         for c in 0..k {
+            // Relative to the column's largest score: a score can be near 0.
+            let scale = theirs.column(c).iter().fold(0.0f64, |m, v| m.max(v.abs()));
             let sign = if ours.column(c).dot(&theirs.column(c)) < 0.0 {
                 -1.0
             } else {
                 1.0
             };
             for (a, b) in ours.column(c).iter().zip(theirs.column(c).iter()) {
-                close(sign * a, *b, 1e-6, &format!("pls k={k} score column {c}"));
+                close_to_scale(
+                    sign * a,
+                    *b,
+                    1e-6,
+                    scale,
+                    &format!("pls k={k} score column {c}"),
+                );
             }
         }
     }
@@ -581,8 +649,15 @@ fn tree_families_match_scikit_learn_out_of_fold() {
     })
     .unwrap()
     .predict(x.view());
-    for (i, (a, b)) in b20.iter().zip(f64s(&r["boost20_in_sample"])).enumerate() {
-        close(*a, b, 1e-9, &format!("boost 20 rounds in sample, row {i}"));
+    for (i, (a, b)) in pairs(
+        b20.as_slice().unwrap(),
+        &f64s(&r["boost20_in_sample"]),
+        "boost",
+    )
+    .into_iter()
+    .enumerate()
+    {
+        close(a, b, 1e-9, &format!("boost 20 rounds in sample, row {i}"));
     }
     // Out of fold over 100 rounds, a later tree can meet two collinear indicators that cut
     // a node's rows identically (gains equal to rounding): either is right, and the test
@@ -606,12 +681,13 @@ fn tree_families_match_scikit_learn_out_of_fold() {
     );
     for (name, model) in &exact {
         let ours = oof_predictions(model.as_ref(), &x, &y);
-        let by_seed: Vec<Vec<f64>> = oof[*name]["predictions_by_seed"]
-            .as_array()
-            .unwrap()
+        let by_seed: Vec<Vec<f64>> = cases(&oof[*name]["predictions_by_seed"], 10, name)
             .iter()
             .map(f64s)
             .collect();
+        for p in &by_seed {
+            assert_eq!(p.len(), ours.len(), "{name}: predictions per seed");
+        }
         let mut tied = 0;
         for (i, a) in ours.iter().enumerate() {
             let options: Vec<f64> = by_seed.iter().map(|p| p[i]).collect();

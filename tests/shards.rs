@@ -292,6 +292,7 @@ fn shards_are_balanced_by_expected_cost_and_order_free() {
     let q = forkmap::run::prepare(&cfg).unwrap();
     let by_id = |p: &forkmap::run::Prepared| {
         let owner = forkmap::shard::owners(&p.space, &p.panel, 3);
+        assert_eq!(owner.len(), p.space.specs.len());
         let mut v: Vec<(String, usize)> = p
             .space
             .specs

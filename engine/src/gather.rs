@@ -124,6 +124,7 @@ fn write_gathered(
         }
     }
     let mut permutation_specs = None;
+    let mut importance_failures: Option<usize> = None;
     if !set.importance_pending() {
         // A finished whole-space run keeps its own permutation pass.
         let mut k = 0;
@@ -161,7 +162,7 @@ fn write_gathered(
         let index = p.space.index_by_id();
         let mut skills: Vec<(usize, f64)> = Vec::new();
         for d in &set.dirs {
-            for (id, sk) in &d.done.skills {
+            for (id, sk) in d.done.skills.iter().filter(|(_, sk)| sk.is_finite()) {
                 if let Some(&i) = index.get(id.as_str()) {
                     skills.push((i, *sk));
                 }
@@ -171,7 +172,11 @@ fn write_gathered(
             .num_threads(opts.threads)
             .build()
             .map_err(|e| out_err(tmp, format!("cannot start {} threads: {e}", opts.threads)))?;
-        permutation_specs = crate::run::permutation_pass(&p, tmp, &skills, &pool, opts.quiet)?;
+        permutation_specs =
+            crate::run::permutation_pass(&p, tmp, &skills, &pool, opts.quiet)?.map(|pass| {
+                importance_failures = Some(pass.importance_failed);
+                pass.specs
+            });
     }
     for t in TABLES {
         fsync_dir(&tmp.join(t))?;
@@ -204,7 +209,14 @@ fn write_gathered(
         o.insert("specs_written".into(), serde_json::json!(c.present));
         o.insert("specs_ok".into(), serde_json::json!(c.ok));
         o.insert("failures".into(), serde_json::json!(c.failures));
+        o.insert(
+            "specs_with_notes".into(),
+            serde_json::json!(set.dirs.iter().map(|d| d.done.noted).sum::<usize>()),
+        );
         o.insert("importance_pending".into(), false.into());
+        if let Some(n) = importance_failures {
+            o.insert("importance_pass_failures".into(), serde_json::json!(n));
+        }
         if permutation_specs.is_some() || set.importance_pending() {
             o.insert(
                 "importance_permutation_specs".into(),

@@ -25,6 +25,14 @@
 //! the pool of every fold (a fixed pool's non-members; for `screen`, an indicator never
 //! screened in) gets importance 0 of every kind and `in_pool = false`; a group, when none
 //! of its members is.
+//!
+//! Predictions go through the spec's own back-transform of the fold (the plain inverse,
+//! or the smearing estimate over that fold's training residuals).
+//!
+//! When a fold's importances cannot be computed (a permuted prediction that is not finite,
+//! e.g. a transform's inverse overflowing on a permuted collinear indicator, or a panic),
+//! the spec keeps its status and metrics but gets no importance rows, and a note in the
+//! `notes` column of `specs` says which fold and indicator; the run summary counts them.
 
 use crate::folds::mix;
 use crate::models::Predictor;
@@ -332,6 +340,8 @@ impl<'a> Accumulator<'a> {
     /// fold's shared store of pooled and filled draws if there is one. `chain[0]` is the
     /// fitted pool (the first stage, [`crate::space::STAGE_DIMENSIONS`]): its output
     /// columns are the indicators this fold's predictions can depend on.
+    /// An error says why the fold's importances cannot be computed (the accumulator must
+    /// then be discarded).
     #[allow(clippy::too_many_arguments)]
     pub fn add_fold(
         &mut self,
@@ -344,7 +354,18 @@ impl<'a> Accumulator<'a> {
         x_train: ArrayView2<f64>,
         test: &[usize],
         pred: &Array1<f64>,
-    ) {
+    ) -> Result<(), String> {
+        let finite = |p: &Array1<f64>, what: &dyn Fn() -> String| -> Result<(), String> {
+            match p.iter().position(|v| !v.is_finite()) {
+                Some(k) => Err(format!(
+                    "{} gives a non-finite prediction for row {}",
+                    what(),
+                    test[k] + 1
+                )),
+                None => Ok(()),
+            }
+        };
+        finite(pred, &|| "the unpermuted pipeline".to_string())?;
         let unpermuted = self.sse(pred, test);
         self.sse_base += unpermuted;
         self.n += test.len();
@@ -391,6 +412,9 @@ impl<'a> Accumulator<'a> {
                         j as u64 + 1,
                         r,
                     );
+                    finite(&p, &|| {
+                        format!("permuting `{}` (draw {r})", self.panel.indicators[j])
+                    })?;
                     let s = self.sse(&p, test);
                     if let Some(v) = self.sse_ind.get_mut(&j) {
                         v[r] += s;
@@ -420,6 +444,9 @@ impl<'a> Accumulator<'a> {
                     let p = self.permuted_predict(
                         fi, chain, model, target, draws, &raw, test, &members, key, r,
                     );
+                    finite(&p, &|| {
+                        format!("permuting group `{}` (draw {r})", self.groups[g].0)
+                    })?;
                     self.sse_grp[g][r] += self.sse(&p, test);
                 }
             }
@@ -454,6 +481,7 @@ impl<'a> Accumulator<'a> {
                 }
             }
         }
+        Ok(())
     }
 
     /// The rows of this spec, ranks filled in.

@@ -1,4 +1,11 @@
 //! Error metrics on pooled out-of-fold predictions.
+//!
+//! `baseline_mae` is the MAE of the best constant predictor under absolute error: each
+//! test row is predicted by the median of its fold's training outcomes ([`baseline`]; the
+//! median minimises the sum of absolute deviations). `skill` = 1 - `mae` / `baseline_mae`,
+//! so skill > 0 means the spec beats, out of fold, the constant that fits the training
+//! rows best. Metrics that are undefined (e.g. R2 or Spearman when one side is constant,
+//! skill when the baseline is exact) are NaN here and stored as null.
 
 use std::collections::HashMap;
 
@@ -9,6 +16,16 @@ pub fn mae(obs: &[f64], pred: &[f64]) -> f64 {
         .map(|(o, p)| (o - p).abs())
         .sum::<f64>()
         / obs.len() as f64
+}
+
+/// The baseline prediction from a fold's training outcomes: their median (the mean of the
+/// two middle values for an even count; numpy's `median`). NaN when there are none.
+pub fn baseline(y_train: &[f64]) -> f64 {
+    if y_train.is_empty() {
+        return f64::NAN;
+    }
+    let mut v = y_train.to_vec();
+    crate::stages::fill::median(&mut v)
 }
 
 /// Root mean squared error.
@@ -115,6 +132,7 @@ pub struct Scores {
     pub mae: f64,
     pub rmse: f64,
     pub r2: f64,
+    /// MAE of the training-median baseline ([`baseline`]).
     pub baseline_mae: f64,
     /// 1 - mae / baseline_mae.
     pub skill: f64,
@@ -174,6 +192,26 @@ mod tests {
     fn ranks_average_ties() {
         // Worked by hand: [10, 20, 20, 5] -> ranks [2, 3.5, 3.5, 1].
         assert_eq!(ranks(&[10.0, 20.0, 20.0, 5.0]), vec![2.0, 3.5, 3.5, 1.0]);
+    }
+
+    /// The baseline is the training median, so on a skewed outcome the constant median
+    /// gets skill 0 exactly, where the mean's baseline would have handed it positive
+    /// skill. By hand: training outcomes 1, 2, 3, 4, 40 (median 3, mean 10); test rows
+    /// 2 and 4: baseline MAE |2-3| + |4-3| = 1 per row.
+    #[test]
+    fn skill_is_against_the_training_median() {
+        let train = [1.0, 2.0, 3.0, 4.0, 40.0];
+        assert_eq!(baseline(&train), 3.0);
+        assert_eq!(baseline(&[1.0, 2.0, 3.0, 40.0]), 2.5);
+        assert!(baseline(&[]).is_nan());
+        let obs = [2.0, 4.0];
+        let b = [baseline(&train); 2];
+        let s = Scores::compute(&obs, &b, &b, &[0, 1]);
+        assert_eq!(s.baseline_mae, 1.0);
+        assert_eq!(s.skill, 0.0);
+        // A predictor at the mean (10) is worse than the median constant: negative skill.
+        let s = Scores::compute(&obs, &[10.0, 10.0], &b, &[0, 1]);
+        assert_eq!(s.skill, 1.0 - 7.0);
     }
 
     #[test]

@@ -43,6 +43,9 @@ pub struct Panel {
     pub se: Option<Array1<f64>>,
     /// Full scale of a bounded outcome (1 for proportions, 100 for percents).
     pub outcome_scale: Option<f64>,
+    /// Columns `data.indicators = "auto"` left out because most of their cells are text
+    /// (plan warns and lists them; the manifest records them as `skipped_columns`).
+    pub skipped: Vec<String>,
 }
 
 impl Panel {
@@ -95,6 +98,7 @@ impl Panel {
             codebook: BTreeMap::new(),
             se: None,
             outcome_scale: None,
+            skipped: Vec::new(),
         })
     }
 
@@ -200,11 +204,12 @@ fn from_table(cfg: &Config, path: &Path, t: &RawTable) -> Result<Panel> {
         .standard_error
         .map(|j| intake.standard_error(j))
         .transpose()?;
-    let chosen = intake.chosen_indicators(&roles)?;
+    let (chosen, skipped) = intake.chosen_indicators(&roles)?;
     let (x, names) = intake.indicator_matrix(&chosen)?;
     let mut panel = Panel::new(units, waves, y, x, names)?;
     panel.se = se;
     panel.outcome_scale = d.outcome_kind.scale();
+    panel.skipped = skipped;
     Ok(panel)
 }
 
@@ -465,11 +470,17 @@ impl Intake<'_> {
     /// The indicator columns with their cells: the listed ones, or with `"auto"` every
     /// numeric column not named elsewhere or ignored (a text column is skipped; a mostly
     /// numeric column with a stray cell is an error).
-    fn chosen_indicators(&self, roles: &Roles) -> Result<Vec<(usize, Vec<Option<f64>>)>> {
+    /// Also returns the text columns skipped by `"auto"`.
+    #[allow(clippy::type_complexity)]
+    fn chosen_indicators(
+        &self,
+        roles: &Roles,
+    ) -> Result<(Vec<(usize, Vec<Option<f64>>)>, Vec<String>)> {
         let (d, path, t) = (self.d, self.path, self.t);
         let n = t.n_rows();
         let named = roles.named();
         let mut chosen: Vec<(usize, Vec<Option<f64>>)> = Vec::new();
+        let mut skipped: Vec<String> = Vec::new();
         match &d.indicators {
             IndicatorSelection::List(list) => {
                 if list.is_empty() {
@@ -505,10 +516,7 @@ impl Intake<'_> {
                             if parsed * 2 > n {
                                 return Err(self.not_number(j, i, &s));
                             }
-                            tracing::info!(
-                                "column `{}` is not numeric: not an indicator",
-                                t.names[j]
-                            );
+                            skipped.push(t.names[j].clone());
                         }
                     }
                 }
@@ -517,7 +525,7 @@ impl Intake<'_> {
                 }
             }
         }
-        Ok(chosen)
+        Ok((chosen, skipped))
     }
 
     /// The indicator matrix (NaN for a gap) and names; every value finite and at most

@@ -18,6 +18,18 @@ pub struct PlanReport {
 /// Warnings about the design (not errors).
 pub fn warnings(p: &Prepared) -> Vec<String> {
     let mut w = p.space.warnings.clone();
+    if !p.panel.skipped.is_empty() {
+        w.push(format!(
+            "data.indicators = \"auto\" skipped {} column(s) whose cells are mostly text: {} (not indicators; list them under data.ignore to silence this, or fix their cells)",
+            p.panel.skipped.len(),
+            p.panel
+                .skipped
+                .iter()
+                .map(|c| format!("`{c}`"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ));
+    }
     let units = p.panel.n_units();
     let limit = (units as f64 / 10.0).max(1.0);
     let pools = &p.space.options[DIMENSIONS.iter().position(|d| *d == "pool").unwrap_or(1)];

@@ -16,12 +16,14 @@ use std::path::{Path, PathBuf};
 pub struct Done {
     /// Spec ids with a complete specs row.
     pub ids: HashSet<String>,
-    /// (spec id, skill) of the ok specs among them.
+    /// (spec id, skill) of the ok specs among them (NaN where the skill is null: undefined).
     pub skills: Vec<(String, f64)>,
     /// (spec id, failure cause) of the failed ones.
     pub failed: Vec<(String, String)>,
     /// Next free part number.
     pub next_part: usize,
+    /// Specs with notes among them (the `notes` column not null).
+    pub noted: usize,
 }
 
 fn part_number(name: &str) -> Option<usize> {
@@ -88,10 +90,18 @@ pub fn read_done(out: &Path) -> Result<(Done, HashSet<String>)> {
                     .as_any()
                     .downcast_ref::<Float64Array>()
                     .ok_or_else(|| out_err(&path, "skill is not a number".into()))?;
+                if let Some(n) = batch.column_by_name("notes") {
+                    done.noted += n.len() - n.null_count();
+                }
                 for i in 0..batch.num_rows() {
                     let id = ids.value(i).to_string();
-                    if status.value(i) == "ok" && !skill.is_null(i) {
-                        done.skills.push((id.clone(), skill.value(i)));
+                    if status.value(i) == "ok" {
+                        let sk = if skill.is_null(i) {
+                            f64::NAN
+                        } else {
+                            skill.value(i)
+                        };
+                        done.skills.push((id.clone(), sk));
                     } else {
                         done.failed.push((id.clone(), status.value(i).to_string()));
                     }

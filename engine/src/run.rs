@@ -64,6 +64,10 @@ pub struct RunSummary {
     pub specs: usize,
     pub ok: usize,
     pub failures: BTreeMap<&'static str, usize>,
+    /// Specs with notes (this invocation's specs; see the `notes` column of `specs`).
+    pub noted: usize,
+    /// Specs whose importances could not be computed (this invocation, both passes).
+    pub importance_failed: usize,
     pub seconds: f64,
     pub best: Option<(String, f64)>,
 }
@@ -239,8 +243,13 @@ struct Work {
     importance: f64,
 }
 
+/// Skills of the ok specs with a defined skill (spec index, skill), the number of ok
+/// specs, and the work done.
+type Streamed = (Vec<(usize, f64)>, usize, Work);
+
 /// Stream a sweep's results into a sink on `pool`, with progress; returns the skill of
-/// every ok spec (by spec index) and the work done.
+/// every ok spec with a defined skill (by spec index), the number of ok specs, and the work
+/// done.
 fn stream(
     sweep: &Sweep,
     sink: &mut ParquetSink,
@@ -248,9 +257,10 @@ fn stream(
     total: usize,
     quiet: bool,
     out: &Path,
-) -> Result<(Vec<(usize, f64)>, Work)> {
+) -> Result<Streamed> {
     let (tx, rx) = std::sync::mpsc::sync_channel::<SpecResult>(1024);
     let mut skills: Vec<(usize, f64)> = Vec::new();
+    let mut ok = 0usize;
     let mut work = Work::default();
     std::thread::scope(|s| {
         let writer = s.spawn(|| -> Result<()> {
@@ -263,7 +273,10 @@ fn stream(
                 if failed.is_some() {
                     continue;
                 }
-                if let Some(sc) = &r.scores {
+                if r.status == "ok" {
+                    ok += 1;
+                }
+                if let Some(sc) = r.scores.as_ref().filter(|sc| sc.skill.is_finite()) {
                     skills.push((r.spec, sc.skill));
                 }
                 if let Err(e) = sink.accept(r) {
@@ -290,7 +303,7 @@ fn stream(
             })
         })
     })?;
-    Ok((skills, work))
+    Ok((skills, ok, work))
 }
 
 /// Run every spec of `p` into `out`.
@@ -385,20 +398,21 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             path: out.into(),
             msg: format!("cannot start {} threads: {e}", opts.threads),
         })?;
-    let (mut skills, work) = stream(&sweep, &mut sink, &pool, todo.len(), opts.quiet, out)
+    let (mut skills, ok_now, work) = stream(&sweep, &mut sink, &pool, todo.len(), opts.quiet, out)
         .map_err(|e| resumable(e, sink.written_specs + done.ids.len()))?;
     let sweep_wall = t0.elapsed().as_secs_f64();
     let index = p.space.index_by_id();
     skills.extend(
         done.skills
             .iter()
+            .filter(|(_, sk)| sk.is_finite())
             .filter_map(|(id, sk)| index.get(id.as_str()).map(|&i| (i, *sk))),
     );
     let mut failures = sink.failures.clone();
     for (_, cause) in &done.failed {
         *failures.entry(crate::error::cause_name(cause)).or_default() += 1;
     }
-    let ok = skills.len();
+    let ok = ok_now + done.skills.len();
     let best = skills
         .iter()
         .max_by(|a, b| a.1.total_cmp(&b.1))
@@ -406,14 +420,16 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
     // The deferred permutation pass needs the best skill of the whole space, which a
     // shard does not know: `forkmap gather` runs it over the gathered shards.
     let pending = imp.deferred() && opts.shard.is_some();
-    let importance_specs = if pending {
-        serde_json::Value::Null
+    let (importance_specs, pass) = if pending {
+        (serde_json::Value::Null, None)
     } else {
         match permutation_pass(p, out, &skills, &pool, opts.quiet)? {
-            Some(n) => serde_json::json!(n),
-            None => serde_json::Value::Null,
+            Some(pass) => (serde_json::json!(pass.specs), Some(pass)),
+            None => (serde_json::Value::Null, None),
         }
     };
+    let importance_failed =
+        sink.importance_failed + pass.as_ref().map_or(0, |x| x.importance_failed);
     let seconds = t0.elapsed().as_secs_f64();
     let written = sink.written_specs + done.ids.len();
     let mut extra = serde_json::json!({
@@ -433,6 +449,12 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         "seconds": seconds,
         "specs_ok": ok,
         "failures": failures,
+        // Specs of this invocation with notes (`notes` column of `specs`), and those whose
+        // importances could not be computed.
+        "specs_with_notes": sink.noted + done.noted,
+        "importance_failures": importance_failed,
+        "importance_pass_notes": pass.as_ref().map(|x| x.notes.iter().map(|(id, n)| serde_json::json!({"spec_id": id, "notes": n})).collect::<Vec<_>>()),
+        "skipped_columns": p.panel.skipped,
         "specs_written": written,
         "resumes": resumes,
         "importance_within": imp.within,
@@ -452,6 +474,8 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         specs: sink.written_specs,
         ok,
         failures,
+        noted: sink.noted,
+        importance_failed,
         seconds,
         best,
     })
@@ -460,19 +484,24 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
 /// The deferred permutation-importance pass: with `importance.within`, rerun the specs
 /// whose skill is within that distance of the best (`skills`: spec index and skill of every
 /// ok spec of the whole space) for the permutation kinds, into `part-iNNNNN` parts of
-/// `out/importance`. Returns the number of specs rerun, `None` when nothing is deferred.
+/// `out/importance`. Returns what the pass did, `None` when nothing is deferred.
 pub fn permutation_pass(
     p: &Prepared,
     out: &Path,
     skills: &[(usize, f64)],
     pool: &rayon::ThreadPool,
     quiet: bool,
-) -> Result<Option<usize>> {
+) -> Result<Option<PassSummary>> {
     let imp = &p.cfg.importance;
     let Some(within) = imp.within.filter(|_| imp.deferred()) else {
         return Ok(None);
     };
-    let Some(top) = skills.iter().map(|s| s.1).max_by(f64::total_cmp) else {
+    let Some(top) = skills
+        .iter()
+        .map(|s| s.1)
+        .filter(|s| s.is_finite())
+        .max_by(f64::total_cmp)
+    else {
         return Ok(None);
     };
     let mut subset: Vec<usize> = skills
@@ -494,7 +523,22 @@ pub fn permutation_pass(
     let mut isink =
         ParquetSink::importance_pass(out, &p.space, &p.panel, p.cfg.output.batch_specs)?;
     stream(&second, &mut isink, pool, subset.len(), quiet, out)?;
-    Ok(Some(subset.len()))
+    Ok(Some(PassSummary {
+        specs: subset.len(),
+        importance_failed: isink.importance_failed,
+        notes: isink.pass_notes,
+    }))
+}
+
+/// What the deferred permutation pass did.
+#[derive(Debug, Clone, Default)]
+pub struct PassSummary {
+    /// Specs rerun.
+    pub specs: usize,
+    /// Of them, specs whose permutation importances could not be computed.
+    pub importance_failed: usize,
+    /// (spec id, `; `-joined notes) of rerun specs with notes.
+    pub notes: Vec<(String, String)>,
 }
 
 /// A write failure mid-run (disk full, folder gone read-only) ends the run with the

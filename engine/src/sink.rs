@@ -32,6 +32,13 @@ pub struct ParquetSink<'a> {
     next_part: usize,
     pub written_specs: usize,
     pub failures: std::collections::BTreeMap<&'static str, usize>,
+    /// Specs accepted with at least one note.
+    pub noted: usize,
+    /// Specs whose importances could not be computed.
+    pub importance_failed: usize,
+    /// (spec id, notes) of specs with notes in an importance-only pass (the `specs` table
+    /// is not rewritten then, so the run's manifest carries them).
+    pub pass_notes: Vec<(String, String)>,
     /// Second-pass mode: write only the importance table, parts named `part-iNNNNN`.
     importance_only: bool,
 }
@@ -109,6 +116,9 @@ impl<'a> ParquetSink<'a> {
             next_part: 0,
             written_specs: 0,
             failures: Default::default(),
+            noted: 0,
+            importance_failed: 0,
+            pass_notes: Vec::new(),
             importance_only: false,
         })
     }
@@ -135,6 +145,16 @@ impl<'a> ParquetSink<'a> {
     pub fn accept(&mut self, r: SpecResult) -> Result<()> {
         if r.status != "ok" {
             *self.failures.entry(r.status).or_default() += 1;
+        }
+        if !r.notes.is_empty() {
+            self.noted += 1;
+            if self.importance_only {
+                self.pass_notes
+                    .push((self.space.specs[r.spec].id.clone(), r.notes.join("; ")));
+            }
+        }
+        if r.importance_failed {
+            self.importance_failed += 1;
         }
         self.buffer.push(r);
         if self.buffer.len() >= self.batch {
@@ -227,12 +247,21 @@ impl<'a> ParquetSink<'a> {
         cols.push(Arc::new(StringArray::from_iter(
             rs.iter().map(|r| r.message.as_deref()),
         )));
+        fields.push(Field::new("notes", DataType::Utf8, true));
+        cols.push(Arc::new(StringArray::from_iter(
+            rs.iter()
+                .map(|r| (!r.notes.is_empty()).then(|| r.notes.join("; "))),
+        )));
+        // An undefined metric (NaN, or infinite skill over an exact baseline) is null, so
+        // it never sorts as a value.
         for (k, name) in crate::metrics::METRIC_COLUMNS.iter().enumerate() {
             fields.push(Field::new(*name, DataType::Float64, true));
-            cols.push(Arc::new(Float64Array::from_iter(
-                rs.iter()
-                    .map(|r| r.scores.as_ref().map(|s| s.columns()[k].1)),
-            )));
+            cols.push(Arc::new(Float64Array::from_iter(rs.iter().map(|r| {
+                r.scores
+                    .as_ref()
+                    .map(|s| s.columns()[k].1)
+                    .filter(|v| v.is_finite())
+            }))));
         }
         fields.push(Field::new("n_predictions", DataType::Int64, false));
         cols.push(Arc::new(Int64Array::from_iter_values(

@@ -93,13 +93,30 @@ pub struct Choice {
     pub digest: Option<String>,
 }
 
+/// Parameters left out of a choice's label, and so of its spec id, while they hold their
+/// default: (option, parameter, default). They were added after spec ids were in use, and
+/// leaving them out at the default keeps the ids of the specs that existed before; any
+/// other value is in the label, so ids stay unique. Every other parameter is always in
+/// the label.
+pub const QUIET_AT_DEFAULT: &[(&str, &str, f64)] =
+    &[("log1p", "smear", 0.0), ("logit", "smear", 0.0)];
+
 impl Choice {
-    /// Human label: `pca(k=3)`, `ridge(alpha=0.1)`, `mean`.
+    /// Human label: `pca(k=3)`, `ridge(alpha=0.1)`, `mean` (parameters in name order; a
+    /// [`QUIET_AT_DEFAULT`] parameter only when it is not at its default).
     pub fn label(&self) -> String {
-        if self.params.is_empty() {
+        let mut ps: Vec<_> = self
+            .params
+            .iter()
+            .filter(|(n, v)| {
+                !QUIET_AT_DEFAULT
+                    .iter()
+                    .any(|(o, q, d)| *o == self.option && q == n && v == d)
+            })
+            .collect();
+        if ps.is_empty() {
             return self.option.clone();
         }
-        let mut ps: Vec<_> = self.params.iter().collect();
         ps.sort_by_key(|(n, _)| *n);
         let inner: Vec<String> = ps.iter().map(|(n, v)| format!("{n}={v}")).collect();
         format!("{}({})", self.option, inner.join(","))
@@ -682,5 +699,37 @@ mod tests {
             digest: None,
         };
         assert_eq!(c.label(), "tree(depth=3,min_leaf=5)");
+    }
+
+    /// `smear` stays out of the label at its default (ids of existing specs unchanged)
+    /// and is in it otherwise (ids unique); the quiet defaults match the declarations.
+    #[test]
+    fn quiet_parameters_leave_the_label_only_at_their_default() {
+        let logit = |smear: f64| Choice {
+            dim: "transform",
+            option: "logit".into(),
+            params: vec![("clamp", 0.001), ("smear", smear)],
+            members: None,
+            digest: None,
+        };
+        assert_eq!(logit(0.0).label(), "logit(clamp=0.001)");
+        assert_eq!(logit(1.0).label(), "logit(clamp=0.001,smear=1)");
+        let log1p = Choice {
+            dim: "transform",
+            option: "log1p".into(),
+            params: vec![("smear", 0.0)],
+            members: None,
+            digest: None,
+        };
+        assert_eq!(log1p.label(), "log1p");
+        for (o, p, d) in QUIET_AT_DEFAULT {
+            let decl = DIMENSIONS
+                .iter()
+                .flat_map(|dim| options_of(dim))
+                .find(|x| x.name == *o)
+                .unwrap();
+            let param = decl.params.iter().find(|x| x.name == *p).unwrap();
+            assert_eq!(param.default, *d, "{o}.{p}");
+        }
     }
 }

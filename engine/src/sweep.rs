@@ -14,7 +14,11 @@
 //!   step is handed and the number of data rows handed (`tests/leak.rs`);
 //! * a spec's results depend only on the panel, the fold plan, the run seed and the spec
 //!   (its random stream is keyed by the spec id), never on threads or scheduling;
-//! * a failure inside one spec (or one stage) is recorded, and the sweep goes on.
+//! * a failure inside one spec (or one stage) is recorded, and the sweep goes on;
+//! * what a spec's fits did that changes what its numbers mean, without failing it (an
+//!   indicator dropped in a fold, an iteration limit reached, importances that could not
+//!   be computed), is recorded in [`SpecResult::notes`]: one place, written to the `notes`
+//!   column of `specs`.
 
 use crate::error::{Error, FitError, Result};
 use crate::folds::{mix, FoldPlan};
@@ -62,6 +66,12 @@ pub struct SpecResult {
     /// `ok` or the failure cause (`singular`, `invalid`, `no_convergence`, `panic`).
     pub status: &'static str,
     pub message: Option<String>,
+    /// Notes on an ok (or failed) spec, in fold order, each naming its repeat, fold and
+    /// step (`repeat 0, fold 2: fill `median`: ...`); written `; `-joined to the `notes`
+    /// column of `specs` (null when empty).
+    pub notes: Vec<String>,
+    /// True when importances were asked for but could not be computed (a note says why).
+    pub importance_failed: bool,
     pub scores: Option<Scores>,
     /// Wall seconds spent fitting and predicting this spec's models (stages excluded).
     pub seconds: f64,
@@ -71,6 +81,9 @@ pub struct SpecResult {
     /// Wall seconds spent on importances.
     pub importance_seconds: f64,
 }
+
+/// A fold's fitted model and its back-transform.
+type FoldFit = (Box<dyn Predictor>, Arc<dyn Target>);
 
 /// Predict raw indicator rows through a fitted chain, a model and the back-transform.
 pub fn predict_chain(
@@ -106,8 +119,11 @@ struct Whole {
 pub struct FittedSpec {
     pub chain: Vec<Arc<dyn Fitted>>,
     pub model: Box<dyn Predictor>,
-    /// Back-transform of the model's predictions to the outcome's scale.
+    /// Back-transform of the model's predictions to the outcome's scale (with the fold's
+    /// training residuals under `smear = 1`).
     pub target: Arc<dyn Target>,
+    /// Notes of the fold's stage fits (as in [`SpecResult::notes`]).
+    pub notes: Vec<String>,
 }
 
 impl FittedSpec {
@@ -173,6 +189,8 @@ struct FoldState {
     /// The fold's pooled and filled permutation draws, shared by the specs below one fill
     /// node (which also share its pool).
     draws: Option<Arc<crate::importance::Draws>>,
+    /// Notes of the stages fitted so far on this fold.
+    notes: Vec<String>,
 }
 
 /// Per-fold context shared by every spec: the training rows' outcome, units and standard
@@ -185,6 +203,7 @@ struct FoldCtx {
     train_units: Vec<usize>,
     /// Standard errors of the training rows, when declared.
     train_se: Option<Vec<f64>>,
+    /// The training outcomes' median ([`crate::metrics::baseline`]).
     baseline: f64,
 }
 
@@ -246,7 +265,8 @@ impl<'a> Sweep<'a> {
         for &si in chosen {
             let spec = &space.specs[si];
             let tc = spec.choice("transform");
-            let tlabel = tc.canonical();
+            // Specs differing only in the back-transform share the fitted scale's tree.
+            let tlabel = crate::transform::fit_key(tc);
             let ti = match roots.iter().position(|r| r.label == tlabel) {
                 Some(i) => i,
                 None => {
@@ -296,7 +316,7 @@ impl<'a> Sweep<'a> {
             .map(|f| {
                 let rows = f.train.clone();
                 let y_train: Array1<f64> = rows.iter().map(|&i| panel.y[i]).collect();
-                let baseline = y_train.mean().unwrap_or(0.0);
+                let baseline = crate::metrics::baseline(y_train.as_slice().unwrap_or(&[]));
                 FoldCtx {
                     train_se: panel
                         .se
@@ -421,6 +441,7 @@ impl<'a> Sweep<'a> {
             y: Arc::new(ctx.y_train.mapv(|v| target.forward(v))),
             target: target.clone(),
             draws: None,
+            notes: Vec::new(),
         }
     }
 
@@ -492,6 +513,14 @@ impl<'a> Sweep<'a> {
                 })
                 .map_err(|e| (fi, e))?;
                 self.add_stage_time(t0);
+                let fold = &self.folds.folds[fi];
+                let mut notes = p.notes.clone();
+                notes.extend(fitted.notes().into_iter().map(|n| {
+                    format!(
+                        "repeat {}, fold {}: {step} `{}`: {n}",
+                        fold.repeat, fold.index, node.label
+                    )
+                }));
                 let mut chain = p.chain.clone();
                 let names = fitted.names().to_vec();
                 chain.push(fitted);
@@ -515,6 +544,7 @@ impl<'a> Sweep<'a> {
                     y: p.y.clone(),
                     target: p.target.clone(),
                     draws,
+                    notes,
                 })
             })
             .collect();
@@ -534,6 +564,8 @@ impl<'a> Sweep<'a> {
                         loadings: None,
                         status: e.cause(),
                         message: Some(msg.clone()),
+                        notes: Vec::new(),
+                        importance_failed: false,
                         scores: None,
                         seconds: 0.0,
                         predictions: Vec::new(),
@@ -569,18 +601,22 @@ impl<'a> Sweep<'a> {
         });
     }
 
+    /// Fit a spec's model on a fold's prepared training rows; with it, the fold's
+    /// back-transform (the plain inverse, or Duan's smearing estimate over the model's
+    /// in-sample residuals on these training rows under `smear = 1`).
     fn fit_fold(
         &self,
         si: usize,
         fi: usize,
         st: &FoldState,
-    ) -> std::result::Result<Box<dyn Predictor>, FitError> {
+    ) -> std::result::Result<FoldFit, FitError> {
         let spec: &Spec = &self.space.specs[si];
         let ctx = &self.ctx[fi];
         let winput = crate::weights::WeightInput {
             units: &ctx.train_units,
             y: ctx.y_train.as_slice().unwrap_or(&[]),
             se: ctx.train_se.as_deref(),
+            target: Some(st.target.as_ref()),
         };
         self.audit(
             "weights",
@@ -607,7 +643,23 @@ impl<'a> Sweep<'a> {
             &st.train_rows,
             input.x.nrows().max(input.y.len()).max(input.w.len()),
         );
-        guarded(|| self.models[si].fit(&input))
+        let model = guarded(|| self.models[si].fit(&input))?;
+        if !crate::transform::smears(spec.choice("transform")) {
+            return Ok((model, st.target.clone()));
+        }
+        let fitted = guarded(|| Ok(model.predict(st.train.view())))?;
+        let residuals: Vec<f64> = st.y.iter().zip(fitted.iter()).map(|(z, f)| z - f).collect();
+        if let Some(k) = residuals.iter().position(|e| !e.is_finite()) {
+            return Err(FitError::Invalid(format!(
+                "smearing: non-finite training residual for row {}",
+                self.folds.folds[fi].train[k] + 1
+            )));
+        }
+        let smeared: Arc<dyn Target> = Arc::new(crate::transform::Smeared {
+            inner: st.target.clone(),
+            residuals,
+        });
+        Ok((model, smeared))
     }
 
     fn run_spec(&self, si: usize, states: &[FoldState]) -> SpecResult {
@@ -621,20 +673,23 @@ impl<'a> Sweep<'a> {
             crate::importance::Accumulator::new(self.panel, &self.space.specs[si], cfg, self.seed)
         });
         let mut imp_seconds = 0.0;
+        let mut notes: Vec<String> = Vec::new();
+        let mut importance_failed = false;
         for (fi, st) in states.iter().enumerate() {
             let fold = &self.folds.folds[fi];
-            let out = self.fit_fold(si, fi, st).and_then(|m| {
-                let p = guarded(|| Ok(m.predict(st.test.view()).mapv(|z| st.target.inverse(z))))?;
+            notes.extend(st.notes.iter().cloned());
+            let out = self.fit_fold(si, fi, st).and_then(|(m, back)| {
+                let p = guarded(|| Ok(m.predict(st.test.view()).mapv(|z| back.inverse(z))))?;
                 match p.iter().position(|v| !v.is_finite()) {
                     Some(k) => Err(FitError::Invalid(format!(
                         "non-finite prediction for row {}",
                         st.test_rows[k] + 1
                     ))),
-                    None => Ok((m, p)),
+                    None => Ok((m, back, p)),
                 }
             });
             match out {
-                Ok((m, p)) => {
+                Ok((m, back, p)) => {
                     if let Some(acc) = imp.as_mut() {
                         let ti = Instant::now();
                         let r = guarded(|| {
@@ -643,16 +698,25 @@ impl<'a> Sweep<'a> {
                                 &st.chain,
                                 st.draws.as_deref(),
                                 m.as_ref(),
-                                st.target.as_ref(),
+                                back.as_ref(),
                                 &st.names,
                                 st.train.view(),
                                 &st.test_rows,
                                 &p,
-                            );
-                            Ok(())
+                            )
+                            .map_err(FitError::Invalid)
                         });
-                        if r.is_err() {
+                        if let Err(e) = r {
+                            let e = match e {
+                                FitError::Invalid(m) => m,
+                                other => other.to_string(),
+                            };
                             imp = None;
+                            importance_failed = true;
+                            notes.push(format!(
+                                "repeat {}, fold {}: importance: {e}; the spec has no importance rows",
+                                fold.repeat, fold.index
+                            ));
                         }
                         imp_seconds += ti.elapsed().as_secs_f64();
                     }
@@ -677,6 +741,8 @@ impl<'a> Sweep<'a> {
                             "model (repeat {}, fold {}): {e}",
                             fold.repeat, fold.index
                         )),
+                        notes,
+                        importance_failed,
                         scores: None,
                         seconds: t0.elapsed().as_secs_f64(),
                         predictions: Vec::new(),
@@ -692,6 +758,8 @@ impl<'a> Sweep<'a> {
             loadings: None,
             status: "ok",
             message: None,
+            notes,
+            importance_failed,
             scores: Some(Scores::compute(&obs, &values, &base, &units)),
             seconds: t0.elapsed().as_secs_f64() - imp_seconds,
             predictions: preds,
@@ -703,6 +771,7 @@ impl<'a> Sweep<'a> {
     /// Fit one spec on one fold and return the reusable fitted pipeline.
     pub fn fit_spec(&self, si: usize, fi: usize) -> std::result::Result<FittedSpec, FitError> {
         let spec = &self.space.specs[si];
+        let fold = &self.folds.folds[fi];
         let target = crate::transform::build(spec.choice("transform"), self.panel.outcome_scale)
             .map_err(FitError::Invalid)?;
         let mut st = self.base_state(fi, &target);
@@ -716,16 +785,25 @@ impl<'a> Sweep<'a> {
                 names: &st.names,
             };
             let f = self.fit_stage(dim, fi, stage.as_ref(), &input)?;
+            st.notes.extend(f.notes().into_iter().map(|n| {
+                format!(
+                    "repeat {}, fold {}: {dim} `{}`: {n}",
+                    fold.repeat,
+                    fold.index,
+                    spec.choice(dim).canonical()
+                )
+            }));
             st.train = f.apply_rows(st.train.view(), Some(&st.train_rows));
             st.test = f.apply_rows(st.test.view(), Some(&st.test_rows));
             st.names = f.names().to_vec();
             st.chain.push(f);
         }
-        let model = self.fit_fold(si, fi, &st)?;
+        let (model, back) = self.fit_fold(si, fi, &st)?;
         Ok(FittedSpec {
             chain: st.chain,
             model,
-            target,
+            target: back,
+            notes: st.notes,
         })
     }
 }

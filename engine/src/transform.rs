@@ -6,9 +6,39 @@
 //! * `logit`: for proportions (or percents, declared by `data.outcome_kind`): with p the
 //!   outcome on the [0, 1] scale clamped to [clamp, 1 - clamp], z = ln(p / (1 - p)); the
 //!   back-transform returns to the outcome's scale (so a prediction never leaves the range).
+//!
+//! **What a back-transformed prediction estimates.** A model fitted on z = h(y) predicts
+//! (roughly) the conditional mean of z. Because h is monotone, the plain inverse h^-1(z_hat)
+//! estimates the conditional *median* of y (when the errors on the z scale are symmetric),
+//! not its mean: by Jensen's inequality it sits below the mean under `log1p` (convex
+//! inverse) and towards the middle of the range under `logit`. That is the right target
+//! for MAE (the median minimises absolute error), forkmap's headline metric, and it is the
+//! default (`smear = 0`). For RMSE and R2, or to compare transformed and untransformed
+//! specs on the mean scale, set `smear = 1`: Duan's smearing estimate (N. Duan, 1983,
+//! "Smearing estimate: a nonparametric retransformation method", JASA 78:605-610),
+//!
+//!   y_hat = (1/n) sum_i h^-1(z_hat + e_i),   e_i = z_i - z_hat_i,
+//!
+//! the mean of the inverse over the residuals e_i of the fold's model on its own training
+//! rows (in sample, on the transformed scale). The residuals come from the training rows
+//! only, so the correction is fitted in-fold like every other step ([`Smeared`]).
+//! `smear` is left out of a spec's label (and so of its id) at its default 0, so specs
+//! that existed before the parameter keep their ids.
+//!
+//! Each transform also gives its slope h'(y), with which `invvar` weighting carries a
+//! standard error to the fitted scale by the delta method (se_z = se_y |h'(y)|).
 
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use std::sync::Arc;
+
+/// The back-transform's parameter: 0 the plain inverse (a conditional median), 1 Duan's
+/// smearing estimate (a conditional mean).
+const SMEAR: ParamDecl = ParamDecl {
+    name: "smear",
+    kind: ParamKind::Int { min: 0, max: 1 },
+    default: 0.0,
+    help: "back-transform: 0 plain inverse (conditional median), 1 Duan's smearing estimate (conditional mean)",
+};
 
 pub const OPTIONS: &[OptionDecl] = &[
     OptionDecl {
@@ -19,31 +49,36 @@ pub const OPTIONS: &[OptionDecl] = &[
     },
     OptionDecl {
         name: "log1p",
-        params: &[],
+        params: &[SMEAR],
         help: "ln(1 + outcome); needs outcome > -1",
         weighted: true,
     },
     OptionDecl {
         name: "logit",
-        params: &[ParamDecl {
-            name: "clamp",
-            kind: ParamKind::Real {
-                min: 0.0,
-                max: 0.25,
-                open_min: true,
+        params: &[
+            ParamDecl {
+                name: "clamp",
+                kind: ParamKind::Real {
+                    min: 0.0,
+                    max: 0.25,
+                    open_min: true,
+                },
+                default: 0.001,
+                help: "proportions are clamped to [clamp, 1 - clamp] before the logit",
             },
-            default: 0.001,
-            help: "proportions are clamped to [clamp, 1 - clamp] before the logit",
-        }],
+            SMEAR,
+        ],
         help: "logit of a proportion or percent (declare data.outcome_kind)",
         weighted: true,
     },
 ];
 
-/// A fixed (not fitted) transform of the outcome.
+/// A transform of the outcome and its back-transform.
 pub trait Target: Send + Sync {
     fn forward(&self, y: f64) -> f64;
     fn inverse(&self, z: f64) -> f64;
+    /// The slope h'(y) of the forward transform at y (for the delta method).
+    fn slope(&self, y: f64) -> f64;
 }
 
 struct Identity;
@@ -61,6 +96,9 @@ impl Target for Identity {
     fn inverse(&self, z: f64) -> f64 {
         z
     }
+    fn slope(&self, _y: f64) -> f64 {
+        1.0
+    }
 }
 
 impl Target for Log1p {
@@ -69,6 +107,10 @@ impl Target for Log1p {
     }
     fn inverse(&self, z: f64) -> f64 {
         z.exp_m1()
+    }
+    /// d ln(1 + y) / dy = 1 / (1 + y).
+    fn slope(&self, y: f64) -> f64 {
+        1.0 / (1.0 + y)
     }
 }
 
@@ -80,6 +122,53 @@ impl Target for Logit {
     fn inverse(&self, z: f64) -> f64 {
         self.scale / (1.0 + (-z).exp())
     }
+    /// With p = y / scale clamped as in `forward`: dz/dy = 1 / (scale p (1 - p)) (a
+    /// percent outcome is converted to a proportion first, hence the 1 / scale).
+    fn slope(&self, y: f64) -> f64 {
+        let p = (y / self.scale).clamp(self.clamp, 1.0 - self.clamp);
+        1.0 / (self.scale * p * (1.0 - p))
+    }
+}
+
+/// Duan's smearing estimate over a transform: the back-transform of z is the mean of
+/// h^-1(z + e_i) over the training residuals e_i (transformed scale) of one fold's model.
+pub struct Smeared {
+    pub inner: Arc<dyn Target>,
+    /// Training residuals z_i - z_hat_i, in training-row order.
+    pub residuals: Vec<f64>,
+}
+
+impl Target for Smeared {
+    fn forward(&self, y: f64) -> f64 {
+        self.inner.forward(y)
+    }
+    fn inverse(&self, z: f64) -> f64 {
+        if self.residuals.is_empty() {
+            return self.inner.inverse(z);
+        }
+        let s: f64 = self
+            .residuals
+            .iter()
+            .map(|e| self.inner.inverse(z + e))
+            .sum();
+        s / self.residuals.len() as f64
+    }
+    fn slope(&self, y: f64) -> f64 {
+        self.inner.slope(y)
+    }
+}
+
+/// True when a transform choice asks for the smearing back-transform.
+pub fn smears(c: &Choice) -> bool {
+    c.param("smear").unwrap_or(0.0) >= 1.0
+}
+
+/// The part of a transform choice that fixes the fitted scale (its label without
+/// `smear`): specs that differ only in the back-transform share their stage preparations.
+pub fn fit_key(c: &Choice) -> String {
+    let mut plain = c.clone();
+    plain.params.retain(|(n, _)| *n != "smear");
+    plain.label()
 }
 
 /// Build a transform. `scale` is the outcome's full scale (1 or 100) for logit.
@@ -164,6 +253,58 @@ mod tests {
             scale: 1.0,
         };
         assert!((l.forward(0.0) - (0.01f64 / 0.99).ln()).abs() < 1e-12);
+    }
+
+    /// Duan's smearing estimate, worked by hand (checked with Python's math module):
+    /// log1p at z_hat = 1 with training residuals -0.1, 0, 0.2:
+    /// ((e^0.9 - 1) + (e^1 - 1) + (e^1.2 - 1)) / 3 = (2.4596031 + 2.7182818 + 3.3201169) / 3
+    /// minus 1 = 1.8326672874508472, above the plain inverse e - 1 = 1.718281828459045 (the
+    /// median). Logit of a percent at z_hat = 0.5 with residuals -0.3, 0.3, 0.6:
+    /// (100/(1+e^-0.2) + 100/(1+e^-0.8) + 100/(1+e^-1.1)) / 3 = (54.983400 + 68.997448 +
+    /// 75.026011) / 3 = 66.33561946784027 (plain inverse 62.245933120185455).
+    #[test]
+    fn smearing_matches_a_hand_computation() {
+        let s = Smeared {
+            inner: Arc::new(Log1p),
+            residuals: vec![-0.1, 0.0, 0.2],
+        };
+        assert!((s.inverse(1.0) - 1.8326672874508472).abs() < 1e-14);
+        assert!((Log1p.inverse(1.0) - 1.718281828459045).abs() < 1e-15);
+        assert_eq!(s.forward(3.0), Log1p.forward(3.0));
+        let l = Smeared {
+            inner: Arc::new(Logit {
+                clamp: 0.001,
+                scale: 100.0,
+            }),
+            residuals: vec![-0.3, 0.3, 0.6],
+        };
+        assert!((l.inverse(0.5) - 66.33561946784027).abs() < 1e-12);
+        // Without residuals it is the plain inverse.
+        let none = Smeared {
+            inner: Arc::new(Log1p),
+            residuals: vec![],
+        };
+        assert_eq!(none.inverse(1.0), Log1p.inverse(1.0));
+    }
+
+    /// Slopes by hand: d ln(1+y)/dy at y = 3 is 1/4; the logit of a proportion at p = 0.2
+    /// has slope 1/(0.2 * 0.8) = 6.25, of a percent at 20 the same over 100; inside the
+    /// clamp the slope is taken at the clamped p.
+    #[test]
+    fn slopes_for_the_delta_method() {
+        assert_eq!(Log1p.slope(3.0), 0.25);
+        assert_eq!(Identity.slope(7.0), 1.0);
+        let prop = Logit {
+            clamp: 0.01,
+            scale: 1.0,
+        };
+        assert!((prop.slope(0.2) - 6.25).abs() < 1e-12);
+        let pct = Logit {
+            clamp: 0.01,
+            scale: 100.0,
+        };
+        assert!((pct.slope(20.0) - 0.0625).abs() < 1e-14);
+        assert!((prop.slope(0.0) - 1.0 / (0.01 * 0.99)).abs() < 1e-9);
     }
 
     #[test]

@@ -1,6 +1,18 @@
 //! Row weighting, derived from training rows only (units, outcomes and standard errors of
 //! the fold's training rows), then normalised to mean 1 over them so that a ridge penalty
 //! means the same under every weighting.
+//!
+//! * `rows`: 1. `units`: 1 / (the unit's number of training rows).
+//! * `high`: `factor` for rows whose outcome is above the training `q`-quantile (numpy's
+//!   linear quantile), else 1.
+//! * `power`: (1 + (y - min) / (max - min))^a with min and max the training outcomes'
+//!   range: from 1 at the training minimum to 2^a at the maximum. Scale- and shift-free: a
+//!   percent outcome and the same outcome as a proportion get the same weights. All 1 when
+//!   the training outcomes are constant.
+//! * `invvar`: 1 / se_z^2, with se_z the outcome's standard error carried to the scale
+//!   the model is fitted on by the delta method, se_z = se_y |h'(y)| (h the transform;
+//!   `log1p`: se_y / (1 + y); `logit`: se_y / (s p (1 - p)) with p = y / s clamped as the
+//!   transform clamps it and s the outcome's full scale, 1 or 100; `identity`: se_y).
 
 use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use ndarray::Array1;
@@ -56,7 +68,7 @@ pub const OPTIONS: &[OptionDecl] = &[
                 open_min: true,
             },
             default: 1.0,
-            help: "weight proportional to (outcome - training minimum + 1)^a",
+            help: "weight (1 + (outcome - training min) / (training max - training min))^a",
         }],
         help: "continuous upweighting of high outcomes",
         weighted: true,
@@ -64,7 +76,7 @@ pub const OPTIONS: &[OptionDecl] = &[
     OptionDecl {
         name: "invvar",
         params: &[],
-        help: "1 / standard error^2 (needs data.standard_error)",
+        help: "1 / standard error^2 on the fitted scale (delta method; needs data.standard_error)",
         weighted: true,
     },
 ];
@@ -77,6 +89,9 @@ pub struct WeightInput<'a> {
     pub y: &'a [f64],
     /// Standard errors of the training rows' outcomes, when the data declare them.
     pub se: Option<&'a [f64]>,
+    /// The outcome transform the model is fitted under (its slope carries `se` to the
+    /// fitted scale); `None` for the identity.
+    pub target: Option<&'a dyn crate::transform::Target>,
 }
 
 /// Quantile with linear interpolation between order statistics (numpy's default
@@ -118,13 +133,41 @@ pub fn weights(choice: &Choice, input: &WeightInput) -> Result<Array1<f64>, Stri
         "power" => {
             let a = choice.param("a").unwrap_or(1.0);
             let lo = input.y.iter().copied().fold(f64::INFINITY, f64::min);
-            input.y.iter().map(|&y| (y - lo + 1.0).powf(a)).collect()
+            let hi = input.y.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            let range = hi - lo;
+            input
+                .y
+                .iter()
+                .map(|&y| {
+                    if range > 0.0 {
+                        (1.0 + (y - lo) / range).powf(a)
+                    } else {
+                        1.0
+                    }
+                })
+                .collect()
         }
         "invvar" => {
             let se = input
                 .se
                 .ok_or("weighting `invvar` needs data.standard_error")?;
-            se.iter().map(|s| 1.0 / (s * s)).collect()
+            if se.len() != n || input.y.len() != n {
+                return Err(format!(
+                    "weighting `invvar`: {} standard errors and {} outcomes for {n} rows",
+                    se.len(),
+                    input.y.len()
+                ));
+            }
+            se.iter()
+                .zip(input.y)
+                .map(|(s, &y)| {
+                    let sz = match input.target {
+                        Some(t) => s * t.slope(y).abs(),
+                        None => *s,
+                    };
+                    1.0 / (sz * sz)
+                })
+                .collect()
         }
         other => return Err(format!("unknown weighting `{other}`")),
     };
@@ -158,6 +201,7 @@ mod tests {
                 units: &[0, 0, 1],
                 y: &[0.0; 3],
                 se: None,
+                target: None,
             },
         )
         .unwrap();
@@ -177,6 +221,7 @@ mod tests {
                 units: &units,
                 y: &y,
                 se: None,
+                target: None,
             },
         )
         .unwrap();
@@ -188,10 +233,13 @@ mod tests {
                 units: &units,
                 y: &y,
                 se: None,
+                target: None,
             },
         )
         .unwrap();
-        assert!((w[3] / w[0] - 10.0).abs() < 1e-12);
+        // Scale-free power weights: training range 1..10, so row 4 weighs 1 + 9/9 = 2 and
+        // row 1 weighs 1 (by hand).
+        assert!((w[3] / w[0] - 2.0).abs() < 1e-12);
         let se = [1.0, 2.0, 1.0, 0.5];
         let w = weights(
             &choice("invvar", vec![]),
@@ -199,6 +247,7 @@ mod tests {
                 units: &units,
                 y: &y,
                 se: Some(&se),
+                target: None,
             },
         )
         .unwrap();
@@ -208,9 +257,94 @@ mod tests {
             &WeightInput {
                 units: &units,
                 y: &y,
-                se: None
+                se: None,
+                target: None,
             }
         )
         .is_err());
+    }
+
+    /// Power weights do not move when the outcome changes units (x 100) or is shifted.
+    /// By hand, a = 2 on y = 1, 2, 3, 10 (range 9): raw (1 + 0/9)^2 = 1, (1 + 1/9)^2 =
+    /// 100/81, (1 + 2/9)^2 = 121/81, 2^2 = 4; mean (81 + 100 + 121 + 324) / (4 * 81) =
+    /// 626/324, so the last row weighs 4 * 324/626 = 2.0702875...
+    #[test]
+    fn power_weights_are_scale_and_shift_free() {
+        let y = [1.0, 2.0, 3.0, 10.0];
+        let units = [0, 1, 2, 3];
+        let at = |y: &[f64]| {
+            weights(
+                &choice("power", vec![("a", 2.0)]),
+                &WeightInput {
+                    units: &units,
+                    y,
+                    se: None,
+                    target: None,
+                },
+            )
+            .unwrap()
+        };
+        let w = at(&y);
+        assert!((w[3] - 4.0 * 324.0 / 626.0).abs() < 1e-12, "{w}");
+        let percent: Vec<f64> = y.iter().map(|v| v * 100.0).collect();
+        let shifted: Vec<f64> = y.iter().map(|v| v - 37.5).collect();
+        for other in [at(&percent), at(&shifted)] {
+            for (a, b) in w.iter().zip(other.iter()) {
+                assert!((a - b).abs() < 1e-12, "{w} vs {other}");
+            }
+        }
+        // Constant training outcomes: every row weighs 1.
+        assert_eq!(at(&[5.0; 4]), Array1::<f64>::ones(4));
+    }
+
+    /// invvar carries the standard error to the fitted scale (delta method). By hand:
+    /// log1p at y = 1 and 3 with se 0.5 and 2: se_z = 0.5/2 = 0.25 and 2/4 = 0.5, raw
+    /// weights 16 and 4 (ratio 4; on the raw scale it would be 16). logit of a percent at
+    /// y = 50 and 10 (p = 0.5, 0.1), se 5 and 3: se_z = 5/(100 * 0.25) = 0.2 and
+    /// 3/(100 * 0.09) = 1/3, raw weights 25 and 9.
+    #[test]
+    fn inverse_variance_uses_the_fitted_scale() {
+        use crate::transform::{Logit, Target};
+        let units = [0, 1];
+        let log1p = crate::transform::build(
+            &Choice {
+                dim: "transform",
+                option: "log1p".into(),
+                params: vec![("smear", 0.0)],
+                members: None,
+                digest: None,
+            },
+            None,
+        )
+        .unwrap();
+        let w = weights(
+            &choice("invvar", vec![]),
+            &WeightInput {
+                units: &units,
+                y: &[1.0, 3.0],
+                se: Some(&[0.5, 2.0]),
+                target: Some(log1p.as_ref()),
+            },
+        )
+        .unwrap();
+        assert!((w[0] / w[1] - 4.0).abs() < 1e-12, "{w}");
+        assert!((w[0] - 2.0 * 16.0 / 20.0).abs() < 1e-12, "{w}");
+        let logit = Logit {
+            clamp: 0.001,
+            scale: 100.0,
+        };
+        assert!((logit.slope(50.0) - 0.04).abs() < 1e-15);
+        let t: &dyn Target = &logit;
+        let w = weights(
+            &choice("invvar", vec![]),
+            &WeightInput {
+                units: &units,
+                y: &[50.0, 10.0],
+                se: Some(&[5.0, 3.0]),
+                target: Some(t),
+            },
+        )
+        .unwrap();
+        assert!((w[0] / w[1] - 25.0 / 9.0).abs() < 1e-12, "{w}");
     }
 }

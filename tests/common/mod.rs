@@ -37,12 +37,51 @@ pub fn matrix(v: &serde_json::Value) -> ndarray::Array2<f64> {
     ndarray::Array2::from_shape_vec((n, p), rows.into_iter().flatten().collect()).expect("shape")
 }
 
-/// Assert |a - b| <= tol * max(1, |b|).
+/// Assert |a - b| <= tol * |b|: `tol` is a relative tolerance, whatever the size of `b`
+/// (what the README's reference table means by a bare tolerance). A reference value of 0
+/// must then be met exactly: use [`close_to_scale`] where a vector has zeros.
 pub fn close(a: f64, b: f64, tol: f64, what: &str) {
     assert!(
-        (a - b).abs() <= tol * b.abs().max(1.0),
-        "{what}: {a} vs reference {b} (tol {tol})"
+        a.is_finite() && (a - b).abs() <= tol * b.abs(),
+        "{what}: {a} vs reference {b} (relative tol {tol})"
     );
+}
+
+/// Assert |a - b| <= tol * scale, with `scale` the size of the compared quantity as a
+/// whole (e.g. the largest |coefficient| of a fit, or 1 for an identity matrix): for
+/// entries that can be 0 or tiny beside the others.
+pub fn close_to_scale(a: f64, b: f64, tol: f64, scale: f64, what: &str) {
+    assert!(scale > 0.0, "{what}: scale {scale} must be positive");
+    assert!(
+        a.is_finite() && (a - b).abs() <= tol * scale,
+        "{what}: {a} vs reference {b} (tol {tol} x scale {scale})"
+    );
+}
+
+/// The largest |value| of a reference vector (the scale for [`close_to_scale`]).
+pub fn scale_of(v: &[f64]) -> f64 {
+    v.iter().fold(0.0f64, |m, x| m.max(x.abs()))
+}
+
+/// Pairs of two sequences that must have the same, non-zero length (a zip alone stops at
+/// the shorter one and would compare nothing past it).
+pub fn pairs<A: Clone, B: Clone>(a: &[A], b: &[B], what: &str) -> Vec<(A, B)> {
+    assert_eq!(a.len(), b.len(), "{what}: lengths differ");
+    assert!(!a.is_empty(), "{what}: nothing to compare");
+    a.iter().cloned().zip(b.iter().cloned()).collect()
+}
+
+/// The reference cases under `v`: an array that must hold at least `min` entries.
+pub fn cases<'a>(v: &'a serde_json::Value, min: usize, what: &str) -> &'a Vec<serde_json::Value> {
+    let c = v
+        .as_array()
+        .unwrap_or_else(|| panic!("{what}: reference cases missing"));
+    assert!(
+        c.len() >= min,
+        "{what}: {} reference cases, expected at least {min}",
+        c.len()
+    );
+    c
 }
 
 /// The toy panel loaded through the quick config, with the config.

@@ -60,10 +60,21 @@ check("duckdb: specs.mae = mean |observed - predicted|", diff is not None and di
 top = con.execute(f"select model, max(skill) from '{specs_glob}' group by 1 order by 2 desc").fetchall()
 check("duckdb: group by model", len(top) >= 2)
 
+# Undefined metrics are null, never NaN (NaN sorts first in DuckDB's descending order).
+nan = con.execute(
+    f"""select count(*) from '{specs_glob}' where isnan(mae) or isnan(rmse) or isnan(r2)
+        or isnan(baseline_mae) or isnan(skill) or isnan(top_quartile_mae) or isnan(unit_mae)
+        or isnan(spearman)"""
+).fetchone()[0]
+check("duckdb: no NaN metric (undefined ones are null)", nan == 0, f"{nan} rows")
+notes = con.execute(f"select count(*) from '{specs_glob}' where notes is not null").fetchone()[0]
+check("duckdb: specs with notes = manifest specs_with_notes",
+      notes == manifest.get("specs_with_notes", -1), f"{notes} vs {manifest.get('specs_with_notes')}")
+
 # pyarrow
 t = ds.dataset(os.path.join(run, "specs"), format="parquet").to_table()
 check("pyarrow: specs rows", t.num_rows == n_specs)
-for c in ["spec_id", "transform", "fill", "pool", "scale", "compress", "model", "weighting", "status", "mae", "rmse", "r2", "baseline_mae", "skill", "top_quartile_mae", "unit_mae", "spearman", "seconds"]:
+for c in ["spec_id", "transform", "fill", "pool", "scale", "compress", "model", "weighting", "status", "notes", "mae", "rmse", "r2", "baseline_mae", "skill", "top_quartile_mae", "unit_mae", "spearman", "seconds"]:
     check(f"pyarrow: specs column {c}", c in t.column_names)
 p = ds.dataset(os.path.join(run, "predictions"), format="parquet").to_table()
 check("pyarrow: predictions rows", p.num_rows == n_specs * rows)

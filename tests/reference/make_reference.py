@@ -50,8 +50,16 @@ a = rng.normal(10, 3, 50)
 cases.append((a.tolist(), (a + rng.normal(0, 1.5, 50)).tolist()))
 # A case with ties (for ranks) and repeated units.
 cases.append(([1.0, 2.0, 2.0, 3.0, 5.0, 5.0, 8.0, 9.0], [1.5, 2.5, 1.0, 3.0, 4.0, 6.5, 8.0, 7.0]))
+# Each case also has a set of "training" outcomes (skewed, so median and mean differ): the
+# baseline predicts every observed value by their median (numpy.median); its MAE and
+# skill = 1 - MAE / baseline MAE are computed here.
+trains = [
+    [0.5, 1.0, 1.5, 2.0, 2.5, 40.0],
+    (rng.lognormal(2.0, 0.6, 41)).tolist(),
+    [1.0, 1.0, 2.0, 3.0, 30.0],
+]
 metric_cases = []
-for t, p in cases:
+for (t, p), train in zip(cases, trains, strict=True):
     t_, p_ = np.asarray(t), np.asarray(p)
     units = [i // 2 for i in range(len(t))]  # rows 0-1 are unit 0, rows 2-3 unit 1, ...
     err = np.abs(t_ - p_)
@@ -67,6 +75,10 @@ for t, p in cases:
             "spearman": float(scipy.stats.spearmanr(t, p).statistic),
             "top_quartile_mae": float(err[t_ >= np.quantile(t_, 0.75)].mean()),
             "unit_mae": float(np.mean(per_unit)),
+            "train": train,
+            "baseline": float(np.median(train)),
+            "baseline_mae": mean_absolute_error(t, np.full(len(t), np.median(train))),
+            "skill": 1.0 - mean_absolute_error(t, p) / mean_absolute_error(t, np.full(len(t), np.median(train))),
         }
     )
 dump("metrics.json", {"cases": metric_cases})

@@ -73,6 +73,18 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     for (cause, n) in &s.failures {
         println!("  failed: {cause}: {n}");
     }
+    if s.noted > 0 {
+        println!(
+            "notes      {} spec(s) have notes (specs.notes: a dropped indicator, an iteration limit, ...)",
+            s.noted
+        );
+    }
+    if s.importance_failed > 0 {
+        println!(
+            "importance {} spec(s) without importances (see specs.notes)",
+            s.importance_failed
+        );
+    }
     if let Some((id, skill)) = &s.best {
         println!("best skill {skill:.4} (spec {id})");
     }

@@ -128,6 +128,8 @@ pub struct NmfFitted {
     pub h: Array2<f64>,
     pub input_names: Vec<String>,
     names: Vec<String>,
+    /// Set when the fit stopped at its iteration limit.
+    notes: Vec<String>,
 }
 
 impl Stage for Nmf {
@@ -140,10 +142,22 @@ impl Stage for Nmf {
             )));
         }
         let f = super::nmf::fit(input.x, self.k, self.max_iter, self.tol)?;
+        let notes = if f.converged {
+            Vec::new()
+        } else {
+            let n = f.objective.len();
+            let last = (f.objective[n - 1] - f.objective[n.saturating_sub(2)]).abs()
+                / f.objective[n.saturating_sub(2)].max(1e-300);
+            vec![format!(
+                "stopped at its iteration limit (max_iter = {}) with the objective still falling by {last:.1e} relative per sweep (tol = {})",
+                self.max_iter, self.tol
+            )]
+        };
         Ok(Arc::new(NmfFitted {
             h: f.h,
             input_names: input.names.to_vec(),
             names: (1..=self.k).map(|c| format!("nmf{c}")).collect(),
+            notes,
         }))
     }
 }
@@ -157,6 +171,9 @@ impl Fitted for NmfFitted {
     }
     fn loadings(&self) -> Option<(&Array2<f64>, &[String])> {
         Some((&self.h, &self.input_names))
+    }
+    fn notes(&self) -> Vec<String> {
+        self.notes.clone()
     }
 }
 

@@ -24,6 +24,12 @@
 //! Every rule also takes `drop_share` (indicators missing in more than this share of the
 //! training rows are dropped; default 1: keep all) and `flags` (1: append a 0/1 column
 //! `NAME__missing` for each kept indicator that has gaps in the training rows).
+//!
+//! An indicator with no value at all in a fold's training rows has nothing to fill from:
+//! it is dropped for that fold, whatever `drop_share` says (as scikit-learn's imputers
+//! drop empty features), and the fit records a note naming it, which the sweep writes to
+//! the spec's `notes`. Later stages match indicators by name (pools) or fit on what they
+//! are given, so a column absent in one fold is absent from that fold's chain only.
 
 use super::{present, Fitted, Stage, StageInput};
 use crate::error::FitError;
@@ -202,6 +208,8 @@ struct FittedFill {
     /// Within-unit carry: units and wave positions of the panel rows.
     waves: Option<Waves>,
     names: Vec<String>,
+    /// Indicators dropped for having no training value.
+    notes: Vec<String>,
 }
 
 pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
@@ -292,20 +300,21 @@ impl Stage for Fill {
         let mut keep = Vec::new();
         let mut values = Vec::new();
         let mut flagged = Vec::new();
+        let mut empty = Vec::new();
         for (j, col) in input.x.axis_iter(Axis(1)).enumerate() {
             let mut p = present(col);
             let missing_share = 1.0 - p.len() as f64 / n;
             if missing_share > self.drop_share {
                 continue;
             }
-            let v = if p.is_empty() {
-                0.0
-            } else {
-                match self.rule {
-                    Rule::Median | Rule::Carry => median(&mut p),
-                    Rule::Mean | Rule::Knn(_) | Rule::Chained { .. } => {
-                        p.iter().sum::<f64>() / p.len() as f64
-                    }
+            if p.is_empty() {
+                empty.push(input.names[j].as_str());
+                continue;
+            }
+            let v = match self.rule {
+                Rule::Median | Rule::Carry => median(&mut p),
+                Rule::Mean | Rule::Knn(_) | Rule::Chained { .. } => {
+                    p.iter().sum::<f64>() / p.len() as f64
                 }
             };
             if self.flags && missing_share > 0.0 {
@@ -316,10 +325,14 @@ impl Stage for Fill {
         }
         if keep.is_empty() {
             return Err(FitError::Invalid(format!(
-                "the drop rule (drop_share = {}) leaves no indicator",
+                "the drop rule (drop_share = {}) and indicators without a training value leave no indicator",
                 self.drop_share
             )));
         }
+        let notes = empty
+            .iter()
+            .map(|name| format!("`{name}` has no value in the training rows: dropped"))
+            .collect();
         let mut names: Vec<String> = keep.iter().map(|&j| input.names[j].clone()).collect();
         for &f in &flagged {
             names.push(format!("{}{FLAG_SUFFIX}", names[f]));
@@ -345,6 +358,7 @@ impl Stage for Fill {
             names,
             chain,
             waves: self.waves.clone(),
+            notes,
         }))
     }
 }
@@ -572,6 +586,9 @@ impl Fitted for FittedFill {
     }
     fn names(&self) -> &[String] {
         &self.names
+    }
+    fn notes(&self) -> Vec<String> {
+        self.notes.clone()
     }
 }
 

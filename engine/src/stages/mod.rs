@@ -52,6 +52,12 @@ pub trait Fitted: Send + Sync {
     fn loadings(&self) -> Option<(&Array2<f64>, &[String])> {
         None
     }
+    /// What the fit did that a reader of the results must know (an indicator dropped, an
+    /// iteration limit reached); the sweep records each in the spec's `notes` with the
+    /// step and fold. Empty by default.
+    fn notes(&self) -> Vec<String> {
+        Vec::new()
+    }
 }
 
 /// Build the stage of a stage-dimension choice.

@@ -12,7 +12,9 @@
 //!   objective over that block, so ||X - WH||_F never increases. The same family as the
 //!   cyclic coordinate descent of Hsieh & Dhillon (2011); the multiplicative updates of
 //!   Lee & Seung (1999, 2001) are slower and not used.
-//! * Stopping: relative decrease of the objective below `tol`, or `max_iter` sweeps.
+//! * Stopping: relative decrease of the objective below `tol`, or `max_iter` sweeps; a fit
+//!   that stops at `max_iter` says so ([`NmfFit::converged`] false), and the stage records
+//!   a note in the spec's `notes`.
 //! * New rows x are projected onto the fitted H by non-negative least squares,
 //!   min_{w >= 0} ||x - w H||, solved by coordinate descent to convergence; negative input
 //!   values (test rows below the training minimum after min-max scaling) are clipped at 0.
@@ -29,6 +31,9 @@ pub struct NmfFit {
     pub h: Array2<f64>,
     /// ||X - WH||_F after each sweep (index 0: at initialisation).
     pub objective: Vec<f64>,
+    /// False when the fit stopped at `max_iter` sweeps before the relative decrease of the
+    /// objective fell to `tol`.
+    pub converged: bool,
 }
 
 fn frob(x: ArrayView2<f64>, w: &Array2<f64>, h: &Array2<f64>) -> f64 {
@@ -84,6 +89,7 @@ pub fn fit(x: ArrayView2<f64>, k: usize, max_iter: usize, tol: f64) -> Result<Nm
     }
     let (mut w, mut h) = nndsvd(x, k)?;
     let mut objective = vec![frob(x, &w, &h)];
+    let mut converged = false;
     for _ in 0..max_iter {
         // W columns: W[:, j] <- max(0, W[:, j] + (X H^T - W H H^T)[:, j] / (H H^T)[j, j]).
         let xht = x.dot(&h.t());
@@ -113,10 +119,16 @@ pub fn fit(x: ArrayView2<f64>, k: usize, max_iter: usize, tol: f64) -> Result<Nm
         let prev = *objective.last().unwrap_or(&obj);
         objective.push(obj);
         if prev - obj <= tol * prev.max(1e-300) {
+            converged = true;
             break;
         }
     }
-    Ok(NmfFit { w, h, objective })
+    Ok(NmfFit {
+        w,
+        h,
+        objective,
+        converged,
+    })
 }
 
 /// Rows solved side by side by [`project`]: each row's descent is one long chain of
