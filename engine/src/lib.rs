@@ -15,6 +15,7 @@ pub mod models;
 pub mod panel;
 pub mod plan;
 pub mod progress;
+pub mod report;
 pub mod results;
 pub mod resume;
 pub mod run;
