@@ -67,6 +67,7 @@ const STRIPE: RGBColor = RGBColor(243, 241, 235);
 const SPAN: RGBColor = RGBColor(150, 176, 201);
 const POINT: RGBColor = RGBColor(28, 74, 118);
 const GOOD: RGBColor = RGBColor(210, 124, 32);
+const GOOD_DARK: RGBColor = RGBColor(140, 72, 8);
 const LOW: RGBColor = RGBColor(246, 244, 238);
 const HIGH: RGBColor = RGBColor(22, 98, 104);
 const NEG: RGBColor = RGBColor(60, 90, 160);
@@ -351,11 +352,10 @@ fn slug(s: &str) -> String {
 /// What one importance kind measures, with its unit.
 fn importance_unit(kind: &str) -> &'static str {
     match kind {
-        "permutation" | "group" => {
-            "increase in out-of-fold MSE when permuted (outcome units squared)"
-        }
-        "native" => "the model's own importance (|coefficient| x sd, or impurity share)",
-        _ => "as stored in the run (see README)",
+        "permutation" => "increase in out-of-fold MSE when permuted (outcome units squared)",
+        "coefficient" => "|coefficient| x training sd of the input (outcome units)",
+        "impurity" => "impurity decrease, as a share of the tree's total (no unit)",
+        _ => "importance as stored in the run's importance table",
     }
 }
 
@@ -503,7 +503,7 @@ fn curve(report: &Report) -> Result<Option<Plot>> {
     // Column c holds curve positions [start(c), start(c + 1)).
     let start = |c: usize| c * n / cols;
     let row_h = 12;
-    let gap = 6; // between dimensions
+    let gap = 14; // a dimension's header line
     let n_dims = report.dimensions.len();
     let panel_h = (rows.len() + 1) as i32 * row_h + n_dims as i32 * gap + 8;
     let curve_h = 330;
@@ -646,7 +646,7 @@ fn curve(report: &Report) -> Result<Option<Plot>> {
                 3
             };
             chart.draw_series(pts.iter().enumerate().map(|(i, p)| {
-                let col = if p.good[g] { GOOD } else { POINT };
+                let col = if p.good[g] { GOOD_DARK } else { POINT };
                 Circle::new(((i + 1) as f64, p.error), r, col.filled())
             }))?;
         }
@@ -682,21 +682,22 @@ fn curve(report: &Report) -> Result<Option<Plot>> {
         let mut last_dim = usize::MAX;
         for (ri, row) in rows.iter().enumerate() {
             if row.dim != last_dim {
-                y += gap;
                 last_dim = row.dim;
-                // Dimension name in the label column's left part.
+                // The dimension's name on its own line above its choices.
                 text(
                     root,
-                    &clip(&report.dimensions[row.dim].dimension, 16),
-                    10,
-                    y + row_h / 2,
+                    &clip(&report.dimensions[row.dim].dimension, 30),
+                    16,
+                    y + gap / 2 + 1,
                     &head,
                 )?;
+                hline(root, xr.start, xr.end, y + gap - 1, &GRID, 1)?;
+                y += gap;
             }
             if ri % 2 == 0 {
                 rect(root, xr.start, y, xr.end, y + row_h, &STRIPE)?;
             }
-            text(root, &clip(&row.label, 26), left - 6, y + row_h / 2, &label)?;
+            text(root, &clip(&row.label, 36), left - 6, y + row_h / 2, &label)?;
             for c in 0..cols {
                 let part = &pts[start(c)..start(c + 1)];
                 if part.is_empty() {
