@@ -11,5 +11,6 @@ mod importance;
 mod intake_fuzz;
 mod leak;
 mod reference;
+mod report;
 mod resume;
 mod shards;

@@ -2,6 +2,7 @@
 
 mod check;
 mod completions;
+mod map;
 mod merge;
 mod plan;
 mod run;
@@ -26,6 +27,7 @@ enum Verb {
     Run(run::Args),
     Check(check::Args),
     Merge(merge::Args),
+    Map(map::Args),
     Completions(completions::Args),
 }
 
@@ -52,6 +54,7 @@ pub fn main() -> ExitCode {
         Verb::Run(a) => run::exec(a),
         Verb::Check(a) => check::exec(a),
         Verb::Merge(a) => merge::exec(a),
+        Verb::Map(a) => map::exec(a),
         Verb::Completions(a) => completions::exec(a),
     };
     match result {
