@@ -114,7 +114,7 @@ pub fn render(report: &Report, plots: &[Plot]) -> String {
         ("runs read", m.runs.join(", ")),
         (
             "specs",
-            format!("{} in the space, {} ok", m.specs_total, m.specs_ok),
+            format!("{} read from the runs, {} ok", m.specs_total, m.specs_ok),
         ),
         ("units / rows", format!("{} / {}", m.units, m.rows)),
         ("metric", m.metric.clone()),
@@ -945,6 +945,25 @@ mod tests {
         let curve = h.split("id=\"table-curve\"").nth(1).unwrap();
         let curve = curve.split("</table>").next().unwrap();
         assert_eq!(curve.matches("<tr>").count(), TABLE_ROWS_MAX + 1);
+    }
+
+    #[test]
+    fn every_table_points_at_a_file_the_report_writes() {
+        let r = sample(5);
+        let ts = tables(&r);
+        assert_eq!(ts.len(), 14);
+        for t in &ts {
+            let stem = t.file.trim_end_matches(".parquet");
+            assert!(
+                crate::report::tables::REPORT_TABLES.contains(&stem),
+                "{} is not a report table",
+                t.file
+            );
+            assert_eq!(t.columns.len(), t.numeric.len(), "{}", t.id);
+            for row in &t.rows {
+                assert_eq!(row.len(), t.columns.len(), "{}", t.id);
+            }
+        }
     }
 
     #[test]
