@@ -196,6 +196,14 @@ pub fn render(report: &Report, plots: &[Plot]) -> String {
     if plots.is_empty() {
         h.push_str("<p>No plots: the report has no ok specs to draw.</p>\n");
     }
+    let why = plots::omitted(report);
+    if !why.is_empty() {
+        h.push_str("<ul class=\"omitted\">\n");
+        for w in &why {
+            let _ = writeln!(h, "<li>{}</li>", escape(w));
+        }
+        h.push_str("</ul>\n");
+    }
     for p in plots {
         let _ = writeln!(h, "<figure id=\"{}\">", escape(&anchor(&p.file)));
         // Inline SVG needs no namespace declaration; dropping it keeps the page free of
@@ -797,7 +805,7 @@ th { background: var(--band); font-weight: 600; position: sticky; top: 0; }
 td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; }
 tbody tr:nth-child(even) td { background: #f8f7f2; }
 .about { color: var(--muted); margin: 0 0 6px; font-size: 14px; }
-.more, .empty { color: var(--muted); font-size: 13px; }
+.more, .empty, .omitted { color: var(--muted); font-size: 13px; }
 .notes { border-left: 4px solid var(--warm); padding: 2px 12px; margin: 10px 0; background: var(--band); }
 .notes h3 { margin: 6px 0 2px; font-size: 14px; }
 code { font-size: 13px; background: var(--band); padding: 0 3px; border-radius: 2px; }

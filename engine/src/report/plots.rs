@@ -6,7 +6,8 @@
 //!
 //! * `curve.svg`: every ok spec ranked by error with its bootstrap interval, and beneath it
 //!   one row per choice marking which choice each spec took. Past [`CURVE_COLUMNS_MAX`]
-//!   specs the ranks are binned into [`CURVE_BINS`] equal-count columns: each column shows
+//!   specs the ranks are binned into up to [`CURVE_BINS`] equal-count columns of at least
+//!   [`CURVE_BIN_SPECS`] specs: each column shows
 //!   the range of its errors, the band between its median lower and median upper bound,
 //!   its median error, and per choice the share of its specs taking that choice.
 //! * `error-influence.svg`: per dimension and choice, the error's spread (quartile box,
@@ -32,9 +33,12 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 /// Most curve columns drawn one spec per column; past it ranks are binned.
-pub const CURVE_COLUMNS_MAX: usize = 400;
-/// Number of equal-count rank bins for a large curve.
+pub const CURVE_COLUMNS_MAX: usize = 300;
+/// Most equal-count rank bins for a large curve (at least [`CURVE_BIN_SPECS`] specs each,
+/// so a bin's shares mean something).
 pub const CURVE_BINS: usize = 200;
+/// Fewest specs per bin of a binned curve (a few bins may hold fewer when specs run short).
+pub const CURVE_BIN_SPECS: usize = 5;
 /// A dimension with more choices than this is shown by option (parameters pooled).
 pub const PANEL_CHOICES_MAX: usize = 12;
 /// Most names shown in the per-name plots (the best by median rank over the good set).
@@ -430,17 +434,72 @@ fn kinds(report: &Report) -> Vec<(String, String)> {
     out
 }
 
-/// The names of one (level, kind) in display order: best median rank first.
+/// The names of one (level, kind) in display order: the names some good member holds, best
+/// median rank over the good set first; when no good member holds the kind, by their share
+/// in the top k over all ok specs.
 fn top_names(report: &Report, level: &str, kind: &str) -> Vec<String> {
-    let mut rows: Vec<(f64, String)> = report
+    let rows: Vec<_> = report
         .importance
         .iter()
         .filter(|i| i.level == level && i.kind == kind)
-        .map(|i| (i.median_rank, i.name.clone()))
         .collect();
-    rows.sort_by(|a, b| a.0.total_cmp(&b.0).then_with(|| a.1.cmp(&b.1)));
-    rows.dedup_by(|a, b| a.1 == b.1);
-    rows.into_iter().take(NAMES_MAX).map(|(_, n)| n).collect()
+    let mut held: Vec<(f64, &str)> = rows
+        .iter()
+        .filter(|i| i.importance.n > 0)
+        .map(|i| (i.median_rank, i.name.as_str()))
+        .collect();
+    if held.is_empty() {
+        held = rows
+            .iter()
+            .map(|i| (-i.share_top_k_all, i.name.as_str()))
+            .collect();
+    }
+    held.sort_by(|a, b| a.0.total_cmp(&b.0).then_with(|| a.1.cmp(b.1)));
+    held.dedup_by(|a, b| a.1 == b.1);
+    held.into_iter()
+        .take(NAMES_MAX)
+        .map(|(_, n)| n.to_string())
+        .collect()
+}
+
+/// Members of the good set holding a (level, kind): the most over its names.
+fn good_holders(report: &Report, level: &str, kind: &str) -> usize {
+    report
+        .importance
+        .iter()
+        .filter(|i| i.level == level && i.kind == kind)
+        .map(|i| i.importance.n)
+        .max()
+        .unwrap_or(0)
+}
+
+/// Why plots the reader might look for are not drawn (one sentence each).
+pub fn omitted(report: &Report) -> Vec<String> {
+    let mut out = Vec::new();
+    if report.curve.is_empty() {
+        out.push("No specification curve or influence plots: the runs hold no ok spec.".into());
+        return out;
+    }
+    let good = &report.meta.good;
+    for (level, kind) in kinds(report) {
+        let n = good_holders(report, &level, &kind);
+        if n == 0 {
+            out.push(format!(
+                "No importance or agreement plot for {level}s ({kind}): no member of the good set ({good}) \
+                 reports this kind (a native kind comes only from the model families that have it)."
+            ));
+        } else if n == 1
+            && !report
+                .agreement
+                .iter()
+                .any(|a| a.level == level && a.kind == kind)
+        {
+            out.push(format!(
+                "No agreement plot for {level}s ({kind}): only one member of the good set ({good}) reports this kind."
+            ));
+        }
+    }
+    out
 }
 
 // ---------------------------------------------------------------------------------------
@@ -499,7 +558,11 @@ fn curve(report: &Report) -> Result<Option<Plot>> {
     let g = good_index(report);
     let (rows, pooled) = panel_rows(report);
     let binned = n > CURVE_COLUMNS_MAX;
-    let cols = if binned { CURVE_BINS } else { n };
+    let cols = if binned {
+        (n / CURVE_BIN_SPECS).clamp(1, CURVE_BINS)
+    } else {
+        n
+    };
     // Column c holds curve positions [start(c), start(c + 1)).
     let start = |c: usize| c * n / cols;
     let row_h = 12;
@@ -981,7 +1044,7 @@ fn rank_influence(report: &Report, level: &str, kind: &str) -> Result<Option<Plo
     let left = 230;
     let extra = 80; // R^2 column
     let cell_w = ((WIDTH as i32 - left - extra - 30) / dims.len() as i32).clamp(40, 150);
-    let h = 40 + names.len() as i32 * row_h + 40;
+    let h = 40 + names.len() as i32 * row_h + 10;
     let title = format!("Which choices move which {level} ranks ({kind} importance)");
     let caption = format!(
         "One row per {level} (the {} with the best median rank over the good set), one column per dimension. \
@@ -1085,6 +1148,9 @@ fn rank_influence(report: &Report, level: &str, kind: &str) -> Result<Option<Plo
 // The importance distribution over the good set.
 
 fn importance(report: &Report, level: &str, kind: &str) -> Result<Option<Plot>> {
+    if good_holders(report, level, kind) == 0 {
+        return Ok(None);
+    }
     let names = top_names(report, level, kind);
     if names.is_empty() {
         return Ok(None);
@@ -1597,6 +1663,55 @@ pub(crate) mod tests {
         // One interval bar and one dot per spec.
         assert_eq!(c.svg.matches("<circle").count(), 30);
         assert!(c.caption.contains("pooled: model"), "{}", c.caption);
+    }
+
+    #[test]
+    fn a_kind_no_good_member_holds_has_no_importance_plot_and_says_why() {
+        let mut report = sample(30);
+        for i in report.importance.iter_mut() {
+            i.importance = Spread {
+                n: 0,
+                min: f64::NAN,
+                q1: f64::NAN,
+                median: f64::NAN,
+                q3: f64::NAN,
+                max: f64::NAN,
+            };
+            i.median_rank = f64::NAN;
+        }
+        report.agreement.clear();
+        let files: Vec<String> = render_all(&report)
+            .unwrap()
+            .into_iter()
+            .map(|p| p.file)
+            .collect();
+        assert!(
+            !files.iter().any(|f| f.starts_with("importance")),
+            "{files:?}"
+        );
+        // The rank influence is over all ok specs, so it stays, ordered by share top k.
+        assert!(files.iter().any(|f| f.starts_with("rank-influence")));
+        assert_eq!(
+            top_names(&report, "indicator", "permutation")[0],
+            "wage <gap> & \"rent\""
+        );
+        let why = omitted(&report);
+        assert_eq!(why.len(), 1, "{why:?}");
+        assert!(why[0].contains("indicators (permutation)"), "{why:?}");
+        assert!(omitted(&sample(30)).is_empty());
+    }
+
+    #[test]
+    fn a_curve_past_the_column_limit_has_bins_of_five_or_more() {
+        let report = sample(544);
+        let c = &render_all(&report).unwrap()[0];
+        assert!(
+            c.caption.contains("binned into 108 columns"),
+            "{}",
+            c.caption
+        );
+        let c = &render_all(&sample(300)).unwrap()[0];
+        assert_eq!(c.svg.matches("<circle").count(), 300);
     }
 
     #[test]
