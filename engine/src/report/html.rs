@@ -644,7 +644,8 @@ fn tables(r: &Report) -> Vec<Table> {
         "importance_spread.parquet",
         format!(
             "Per name and kind over the good set ({}): importance spread (min and max are the empirical range), \
-             ranks, and the share of members (and of all ok specs) ranking it in the top {k}.",
+             ranks, and the share of members (and of all ok specs) ranking it in the top {k}. Shown here by \
+             level, kind and median rank; names no good member holds (n = 0) come last.",
             r.meta.good
         ),
     )
@@ -660,7 +661,17 @@ fn tables(r: &Report) -> Vec<Table> {
         .map(String::from),
     );
     t.numeric.extend([true; 5]);
-    for i in &r.importance {
+    // Names some good member holds first (by level, kind, median rank), then the rest.
+    let mut order: Vec<&super::model::ImportanceSummary> = r.importance.iter().collect();
+    order.sort_by(|a, b| {
+        (a.importance.n == 0)
+            .cmp(&(b.importance.n == 0))
+            .then_with(|| a.level.cmp(&b.level))
+            .then_with(|| a.kind.cmp(&b.kind))
+            .then_with(|| a.median_rank.total_cmp(&b.median_rank))
+            .then_with(|| a.name.cmp(&b.name))
+    });
+    for i in order {
         let mut row = vec![i.level.clone(), i.kind.clone(), i.name.clone()];
         row.extend(spread_vals(&i.importance));
         row.extend([
@@ -972,6 +983,27 @@ mod tests {
                 assert_eq!(row.len(), t.columns.len(), "{}", t.id);
             }
         }
+    }
+
+    #[test]
+    fn importance_rows_no_good_member_holds_come_last() {
+        let mut r = sample(10);
+        r.importance[0].importance.n = 0;
+        r.importance[0].median_rank = f64::NAN;
+        let t = tables(&r)
+            .into_iter()
+            .find(|t| t.id == "importance")
+            .unwrap();
+        let names: Vec<&str> = t.rows.iter().map(|row| row[2].as_str()).collect();
+        assert_eq!(
+            names,
+            [
+                "school's_dropout",
+                "clinic_visits",
+                "rain",
+                "wage <gap> & \"rent\""
+            ]
+        );
     }
 
     #[test]
