@@ -401,7 +401,10 @@ pub fn render_all(report: &Report) -> Result<Vec<Plot>> {
             plots.push(p);
         }
     }
-    for (i, a) in report.agreement.iter().enumerate() {
+    let mut order: Vec<usize> = (0..report.agreement.len()).collect();
+    order.sort_by_key(|&i| kind_order(&report.agreement[i].level, &report.agreement[i].kind));
+    for i in order {
+        let a = &report.agreement[i];
         if let Some(p) = agreement(report, i, &a.level, &a.kind)? {
             plots.push(p);
         }
@@ -422,16 +425,30 @@ pub fn write_all(report: &Report, dir: &Path) -> Result<Vec<PathBuf>> {
     Ok(paths)
 }
 
-/// The (level, kind) pairs with importance data, in the report's order.
+/// The (level, kind) pairs with importance data in page order: indicators before groups,
+/// permutation before the native kinds, otherwise as the report lists them.
 fn kinds(report: &Report) -> Vec<(String, String)> {
-    let mut out: Vec<(String, String)> = report.meta.kinds.clone();
-    for i in &report.importance {
-        let k = (i.level.clone(), i.kind.clone());
+    let mut out: Vec<(String, String)> = Vec::new();
+    for k in report.meta.kinds.iter().cloned().chain(
+        report
+            .importance
+            .iter()
+            .map(|i| (i.level.clone(), i.kind.clone())),
+    ) {
         if !out.contains(&k) {
             out.push(k);
         }
     }
+    out.sort_by_key(|(level, kind)| kind_order(level, kind));
     out
+}
+
+/// Sort key of a (level, kind) in page order (a stable sort keeps the rest as listed).
+fn kind_order(level: &str, kind: &str) -> (u8, u8) {
+    (
+        u8::from(level != "indicator"),
+        u8::from(kind != "permutation"),
+    )
 }
 
 /// The names of one (level, kind) in display order: the names some good member holds, best
@@ -1341,7 +1358,15 @@ fn agreement(report: &Report, idx: usize, level: &str, kind: &str) -> Result<Opt
                     let xb = x0 + ((bj + 1) as f64 * cell) as i32;
                     let ya = y0 + (bi as f64 * cell) as i32;
                     let yb = y0 + ((bi + 1) as f64 * cell) as i32;
-                    rect(root, xa, ya, xb.max(xa + 1), yb.max(ya + 1), &div(v))?;
+                    // One pixel of overlap so neighbouring cells leave no seam.
+                    rect(
+                        root,
+                        xa,
+                        ya,
+                        xb.max(xa + 1) + 1,
+                        yb.max(ya + 1) + 1,
+                        &div(v),
+                    )?;
                 }
             }
             marks.push((x0, y0, x0 + side, y0 + side));
@@ -1712,6 +1737,30 @@ pub(crate) mod tests {
         );
         let c = &render_all(&sample(300)).unwrap()[0];
         assert_eq!(c.svg.matches("<circle").count(), 300);
+    }
+
+    #[test]
+    fn indicators_and_permutation_come_first() {
+        let mut report = sample(10);
+        report.meta.kinds = vec![
+            ("group".into(), "impurity".into()),
+            ("group".into(), "permutation".into()),
+            ("indicator".into(), "impurity".into()),
+            ("indicator".into(), "permutation".into()),
+        ];
+        let k: Vec<String> = kinds(&report)
+            .into_iter()
+            .map(|(l, k)| format!("{l}/{k}"))
+            .collect();
+        assert_eq!(
+            k,
+            [
+                "indicator/permutation",
+                "indicator/impurity",
+                "group/permutation",
+                "group/impurity"
+            ]
+        );
     }
 
     #[test]
