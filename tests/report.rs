@@ -352,3 +352,60 @@ fn run_writes_the_report_and_map_rewrites_it_identically() {
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("map.metric"));
 }
+
+/// A shard alone is part of the space: `run --shard` leaves the report to the merged run,
+/// and `map` refuses the incomplete set unless told to report on the specs present.
+#[test]
+fn map_refuses_an_incomplete_set_unless_allowed() {
+    let tmp = tempfile::tempdir().unwrap();
+    let cfg = small_config(tmp.path());
+    let shard = tmp.path().join("s1");
+    let o = forkmap(
+        &[
+            "run",
+            cfg.to_str().unwrap(),
+            "--out",
+            shard.to_str().unwrap(),
+            "--shard",
+            "1/2",
+            "--threads",
+            "2",
+            "--quiet",
+        ],
+        tmp.path(),
+        &[],
+    );
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(!shard.join("report").exists(), "a shard wrote a report");
+    assert!(String::from_utf8_lossy(&o.stdout).contains("left to the merged run"));
+    let o = forkmap(&["map", shard.to_str().unwrap()], tmp.path(), &[]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("incomplete") && err.contains("shard 2/2"),
+        "{err}"
+    );
+    assert!(
+        !shard.join("report").exists(),
+        "a refused map wrote a report"
+    );
+    let out = tmp.path().join("partial");
+    let o = forkmap(
+        &[
+            "map",
+            shard.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--allow-incomplete",
+        ],
+        tmp.path(),
+        &[],
+    );
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let marker: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("report.json")).unwrap()).unwrap();
+    let notes = marker["notes"].to_string();
+    assert!(notes.contains("incomplete"), "{notes}");
+    let n = read(&out.join("curve.parquet"))[0].num_rows();
+    assert!(n > 0 && n < 12, "{n} specs in a half run");
+}
