@@ -13,6 +13,7 @@ mod leak;
 mod numbers;
 mod pools;
 mod reference;
+mod report;
 mod resume;
 mod shards;
 mod starter;

@@ -38,6 +38,10 @@ pub struct Config {
     /// Which importances every spec reports.
     #[serde(default)]
     pub importance: crate::importance::ImportanceSection,
+    /// How the report (`forkmap map`) is made. Not part of the run's identity: left out of
+    /// the canonical form (the manifest stores it apart, under `map`).
+    #[serde(default, skip_serializing)]
+    pub map: crate::report::settings::MapSection,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -231,6 +235,7 @@ const TOP_KEYS: &[&str] = &[
     "output",
     "sample",
     "importance",
+    "map",
 ];
 const DATA_KEYS: &[&str] = &[
     "file",
@@ -274,6 +279,7 @@ impl Config {
             ("data", DATA_KEYS),
             ("folds", FOLD_KEYS),
             ("output", OUTPUT_KEYS),
+            ("map", crate::report::settings::MAP_KEYS),
         ] {
             if let Some(v) = table.get(section) {
                 let t = v
@@ -297,6 +303,22 @@ impl Config {
                     .as_table()
                     .ok_or_else(|| err(format!("exclude[{i}] must be a table")))?;
                 check_keys(t, &format!("exclude[{i}]"), crate::space::DIMENSIONS).map_err(&err)?;
+            }
+        }
+        if let Some(claims) = table.get("map").and_then(|m| m.get("claim")) {
+            let list = claims.as_array().ok_or_else(|| {
+                err("`map.claim` must be a list of tables ([[map.claim]])".into())
+            })?;
+            for (i, c) in list.iter().enumerate() {
+                let t = c
+                    .as_table()
+                    .ok_or_else(|| err(format!("map.claim[{i}] must be a table")))?;
+                check_keys(
+                    t,
+                    &format!("map.claim[{i}]"),
+                    crate::report::settings::CLAIM_KEYS,
+                )
+                .map_err(&err)?;
             }
         }
         if !table.contains_key("data") {
@@ -327,6 +349,7 @@ impl Config {
                 )));
             }
         }
+        cfg.map.check().map_err(&err)?;
         if cfg.output.batch_specs == 0 {
             return Err(err("output.batch_specs must be at least 1".into()));
         }
@@ -435,6 +458,52 @@ mod tests {
             .to_string();
         assert!(
             e.contains("unknown key `sed`") && e.contains("`seed`"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn map_section_keys_values_and_identity() {
+        let text = format!("{MIN}[map]\ntop_k = 5\nmetric = \"rmse\"\n[[map.claim]]\nranks_above = [\"a\", \"b\"]\n");
+        let c = Config::from_toml(&text, Path::new("."), "t").unwrap();
+        assert_eq!((c.map.top_k, c.map.metric.as_str()), (5, "rmse"));
+        assert_eq!(c.map.claim.len(), 1);
+        // [map] is not part of the run's identity.
+        let plain = Config::from_toml(MIN, Path::new("."), "t").unwrap();
+        assert_eq!(c.canonical_json(), plain.canonical_json());
+        assert!(c.canonical_json().get("map").is_none());
+        let e = Config::from_toml(&format!("{MIN}[map]\ntopk = 5\n"), Path::new("."), "t")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("map.topk") && e.contains("`top_k`"), "{e}");
+        let e = Config::from_toml(
+            &format!("{MIN}[[map.claim]]\nranks_abov = [\"a\", \"b\"]\n"),
+            Path::new("."),
+            "t",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(
+            e.contains("map.claim[0].ranks_abov") && e.contains("`ranks_above`"),
+            "{e}"
+        );
+        let e = Config::from_toml(
+            &format!("{MIN}[map]\nmetric = \"r2\"\n"),
+            Path::new("."),
+            "t",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("map.metric") && e.contains("mae"), "{e}");
+        let e = Config::from_toml(
+            &format!("{MIN}[[map.claim]]\nin_top = \"g\"\nranks_above = [\"a\", \"b\"]\n"),
+            Path::new("."),
+            "t",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(
+            e.contains("map.claim[0]") && e.contains("exactly one"),
             "{e}"
         );
     }

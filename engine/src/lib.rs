@@ -2,7 +2,7 @@
 //!
 //! Data flows one way: [`config`] -> [`space`] (specs with stable ids) -> [`sweep`] (a
 //! stage tree over [`folds`], [`stages`] fitted in-fold and shared) -> [`models`] ->
-//! [`sink`] (Parquet parts, atomic) -> analysis. See DEVELOPERS.md for the code map and
+//! [`sink`] (Parquet parts, atomic) -> [`results`] -> [`report`]. See DEVELOPERS.md for the code map and
 //! the invariants.
 
 pub mod config;
@@ -15,6 +15,7 @@ pub mod models;
 pub mod panel;
 pub mod plan;
 pub mod progress;
+pub mod report;
 pub mod results;
 pub mod resume;
 pub mod run;

@@ -151,7 +151,7 @@ fn open_out(
                 ));
             }
             _ => {
-                for t in TABLES {
+                for t in TABLES.iter().chain(&[crate::report::REPORT_DIR]) {
                     let d = out.join(t);
                     if d.exists() {
                         std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
@@ -229,6 +229,8 @@ fn manifest(
         "indicators": p.panel.indicators.len(),
         "folds": {"scheme": p.cfg.folds.scheme, "k": p.folds.k, "repeats": p.folds.repeats, "fits_per_spec": p.folds.n_fits_per_spec()},
         "tables": TABLES,
+        // How the report is made (not part of the run's identity; `forkmap map` reads it).
+        "map": serde_json::to_value(&p.cfg.map).unwrap_or(serde_json::Value::Null),
     });
     if let (Some(obj), serde_json::Value::Object(e)) = (m.as_object_mut(), extra) {
         obj.extend(e);

@@ -3,6 +3,7 @@
 mod check;
 mod completions;
 mod gather;
+mod map;
 mod plan;
 mod run;
 mod sketch;
@@ -27,6 +28,7 @@ enum Verb {
     Run(run::Args),
     Check(check::Args),
     Gather(gather::Args),
+    Map(map::Args),
     Sketch(sketch::Args),
     Completions(completions::Args),
 }
@@ -54,6 +56,7 @@ pub fn main() -> ExitCode {
         Verb::Run(a) => run::exec(a),
         Verb::Check(a) => check::exec(a),
         Verb::Gather(a) => gather::exec(a),
+        Verb::Map(a) => map::exec(a),
         Verb::Sketch(a) => sketch::exec(a),
         Verb::Completions(a) => completions::exec(a),
     };

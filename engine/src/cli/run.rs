@@ -1,4 +1,5 @@
-//! `forkmap run CONFIG --out RUN_DIR [--threads N] [--quiet] [--restart]`
+//! `forkmap run CONFIG --out RUN_DIR [--threads N] [--quiet] [--restart] [--shard I/N]
+//!  [--no-map] [map flags]`
 //!
 //! Run every spec of the config on all cores and write RUN_DIR: `manifest.json`,
 //! `specs/part-*.parquet` (one row per spec) and `predictions/part-*.parquet` (one row per
@@ -8,8 +9,12 @@
 //! config, data file or forkmap version is refused unless `--restart` (which discards it);
 //! a non-empty folder that holds no forkmap run is always refused. With `--shard I/N` only
 //! shard I of a deterministic, cost-balanced split into N runs (`forkmap gather` joins the
-//! shards; `forkmap check` reports what is missing). Exit code 0 when the sweep completed
-//! (failed specs are recorded and counted), 2 on an error.
+//! shards; `forkmap check` reports what is missing). A run of the whole space ends by
+//! writing its report to RUN_DIR/report/ (as `forkmap map RUN_DIR` would; `--no-map`
+//! skips it, a shard leaves it to the merged run) and prints its headline. Exit code 0 when
+//! the sweep completed (failed specs are recorded and counted), 2 on an error. A report
+//! that fails does not fail the run: its results are complete and kept, the failure is
+//! printed as a warning, and `forkmap map RUN_DIR` writes the report later.
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -35,10 +40,21 @@ pub struct Args {
     /// `forkmap gather` joins the shards.
     #[arg(long, value_name = "I/N")]
     shard: Option<forkmap::shard::Shard>,
+    /// Do not write the report at the end.
+    #[arg(long)]
+    no_map: bool,
+    #[command(flatten)]
+    over: super::map::Overrides,
 }
 
 pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     let p = forkmap::run::prepare(&a.config)?;
+    if !a.no_map {
+        // Bad report settings are refused before the sweep, not after it.
+        let mut s = p.cfg.map.clone();
+        a.over.apply(&mut s);
+        s.check().map_err(|m| anyhow::anyhow!("{m}"))?;
+    }
     for w in forkmap::plan::warnings(&p) {
         tracing::warn!("{w}");
     }
@@ -85,10 +101,42 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             s.importance_failed
         );
     }
-    if let Some((id, skill)) = &s.best {
-        println!("best skill {skill:.4} (spec {id})");
-    }
     println!("seconds    {:.1}", s.seconds);
     println!("results    {}", a.out.display());
+    let best = || {
+        if let Some((id, skill)) = &s.best {
+            println!("best skill {skill:.4} (spec {id})");
+        }
+    };
+    if a.no_map {
+        best();
+    } else if a.shard.is_some() {
+        best();
+        println!("report     left to the merged run (`forkmap gather`, then `forkmap map`)");
+    } else {
+        match super::map::map_runs(
+            std::slice::from_ref(&a.out),
+            None,
+            Some(p.cfg.map.clone()),
+            &a.over,
+            false,
+            a.quiet,
+        ) {
+            Ok(m) => {
+                println!();
+                for h in &m.headline {
+                    println!("{h}");
+                }
+                println!("report     {}", m.dir.display());
+            }
+            Err(e) => {
+                best();
+                eprintln!(
+                    "forkmap: warning: the run is complete and kept, but its report failed: {e:#}\n  (write it later with `forkmap map {}`)",
+                    a.out.display()
+                );
+            }
+        }
+    }
     Ok(ExitCode::SUCCESS)
 }
