@@ -1,16 +1,12 @@
 //! Importances: theory for a linear model, scikit-learn's permutation_importance ranking,
 //! groups, pools and compression.
 
-use crate::common::{f64s, matrix, reference};
-use forkmap::config::Config;
-use forkmap::folds::FoldPlan;
+use crate::common::{f64s, matrix, normals, reference, sweep_mem};
 use forkmap::importance::{ImportanceRow, ImportanceSection};
 use forkmap::panel::{CodebookEntry, Panel};
 use forkmap::space::ChoiceSpace;
-use forkmap::sweep::{SpecResult, Sweep};
+use forkmap::sweep::SpecResult;
 use ndarray::{Array1, Array2};
-use std::path::Path;
-use std::sync::Mutex;
 
 /// Sweep an in-memory panel under a config's choices; importances with `repeats` draws.
 fn sweep(panel: &Panel, choices: &str, repeats: usize) -> (ChoiceSpace, Vec<SpecResult>) {
@@ -24,21 +20,12 @@ fn sweep_sharing(
     repeats: usize,
     budget: usize,
 ) -> (ChoiceSpace, Vec<SpecResult>) {
-    let text = format!("seed = 5\n[data]\nfile = \"unused.csv\"\nunit = \"u\"\noutcome = \"y\"\n[folds]\nk = 5\n{choices}");
-    let cfg = Config::from_toml(&text, Path::new("."), "<test>").unwrap();
-    let space = ChoiceSpace::build(&cfg, panel).unwrap();
-    let folds = FoldPlan::new(panel, &cfg.folds, cfg.seed).unwrap();
-    let mut s = Sweep::new(panel, &space, &folds, cfg.seed, None).unwrap();
-    s.draws_budget = budget;
-    s.importance = Some(ImportanceSection {
+    let importance = Some(ImportanceSection {
         repeats,
         kinds: vec!["permutation".into(), "group".into(), "native".into()],
         within: None,
     });
-    let out = Mutex::new(Vec::new());
-    s.run(&|r| out.lock().unwrap().push(r));
-    let mut v = out.into_inner().unwrap();
-    v.sort_by_key(|r| r.spec);
+    let (space, _, v) = sweep_mem(panel, choices, importance, budget);
     (space, v)
 }
 
@@ -46,24 +33,6 @@ fn find<'a>(rows: &'a [ImportanceRow], name: &str, level: &str, kind: &str) -> &
     rows.iter()
         .find(|r| &*r.name == name && r.level == level && r.kind == kind)
         .unwrap_or_else(|| panic!("no row {name} {level} {kind}"))
-}
-
-/// A seeded standard normal (Box-Muller on a SplitMix64 stream): test data only.
-fn normals(n: usize, seed: u64) -> Vec<f64> {
-    let mut s = seed;
-    let mut next = || {
-        s = s.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = s;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-    };
-    (0..n)
-        .map(|_| {
-            let (u1, u2) = (1.0 - next(), next());
-            (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
-        })
-        .collect()
 }
 
 /// y = x b + e with independent indicators: the MSE-based permutation importance of j

@@ -13,12 +13,12 @@
 //!   being predicted (grouped folds keep a unit's rows on one side): there it means the
 //!   test rows of units with no changed row.
 
-use crate::common::{prepared, root};
+use crate::common::{prepared, results, root};
 use forkmap::config::Config;
 use forkmap::folds::FoldPlan;
 use forkmap::panel::Panel;
 use forkmap::space::{ChoiceSpace, DIMENSIONS};
-use forkmap::sweep::{Audit, SpecResult, Sweep};
+use forkmap::sweep::{Audit, Sweep};
 use std::collections::{BTreeMap, BTreeSet, HashSet};
 use std::sync::{Arc, Mutex};
 
@@ -216,14 +216,6 @@ impl Audit for Recorder {
     }
 }
 
-fn collect(sweep: &Sweep) -> Vec<SpecResult> {
-    let out = Mutex::new(Vec::new());
-    sweep.run(&|r| out.lock().unwrap().push(r));
-    let mut v = out.into_inner().unwrap();
-    v.sort_by_key(|r| r.spec);
-    v
-}
-
 #[test]
 fn the_covering_sample_holds_every_option_with_every_partner() {
     let c = every_option();
@@ -248,7 +240,7 @@ fn every_fitted_step_is_handed_only_training_rows() {
     let sweep = Sweep::new(&c.panel, &c.space, &c.folds, c.seed, Some(&c.subset))
         .unwrap()
         .with_audit(rec.clone());
-    let results = collect(&sweep);
+    let results = results(&sweep);
     assert_eq!(results.len(), c.subset.len());
     for r in &results {
         assert_eq!(
@@ -336,7 +328,7 @@ fn every_fitted_step_is_handed_only_training_rows() {
 #[test]
 fn changing_a_folds_test_rows_moves_none_of_its_other_predictions() {
     let c = every_option();
-    let base = collect(&Sweep::new(&c.panel, &c.space, &c.folds, c.seed, Some(&c.subset)).unwrap());
+    let base = results(&Sweep::new(&c.panel, &c.space, &c.folds, c.seed, Some(&c.subset)).unwrap());
     let fi = 1;
     let fold = &c.folds.folds[fi];
     let mut units: Vec<usize> = fold.test.iter().map(|&i| c.panel.row_unit[i]).collect();
@@ -399,7 +391,7 @@ fn changing_a_folds_test_rows_moves_none_of_its_other_predictions() {
         gaps_added > 100 && gaps_filled > 10,
         "{gaps_added} {gaps_filled}"
     );
-    let pert = collect(&Sweep::new(&panel2, &c.space, &c.folds, c.seed, Some(&c.subset)).unwrap());
+    let pert = results(&Sweep::new(&panel2, &c.space, &c.folds, c.seed, Some(&c.subset)).unwrap());
     assert_eq!(base.len(), pert.len());
     let mut per_option: BTreeMap<(usize, String), usize> = BTreeMap::new();
     let (mut compared, mut felt, mut ok) = (0, 0, 0);
@@ -468,7 +460,7 @@ fn changing_a_folds_test_rows_moves_none_of_its_other_predictions() {
 fn fitted_spec_predicts_raw_rows_like_the_sweep() {
     let p = prepared(CFG);
     let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
-    let base = collect(&sweep);
+    let base = results(&sweep);
     for si in [0, p.space.specs.len() / 2, p.space.specs.len() - 1] {
         let fi = 1;
         let fold = &p.folds.folds[fi];
@@ -501,7 +493,7 @@ fn failing_specs_are_recorded_and_the_sweep_goes_on() {
     );
     let p = prepared(&text);
     let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
-    let results = collect(&sweep);
+    let results = results(&sweep);
     assert_eq!(results.len(), p.space.specs.len());
     let mut singular = 0;
     for r in &results {

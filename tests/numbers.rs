@@ -4,18 +4,16 @@
 //! computed, text columns skipped by `indicators = "auto"`, undefined metrics stored as
 //! null).
 
-use crate::common::{pairs, prepared};
+use crate::common::{normals, pairs, prepared, results, sweep_mem};
 use crate::end_to_end::{col, read_table};
 use arrow_array::{Array, Float64Array, StringArray};
 use forkmap::config::Config;
-use forkmap::folds::FoldPlan;
 use forkmap::importance::ImportanceSection;
+use forkmap::importance::DRAWS_BUDGET;
 use forkmap::panel::Panel;
-use forkmap::space::ChoiceSpace;
 use forkmap::sweep::{SpecResult, Sweep};
 use ndarray::{Array1, Array2, Axis};
 use std::path::Path;
-use std::sync::Mutex;
 
 /// The toy panel with `choices` (TOML after `[choices]`, grids included), 5 folds.
 fn toy_with(choices: &str) -> forkmap::run::Prepared {
@@ -39,54 +37,12 @@ core = ["inc_median_income", "inc_unemployment", "hou_pre1950_share", "cli_heati
     ))
 }
 
-fn run(sweep: &Sweep) -> Vec<SpecResult> {
-    let out = Mutex::new(Vec::new());
-    sweep.run(&|r| out.lock().unwrap().push(r));
-    let mut v = out.into_inner().unwrap();
-    v.sort_by_key(|r| r.spec);
-    v
-}
-
 fn permutation_only(repeats: usize) -> Option<ImportanceSection> {
     Some(ImportanceSection {
         repeats,
         kinds: vec!["permutation".into()],
         within: None,
     })
-}
-
-/// An in-memory panel swept under `choices` (5 folds, seed 5).
-fn sweep_mem(
-    panel: &Panel,
-    choices: &str,
-    importance: Option<ImportanceSection>,
-) -> (ChoiceSpace, FoldPlan, Vec<SpecResult>) {
-    let text = format!("seed = 5\n[data]\nfile = \"unused.csv\"\nunit = \"u\"\noutcome = \"y\"\n[folds]\nk = 5\n{choices}");
-    let cfg = Config::from_toml(&text, Path::new("."), "<test>").unwrap();
-    let space = ChoiceSpace::build(&cfg, panel).unwrap();
-    let folds = FoldPlan::new(panel, &cfg.folds, cfg.seed).unwrap();
-    let mut s = Sweep::new(panel, &space, &folds, cfg.seed, None).unwrap();
-    s.importance = importance;
-    let res = run(&s);
-    (space, folds, res)
-}
-
-/// A seeded standard normal (Box-Muller on a SplitMix64 stream): test data only.
-fn normals(n: usize, seed: u64) -> Vec<f64> {
-    let mut s = seed;
-    let mut next = || {
-        s = s.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = s;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-    };
-    (0..n)
-        .map(|_| {
-            let (u1, u2) = (next().max(1e-300), next());
-            (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-        })
-        .collect()
 }
 
 fn panel_of(y: Vec<f64>, cols: &[(&str, Vec<f64>)]) -> Panel {
@@ -130,7 +86,7 @@ fn smearing_back_transform_is_fitted_in_fold_and_passes_through() {
     assert_eq!(p.space.specs[s0].id, plain.space.specs[0].id, "id moved");
     assert!(p.space.specs[s1].label().contains("log1p(smear=1)"));
     let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
-    let res = run(&sweep);
+    let res = results(&sweep);
     let (r0, r1) = (&res[s0], &res[s1]);
     assert_eq!(r0.status, "ok");
     assert_eq!(r1.status, "ok");
@@ -196,7 +152,7 @@ fn permutation_importance_uses_the_smeared_back_transform() {
     );
     let mut sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
     sweep.importance = permutation_only(1);
-    let res = run(&sweep);
+    let res = results(&sweep);
     assert_eq!(res.len(), 1);
     assert_eq!(res[0].status, "ok", "{:?}", res[0].message);
     let rows: Vec<_> = res[0]
@@ -223,8 +179,8 @@ fn power_weighting_does_not_depend_on_the_outcomes_units() {
         "[choices]\nfill = [\"median\"]\npool = [\"core\"]\nmodel = [\"ridge\"]\nweighting = [\"power\"]\n[grid.power]\na = [2]\n",
     );
     let scaled = p.panel.with_outcome(&p.panel.y * 100.0).unwrap();
-    let a = run(&Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap());
-    let b = run(&Sweep::new(&scaled, &p.space, &p.folds, p.cfg.seed, None).unwrap());
+    let a = results(&Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap());
+    let b = results(&Sweep::new(&scaled, &p.space, &p.folds, p.cfg.seed, None).unwrap());
     for (x, y) in pairs(&a[0].predictions, &b[0].predictions, "predictions") {
         assert!(
             (y.value - 100.0 * x.value).abs() <= 1e-9 * (100.0 * x.value).abs(),
@@ -241,7 +197,7 @@ fn power_weighting_does_not_depend_on_the_outcomes_units() {
 #[test]
 fn baseline_is_the_training_median() {
     let p = toy_with("[choices]\nfill = [\"median\"]\npool = [\"core\"]\nmodel = [\"ridge\"]\n");
-    let res = run(&Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap());
+    let res = results(&Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap());
     let (mut sum, mut n) = (0.0, 0usize);
     for f in &p.folds.folds {
         let mut t: Vec<f64> = f.train.iter().map(|&i| p.panel.y[i]).collect();
@@ -276,14 +232,14 @@ fn indicator_without_training_values_is_dropped_with_a_note() {
     let y: Vec<f64> = (0..n).map(|i| 2.0 * a[i] - b[i] + 0.3 * e[i]).collect();
     let probe = panel_of(y.clone(), &[("a", a.clone()), ("b", b.clone())]);
     let choices = "[choices]\nfill = [\"mean\", \"knn\"]\nmodel = [\"ridge\"]\n";
-    let (_, folds, without) = sweep_mem(&probe, choices, None);
+    let (_, folds, without) = sweep_mem(&probe, choices, None, DRAWS_BUDGET);
     // `c` has values only in two test rows of fold 0.
     let t = &folds.folds[0].test;
     let mut c = vec![f64::NAN; n];
     c[t[0]] = 1.5;
     c[t[1]] = -0.5;
     let panel = panel_of(y, &[("a", a), ("b", b), ("c", c)]);
-    let (space, _, with) = sweep_mem(&panel, choices, permutation_only(1));
+    let (space, _, with) = sweep_mem(&panel, choices, permutation_only(1), DRAWS_BUDGET);
     for (si, r) in with.iter().enumerate() {
         let label = space.specs[si].label();
         assert_eq!(r.status, "ok", "{label}: {:?}", r.message);
@@ -315,7 +271,7 @@ fn nmf_at_its_iteration_limit_is_noted() {
     let p = toy_with(
         "[choices]\nfill = [\"median\"]\npool = [\"core\"]\nscale = [\"minmax\"]\ncompress = [\"nmf\"]\nmodel = [\"ridge\"]\n[grid.nmf]\nk = [3]\nmax_iter = [1, 2000]\n",
     );
-    let res = run(&Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap());
+    let res = results(&Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap());
     for (si, r) in res.iter().enumerate() {
         assert_eq!(r.status, "ok");
         let one = p.space.specs[si].label().contains("max_iter=1,");
@@ -360,6 +316,7 @@ fn failed_importance_is_recorded() {
         &panel,
         "[choices]\ntransform = [\"log1p\"]\nfill = [\"mean\"]\nmodel = [\"ols\"]\n",
         permutation_only(2),
+        DRAWS_BUDGET,
     );
     let r = &res[0];
     assert_eq!(r.status, "ok", "{:?}", r.message);

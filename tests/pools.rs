@@ -13,7 +13,6 @@ use forkmap::panel::Panel;
 use forkmap::run::Prepared;
 use forkmap::sweep::{SpecResult, Sweep};
 use std::collections::BTreeSet;
-use std::sync::Mutex;
 
 /// Every fill (kNN with missingness flags, median with a drop rule), three kinds of pool,
 /// with and without compression, a linear and a tree model.
@@ -61,11 +60,7 @@ fn run(panel: &Panel, p: &Prepared, subset: &[usize]) -> Vec<SpecResult> {
         kinds: vec!["permutation".into(), "group".into(), "native".into()],
         within: None,
     });
-    let out = Mutex::new(Vec::new());
-    sweep.run(&|r| out.lock().unwrap().push(r));
-    let mut v = out.into_inner().unwrap();
-    v.sort_by_key(|r| r.spec);
-    v
+    crate::common::results(&sweep)
 }
 
 /// Seeded noise (SplitMix64): test data only.

@@ -94,3 +94,53 @@ pub fn prepared(text: &str) -> forkmap::run::Prepared {
     let cfg = forkmap::config::Config::from_toml(text, &root(), "<test>").expect("config");
     forkmap::run::prepare_config(cfg).expect("prepare")
 }
+
+/// Every result of a sweep, sorted by spec (the sweep emits them in completion order).
+pub fn results(sweep: &forkmap::sweep::Sweep) -> Vec<forkmap::sweep::SpecResult> {
+    let out = std::sync::Mutex::new(Vec::new());
+    sweep.run(&|r| out.lock().unwrap().push(r));
+    let mut v = out.into_inner().unwrap();
+    v.sort_by_key(|r| r.spec);
+    v
+}
+
+/// An in-memory panel (unit column `u`, outcome `y`) swept under a config's choices with
+/// 5 grouped folds and seed 5; `importance` as given, `budget` bytes of shared draws.
+pub fn sweep_mem(
+    panel: &forkmap::panel::Panel,
+    choices: &str,
+    importance: Option<forkmap::importance::ImportanceSection>,
+    budget: usize,
+) -> (
+    forkmap::space::ChoiceSpace,
+    forkmap::folds::FoldPlan,
+    Vec<forkmap::sweep::SpecResult>,
+) {
+    let text = format!("seed = 5\n[data]\nfile = \"unused.csv\"\nunit = \"u\"\noutcome = \"y\"\n[folds]\nk = 5\n{choices}");
+    let cfg = forkmap::config::Config::from_toml(&text, Path::new("."), "<test>").unwrap();
+    let space = forkmap::space::ChoiceSpace::build(&cfg, panel).unwrap();
+    let folds = forkmap::folds::FoldPlan::new(panel, &cfg.folds, cfg.seed).unwrap();
+    let mut s = forkmap::sweep::Sweep::new(panel, &space, &folds, cfg.seed, None).unwrap();
+    s.draws_budget = budget;
+    s.importance = importance;
+    let res = results(&s);
+    (space, folds, res)
+}
+
+/// A seeded standard normal (Box-Muller on a SplitMix64 stream): test data only.
+pub fn normals(n: usize, seed: u64) -> Vec<f64> {
+    let mut s = seed;
+    let mut next = || {
+        s = s.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = s;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
+    };
+    (0..n)
+        .map(|_| {
+            let (u1, u2) = (1.0 - next(), next());
+            (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
+        })
+        .collect()
+}
