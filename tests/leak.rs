@@ -77,6 +77,10 @@ core = [
   "inc_median_income", "inc_unemployment", "hou_pre1950_share", "hou_poor_insulation",
   "cli_heating_degree_days", "prc_tariff_index", "acc_travel_time_gp", "ppl_over_75",
 ]
+[grid.log1p]
+smear = [0, 1]
+[grid.logit]
+smear = [0, 1]
 [grid.screen]
 k = [5]
 [grid.knn]
@@ -294,7 +298,8 @@ fn every_fitted_step_is_handed_only_training_rows() {
             .iter()
             .map(|&si| {
                 let s = &c.space.specs[si];
-                let mut key = vec![s.choice("transform").canonical()];
+                // The stage tree shares a forward transform across back-transforms (smear).
+                let mut key = vec![forkmap::transform::fit_key(s.choice("transform"))];
                 key.extend(upto.iter().map(|d| s.choice(d).canonical()));
                 key
             })

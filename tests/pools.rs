@@ -187,6 +187,25 @@ fn a_pool_bounds_what_a_spec_uses_under_every_fill() {
                     assert_eq!(g.importance, 0.0, "{label}: group {}", g.name);
                 }
             }
+            // Ranks are competition ranks on the value alone: 1 + the number of strictly
+            // larger importances in the spec's (level, kind) block, so the exact zeros
+            // outside the pool tie instead of following their names.
+            for x in &a.importance {
+                let above = a
+                    .importance
+                    .iter()
+                    .filter(|y| {
+                        y.level == x.level && y.kind == x.kind && y.importance > x.importance
+                    })
+                    .count();
+                assert_eq!(
+                    x.rank as usize,
+                    above + 1,
+                    "{label}: rank of {} ({})",
+                    x.name,
+                    x.kind
+                );
+            }
             fills_seen.insert(spec.choice("fill").option.clone());
         }
     }

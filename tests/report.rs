@@ -69,7 +69,7 @@ fn bootstrap_intervals_match_numpy() {
         .flat_map(|row| f64s(row).into_iter().map(|u| u as u32))
         .collect();
     let counts = resample_counts(&idx, nu);
-    let specs = b["specs"].as_array().unwrap();
+    let specs = crate::common::cases(&b["specs"], 2, "bootstrap specs");
     let mut t = RunTables {
         spec_ids: (0..specs.len()).map(|s| format!("s{s}")).collect(),
         units: (0..nu).map(|u| format!("u{u}")).collect(),
@@ -83,7 +83,9 @@ fn bootstrap_intervals_match_numpy() {
     let level = b["level"].as_f64().unwrap();
     for metric in ["mae", "rmse", "unit_mae"] {
         let e = Errors::compute(&t, metric, &counts);
-        for (s, res) in b["results"].as_array().unwrap().iter().enumerate() {
+        let results = crate::common::cases(&b["results"], specs.len(), "bootstrap results");
+        assert_eq!(results.len(), specs.len(), "one reference result per spec");
+        for (s, res) in results.iter().enumerate() {
             let (lo, hi) = percentile_interval(e.replicates(s), level);
             let want = &res[metric];
             close(lo, want["lower"].as_f64().unwrap(), 1e-12, metric);
@@ -239,7 +241,8 @@ fn run_writes_the_report_and_map_rewrites_it_identically() {
     }
     assert!(ratio.value(0), "the best spec is always good");
     // The claims: true by construction (every name is within the top 1000): support 1;
-    // a pair and its reverse: supports sum to 1 (ranks never tie).
+    // a pair and its reverse: supports sum to 1 (the two never tie here: no pool, and
+    // neither importance is exactly 0 in any spec; tied ranks would hold neither way).
     let c = &read(&rep.join("conclusions.parquet"))[0];
     let (src, st) = (
         col::<StringArray>(c, "source"),
@@ -269,6 +272,33 @@ fn run_writes_the_report_and_map_rewrites_it_identically() {
         n_all.value(claims[0]),
         12,
         "permutation importances for every spec"
+    );
+
+    // The page's units and rows are the panel's (each row counted once, not once per
+    // spec and repeat).
+    let toy = crate::common::toy();
+    let rj: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(rep.join("report.json")).unwrap()).unwrap();
+    let units: std::collections::HashSet<&str> =
+        toy.panel.units.iter().map(|u| u.as_str()).collect();
+    assert_eq!(rj["units"].as_u64(), Some(units.len() as u64));
+    assert_eq!(rj["rows"].as_u64(), Some(toy.panel.n_rows() as u64));
+    // The paired rule says what the code does: a spec is dropped only when it is worse
+    // than the best in more than `level` of the resamples, one test per spec.
+    let g = &read(&rep.join("good_sets.parquet"))[0];
+    let (def, rule) = (
+        col::<StringArray>(g, "definition"),
+        col::<StringArray>(g, "rule"),
+    );
+    let paired = (0..g.num_rows())
+        .find(|&i| def.value(i) == "paired")
+        .unwrap();
+    assert!(
+        rule.value(paired).starts_with(
+            "kept unless worse than the best in more than 95% of 200 paired unit resamples"
+        ) && rule.value(paired).contains("not a confidence set"),
+        "{}",
+        rule.value(paired)
     );
 
     // `map` on the run reads the settings from the manifest and rewrites the same report,

@@ -512,8 +512,16 @@ impl<'a> Accumulator<'a> {
                     .then(b.in_pool.cmp(&a.in_pool))
                     .then(a.name.cmp(&b.name))
             });
+            // Competition ranks: tied importances share the best rank of their tie (1, 2,
+            // 2, 4), so no order between equal values (e.g. the exact zeros of indicators
+            // outside a pool) is made up from names; rows stay sorted by name within a tie.
+            let mut prev: Option<(f64, u32)> = None;
             for (k, r) in rows.iter_mut().enumerate() {
-                r.rank = k as u32 + 1;
+                r.rank = match prev {
+                    Some((v, rank)) if v.total_cmp(&r.importance).is_eq() => rank,
+                    _ => k as u32 + 1,
+                };
+                prev = Some((r.importance, r.rank));
                 r.level = level;
                 r.kind = kind;
             }

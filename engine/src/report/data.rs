@@ -31,7 +31,7 @@ pub struct RunTables {
     pub unit_abs: Vec<f64>,
     pub unit_sq: Vec<f64>,
     pub unit_n: Vec<f64>,
-    /// Prediction rows read.
+    /// Panel rows (distinct unit and wave) with a prediction.
     pub rows: usize,
     /// Importances by (level, kind).
     pub importance: Vec<KindTable>,
@@ -232,10 +232,14 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
     // Predictions -> per-unit sums.
     let mut unit_index: HashMap<String, usize> = HashMap::new();
     let mut acc: HashMap<(usize, usize), (f64, f64, f64)> = HashMap::new();
+    // The panel's rows (unit, wave) that have predictions, each counted once.
+    let mut wave_index: HashMap<String, usize> = HashMap::new();
+    let mut panel_rows: std::collections::HashSet<(usize, usize)> = Default::default();
     for path in set.table_files("predictions") {
         for b in read_batches(&path)? {
             let ids = col::<StringArray>(&b, "spec_id", &path)?;
             let unit = col::<StringArray>(&b, "unit", &path)?;
+            let wave = col::<StringArray>(&b, "wave", &path)?;
             let obs = col::<Float64Array>(&b, "observed", &path)?;
             let pred = col::<Float64Array>(&b, "predicted", &path)?;
             for i in 0..b.num_rows() {
@@ -254,10 +258,24 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                 a.0 += e.abs();
                 a.1 += e * e;
                 a.2 += 1.0;
-                t.rows += 1;
+                let w = if wave.is_valid(i) {
+                    let v = wave.value(i);
+                    match wave_index.get(v) {
+                        Some(&w) => w,
+                        None => {
+                            let nw = wave_index.len();
+                            wave_index.insert(v.to_string(), nw);
+                            nw
+                        }
+                    }
+                } else {
+                    usize::MAX
+                };
+                panel_rows.insert((u, w));
             }
         }
     }
+    t.rows = panel_rows.len();
     let nu = t.units.len();
     t.unit_abs = vec![0.0; ns * nu];
     t.unit_sq = vec![0.0; ns * nu];

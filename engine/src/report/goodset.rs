@@ -7,7 +7,11 @@
 //! * `paired`: not distinguishable from the best by a paired bootstrap over units: with
 //!   d_r = error_r(spec) - error_r(best) on the same resample r, the spec is good unless
 //!   the (1 - level) quantile of d is above 0, i.e. unless it is worse than the best in
-//!   more than `level` of the resamples (a one-sided test at 1 - level).
+//!   more than `level` of the resamples (a one-sided test at 1 - level for each spec on
+//!   its own). It is not a confidence set for the best spec: the many tests are not
+//!   adjusted for multiplicity and the best is chosen on the same data (its replicates are
+//!   optimistic), so the set is a screen of specs the data cannot tell from the best one
+//!   at a time, stated as such in the rule text.
 //!
 //! Each is a pure function of the errors; membership is reported for every ok spec.
 

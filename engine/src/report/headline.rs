@@ -83,7 +83,7 @@ pub fn headline(r: &Report, primary: &[(String, String)]) -> Vec<String> {
         .filter(|s| s.r2_total > 0.0)
     {
         out.push(format!(
-            "The choice that moves the {} most is {} ({} of the variance across specs; the dimensions together explain {}).",
+            "The choice that moves the {} most is {} ({} of the variance across specs; the dimensions together explain {}, the rest is how choices combine).",
             m.metric,
             s.dimension,
             pct(s.lmg),

@@ -217,9 +217,12 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
         goodset::summary(
             "paired",
             format!(
-                "not worse than the best in more than {:.0}% of {} paired unit resamples",
+                "kept unless worse than the best in more than {:.0}% of {} paired unit resamples \
+                 (a one-sided test at {:.0}% for each spec on its own: not adjusted for the many \
+                 specs, the best chosen on the same data, so not a confidence set for the best spec)",
                 100.0 * s.level,
-                s.resamples
+                s.resamples,
+                100.0 * (1.0 - s.level)
             ),
             f64::NAN,
             &good[2],
@@ -421,6 +424,7 @@ fn write_into(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
         "specs_read": m.specs_total,
         "specs_ok": m.specs_ok,
         "units": m.units,
+        "rows": m.rows,
         "notes": m.notes,
         "headline": built.report.headline,
         "files": files.iter().filter_map(|f| f.file_name().and_then(|n| n.to_str())).collect::<Vec<_>>(),

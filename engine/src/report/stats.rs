@@ -46,8 +46,13 @@ pub fn median(v: &[f64]) -> f64 {
 /// Kendall's tau-b of two equally long vectors (ties in either counted as by
 /// `scipy.stats.kendalltau(variant="b")`); NaN when either side is constant or n < 2.
 /// O(n^2): the report uses it on importance vectors of tens to a few hundred names.
+/// A NaN on either side makes the result NaN (scipy's default `nan_policy="propagate"`),
+/// never a silently counted pair.
 pub fn tau_b(x: &[f64], y: &[f64]) -> f64 {
     let n = x.len().min(y.len());
+    if x[..n].iter().chain(&y[..n]).any(|v| v.is_nan()) {
+        return f64::NAN;
+    }
     let (mut conc, mut disc, mut tx, mut ty) = (0i64, 0i64, 0i64, 0i64);
     for i in 0..n {
         for j in (i + 1)..n {
@@ -309,6 +314,13 @@ pub fn sd(v: &[f64]) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn tau_b_is_nan_when_a_value_is_nan() {
+        assert!(tau_b(&[1.0, f64::NAN, 3.0], &[1.0, 2.0, 3.0]).is_nan());
+        assert!(tau_b(&[1.0, 2.0, 3.0], &[3.0, 2.0, f64::NAN]).is_nan());
+        assert_eq!(tau_b(&[1.0, 2.0, 3.0], &[1.0, 2.0, 3.0]), 1.0);
+    }
 
     #[test]
     fn tau_b_worked_examples() {
