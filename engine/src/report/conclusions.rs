@@ -202,6 +202,7 @@ mod tests {
             specs: vec![0, 1, 2],
             values: vec![3.0, 2.0, 1.0, 3.0, 1.0, 2.0, 5.0, 4.0, 0.0],
             ranks: vec![1, 2, 3, 1, 3, 2, 1, 2, 3],
+            in_pool: vec![true; 9],
         }
     }
 

@@ -52,6 +52,8 @@ pub struct KindTable {
     pub values: Vec<f64>,
     /// Same layout: rank (1 = most important).
     pub ranks: Vec<u32>,
+    /// Same layout: whether the spec's fitted pool held the name (`in_pool`).
+    pub in_pool: Vec<bool>,
 }
 
 impl KindTable {
@@ -60,6 +62,9 @@ impl KindTable {
     }
     pub fn rank(&self, i: usize, j: usize) -> u32 {
         self.ranks[i * self.names.len() + j]
+    }
+    pub fn in_pool(&self, i: usize, j: usize) -> bool {
+        self.in_pool[i * self.names.len() + j]
     }
     pub fn row_values(&self, i: usize) -> &[f64] {
         let m = self.names.len();
@@ -302,7 +307,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
         .enumerate()
         .map(|(i, s)| (s.as_str(), i))
         .collect();
-    type Cell = (usize, String, f64, u32);
+    type Cell = (usize, String, f64, u32, bool);
     let mut by_kind: BTreeMap<(String, String), Vec<Cell>> = BTreeMap::new();
     for path in set.table_files("importance") {
         for b in read_batches(&path)? {
@@ -312,7 +317,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
             let kind = col::<StringArray>(&b, "kind", &path)?;
             let imp = col::<Float64Array>(&b, "importance", &path)?;
             let rank = col::<Int32Array>(&b, "rank", &path)?;
-            let _in_pool = col::<BooleanArray>(&b, "in_pool", &path)?;
+            let in_pool = col::<BooleanArray>(&b, "in_pool", &path)?;
             for i in 0..b.num_rows() {
                 let Some(&s) = index.get(ids.value(i)) else {
                     continue;
@@ -325,6 +330,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                         name.value(i).to_string(),
                         imp.value(i),
                         rank.value(i).max(0) as u32,
+                        in_pool.value(i),
                     ));
             }
         }
@@ -346,10 +352,12 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
             .collect();
         let mut values = vec![f64::NAN; specs.len() * m];
         let mut ranks = vec![u32::MAX; specs.len() * m];
-        for (s, n, v, r) in &cells {
+        let mut pooled = vec![false; specs.len() * m];
+        for (s, n, v, r, p) in &cells {
             let (i, j) = (row_of[s], name_of[n.as_str()]);
             values[i * m + j] = *v;
             ranks[i * m + j] = *r;
+            pooled[i * m + j] = *p;
         }
         // A spec lacking a name (should not happen: every spec lists every name) is
         // ranked last for it.
@@ -365,6 +373,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
             specs,
             values,
             ranks,
+            in_pool: pooled,
         });
     }
     Ok(t)

@@ -26,6 +26,7 @@ pub fn summarise(
     for (j, name) in kt.names.iter().enumerate() {
         let vals: Vec<f64> = rows
             .iter()
+            .filter(|&&i| kt.in_pool(i, j))
             .map(|&i| kt.values[i * kt.n_names() + j])
             .collect();
         let ranks: Vec<u32> = rows.iter().map(|&i| kt.rank(i, j)).collect();
@@ -43,6 +44,7 @@ pub fn summarise(
             kind: kt.kind.clone(),
             name: name.clone(),
             importance: spread(&vals),
+            out_of_pool: rows.len() - vals.len(),
             median_rank: median(&rf),
             best_rank: ranks.iter().copied().min().unwrap_or(0),
             worst_rank: ranks.iter().copied().max().unwrap_or(0),
@@ -62,6 +64,18 @@ pub fn summarise(
         }));
     }
     (sums, counts)
+}
+
+/// Tau-b between two members' importances over the names both members' pools hold (a
+/// name one of them left out is 0 there by construction: counting it would measure how
+/// alike the pools are, not the orderings).
+pub fn shared_tau_b(kt: &KindTable, a: usize, b: usize) -> f64 {
+    let (va, vb) = (kt.row_values(a), kt.row_values(b));
+    let (x, y): (Vec<f64>, Vec<f64>) = (0..kt.n_names())
+        .filter(|&j| kt.in_pool(a, j) && kt.in_pool(b, j))
+        .map(|j| (va[j], vb[j]))
+        .unzip();
+    tau_b(&x, &y)
 }
 
 /// Tau-b agreement between the good members holding `kt` (the `cap` best by `err` when
@@ -90,7 +104,7 @@ pub fn agreement(
         .collect();
     let taus: Vec<f64> = pairs
         .par_iter()
-        .map(|&(a, b)| tau_b(kt.row_values(rows[a]), kt.row_values(rows[b])))
+        .map(|&(a, b)| shared_tau_b(kt, rows[a], rows[b]))
         .collect();
     let mut matrix = vec![1.0; m * m];
     for (&(a, b), &t) in pairs.iter().zip(&taus) {
@@ -114,4 +128,44 @@ pub fn agreement(
         min: finite.iter().copied().fold(f64::NAN, f64::min),
         matrix,
     })
+}
+
+#[cfg(test)]
+mod pool_tests {
+    use super::*;
+
+    /// Two members; member 1's pool left out name c (importance 0 there by construction).
+    fn kt() -> KindTable {
+        KindTable {
+            level: "indicator".into(),
+            kind: "permutation".into(),
+            names: vec!["a".into(), "b".into(), "c".into(), "d".into()],
+            specs: vec![0, 1],
+            values: vec![4.0, 3.0, 2.0, 1.0, 1.0, 3.0, 0.0, 2.0],
+            ranks: vec![1, 2, 3, 4, 3, 1, 4, 2],
+            in_pool: vec![true, true, true, true, true, true, false, true],
+        }
+    }
+
+    #[test]
+    fn the_range_leaves_out_members_whose_pool_left_the_name_out() {
+        let (sums, _) = summarise(&kt(), &[true, true], 2);
+        let c = sums.iter().find(|s| s.name == "c").unwrap();
+        assert_eq!((c.importance.n, c.out_of_pool), (1, 1));
+        assert_eq!((c.importance.min, c.importance.max), (2.0, 2.0));
+        let a = sums.iter().find(|s| s.name == "a").unwrap();
+        assert_eq!((a.importance.n, a.out_of_pool), (2, 0));
+        assert_eq!((a.importance.min, a.importance.max), (1.0, 4.0));
+    }
+
+    #[test]
+    fn agreement_is_over_the_names_both_pools_hold() {
+        // Over a, b, d: (4, 3, 1) vs (1, 3, 2): pairs ab discordant, ad discordant, bd
+        // concordant: tau = (1 - 2) / 3 (worked by hand, no ties).
+        let t = shared_tau_b(&kt(), 0, 1);
+        assert!((t - (-1.0 / 3.0)).abs() < 1e-15, "{t}");
+        // Counting c (0 in member 1 because it was left out) would give another value.
+        let all = tau_b(kt().row_values(0), kt().row_values(1));
+        assert!((all - t).abs() > 0.1, "{all} vs {t}");
+    }
 }

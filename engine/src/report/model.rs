@@ -196,9 +196,12 @@ pub struct ImportanceSummary {
     pub level: String,
     pub kind: String,
     pub name: String,
-    /// Importance values over the good set; min and max are the empirical range
-    /// (model class reliance, Fisher, Rudin & Dominici 2019).
+    /// Importance values over the good members whose pool holds the name; min and max
+    /// are the empirical range (model class reliance, Fisher, Rudin & Dominici 2019). A
+    /// member that left the name out of its pool says nothing about reliance on it.
     pub importance: Spread,
+    /// Good members whose pool left the name out (not in `importance`).
+    pub out_of_pool: usize,
     pub median_rank: f64,
     pub best_rank: u32,
     pub worst_rank: u32,

@@ -185,6 +185,7 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
             .s("kind", v.iter().map(|x| &x.kind))
             .s("name", v.iter().map(|x| &x.name))
             .spread("importance", v.iter().map(|x| &x.importance))
+            .i("out_of_pool", v.iter().map(|x| x.out_of_pool as i64))
             .f("median_rank", v.iter().map(|x| x.median_rank))
             .i("best_rank", v.iter().map(|x| i64::from(x.best_rank)))
             .i("worst_rank", v.iter().map(|x| i64::from(x.worst_rank)))

@@ -295,15 +295,16 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         "Importance over the good set",
         "importance_spread.parquet",
         format!(
-            "Per name and kind over the good set ({}): importance spread (min and max are the empirical range), \
-             ranks, and the share of members (and of all ok specs) ranking it in the top {k}. Shown here by \
-             level, kind and median rank; names no good member holds (n = 0) come last.",
+            "Per name and kind over the good set ({}): importance spread over the members whose pool holds the \
+             name (min and max are the empirical range; members that left it out are counted apart), ranks, and the share of members (and of all ok specs) ranking it in the top {k}. Shown here by \
+             level, kind and median rank; names no good member's pool holds (n = 0) come last.",
             r.meta.good
         ),
     )
     .cols(&spread_cols(&[("level", false), ("kind", false), ("name", false)]));
     t.columns.extend(
         [
+            "members out of pool",
             "median rank",
             "best rank",
             "worst rank",
@@ -312,7 +313,7 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         ]
         .map(String::from),
     );
-    t.numeric.extend([true; 5]);
+    t.numeric.extend([true; 6]);
     // Names some good member holds first (by level, kind, median rank), then the rest.
     let mut order: Vec<&crate::report::model::ImportanceSummary> = r.importance.iter().collect();
     order.sort_by(|a, b| {
@@ -327,6 +328,7 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         let mut row = vec![i.level.clone(), i.kind.clone(), i.name.clone()];
         row.extend(spread_vals(&i.importance));
         row.extend([
+            i.out_of_pool.to_string(),
             num(i.median_rank),
             i.best_rank.to_string(),
             i.worst_rank.to_string(),

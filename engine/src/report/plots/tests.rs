@@ -59,6 +59,7 @@ pub(crate) fn sample(n_specs: usize) -> Report {
             worst_rank: 4,
             share_top_k: 1.0 / (i + 1) as f64,
             share_top_k_all: 0.8 / (i + 1) as f64,
+            out_of_pool: 0,
         });
         for r in 1..=4u32 {
             rank_counts.push(RankCount {
