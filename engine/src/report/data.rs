@@ -9,7 +9,7 @@ use crate::space::DIMENSIONS;
 use arrow_array::{Array, BooleanArray, Float64Array, Int32Array, RecordBatch, StringArray};
 use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
 use std::collections::{BTreeMap, HashMap};
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// The ok specs of a run and what the report needs of them.
 #[derive(Debug, Clone, Default)]
@@ -112,8 +112,27 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
     let mut t = RunTables::default();
     // Specs: each id once (the first directory holding it wins, as `check` counts).
     let mut seen: HashMap<String, ()> = HashMap::new();
+    // Run directories, numbered as met: a spec's predictions and importances are read only
+    // from the directory whose spec row was kept (with `--allow-incomplete`, two runs may
+    // both hold a spec; mixing them would count its rows twice).
+    let mut dirs: Vec<PathBuf> = Vec::new();
+    let mut dir_no = |path: &Path| -> usize {
+        let d = path
+            .parent()
+            .and_then(Path::parent)
+            .unwrap_or(Path::new(""))
+            .to_path_buf();
+        match dirs.iter().position(|x| *x == d) {
+            Some(i) => i,
+            None => {
+                dirs.push(d);
+                dirs.len() - 1
+            }
+        }
+    };
     struct Row {
         id: String,
+        dir: usize,
         options: Vec<String>,
         params: Vec<Option<f64>>,
         stored: Vec<f64>,
@@ -121,6 +140,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
     let mut rows: Vec<Row> = Vec::new();
     let mut param_cols: Vec<String> = Vec::new();
     for path in set.table_files("specs") {
+        let here = dir_no(&path);
         for b in read_batches(&path)? {
             let ids = col::<StringArray>(&b, "spec_id", &path)?;
             let status = col::<StringArray>(&b, "status", &path)?;
@@ -167,6 +187,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                     .collect();
                 rows.push(Row {
                     id,
+                    dir: here,
                     options: dims.iter().map(|c| c.value(i).to_string()).collect(),
                     params,
                     stored: metrics.iter().map(|c| c.value(i)).collect(),
@@ -232,6 +253,8 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
             .insert(name.to_string(), rows.iter().map(|r| r.stored[m]).collect());
     }
     t.options = rows.iter().map(|r| r.options.clone()).collect();
+    let source: Vec<usize> = rows.iter().map(|r| r.dir).collect();
+    let kept_in: HashMap<String, usize> = rows.iter().map(|r| (r.id.clone(), r.dir)).collect();
     t.spec_ids = rows.into_iter().map(|r| r.id).collect();
 
     // Predictions -> per-unit sums.
@@ -241,6 +264,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
     let mut wave_index: HashMap<String, usize> = HashMap::new();
     let mut panel_rows: std::collections::HashSet<(usize, usize)> = Default::default();
     for path in set.table_files("predictions") {
+        let here = dir_no(&path);
         for b in read_batches(&path)? {
             let ids = col::<StringArray>(&b, "spec_id", &path)?;
             let unit = col::<StringArray>(&b, "unit", &path)?;
@@ -251,6 +275,9 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                 let Some(&s) = index.get(ids.value(i)) else {
                     continue;
                 };
+                if source[s] != here {
+                    continue;
+                }
                 let nu = unit_index.len();
                 let u = *unit_index
                     .entry(unit.value(i).to_string())
@@ -310,6 +337,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
     type Cell = (usize, String, f64, u32, bool);
     let mut by_kind: BTreeMap<(String, String), Vec<Cell>> = BTreeMap::new();
     for path in set.table_files("importance") {
+        let here = dir_no(&path);
         for b in read_batches(&path)? {
             let ids = col::<StringArray>(&b, "spec_id", &path)?;
             let name = col::<StringArray>(&b, "indicator", &path)?;
@@ -322,6 +350,9 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                 let Some(&s) = index.get(ids.value(i)) else {
                     continue;
                 };
+                if kept_in.get(ids.value(i)) != Some(&here) {
+                    continue;
+                }
                 by_kind
                     .entry((level.value(i).to_string(), kind.value(i).to_string()))
                     .or_default()
