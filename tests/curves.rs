@@ -2,6 +2,7 @@
 //! model's own slope (by hand, through standardise and PCA), step-shaped ICE of a single
 //! tree at the planted threshold, hinge recovery, the unit bootstrap, silhouette on a
 //! worked example, planted subgroups, departing units, and thread-count determinism.
+#![allow(clippy::needless_range_loop)]
 
 use forkmap::config::Config;
 use forkmap::curves::compute::{compute, unit_groups, Settings};

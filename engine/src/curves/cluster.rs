@@ -64,7 +64,7 @@ pub fn kmeans(x: ArrayView2<f64>, k: usize, seed: u64) -> (Vec<usize>, f64) {
         let mut labels = vec![0usize; n];
         for _ in 0..100 {
             let mut changed = false;
-            for i in 0..n {
+            for (i, li) in labels.iter_mut().enumerate() {
                 let mut bi = 0;
                 let mut bd = f64::INFINITY;
                 for j in 0..c.nrows() {
@@ -74,8 +74,8 @@ pub fn kmeans(x: ArrayView2<f64>, k: usize, seed: u64) -> (Vec<usize>, f64) {
                         bi = j;
                     }
                 }
-                if labels[i] != bi {
-                    labels[i] = bi;
+                if *li != bi {
+                    *li = bi;
                     changed = true;
                 }
             }
@@ -164,7 +164,7 @@ pub fn subgroups(curves: ArrayView2<f64>, seed: u64) -> Subgroups {
         let (labels, _) = kmeans(curves, k, seed);
         let s = silhouette(curves, &labels);
         tried.push((k, s));
-        if s.is_finite() && s >= MIN_SILHOUETTE && !(pick.1 >= s) {
+        if s.is_finite() && s >= MIN_SILHOUETTE && (pick.1.is_nan() || s > pick.1) {
             pick = (k, s, labels);
         }
     }

@@ -179,8 +179,8 @@ pub fn unit_groups(
             uc[[u, j]] += c[[r, j]];
         }
     }
-    for u in 0..n_units {
-        let d = cnt[u].max(1.0);
+    for (u, &cu) in cnt.iter().enumerate() {
+        let d = cu.max(1.0);
         uc.row_mut(u).mapv_inplace(|v| v / d);
     }
     let sg = super::subgroups(uc.view(), seed);

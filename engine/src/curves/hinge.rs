@@ -24,6 +24,7 @@ pub struct Hinge {
 
 /// Solve the 3x3 system `m z = r` (Gaussian elimination with partial pivoting); `None`
 /// when singular.
+#[allow(clippy::needless_range_loop)]
 fn solve3(mut m: [[f64; 3]; 3], mut r: [f64; 3]) -> Option<[f64; 3]> {
     for k in 0..3 {
         let p = (k..3).max_by(|&i, &j| m[i][k].abs().total_cmp(&m[j][k].abs()))?;
