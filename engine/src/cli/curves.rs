@@ -1,5 +1,5 @@
 //! `forkmap curves RUN_DIR [--specs best|good|ID,...] [--indicators A,B | --top K]
-//!  [--grid N] [--resamples B] [--level L] [--flat F] [--seed S] [--config FILE]
+//!  [--ratio-eps E] [--grid N] [--resamples B] [--level L] [--flat F] [--seed S] [--config FILE]
 //!  [--threads N] [--quiet]`
 //!
 //! Shapes of associations: fit the chosen specs on all rows (from the run's config and
@@ -33,6 +33,10 @@ pub struct Args {
     /// Indicator names separated by commas (default: the top K by importance).
     #[arg(long, conflicts_with = "top")]
     indicators: Option<String>,
+    /// Good set for `--specs good`: error <= (1 + E) x best (default: the run's `[map]`
+    /// ratio_eps).
+    #[arg(long, value_name = "E")]
+    ratio_eps: Option<f64>,
     /// Number of indicators taken by importance.
     #[arg(long, default_value_t = 5)]
     top: usize,
@@ -109,7 +113,11 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             .map_err(|e| anyhow::anyhow!("the manifest's `map` settings are unreadable: {e}"))?,
         _ => MapSection::default(),
     };
-    let (best, good) = select::best_and_good(&t, &ms.metric, ms.ratio_eps)
+    let eps = a.ratio_eps.unwrap_or(ms.ratio_eps);
+    if !(eps >= 0.0 && eps.is_finite()) {
+        anyhow::bail!("--ratio-eps must be a finite number >= 0, got {eps}");
+    }
+    let (best, good) = select::best_and_good(&t, &ms.metric, eps)
         .ok_or_else(|| anyhow::anyhow!("the run has no ok spec to draw curves for"))?;
     let (ids, detail): (Vec<String>, Vec<String>) = match a.specs.as_str() {
         "best" => (vec![best.clone()], vec![best]),
