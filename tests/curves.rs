@@ -379,3 +379,46 @@ fn compute_is_deterministic_across_threads() {
     assert!((band0.rises - 1.0).abs() < 1e-12, "{band0:?}");
     assert!(a.curves.iter().filter(|c| c.ice.is_some()).count() == 2);
 }
+
+/// The tables land whole in RUN_DIR/curves (no hidden folder left), are replaced on a
+/// second write, and hold one breakpoints row per (spec, indicator) and one ICE row per
+/// (detail spec, indicator, row, grid point).
+#[test]
+fn tables_are_written_whole_and_replaced() {
+    use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
+    let n = 40;
+    let z = normals(2 * n, 6);
+    let x0: Vec<f64> = z[..n].to_vec();
+    let y: Vec<f64> = (0..n).map(|i| x0[i] + 0.2 * z[n + i]).collect();
+    let p = prepared(panel_of(y, &[x0]), "[choices]\nmodel = [\"ols\"]\n");
+    let s = Settings {
+        grid: 8,
+        resamples: 10,
+        ..Default::default()
+    };
+    let out = compute(&p, &[0], &[0], &[0], &s).unwrap();
+    let run = tempfile::tempdir().unwrap();
+    let ids: Vec<String> = p.space.specs.iter().map(|s| s.id.clone()).collect();
+    let rows = |name: &str| -> usize {
+        let f = std::fs::File::open(run.path().join("curves").join(name)).unwrap();
+        ParquetRecordBatchReaderBuilder::try_new(f)
+            .unwrap()
+            .build()
+            .unwrap()
+            .map(|b| b.unwrap().num_rows())
+            .sum()
+    };
+    for _ in 0..2 {
+        forkmap::curves::table::write(&out, &p.panel, &ids, 0.9, run.path()).unwrap();
+        let names: Vec<String> = std::fs::read_dir(run.path())
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+            .collect();
+        assert_eq!(names, vec!["curves".to_string()], "{names:?}");
+        assert_eq!(rows("breakpoints.parquet"), 1);
+        assert_eq!(rows("ice.parquet"), n * 8);
+        assert_eq!(rows("pd.parquet"), 8);
+        assert_eq!(rows("clusters.parquet"), n);
+        assert_eq!(rows("signs.parquet"), 1);
+    }
+}
