@@ -4,6 +4,7 @@
 
 mod bad_input;
 mod common;
+mod curves;
 mod determinism;
 mod end_to_end;
 mod folds_prop;

@@ -6,6 +6,7 @@
 //! the invariants.
 
 pub mod config;
+pub mod curves;
 pub mod error;
 pub mod folds;
 pub mod gather;

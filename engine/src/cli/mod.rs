@@ -2,6 +2,7 @@
 
 mod check;
 mod completions;
+mod curves;
 mod gather;
 mod map;
 mod plan;
@@ -31,6 +32,7 @@ enum Verb {
     Map(map::Args),
     Sketch(sketch::Args),
     Completions(completions::Args),
+    Curves(curves::Args),
 }
 
 fn init_logging(verbose: u8) {
@@ -59,6 +61,7 @@ pub fn main() -> ExitCode {
         Verb::Map(a) => map::exec(a),
         Verb::Sketch(a) => sketch::exec(a),
         Verb::Completions(a) => completions::exec(a),
+        Verb::Curves(a) => curves::exec(a),
     };
     match result {
         Ok(code) => code,

@@ -1,0 +1,22 @@
+//! Curves through the whole pipeline: individual conditional expectation (ICE) curves of a
+//! spec fitted on all rows, their mean (partial dependence, PD), centred ICE, the band of
+//! PD over a set of specs, a two-segment hinge with a unit-bootstrap interval for its
+//! breakpoint, and subgroups of units from k-means on the centred curves.
+//!
+//! Everything here is a pure function of its inputs (and a stated seed): the results do
+//! not depend on the thread count. [`ice`] predicts through the fitted chain (pool, fill,
+//! scale, compression, model, back-transform) with the raw indicator set to each grid
+//! value, so a compressed spec's curve is on the raw indicator. A row whose indicator is
+//! missing gets the grid value like every other row: the curve sets the value, so the row
+//! is complete for that indicator (its other gaps are filled by the spec's own fill).
+
+pub mod cluster;
+pub mod compute;
+pub mod hinge;
+pub mod ice;
+pub mod select;
+pub mod table;
+
+pub use cluster::{kmeans, silhouette, subgroups, Subgroups};
+pub use hinge::{bootstrap_breakpoint, fit_hinge, Hinge};
+pub use ice::{band, centred, direction, ice, pd, quantile_grid, Band, Direction};

@@ -1,0 +1,48 @@
+//! Which specs and indicators a curves pass covers, read from the run's tables the way
+//! the report reads them (one-way: the tables are never written here).
+
+use crate::report::data::RunTables;
+use crate::report::errors::Errors;
+use crate::report::goodset;
+
+/// The best spec (lowest `metric`, ties to the lower id) and the good set under the ratio
+/// rule `error <= (1 + eps) x best` (the report's `ratio` definition), as spec ids, best
+/// first then the others in id order.
+pub fn best_and_good(t: &RunTables, metric: &str, eps: f64) -> Option<(String, Vec<String>)> {
+    let e = Errors::compute(t, metric, &[]);
+    let best = e.best()?;
+    let members = goodset::ratio(&e.point, e.point[best], eps);
+    let mut good = vec![t.spec_ids[best].clone()];
+    for (i, &m) in members.iter().enumerate() {
+        if m && i != best {
+            good.push(t.spec_ids[i].clone());
+        }
+    }
+    Some((t.spec_ids[best].clone(), good))
+}
+
+/// The `k` indicators with the largest mean importance over the specs holding it, in the
+/// first indicator-level importance kind of the run (ties by name); `None` when the run
+/// has no indicator-level importance.
+pub fn top_indicators(t: &RunTables, k: usize) -> Option<(String, Vec<String>)> {
+    let kt = t
+        .importance
+        .iter()
+        .find(|kt| kt.level == "indicator" && !kt.specs.is_empty())?;
+    let nn = kt.n_names();
+    let ns = kt.specs.len() as f64;
+    let mut mean: Vec<(f64, &String)> = (0..nn)
+        .map(|j| {
+            let s: f64 = (0..kt.specs.len())
+                .map(|i| kt.values[i * nn + j])
+                .filter(|v| v.is_finite())
+                .sum();
+            (s / ns, &kt.names[j])
+        })
+        .collect();
+    mean.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(b.1)));
+    Some((
+        kt.kind.clone(),
+        mean.into_iter().take(k).map(|(_, n)| n.clone()).collect(),
+    ))
+}

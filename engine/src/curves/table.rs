@@ -1,0 +1,265 @@
+//! The curves pass's Parquet tables, written into a hidden folder renamed into place as
+//! RUN_DIR/curves/ (a previous curves folder is replaced only when the new one is whole).
+//!
+//! - `ice`: spec_id, indicator, unit, wave (nullable), grid_index, grid_value, prediction,
+//!   centred (the detailed specs only).
+//! - `pd`: spec_id, indicator, grid_index, grid_value, pd.
+//! - `breakpoints`: spec_id, indicator, direction, breakpoint, breakpoint_lo,
+//!   breakpoint_hi, draws, slope_left, slope_right, sse, flat_tolerance.
+//! - `bands`: indicator, grid_index, grid_value, members, pd_median, pd_lo, pd_hi, level.
+//! - `signs`: indicator, members, rises, falls, flat, turns (shares of member specs).
+//! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_breakpoint,
+//!   cluster_slope_left, cluster_slope_right, distance, bound, departs.
+
+use super::compute::Output;
+use crate::error::{Error, Result};
+use crate::panel::Panel;
+use arrow_array::{ArrayRef, BooleanArray, Float64Array, Int64Array, RecordBatch, StringArray};
+use arrow_schema::{DataType, Field, Schema};
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+pub const CURVES_DIR: &str = "curves";
+
+#[derive(Default)]
+struct Cols {
+    fields: Vec<Field>,
+    cols: Vec<ArrayRef>,
+}
+
+impl Cols {
+    fn s(mut self, name: &str, v: Vec<String>) -> Self {
+        self.fields.push(Field::new(name, DataType::Utf8, false));
+        self.cols.push(Arc::new(StringArray::from(v)));
+        self
+    }
+    fn os(mut self, name: &str, v: Vec<Option<String>>) -> Self {
+        self.fields.push(Field::new(name, DataType::Utf8, true));
+        self.cols.push(Arc::new(StringArray::from(v)));
+        self
+    }
+    fn f(mut self, name: &str, v: Vec<f64>) -> Self {
+        self.fields.push(Field::new(name, DataType::Float64, false));
+        self.cols.push(Arc::new(Float64Array::from(v)));
+        self
+    }
+    fn i(mut self, name: &str, v: Vec<i64>) -> Self {
+        self.fields.push(Field::new(name, DataType::Int64, false));
+        self.cols.push(Arc::new(Int64Array::from(v)));
+        self
+    }
+    fn b(mut self, name: &str, v: Vec<bool>) -> Self {
+        self.fields.push(Field::new(name, DataType::Boolean, false));
+        self.cols.push(Arc::new(BooleanArray::from(v)));
+        self
+    }
+    fn write(self, dir: &Path, name: &str) -> Result<()> {
+        let file = format!("{name}.parquet");
+        let batch =
+            RecordBatch::try_new(Arc::new(Schema::new(self.fields)), self.cols).map_err(|e| {
+                Error::Write {
+                    path: dir.join(&file),
+                    msg: e.to_string(),
+                }
+            })?;
+        crate::sink::write_parquet_atomic(dir, &file, &batch)
+    }
+}
+
+fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Path) -> Result<()> {
+    let ind = |c: usize| panel.indicators[c].clone();
+    // ice
+    let mut sid: Vec<String> = Vec::new();
+    let mut si: Vec<String> = Vec::new();
+    let mut un: Vec<String> = Vec::new();
+    let mut wv: Vec<Option<String>> = Vec::new();
+    let mut gi: Vec<i64> = Vec::new();
+    let (mut gv, mut pr, mut ce): (Vec<f64>, Vec<f64>, Vec<f64>) = Default::default();
+    for sc in &o.curves {
+        let Some(m) = &sc.ice else { continue };
+        let c = super::centred(m);
+        for r in 0..m.nrows() {
+            for (j, &g) in sc.grid.iter().enumerate() {
+                sid.push(ids[sc.spec].clone());
+                si.push(ind(sc.indicator));
+                un.push(panel.units[panel.row_unit[r]].clone());
+                wv.push(panel.row_wave[r].clone());
+                gi.push(j as i64);
+                gv.push(g);
+                pr.push(m[[r, j]]);
+                ce.push(c[[r, j]]);
+            }
+        }
+    }
+    Cols::default()
+        .s("spec_id", sid)
+        .s("indicator", si)
+        .s("unit", un)
+        .os("wave", wv)
+        .i("grid_index", gi)
+        .f("grid_value", gv)
+        .f("prediction", pr)
+        .f("centred", ce)
+        .write(dir, "ice")?;
+    // pd
+    let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    for sc in &o.curves {
+        for (j, (&g, &p)) in sc.grid.iter().zip(&sc.pd).enumerate() {
+            t.0.push(ids[sc.spec].clone());
+            t.1.push(ind(sc.indicator));
+            t.2.push(j as i64);
+            t.3.push(g);
+            t.4.push(p);
+        }
+    }
+    Cols::default()
+        .s("spec_id", t.0)
+        .s("indicator", t.1)
+        .i("grid_index", t.2)
+        .f("grid_value", t.3)
+        .f("pd", t.4)
+        .write(dir, "pd")?;
+    // breakpoints
+    let nan = f64::NAN;
+    let h = |sc: &super::compute::SpecCurve, f: fn(&super::Hinge) -> f64| {
+        sc.hinge.as_ref().map_or(nan, f)
+    };
+    let cs = &o.curves;
+    Cols::default()
+        .s("spec_id", cs.iter().map(|c| ids[c.spec].clone()).collect())
+        .s("indicator", cs.iter().map(|c| ind(c.indicator)).collect())
+        .s(
+            "direction",
+            cs.iter().map(|c| c.direction.to_string()).collect(),
+        )
+        .f(
+            "breakpoint",
+            cs.iter().map(|c| h(c, |x| x.breakpoint)).collect(),
+        )
+        .f("breakpoint_lo", cs.iter().map(|c| c.interval.0).collect())
+        .f("breakpoint_hi", cs.iter().map(|c| c.interval.1).collect())
+        .i("draws", cs.iter().map(|c| c.interval.2 as i64).collect())
+        .f(
+            "slope_left",
+            cs.iter().map(|c| h(c, |x| x.slope_left)).collect(),
+        )
+        .f(
+            "slope_right",
+            cs.iter().map(|c| h(c, |x| x.slope_right)).collect(),
+        )
+        .f("sse", cs.iter().map(|c| h(c, |x| x.sse)).collect())
+        .f("flat_tolerance", vec![o.tol; cs.len()])
+        .write(dir, "breakpoints")?;
+    // bands and signs
+    let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    let mut bb = (Vec::new(), Vec::new(), Vec::new());
+    for (c, grid, b) in &o.bands {
+        let members = cs.iter().filter(|s| s.indicator == *c).count() as i64;
+        for (j, &g) in grid.iter().enumerate() {
+            t.0.push(ind(*c));
+            t.1.push(j as i64);
+            t.2.push(g);
+            t.3.push(members);
+            bb.0.push(b.median[j]);
+            bb.1.push(b.lo[j]);
+            bb.2.push(b.hi[j]);
+        }
+    }
+    let n = t.0.len();
+    Cols::default()
+        .s("indicator", t.0)
+        .i("grid_index", t.1)
+        .f("grid_value", t.2)
+        .i("members", t.3)
+        .f("pd_median", bb.0)
+        .f("pd_lo", bb.1)
+        .f("pd_hi", bb.2)
+        .f("level", vec![level; n])
+        .write(dir, "bands")?;
+    let bs = &o.bands;
+    Cols::default()
+        .s("indicator", bs.iter().map(|b| ind(b.0)).collect())
+        .i(
+            "members",
+            bs.iter()
+                .map(|b| cs.iter().filter(|s| s.indicator == b.0).count() as i64)
+                .collect(),
+        )
+        .f("rises", bs.iter().map(|b| b.2.rises).collect())
+        .f("falls", bs.iter().map(|b| b.2.falls).collect())
+        .f("flat", bs.iter().map(|b| b.2.flat).collect())
+        .f("turns", bs.iter().map(|b| b.2.turns).collect())
+        .write(dir, "signs")?;
+    // clusters
+    let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    let mut f = (
+        Vec::new(),
+        Vec::new(),
+        Vec::new(),
+        Vec::new(),
+        Vec::new(),
+        Vec::new(),
+    );
+    let mut dep = Vec::new();
+    for sc in cs {
+        let Some((g, hs)) = &sc.groups else { continue };
+        for (u, name) in panel.units.iter().enumerate() {
+            let k = g.labels[u];
+            let hk = hs.get(k).copied().flatten();
+            t.0.push(ids[sc.spec].clone());
+            t.1.push(ind(sc.indicator));
+            t.2.push(name.clone());
+            t.3.push(k as i64);
+            t.4.push(g.k as i64);
+            f.0.push(g.silhouette);
+            f.1.push(hk.map_or(nan, |x| x.breakpoint));
+            f.2.push(hk.map_or(nan, |x| x.slope_left));
+            f.3.push(hk.map_or(nan, |x| x.slope_right));
+            f.4.push(g.distance[u]);
+            f.5.push(g.bound);
+            dep.push(g.departs[u]);
+        }
+    }
+    Cols::default()
+        .s("spec_id", t.0)
+        .s("indicator", t.1)
+        .s("unit", t.2)
+        .i("cluster", t.3)
+        .i("k", t.4)
+        .f("silhouette", f.0)
+        .f("cluster_breakpoint", f.1)
+        .f("cluster_slope_left", f.2)
+        .f("cluster_slope_right", f.3)
+        .f("distance", f.4)
+        .f("bound", f.5)
+        .b("departs", dep)
+        .write(dir, "clusters")?;
+    Ok(())
+}
+
+/// Write the tables into RUN_DIR/curves atomically (hidden folder, then rename).
+pub fn write(o: &Output, panel: &Panel, ids: &[String], level: f64, run: &Path) -> Result<PathBuf> {
+    let dest = run.join(CURVES_DIR);
+    let tmp = run.join(format!(".{CURVES_DIR}.tmp-{}", std::process::id()));
+    if tmp.exists() {
+        std::fs::remove_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
+    }
+    std::fs::create_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
+    if let Err(e) = write_tables(o, panel, ids, level, &tmp) {
+        let _ = std::fs::remove_dir_all(&tmp);
+        return Err(e);
+    }
+    let old = run.join(format!(".{CURVES_DIR}.old-{}", std::process::id()));
+    if dest.exists() {
+        std::fs::rename(&dest, &old).map_err(|e| Error::io(&dest, e))?;
+    }
+    if let Err(e) = std::fs::rename(&tmp, &dest) {
+        let _ = std::fs::rename(&old, &dest);
+        let _ = std::fs::remove_dir_all(&tmp);
+        return Err(Error::io(&dest, e));
+    }
+    if old.exists() {
+        let _ = std::fs::remove_dir_all(&old);
+    }
+    Ok(dest)
+}
