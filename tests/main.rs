@@ -15,5 +15,6 @@ mod pools;
 mod reference;
 mod report;
 mod resume;
+mod selection;
 mod shards;
 mod starter;
