@@ -16,5 +16,6 @@ mod pools;
 mod reference;
 mod report;
 mod resume;
+mod selection;
 mod shards;
 mod starter;

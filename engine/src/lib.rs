@@ -13,6 +13,7 @@ pub mod gather;
 pub mod importance;
 pub mod metrics;
 pub mod models;
+pub mod null;
 pub mod panel;
 pub mod plan;
 pub mod progress;
