@@ -4,6 +4,7 @@
 //! worked example, planted subgroups, departing units, and thread-count determinism.
 #![allow(clippy::needless_range_loop)]
 
+use crate::common::normals;
 use forkmap::config::Config;
 use forkmap::curves::compute::{compute, unit_groups, Settings};
 use forkmap::curves::{
@@ -16,24 +17,6 @@ use forkmap::space::ChoiceSpace;
 use forkmap::sweep::{FittedSpec, Sweep};
 use ndarray::{Array1, Array2};
 use std::path::{Path, PathBuf};
-
-/// A seeded standard normal (Box-Muller on a SplitMix64 stream): test data only.
-fn normals(n: usize, seed: u64) -> Vec<f64> {
-    let mut s = seed;
-    let mut next = || {
-        s = s.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = s;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
-    };
-    (0..n)
-        .map(|_| {
-            let (u1, u2) = (next().max(1e-300), next());
-            (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-        })
-        .collect()
-}
 
 fn panel_of(y: Vec<f64>, cols: &[Vec<f64>]) -> Panel {
     let n = y.len();
