@@ -396,8 +396,15 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         "stability.parquet",
         format!(
             "Over {} resamples of units, the best spec and the good set recomputed from the stored per-unit errors: \
-             how often each name stays in the top {k}.",
-            r.meta.resamples
+             how often each name stays in the top {k}. Each resample's good set uses the {} rule{}.",
+            r.meta.resamples,
+            if r.meta.good == "margin" { "margin" } else { "ratio" },
+            if r.meta.good == "paired" {
+                " (the paired rule would need a bootstrap inside every resample), so these shares are not \
+                 over the paired good set the rest of this report uses"
+            } else {
+                ""
+            }
         ),
     )
     .cols(&[

@@ -209,3 +209,14 @@ fn write_puts_the_page_and_each_plot_in_the_folder() {
         .collect();
     assert!(left.is_empty(), "temporary files left: {left:?}");
 }
+
+#[test]
+fn the_stability_table_names_the_rule_its_resamples_use() {
+    let h = page(30);
+    assert!(h.contains("good set uses the ratio rule."));
+    let mut r = sample(30);
+    r.meta.good = "paired".into();
+    let h = render(&r, &plots::render_all(&r).unwrap());
+    assert!(h.contains("uses the ratio rule (the paired rule would need"));
+    assert!(h.contains("not over the paired good set"));
+}
