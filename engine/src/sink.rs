@@ -10,7 +10,9 @@ use crate::error::{Error, Result};
 use crate::panel::Panel;
 use crate::space::{ChoiceSpace, DIMENSIONS};
 use crate::sweep::SpecResult;
-use arrow_array::{ArrayRef, Float64Array, Int32Array, Int64Array, RecordBatch, StringArray};
+use arrow_array::{
+    ArrayRef, BooleanArray, Float64Array, Int32Array, Int64Array, RecordBatch, StringArray,
+};
 use arrow_schema::{DataType, Field, Schema};
 use parquet::arrow::ArrowWriter;
 use parquet::basic::Compression;
@@ -401,5 +403,71 @@ impl<'a> ParquetSink<'a> {
             Arc::new(Int32Array::from(rep)),
         ];
         RecordBatch::try_new(Arc::new(schema), cols).map_err(|e| self.batch_err(e))
+    }
+}
+
+/// Columns of one Parquet table, built by name and type, then written atomically as
+/// `DIR/NAME.parquet` (the report's and the curves' tables).
+#[derive(Default)]
+pub struct Cols {
+    fields: Vec<Field>,
+    cols: Vec<ArrayRef>,
+}
+
+impl Cols {
+    pub fn s<I: IntoIterator<Item = S>, S: AsRef<str>>(mut self, name: &str, v: I) -> Self {
+        let a: Vec<String> = v.into_iter().map(|x| x.as_ref().to_string()).collect();
+        self.fields.push(Field::new(name, DataType::Utf8, false));
+        self.cols.push(Arc::new(StringArray::from(a)));
+        self
+    }
+    /// A nullable text column.
+    pub fn os<I: IntoIterator<Item = Option<String>>>(mut self, name: &str, v: I) -> Self {
+        let a: Vec<Option<String>> = v.into_iter().collect();
+        self.fields.push(Field::new(name, DataType::Utf8, true));
+        self.cols.push(Arc::new(StringArray::from(a)));
+        self
+    }
+    pub fn f<I: IntoIterator<Item = f64>>(mut self, name: &str, v: I) -> Self {
+        self.fields.push(Field::new(name, DataType::Float64, false));
+        self.cols.push(Arc::new(Float64Array::from_iter_values(v)));
+        self
+    }
+    pub fn i<I: IntoIterator<Item = i64>>(mut self, name: &str, v: I) -> Self {
+        self.fields.push(Field::new(name, DataType::Int64, false));
+        self.cols.push(Arc::new(Int64Array::from_iter_values(v)));
+        self
+    }
+    pub fn b<I: IntoIterator<Item = bool>>(mut self, name: &str, v: I) -> Self {
+        let a: Vec<bool> = v.into_iter().collect();
+        self.fields.push(Field::new(name, DataType::Boolean, false));
+        self.cols.push(Arc::new(BooleanArray::from(a)));
+        self
+    }
+    /// n, min, q1, median, q3, max of a spread, prefixed.
+    pub fn spread<'a, I: IntoIterator<Item = &'a crate::report::model::Spread> + Clone>(
+        self,
+        prefix: &str,
+        v: I,
+    ) -> Self {
+        let p = |s: &str| format!("{prefix}_{s}");
+        self.i("n", v.clone().into_iter().map(|s| s.n as i64))
+            .f(&p("min"), v.clone().into_iter().map(|s| s.min))
+            .f(&p("q1"), v.clone().into_iter().map(|s| s.q1))
+            .f(&p("median"), v.clone().into_iter().map(|s| s.median))
+            .f(&p("q3"), v.clone().into_iter().map(|s| s.q3))
+            .f(&p("max"), v.into_iter().map(|s| s.max))
+    }
+    pub fn write(self, dir: &Path, name: &str) -> Result<PathBuf> {
+        let file = format!("{name}.parquet");
+        let batch =
+            RecordBatch::try_new(Arc::new(Schema::new(self.fields)), self.cols).map_err(|e| {
+                Error::Write {
+                    path: dir.join(&file),
+                    msg: e.to_string(),
+                }
+            })?;
+        write_parquet_atomic(dir, &file, &batch)?;
+        Ok(dir.join(file))
     }
 }

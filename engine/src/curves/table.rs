@@ -14,57 +14,10 @@
 use super::compute::Output;
 use crate::error::{Error, Result};
 use crate::panel::Panel;
-use arrow_array::{ArrayRef, BooleanArray, Float64Array, Int64Array, RecordBatch, StringArray};
-use arrow_schema::{DataType, Field, Schema};
+use crate::sink::Cols;
 use std::path::{Path, PathBuf};
-use std::sync::Arc;
 
 pub const CURVES_DIR: &str = "curves";
-
-#[derive(Default)]
-struct Cols {
-    fields: Vec<Field>,
-    cols: Vec<ArrayRef>,
-}
-
-impl Cols {
-    fn s(mut self, name: &str, v: Vec<String>) -> Self {
-        self.fields.push(Field::new(name, DataType::Utf8, false));
-        self.cols.push(Arc::new(StringArray::from(v)));
-        self
-    }
-    fn os(mut self, name: &str, v: Vec<Option<String>>) -> Self {
-        self.fields.push(Field::new(name, DataType::Utf8, true));
-        self.cols.push(Arc::new(StringArray::from(v)));
-        self
-    }
-    fn f(mut self, name: &str, v: Vec<f64>) -> Self {
-        self.fields.push(Field::new(name, DataType::Float64, false));
-        self.cols.push(Arc::new(Float64Array::from(v)));
-        self
-    }
-    fn i(mut self, name: &str, v: Vec<i64>) -> Self {
-        self.fields.push(Field::new(name, DataType::Int64, false));
-        self.cols.push(Arc::new(Int64Array::from(v)));
-        self
-    }
-    fn b(mut self, name: &str, v: Vec<bool>) -> Self {
-        self.fields.push(Field::new(name, DataType::Boolean, false));
-        self.cols.push(Arc::new(BooleanArray::from(v)));
-        self
-    }
-    fn write(self, dir: &Path, name: &str) -> Result<()> {
-        let file = format!("{name}.parquet");
-        let batch =
-            RecordBatch::try_new(Arc::new(Schema::new(self.fields)), self.cols).map_err(|e| {
-                Error::Write {
-                    path: dir.join(&file),
-                    msg: e.to_string(),
-                }
-            })?;
-        crate::sink::write_parquet_atomic(dir, &file, &batch)
-    }
-}
 
 fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Path) -> Result<()> {
     let ind = |c: usize| panel.indicators[c].clone();
@@ -126,28 +79,16 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
     };
     let cs = &o.curves;
     Cols::default()
-        .s("spec_id", cs.iter().map(|c| ids[c.spec].clone()).collect())
-        .s("indicator", cs.iter().map(|c| ind(c.indicator)).collect())
-        .s(
-            "direction",
-            cs.iter().map(|c| c.direction.to_string()).collect(),
-        )
-        .f(
-            "breakpoint",
-            cs.iter().map(|c| h(c, |x| x.breakpoint)).collect(),
-        )
-        .f("breakpoint_lo", cs.iter().map(|c| c.interval.0).collect())
-        .f("breakpoint_hi", cs.iter().map(|c| c.interval.1).collect())
-        .i("draws", cs.iter().map(|c| c.interval.2 as i64).collect())
-        .f(
-            "slope_left",
-            cs.iter().map(|c| h(c, |x| x.slope_left)).collect(),
-        )
-        .f(
-            "slope_right",
-            cs.iter().map(|c| h(c, |x| x.slope_right)).collect(),
-        )
-        .f("sse", cs.iter().map(|c| h(c, |x| x.sse)).collect())
+        .s("spec_id", cs.iter().map(|c| ids[c.spec].clone()))
+        .s("indicator", cs.iter().map(|c| ind(c.indicator)))
+        .s("direction", cs.iter().map(|c| c.direction.to_string()))
+        .f("breakpoint", cs.iter().map(|c| h(c, |x| x.breakpoint)))
+        .f("breakpoint_lo", cs.iter().map(|c| c.interval.0))
+        .f("breakpoint_hi", cs.iter().map(|c| c.interval.1))
+        .i("draws", cs.iter().map(|c| c.interval.2 as i64))
+        .f("slope_left", cs.iter().map(|c| h(c, |x| x.slope_left)))
+        .f("slope_right", cs.iter().map(|c| h(c, |x| x.slope_right)))
+        .f("sse", cs.iter().map(|c| h(c, |x| x.sse)))
         .f("flat_tolerance", vec![o.tol; cs.len()])
         .write(dir, "breakpoints")?;
     // bands and signs
@@ -178,17 +119,16 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .write(dir, "bands")?;
     let bs = &o.bands;
     Cols::default()
-        .s("indicator", bs.iter().map(|b| ind(b.0)).collect())
+        .s("indicator", bs.iter().map(|b| ind(b.0)))
         .i(
             "members",
             bs.iter()
-                .map(|b| cs.iter().filter(|s| s.indicator == b.0).count() as i64)
-                .collect(),
+                .map(|b| cs.iter().filter(|s| s.indicator == b.0).count() as i64),
         )
-        .f("rises", bs.iter().map(|b| b.2.rises).collect())
-        .f("falls", bs.iter().map(|b| b.2.falls).collect())
-        .f("flat", bs.iter().map(|b| b.2.flat).collect())
-        .f("turns", bs.iter().map(|b| b.2.turns).collect())
+        .f("rises", bs.iter().map(|b| b.2.rises))
+        .f("falls", bs.iter().map(|b| b.2.falls))
+        .f("flat", bs.iter().map(|b| b.2.flat))
+        .f("turns", bs.iter().map(|b| b.2.turns))
         .write(dir, "signs")?;
     // clusters
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());

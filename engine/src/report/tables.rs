@@ -1,13 +1,11 @@
 //! The report's Parquet tables, one per section (`report/NAME.parquet`), each written
 //! atomically with [`crate::sink::write_parquet_atomic`].
 
-use super::model::{Spread, GOOD_DEFINITIONS};
+use super::model::GOOD_DEFINITIONS;
 use super::Built;
-use crate::error::{Error, Result};
-use arrow_array::{ArrayRef, BooleanArray, Float64Array, Int64Array, RecordBatch, StringArray};
-use arrow_schema::{DataType, Field, Schema};
+use crate::error::Result;
+use crate::sink::Cols;
 use std::path::{Path, PathBuf};
-use std::sync::Arc;
 
 /// Table names, in report order.
 pub const REPORT_TABLES: &[&str] = &[
@@ -27,60 +25,6 @@ pub const REPORT_TABLES: &[&str] = &[
     "best_frequency",
     "resamples",
 ];
-
-/// Columns of one table.
-#[derive(Default)]
-struct Cols {
-    fields: Vec<Field>,
-    cols: Vec<ArrayRef>,
-}
-
-impl Cols {
-    fn s<I: IntoIterator<Item = S>, S: AsRef<str>>(mut self, name: &str, v: I) -> Self {
-        let a: Vec<String> = v.into_iter().map(|x| x.as_ref().to_string()).collect();
-        self.fields.push(Field::new(name, DataType::Utf8, false));
-        self.cols.push(Arc::new(StringArray::from(a)));
-        self
-    }
-    fn f<I: IntoIterator<Item = f64>>(mut self, name: &str, v: I) -> Self {
-        self.fields.push(Field::new(name, DataType::Float64, false));
-        self.cols.push(Arc::new(Float64Array::from_iter_values(v)));
-        self
-    }
-    fn i<I: IntoIterator<Item = i64>>(mut self, name: &str, v: I) -> Self {
-        self.fields.push(Field::new(name, DataType::Int64, false));
-        self.cols.push(Arc::new(Int64Array::from_iter_values(v)));
-        self
-    }
-    fn b<I: IntoIterator<Item = bool>>(mut self, name: &str, v: I) -> Self {
-        let a: Vec<bool> = v.into_iter().collect();
-        self.fields.push(Field::new(name, DataType::Boolean, false));
-        self.cols.push(Arc::new(BooleanArray::from(a)));
-        self
-    }
-    /// n, min, q1, median, q3, max of a spread, prefixed.
-    fn spread<'a, I: IntoIterator<Item = &'a Spread> + Clone>(self, prefix: &str, v: I) -> Self {
-        let p = |s: &str| format!("{prefix}_{s}");
-        self.i("n", v.clone().into_iter().map(|s| s.n as i64))
-            .f(&p("min"), v.clone().into_iter().map(|s| s.min))
-            .f(&p("q1"), v.clone().into_iter().map(|s| s.q1))
-            .f(&p("median"), v.clone().into_iter().map(|s| s.median))
-            .f(&p("q3"), v.clone().into_iter().map(|s| s.q3))
-            .f(&p("max"), v.into_iter().map(|s| s.max))
-    }
-    fn write(self, dir: &Path, name: &str) -> Result<PathBuf> {
-        let file = format!("{name}.parquet");
-        let batch =
-            RecordBatch::try_new(Arc::new(Schema::new(self.fields)), self.cols).map_err(|e| {
-                Error::Write {
-                    path: dir.join(&file),
-                    msg: e.to_string(),
-                }
-            })?;
-        crate::sink::write_parquet_atomic(dir, &file, &batch)?;
-        Ok(dir.join(file))
-    }
-}
 
 /// Write every table of `built` into `dir`.
 pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
