@@ -14,6 +14,7 @@ mod leak;
 mod numbers;
 mod pools;
 mod reference;
+mod reference_ensembles;
 mod report;
 mod resume;
 mod selection;
