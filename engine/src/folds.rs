@@ -25,13 +25,7 @@ pub struct FoldPlan {
     pub k: usize,
 }
 
-/// Mix a run seed with a stream number (SplitMix64 finaliser).
-pub fn mix(seed: u64, stream: u64) -> u64 {
-    let mut z = seed ^ stream.wrapping_mul(0x9E37_79B9_7F4A_7C15);
-    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-    z ^ (z >> 31)
-}
+pub use crate::streams::mix;
 
 impl FoldPlan {
     pub fn new(panel: &Panel, cfg: &FoldsSection, seed: u64) -> Result<FoldPlan> {
@@ -61,7 +55,10 @@ impl FoldPlan {
             // fold_of[unit]
             let mut order: Vec<usize> = (0..nu).collect();
             if cfg.scheme == FoldScheme::GroupedKfold {
-                let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(mix(seed, 0xF01D + r as u64));
+                let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(mix(
+                    seed,
+                    crate::streams::FOLD_SHUFFLE + r as u64,
+                ));
                 order.shuffle(&mut rng);
             }
             let mut fold_of = vec![0usize; nu];

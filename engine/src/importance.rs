@@ -34,23 +34,22 @@
 //! the spec keeps its status and metrics but gets no importance rows, and a note in the
 //! `notes` column of `specs` says which fold and indicator; the run summary counts them.
 
-use crate::folds::mix;
 use crate::models::Predictor;
 use crate::panel::Panel;
 use crate::space::Spec;
 use crate::stages::fill::FLAG_SUFFIX;
+use crate::stages::predict_chain;
 use crate::stages::Fitted;
-use crate::sweep::predict_chain;
+use crate::streams::mix;
 use crate::transform::Target;
 use ndarray::{Array1, Array2, ArrayView2, Axis};
 use rand::seq::SliceRandom;
 use rand::SeedableRng;
-use serde::{Deserialize, Serialize};
 use std::collections::{BTreeMap, HashMap};
 use std::sync::{Arc, Mutex, OnceLock};
 
-/// Stream of the permutation draws (mixed with the run's seed; the same for every spec).
-const DRAW_STREAM: u64 = 0x5045_524d_5554_4531;
+// Stream of the permutation draws (mixed with the run's seed; the same for every spec).
+use crate::streams::PERMUTATION_DRAWS as DRAW_STREAM;
 
 /// Most bytes of filled permuted rows kept under one fill, over all its folds (the
 /// default of `Sweep::draws_budget`).
@@ -151,64 +150,7 @@ impl Draws {
     }
 }
 
-/// `[importance]` settings.
-#[derive(Debug, Clone, Serialize, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub struct ImportanceSection {
-    /// Permutation draws per indicator and fold (0 turns the permutation kinds off).
-    #[serde(default = "default_repeats")]
-    pub repeats: usize,
-    /// Which kinds: `permutation`, `group`, `native`.
-    #[serde(default = "default_kinds")]
-    pub kinds: Vec<String>,
-    /// When set, the permutation kinds run only for specs whose skill is within this much
-    /// of the best spec's (a second pass after the sweep); native kinds still run for all.
-    pub within: Option<f64>,
-}
-
-fn default_repeats() -> usize {
-    3
-}
-fn default_kinds() -> Vec<String> {
-    vec!["permutation".into(), "group".into(), "native".into()]
-}
-
-impl Default for ImportanceSection {
-    fn default() -> Self {
-        ImportanceSection {
-            repeats: default_repeats(),
-            kinds: default_kinds(),
-            within: None,
-        }
-    }
-}
-
-pub const KINDS: &[&str] = &["permutation", "group", "native"];
-
-impl ImportanceSection {
-    /// The same settings restricted to the given kinds.
-    pub fn only(&self, kinds: &[&str]) -> ImportanceSection {
-        ImportanceSection {
-            repeats: self.repeats,
-            kinds: self
-                .kinds
-                .iter()
-                .filter(|k| kinds.contains(&k.as_str()))
-                .cloned()
-                .collect(),
-            within: None,
-        }
-    }
-
-    /// True when the permutation kinds wait for a second pass over the best specs.
-    pub fn deferred(&self) -> bool {
-        self.within.is_some() && (self.wants("permutation") || self.wants("group"))
-    }
-
-    pub fn wants(&self, kind: &str) -> bool {
-        self.kinds.iter().any(|k| k == kind) && (kind == "native" || self.repeats > 0)
-    }
-}
+pub use crate::config::importance::{ImportanceSection, KINDS};
 
 /// One row of the importance table.
 #[derive(Debug, Clone, PartialEq)]

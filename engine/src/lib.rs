@@ -7,6 +7,7 @@
 
 pub mod config;
 pub mod curves;
+pub mod decl;
 pub mod error;
 pub mod folds;
 pub mod gather;
@@ -26,6 +27,7 @@ pub mod sink;
 pub mod space;
 pub mod stages;
 pub mod starter;
+pub mod streams;
 pub mod sweep;
 pub mod transform;
 pub mod weights;

@@ -18,6 +18,31 @@ pub fn mae(obs: &[f64], pred: &[f64]) -> f64 {
         / obs.len() as f64
 }
 
+/// Median of a non-empty slice (mean of the two middle values when even).
+pub fn median(v: &mut [f64]) -> f64 {
+    v.sort_by(f64::total_cmp);
+    let n = v.len();
+    if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        0.5 * (v[n / 2 - 1] + v[n / 2])
+    }
+}
+
+/// Quantile with linear interpolation between order statistics (numpy's default
+/// "linear" method).
+pub fn quantile(v: &[f64], q: f64) -> f64 {
+    let mut s = v.to_vec();
+    s.sort_by(f64::total_cmp);
+    if s.is_empty() {
+        return f64::NAN;
+    }
+    let h = (s.len() - 1) as f64 * q;
+    let lo = h.floor() as usize;
+    let hi = h.ceil() as usize;
+    s[lo] + (h - lo as f64) * (s[hi] - s[lo])
+}
+
 /// The baseline prediction from a fold's training outcomes: their median (the mean of the
 /// two middle values for an even count; numpy's `median`). NaN when there are none.
 pub fn baseline(y_train: &[f64]) -> f64 {
@@ -25,7 +50,7 @@ pub fn baseline(y_train: &[f64]) -> f64 {
         return f64::NAN;
     }
     let mut v = y_train.to_vec();
-    crate::stages::fill::median(&mut v)
+    median(&mut v)
 }
 
 /// Root mean squared error.
@@ -98,7 +123,7 @@ pub fn spearman(a: &[f64], b: &[f64]) -> f64 {
 /// observed outcomes (numpy's linear quantile): the high-outcome units that upweighting
 /// is meant to help.
 pub fn top_quartile_mae(obs: &[f64], pred: &[f64]) -> f64 {
-    let cut = crate::weights::quantile(obs, 0.75);
+    let cut = quantile(obs, 0.75);
     let (mut s, mut n) = (0.0, 0usize);
     for (o, p) in obs.iter().zip(pred) {
         if *o >= cut {

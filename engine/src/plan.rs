@@ -179,8 +179,10 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
         let m = (n / 50).clamp(30, 200).min(n);
         let mut subset: Vec<usize> = {
             use rand::SeedableRng;
-            let mut rng =
-                rand_chacha::ChaCha8Rng::seed_from_u64(crate::folds::mix(p.cfg.seed, 0x0091_20BE));
+            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(crate::streams::mix(
+                p.cfg.seed,
+                crate::streams::PLAN_TIMING,
+            ));
             rand::seq::index::sample(&mut rng, n, m).into_vec()
         };
         subset.sort_unstable();

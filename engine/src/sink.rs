@@ -444,20 +444,6 @@ impl Cols {
         self.cols.push(Arc::new(BooleanArray::from(a)));
         self
     }
-    /// n, min, q1, median, q3, max of a spread, prefixed.
-    pub fn spread<'a, I: IntoIterator<Item = &'a crate::report::model::Spread> + Clone>(
-        self,
-        prefix: &str,
-        v: I,
-    ) -> Self {
-        let p = |s: &str| format!("{prefix}_{s}");
-        self.i("n", v.clone().into_iter().map(|s| s.n as i64))
-            .f(&p("min"), v.clone().into_iter().map(|s| s.min))
-            .f(&p("q1"), v.clone().into_iter().map(|s| s.q1))
-            .f(&p("median"), v.clone().into_iter().map(|s| s.median))
-            .f(&p("q3"), v.clone().into_iter().map(|s| s.q3))
-            .f(&p("max"), v.into_iter().map(|s| s.max))
-    }
     pub fn write(self, dir: &Path, name: &str) -> Result<PathBuf> {
         let file = format!("{name}.parquet");
         let batch =

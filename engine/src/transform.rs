@@ -28,7 +28,7 @@
 //! Each transform also gives its slope h'(y), with which `invvar` weighting carries a
 //! standard error to the fitted scale by the delta method (se_z = se_y |h'(y)|).
 
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use std::sync::Arc;
 
 /// The back-transform's parameter: 0 the plain inverse (a conditional median), 1 Duan's

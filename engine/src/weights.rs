@@ -14,7 +14,8 @@
 //!   `log1p`: se_y / (1 + y); `logit`: se_y / (s p (1 - p)) with p = y / s clamped as the
 //!   transform clamps it and s the outcome's full scale, 1 or 100; `identity`: se_y).
 
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
+pub use crate::metrics::quantile;
 use ndarray::Array1;
 use std::collections::HashMap;
 
@@ -92,20 +93,6 @@ pub struct WeightInput<'a> {
     /// The outcome transform the model is fitted under (its slope carries `se` to the
     /// fitted scale); `None` for the identity.
     pub target: Option<&'a dyn crate::transform::Target>,
-}
-
-/// Quantile with linear interpolation between order statistics (numpy's default
-/// "linear" method).
-pub fn quantile(v: &[f64], q: f64) -> f64 {
-    let mut s = v.to_vec();
-    s.sort_by(f64::total_cmp);
-    if s.is_empty() {
-        return f64::NAN;
-    }
-    let h = (s.len() - 1) as f64 * q;
-    let lo = h.floor() as usize;
-    let hi = h.ceil() as usize;
-    s[lo] + (h - lo as f64) * (s[hi] - s[lo])
 }
 
 /// Weights of the training rows under a weighting choice.

@@ -17,8 +17,8 @@
 
 use super::linear::{centre, Centred, Linear};
 use super::{Family, FitInput, Predictor, Regressor};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
 use std::sync::Arc;
 

@@ -6,8 +6,8 @@
 use super::forest::{tried_count, Ensemble, TREES};
 use super::tree::{Candidates, Grower, Presorted, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use rand::SeedableRng;
 use std::sync::Arc;
 

@@ -9,8 +9,8 @@
 
 use super::tree::{Candidates, Grower, Presorted, Tree, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use ndarray::{Array1, ArrayView2};
 use rand::{Rng, SeedableRng};
 use std::sync::Arc;

@@ -3,8 +3,8 @@
 //! weights this is scikit-learn's KNeighborsRegressor(weights="uniform").
 
 use super::{int_param, Family, FitInput, Predictor, Regressor};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use ndarray::{Array1, Array2, ArrayView2};
 use std::sync::Arc;
 

@@ -9,8 +9,8 @@
 //! objective, with `sample_weight`), solved from the normal equations by Cholesky.
 
 use super::{Family, FitInput, Predictor, Regressor};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use linfa_linalg::cholesky::SolveC;
 use linfa_linalg::qr::QRInto;
 use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};

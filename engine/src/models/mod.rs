@@ -13,8 +13,8 @@ pub mod linear;
 pub mod pls;
 pub mod tree;
 
+use crate::decl::{Choice, OptionDecl};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl};
 use ndarray::{Array1, ArrayView1, ArrayView2};
 use std::sync::Arc;
 

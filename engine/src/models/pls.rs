@@ -3,8 +3,8 @@
 //! weighting but `rows` automatically.
 
 use super::{int_param, Family, FitInput, Predictor, Regressor};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use linfa::prelude::*;
 use linfa_pls::PlsRegression;
 use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};

@@ -20,7 +20,7 @@ pub mod html;
 pub mod influence;
 pub mod model;
 pub mod plots;
-pub mod settings;
+pub use crate::config::map as settings;
 pub mod stability;
 pub mod stats;
 pub mod tables;

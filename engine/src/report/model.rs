@@ -7,8 +7,7 @@
 //! Errors are "lower is better" (the report's metric is an error: mae, rmse or unit_mae).
 //! Ranks are 1 = most important. Shares are in [0, 1].
 
-/// Names of the three good-set definitions, in report order.
-pub const GOOD_DEFINITIONS: [&str; 3] = ["ratio", "margin", "paired"];
+pub use crate::config::map::GOOD_DEFINITIONS;
 
 /// The whole report.
 #[derive(Debug, Clone, Default)]

@@ -8,7 +8,7 @@
 //! the percentile intervals against `numpy.percentile` on the same resample indices.
 
 use super::model::Spread;
-use crate::folds::mix;
+use crate::streams::mix;
 use rand::{Rng, SeedableRng};
 
 /// Quantile with linear interpolation between order statistics (numpy's default
@@ -272,8 +272,8 @@ fn inverse_kept(gram: &[f64], p: usize, idx: &[usize]) -> (Vec<usize>, Vec<f64>)
     (kept.iter().map(|&i| idx[i]).collect(), inv)
 }
 
-/// Stream of the report's unit bootstrap (mixed with the report seed).
-const RESAMPLE_STREAM: u64 = 0x4d41_505f_424f_4f54;
+// Stream of the report's unit bootstrap (mixed with the report seed).
+use crate::streams::REPORT_RESAMPLES as RESAMPLE_STREAM;
 
 /// `b` resamples of `n` units drawn with replacement: `b * n` unit indices, resample-major.
 /// A pure function of (n, b, seed).

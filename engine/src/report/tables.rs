@@ -1,11 +1,29 @@
 //! The report's Parquet tables, one per section (`report/NAME.parquet`), each written
 //! atomically with [`crate::sink::write_parquet_atomic`].
 
-use super::model::GOOD_DEFINITIONS;
+use super::model::{Spread, GOOD_DEFINITIONS};
 use super::Built;
 use crate::error::Result;
 use crate::sink::Cols;
 use std::path::{Path, PathBuf};
+
+/// Columns of a [`Spread`]: n, min, q1, median, q3, max, prefixed (a report-side addition
+/// to the store's column builder, which knows nothing of the report's types).
+trait SpreadCols {
+    fn spread<'a, I: IntoIterator<Item = &'a Spread> + Clone>(self, prefix: &str, v: I) -> Self;
+}
+
+impl SpreadCols for Cols {
+    fn spread<'a, I: IntoIterator<Item = &'a Spread> + Clone>(self, prefix: &str, v: I) -> Self {
+        let p = |s: &str| format!("{prefix}_{s}");
+        self.i("n", v.clone().into_iter().map(|s| s.n as i64))
+            .f(&p("min"), v.clone().into_iter().map(|s| s.min))
+            .f(&p("q1"), v.clone().into_iter().map(|s| s.q1))
+            .f(&p("median"), v.clone().into_iter().map(|s| s.median))
+            .f(&p("q3"), v.clone().into_iter().map(|s| s.q3))
+            .f(&p("max"), v.into_iter().map(|s| s.max))
+    }
+}
 
 /// Table names, in report order.
 pub const REPORT_TABLES: &[&str] = &[

@@ -9,8 +9,8 @@
 //! makes components (and so results) reproducible.
 
 use super::{Fitted, Stage, StageInput};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use linfa_linalg::eigh::{EigSort, Eigh};
 use ndarray::{Array1, Array2, ArrayView2, Axis};
 use std::sync::Arc;

@@ -15,8 +15,8 @@ pub mod nmf;
 pub mod pool;
 pub mod scale;
 
+use crate::decl::Choice;
 use crate::error::FitError;
-use crate::space::Choice;
 use ndarray::{Array2, ArrayView1, ArrayView2};
 use std::sync::Arc;
 
@@ -74,4 +74,19 @@ pub fn build(choice: &Choice, panel: &crate::panel::Panel) -> Result<Arc<dyn Sta
 /// Column statistics over non-missing values (NaN skipped).
 pub(crate) fn present(col: ArrayView1<f64>) -> Vec<f64> {
     col.iter().copied().filter(|v| !v.is_nan()).collect()
+}
+
+/// Predict raw indicator rows through a fitted chain, a model and the back-transform.
+pub fn predict_chain(
+    chain: &[Arc<dyn Fitted>],
+    model: &dyn crate::models::Predictor,
+    target: &dyn crate::transform::Target,
+    x: ndarray::ArrayView2<f64>,
+    rows: Option<&[usize]>,
+) -> ndarray::Array1<f64> {
+    let mut cur = x.to_owned();
+    for st in chain {
+        cur = st.apply_rows(cur.view(), rows);
+    }
+    model.predict(cur.view()).mapv(|z| target.inverse(z))
 }

@@ -18,9 +18,9 @@
 //!   in panel column order; with k at least the number of indicators, all are kept.
 
 use super::{Fitted, Stage, StageInput};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
 use crate::panel::Panel;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use ndarray::{Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
 use std::sync::Arc;
 

@@ -3,8 +3,8 @@
 //! A column constant on the training rows maps to 0 (it carries no information there).
 
 use super::{Fitted, Stage, StageInput};
+use crate::decl::{Choice, OptionDecl};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl};
 use ndarray::{Array2, ArrayView2, Axis};
 use std::sync::Arc;
 

@@ -21,12 +21,13 @@
 //!   column of `specs`.
 
 use crate::error::{Error, FitError, Result};
-use crate::folds::{mix, FoldPlan};
+use crate::folds::FoldPlan;
 use crate::metrics::Scores;
 use crate::models::{FitInput, Predictor, Regressor};
 use crate::panel::Panel;
 use crate::space::{ChoiceSpace, Spec, STAGE_DIMENSIONS};
 use crate::stages::{Fitted, Stage, StageInput};
+use crate::streams::mix;
 use crate::transform::Target;
 use ndarray::{Array1, Array2, Axis};
 use rayon::prelude::*;
@@ -87,20 +88,7 @@ pub struct SpecResult {
 /// A fold's fitted model and its back-transform.
 type FoldFit = (Box<dyn Predictor>, Arc<dyn Target>);
 
-/// Predict raw indicator rows through a fitted chain, a model and the back-transform.
-pub fn predict_chain(
-    chain: &[Arc<dyn Fitted>],
-    model: &dyn Predictor,
-    target: &dyn Target,
-    x: ndarray::ArrayView2<f64>,
-    rows: Option<&[usize]>,
-) -> Array1<f64> {
-    let mut cur = x.to_owned();
-    for st in chain {
-        cur = st.apply_rows(cur.view(), rows);
-    }
-    model.predict(cur.view()).mapv(|z| target.inverse(z))
-}
+pub use crate::stages::predict_chain;
 
 /// Components x indicators loadings of a compression.
 #[derive(Debug, Clone)]

@@ -33,8 +33,8 @@ pub use grower::Grower;
 pub use presort::Presorted;
 
 use super::{int_param, Family, FitInput, Predictor, Regressor};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
 use ndarray::{ArrayView1, ArrayView2};
 use rand::Rng;
 use std::sync::Arc;

@@ -32,8 +32,9 @@
 //! are given, so a column absent in one fold is absent from that fold's chain only.
 
 use super::{present, Fitted, Stage, StageInput};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use crate::space::{Choice, OptionDecl, ParamDecl, ParamKind};
+pub use crate::metrics::median;
 use ndarray::{Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
 use std::sync::Arc;
 
@@ -269,17 +270,6 @@ pub fn build_with(
         flags: c.param("flags").unwrap_or(0.0) >= 1.0,
         waves,
     }))
-}
-
-/// Median of a non-empty slice (mean of the two middle values when even).
-pub fn median(v: &mut [f64]) -> f64 {
-    v.sort_by(f64::total_cmp);
-    let n = v.len();
-    if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
-    }
 }
 
 /// scikit-learn's nan-euclidean distance; None when no coordinate is present in both.

@@ -4,6 +4,9 @@
 //! unknown key is named, with the closest valid key suggested), then deserialised into
 //! typed sections. Paths are resolved relative to the config file's folder.
 
+pub mod importance;
+pub mod map;
+
 use crate::error::{suggest, Error, Result};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -37,11 +40,11 @@ pub struct Config {
     pub sample: Option<SampleSection>,
     /// Which importances every spec reports.
     #[serde(default)]
-    pub importance: crate::importance::ImportanceSection,
+    pub importance: importance::ImportanceSection,
     /// How the report (`forkmap map`) is made. Not part of the run's identity: left out of
     /// the canonical form (the manifest stores it apart, under `map`).
     #[serde(default, skip_serializing)]
-    pub map: crate::report::settings::MapSection,
+    pub map: map::MapSection,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -279,7 +282,7 @@ impl Config {
             ("data", DATA_KEYS),
             ("folds", FOLD_KEYS),
             ("output", OUTPUT_KEYS),
-            ("map", crate::report::settings::MAP_KEYS),
+            ("map", map::MAP_KEYS),
         ] {
             if let Some(v) = table.get(section) {
                 let t = v
@@ -292,7 +295,7 @@ impl Config {
             let t = v
                 .as_table()
                 .ok_or_else(|| err("`choices` must be a table".into()))?;
-            check_keys(t, "choices", crate::space::DIMENSIONS).map_err(&err)?;
+            check_keys(t, "choices", crate::decl::DIMENSIONS).map_err(&err)?;
         }
         if let Some(ex) = table.get("exclude") {
             let list = ex
@@ -302,7 +305,7 @@ impl Config {
                 let t = e
                     .as_table()
                     .ok_or_else(|| err(format!("exclude[{i}] must be a table")))?;
-                check_keys(t, &format!("exclude[{i}]"), crate::space::DIMENSIONS).map_err(&err)?;
+                check_keys(t, &format!("exclude[{i}]"), crate::decl::DIMENSIONS).map_err(&err)?;
             }
         }
         if let Some(claims) = table.get("map").and_then(|m| m.get("claim")) {
@@ -313,12 +316,7 @@ impl Config {
                 let t = c
                     .as_table()
                     .ok_or_else(|| err(format!("map.claim[{i}] must be a table")))?;
-                check_keys(
-                    t,
-                    &format!("map.claim[{i}]"),
-                    crate::report::settings::CLAIM_KEYS,
-                )
-                .map_err(&err)?;
+                check_keys(t, &format!("map.claim[{i}]"), map::CLAIM_KEYS).map_err(&err)?;
             }
         }
         if !table.contains_key("data") {
@@ -334,11 +332,11 @@ impl Config {
             return Err(err("folds.repeats must be at least 1".into()));
         }
         for k in &cfg.importance.kinds {
-            if !crate::importance::KINDS.contains(&k.as_str()) {
+            if !importance::KINDS.contains(&k.as_str()) {
                 return Err(err(format!(
                     "importance.kinds: unknown kind `{k}`{}; kinds: {}",
-                    suggest(k, crate::importance::KINDS.iter().copied()),
-                    crate::importance::KINDS.join(", ")
+                    suggest(k, importance::KINDS.iter().copied()),
+                    importance::KINDS.join(", ")
                 )));
             }
         }

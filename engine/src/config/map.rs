@@ -5,6 +5,9 @@
 
 use serde::{Deserialize, Serialize};
 
+/// Names of the three good-set definitions, in report order.
+pub const GOOD_DEFINITIONS: [&str; 3] = ["ratio", "margin", "paired"];
+
 /// Error metrics the report can rank by: those computable from per-unit errors, so that
 /// units can be resampled.
 pub const METRICS: &[&str] = &["mae", "rmse", "unit_mae"];
@@ -139,7 +142,7 @@ impl MapSection {
                 METRICS.join(", ")
             ));
         }
-        let goods = super::model::GOOD_DEFINITIONS;
+        let goods = GOOD_DEFINITIONS;
         if !goods.contains(&self.good.as_str()) {
             return Err(format!(
                 "map.good = \"{}\"{}: one of {}",

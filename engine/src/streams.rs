@@ -1,0 +1,26 @@
+//! Every random stream of the engine in one place. A stream is a fixed number mixed into
+//! the run seed with [`mix`]; each random step (a fold shuffle, the spec sample, the
+//! permutation draws, the report's unit resamples, ...) draws from its own stream, so
+//! adding a random step never shifts another's draws, and results stay a pure function of
+//! config + data + seed whatever the thread count. The numbers are part of every result:
+//! never change one (the fingerprints test would catch it).
+
+/// Mix a run seed with a stream number (SplitMix64 finaliser).
+pub fn mix(seed: u64, stream: u64) -> u64 {
+    let mut z = seed ^ stream.wrapping_mul(0x9E37_79B9_7F4A_7C15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
+}
+
+/// Grouped K-fold shuffles: repeat `r` draws from `FOLD_SHUFFLE + r`.
+pub const FOLD_SHUFFLE: u64 = 0xF01D;
+/// The seeded sample of the choice space (`[sample]`).
+pub const SPEC_SAMPLE: u64 = 0x5A4D_504C;
+/// The specs `plan` times to estimate the run's cost.
+pub const PLAN_TIMING: u64 = 0x0091_20BE;
+/// Permutation-importance draws (shared by every spec: they depend on the seed, the fold,
+/// the indicator and the repeat, never on the spec).
+pub const PERMUTATION_DRAWS: u64 = 0x5045_524d_5554_4531;
+/// The report's bootstrap over units.
+pub const REPORT_RESAMPLES: u64 = 0x4d41_505f_424f_4f54;
