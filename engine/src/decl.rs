@@ -58,8 +58,47 @@ pub struct OptionDecl {
     pub name: &'static str,
     pub params: &'static [ParamDecl],
     pub help: &'static str,
-    /// False when the option ignores row weights (plan warns).
+    /// False when the option ignores row weights: it then never runs with a weighting
+    /// other than `rows` (an automatic exclusion) and plan says so.
     pub weighted: bool,
+    /// Options of other dimensions this option never runs with (automatic exclusions,
+    /// listed by `plan` and in the manifest with their reason).
+    pub excludes: &'static [Excludes],
+}
+
+/// An automatic exclusion declared by an option: it never runs with `options` of `dim`.
+#[derive(Debug, Clone, Copy)]
+pub struct Excludes {
+    pub dim: &'static str,
+    pub options: &'static [&'static str],
+    /// Why, in a few words (shown in the rule: "automatic: WHY").
+    pub why: &'static str,
+}
+
+/// An option as its dimension registers it: the declaration and what builds it, in one
+/// entry of the dimension's `OPTIONS` table. `B` is the dimension's builder: a stage
+/// builder for pool, fill, scale and compress, a [`crate::transform`] pair for the
+/// transform, a weight function for the weighting (the model dimension's entry is
+/// `models::Family`, which adds a cost function). Adding an option is one entry in its
+/// dimension's table plus the code it builds; nothing else dispatches on its name.
+#[derive(Debug, Clone, Copy)]
+pub struct Registered<B: 'static> {
+    pub decl: OptionDecl,
+    pub build: B,
+}
+
+/// The builder of `option` in a dimension's table; the error names the dimension.
+pub fn lookup<'a, B>(table: &'a [Registered<B>], dim: &str, option: &str) -> Result<&'a B, String> {
+    table
+        .iter()
+        .find(|r| r.decl.name == option)
+        .map(|r| &r.build)
+        .ok_or_else(|| format!("unknown {dim} `{option}`"))
+}
+
+/// The declarations of a dimension's table.
+pub fn decls<B>(table: &[Registered<B>]) -> Vec<OptionDecl> {
+    table.iter().map(|r| r.decl).collect()
 }
 
 /// One option of one dimension with concrete parameter values.

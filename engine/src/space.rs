@@ -19,13 +19,13 @@ pub use crate::decl::{
 /// Declared options of a dimension (pools are built from the config and codebook).
 pub fn options_of(dim: &str) -> Vec<OptionDecl> {
     match dim {
-        "transform" => crate::transform::OPTIONS.to_vec(),
-        "fill" => crate::stages::fill::OPTIONS.to_vec(),
-        "scale" => crate::stages::scale::OPTIONS.to_vec(),
-        "compress" => crate::stages::compress::OPTIONS.to_vec(),
+        "transform" => crate::decl::decls(crate::transform::OPTIONS),
+        "fill" => crate::decl::decls(crate::stages::fill::OPTIONS),
+        "scale" => crate::decl::decls(crate::stages::scale::OPTIONS),
+        "compress" => crate::decl::decls(crate::stages::compress::OPTIONS),
         "model" => crate::models::registry().iter().map(|f| f.decl).collect(),
-        "weighting" => crate::weights::OPTIONS.to_vec(),
-        "pool" => crate::stages::pool::OPTIONS.to_vec(),
+        "weighting" => crate::decl::decls(crate::weights::OPTIONS),
+        "pool" => crate::decl::decls(crate::stages::pool::OPTIONS),
         _ => Vec::new(),
     }
 }
@@ -204,8 +204,11 @@ fn pool_options(cfg: &Config, panel: &Panel, listed: &[String]) -> Result<Vec<Ch
         }
     }
     for opt in listed {
-        if let Some(decl) = crate::stages::pool::OPTIONS.iter().find(|d| d.name == opt) {
-            out.extend(expand(cfg, "pool", decl)?);
+        if let Some(r) = crate::stages::pool::OPTIONS
+            .iter()
+            .find(|r| r.decl.name == opt)
+        {
+            out.extend(expand(cfg, "pool", &r.decl)?);
         } else if opt == "all" {
             out.push(pool_choice(
                 "all",
@@ -397,16 +400,38 @@ impl ChoiceSpace {
             }
             rules.push(parts.join(" and "));
         }
-        // Automatic: NMF needs non-negative input, which standardising never gives.
-        let si = DIMENSIONS.iter().position(|d| *d == "scale").unwrap_or(0);
-        let ci = DIMENSIONS
-            .iter()
-            .position(|d| *d == "compress")
-            .unwrap_or(0);
-        let auto_nmf = options[ci].iter().any(|c| c.option == "nmf")
-            && options[si].iter().any(|c| c.option == "standardise");
-        if auto_nmf {
-            rules.push("compress in [nmf] and scale in [standardise] (automatic: NMF needs non-negative input)".into());
+        // Automatic exclusions declared by the chosen options (e.g. NMF never runs after
+        // standardising, which gives negative input).
+        let mut declared: Vec<(usize, &'static str, usize, &'static [&'static str])> = Vec::new();
+        for (di, dim) in DIMENSIONS.iter().enumerate() {
+            for decl in options_of(dim) {
+                if !options[di].iter().any(|c| c.option == decl.name) {
+                    continue;
+                }
+                for e in decl.excludes {
+                    let Some(ti) = DIMENSIONS.iter().position(|d| *d == e.dim) else {
+                        continue;
+                    };
+                    let mut hit: Vec<&str> = Vec::new();
+                    for c in &options[ti] {
+                        if e.options.contains(&c.option.as_str())
+                            && !hit.contains(&c.option.as_str())
+                        {
+                            hit.push(&c.option);
+                        }
+                    }
+                    if !hit.is_empty() {
+                        rules.push(format!(
+                            "{dim} in [{}] and {} in [{}] (automatic: {})",
+                            decl.name,
+                            e.dim,
+                            hit.join(", "),
+                            e.why
+                        ));
+                        declared.push((di, decl.name, ti, e.options));
+                    }
+                }
+            }
         }
         // Automatic: families that take no row weights run only with `rows` weighting.
         let mi = DIMENSIONS.iter().position(|d| *d == "model").unwrap_or(0);
@@ -432,7 +457,9 @@ impl ChoiceSpace {
         }
         let matches = |choices: &[Choice]| {
             (unweighted.contains(&choices[mi].option.as_str()) && choices[wi].option != "rows")
-                || (choices[ci].option == "nmf" && choices[si].option == "standardise")
+                || declared.iter().any(|(di, name, ti, opts)| {
+                    choices[*di].option == *name && opts.contains(&choices[*ti].option.as_str())
+                })
                 || cfg.exclude.iter().any(|rule| {
                     rule.iter().all(|(dim, names)| {
                         let di = DIMENSIONS.iter().position(|d| d == dim).unwrap_or(0);
@@ -471,8 +498,8 @@ impl ChoiceSpace {
         // NMF without scaling needs non-negative indicators in its pool.
         let mut checked: BTreeSet<String> = BTreeSet::new();
         for s in &specs {
-            if s.choices[ci].option == "nmf"
-                && s.choices[si].option == "none"
+            if s.choice("compress").option == "nmf"
+                && s.choice("scale").option == "none"
                 && checked.insert(s.choice("pool").canonical())
             {
                 let pool = s.choice("pool");

@@ -28,7 +28,7 @@
 //! Each transform also gives its slope h'(y), with which `invvar` weighting carries a
 //! standard error to the fitted scale by the delta method (se_z = se_y |h'(y)|).
 
-use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind, Registered};
 use std::sync::Arc;
 
 /// The back-transform's parameter: 0 the plain inverse (a conditional median), 1 Duan's
@@ -40,36 +40,57 @@ const SMEAR: ParamDecl = ParamDecl {
     help: "back-transform: 0 plain inverse (conditional median), 1 Duan's smearing estimate (conditional mean)",
 };
 
-pub const OPTIONS: &[OptionDecl] = &[
-    OptionDecl {
-        name: "identity",
-        params: &[],
-        help: "the outcome as it is",
-        weighted: true,
+pub const OPTIONS: &[Registered<TransformBuild>] = &[
+    Registered {
+        decl: OptionDecl {
+            name: "identity",
+            params: &[],
+            help: "the outcome as it is",
+            weighted: true,
+            excludes: &[],
+        },
+        build: TransformBuild {
+            target: |_, _| Ok(Arc::new(Identity)),
+            domain: |_, _| Ok(()),
+        },
     },
-    OptionDecl {
-        name: "log1p",
-        params: &[SMEAR],
-        help: "ln(1 + outcome); needs outcome > -1",
-        weighted: true,
+    Registered {
+        decl: OptionDecl {
+            name: "log1p",
+            params: &[SMEAR],
+            help: "ln(1 + outcome); needs outcome > -1",
+            weighted: true,
+            excludes: &[],
+        },
+        build: TransformBuild {
+            target: |_, _| Ok(Arc::new(Log1p)),
+            domain: log1p_domain,
+        },
     },
-    OptionDecl {
-        name: "logit",
-        params: &[
-            ParamDecl {
-                name: "clamp",
-                kind: ParamKind::Real {
-                    min: 0.0,
-                    max: 0.25,
-                    open_min: true,
+    Registered {
+        decl: OptionDecl {
+            name: "logit",
+            params: &[
+                ParamDecl {
+                    name: "clamp",
+                    kind: ParamKind::Real {
+                        min: 0.0,
+                        max: 0.25,
+                        open_min: true,
+                    },
+                    default: 0.001,
+                    help: "proportions are clamped to [clamp, 1 - clamp] before the logit",
                 },
-                default: 0.001,
-                help: "proportions are clamped to [clamp, 1 - clamp] before the logit",
-            },
-            SMEAR,
-        ],
-        help: "logit of a proportion or percent (declare data.outcome_kind)",
-        weighted: true,
+                SMEAR,
+            ],
+            help: "logit of a proportion or percent (declare data.outcome_kind)",
+            weighted: true,
+            excludes: &[],
+        },
+        build: TransformBuild {
+            target: logit_target,
+            domain: logit_domain,
+        },
     },
 ];
 
@@ -171,49 +192,58 @@ pub fn fit_key(c: &Choice) -> String {
     plain.label()
 }
 
+/// Builds a transform's target from its choice and the outcome's full scale.
+pub type TargetBuild = fn(&Choice, Option<f64>) -> Result<Arc<dyn Target>, String>;
+
+/// What builds a transform option: its target (forward, inverse, slope) given the
+/// outcome's full scale (1 or 100, for logit), and the check that every outcome is in its
+/// domain (the message names the row).
+#[derive(Debug, Clone, Copy)]
+pub struct TransformBuild {
+    pub target: TargetBuild,
+    pub domain: fn(&[f64], Option<f64>) -> Result<(), String>,
+}
+
 /// Build a transform. `scale` is the outcome's full scale (1 or 100) for logit.
 pub fn build(c: &Choice, scale: Option<f64>) -> Result<Arc<dyn Target>, String> {
-    match c.option.as_str() {
-        "identity" => Ok(Arc::new(Identity)),
-        "log1p" => Ok(Arc::new(Log1p)),
-        "logit" => {
-            let scale = scale.ok_or(
-                "transform `logit` needs data.outcome_kind = \"proportion\" or \"percent\"",
-            )?;
-            Ok(Arc::new(Logit {
-                clamp: c.param("clamp").unwrap_or(0.001),
-                scale,
-            }))
-        }
-        o => Err(format!("unknown transform `{o}`")),
-    }
+    (crate::decl::lookup(OPTIONS, "transform", &c.option)?.target)(c, scale)
 }
 
 /// Check that every outcome is in the transform's domain; the message names the row.
 pub fn check_domain(option: &str, y: &[f64], scale: Option<f64>) -> Result<(), String> {
-    match option {
-        "log1p" => match y.iter().position(|v| *v <= -1.0) {
-            Some(i) => Err(format!(
-                "transform `log1p` needs outcomes above -1; row {} has {}",
-                i + 1,
-                y[i]
-            )),
-            None => Ok(()),
-        },
-        "logit" => {
-            let s = scale.ok_or(
-                "transform `logit` needs data.outcome_kind = \"proportion\" or \"percent\"",
-            )?;
-            match y.iter().position(|v| *v < 0.0 || *v > s) {
-                Some(i) => Err(format!(
-                    "transform `logit` needs outcomes in [0, {s}] (data.outcome_kind); row {} has {}",
-                    i + 1,
-                    y[i]
-                )),
-                None => Ok(()),
-            }
-        }
-        _ => Ok(()),
+    (crate::decl::lookup(OPTIONS, "transform", option)?.domain)(y, scale)
+}
+
+const LOGIT_SCALE: &str =
+    "transform `logit` needs data.outcome_kind = \"proportion\" or \"percent\"";
+
+fn logit_target(c: &Choice, scale: Option<f64>) -> Result<Arc<dyn Target>, String> {
+    Ok(Arc::new(Logit {
+        clamp: c.param("clamp").unwrap_or(0.001),
+        scale: scale.ok_or(LOGIT_SCALE)?,
+    }))
+}
+
+fn log1p_domain(y: &[f64], _scale: Option<f64>) -> Result<(), String> {
+    match y.iter().position(|v| *v <= -1.0) {
+        Some(i) => Err(format!(
+            "transform `log1p` needs outcomes above -1; row {} has {}",
+            i + 1,
+            y[i]
+        )),
+        None => Ok(()),
+    }
+}
+
+fn logit_domain(y: &[f64], scale: Option<f64>) -> Result<(), String> {
+    let s = scale.ok_or(LOGIT_SCALE)?;
+    match y.iter().position(|v| *v < 0.0 || *v > s) {
+        Some(i) => Err(format!(
+            "transform `logit` needs outcomes in [0, {s}] (data.outcome_kind); row {} has {}",
+            i + 1,
+            y[i]
+        )),
+        None => Ok(()),
     }
 }
 

@@ -14,71 +14,92 @@
 //!   `log1p`: se_y / (1 + y); `logit`: se_y / (s p (1 - p)) with p = y / s clamped as the
 //!   transform clamps it and s the outcome's full scale, 1 or 100; `identity`: se_y).
 
-use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind, Registered};
 pub use crate::metrics::quantile;
 use ndarray::Array1;
 use std::collections::HashMap;
 
-pub const OPTIONS: &[OptionDecl] = &[
-    OptionDecl {
-        name: "rows",
-        params: &[],
-        help: "every row weighs the same",
-        weighted: true,
+pub const OPTIONS: &[Registered<WeightBuild>] = &[
+    Registered {
+        decl: OptionDecl {
+            name: "rows",
+            params: &[],
+            help: "every row weighs the same",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |_, input| Ok(Array1::ones(input.units.len())),
     },
-    OptionDecl {
-        name: "units",
-        params: &[],
-        help: "every unit weighs the same: its rows share one unit of weight",
-        weighted: true,
+    Registered {
+        decl: OptionDecl {
+            name: "units",
+            params: &[],
+            help: "every unit weighs the same: its rows share one unit of weight",
+            weighted: true,
+            excludes: &[],
+        },
+        build: units,
     },
-    OptionDecl {
-        name: "high",
-        params: &[
-            ParamDecl {
-                name: "q",
+    Registered {
+        decl: OptionDecl {
+            name: "high",
+            params: &[
+                ParamDecl {
+                    name: "q",
+                    kind: ParamKind::Real {
+                        min: 0.0,
+                        max: 1.0,
+                        open_min: true,
+                    },
+                    default: 0.75,
+                    help: "training-outcome quantile above which rows are upweighted",
+                },
+                ParamDecl {
+                    name: "factor",
+                    kind: ParamKind::Real {
+                        min: 1.0,
+                        max: 1000.0,
+                        open_min: false,
+                    },
+                    default: 2.0,
+                    help: "weight of rows above the quantile (others 1)",
+                },
+            ],
+            help: "upweight rows whose outcome is above a training quantile",
+            weighted: true,
+            excludes: &[],
+        },
+        build: high,
+    },
+    Registered {
+        decl: OptionDecl {
+            name: "power",
+            params: &[ParamDecl {
+                name: "a",
                 kind: ParamKind::Real {
                     min: 0.0,
-                    max: 1.0,
+                    max: 10.0,
                     open_min: true,
                 },
-                default: 0.75,
-                help: "training-outcome quantile above which rows are upweighted",
-            },
-            ParamDecl {
-                name: "factor",
-                kind: ParamKind::Real {
-                    min: 1.0,
-                    max: 1000.0,
-                    open_min: false,
-                },
-                default: 2.0,
-                help: "weight of rows above the quantile (others 1)",
-            },
-        ],
-        help: "upweight rows whose outcome is above a training quantile",
-        weighted: true,
+                default: 1.0,
+                help: "weight (1 + (outcome - training min) / (training max - training min))^a",
+            }],
+            help: "continuous upweighting of high outcomes",
+            weighted: true,
+            excludes: &[],
+        },
+        build: power,
     },
-    OptionDecl {
-        name: "power",
-        params: &[ParamDecl {
-            name: "a",
-            kind: ParamKind::Real {
-                min: 0.0,
-                max: 10.0,
-                open_min: true,
-            },
-            default: 1.0,
-            help: "weight (1 + (outcome - training min) / (training max - training min))^a",
-        }],
-        help: "continuous upweighting of high outcomes",
-        weighted: true,
-    },
-    OptionDecl {
-        name: "invvar",
-        params: &[],
-        help: "1 / standard error^2 on the fitted scale (delta method; needs data.standard_error)",
-        weighted: true,
+    Registered {
+        decl: OptionDecl {
+            name: "invvar",
+            params: &[],
+            help:
+                "1 / standard error^2 on the fitted scale (delta method; needs data.standard_error)",
+            weighted: true,
+            excludes: &[],
+        },
+        build: invvar,
     },
 ];
 
@@ -95,74 +116,92 @@ pub struct WeightInput<'a> {
     pub target: Option<&'a dyn crate::transform::Target>,
 }
 
-/// Weights of the training rows under a weighting choice.
+/// What computes a weighting option: the raw weights of the training rows (scaled to mean
+/// 1 by [`weights`]).
+pub type WeightBuild = fn(&Choice, &WeightInput) -> Result<Array1<f64>, String>;
+
+/// Weights of the training rows under a weighting choice (mean 1).
 pub fn weights(choice: &Choice, input: &WeightInput) -> Result<Array1<f64>, String> {
     let n = input.units.len();
-    let raw: Array1<f64> = match choice.option.as_str() {
-        "rows" => Array1::ones(n),
-        "units" => {
-            let mut count: HashMap<usize, usize> = HashMap::new();
-            for u in input.units {
-                *count.entry(*u).or_default() += 1;
-            }
-            input.units.iter().map(|u| 1.0 / count[u] as f64).collect()
-        }
-        "high" => {
-            let q = choice.param("q").unwrap_or(0.75);
-            let f = choice.param("factor").unwrap_or(2.0);
-            let cut = quantile(input.y, q);
-            input
-                .y
-                .iter()
-                .map(|&y| if y > cut { f } else { 1.0 })
-                .collect()
-        }
-        "power" => {
-            let a = choice.param("a").unwrap_or(1.0);
-            let lo = input.y.iter().copied().fold(f64::INFINITY, f64::min);
-            let hi = input.y.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            let range = hi - lo;
-            input
-                .y
-                .iter()
-                .map(|&y| {
-                    if range > 0.0 {
-                        (1.0 + (y - lo) / range).powf(a)
-                    } else {
-                        1.0
-                    }
-                })
-                .collect()
-        }
-        "invvar" => {
-            let se = input
-                .se
-                .ok_or("weighting `invvar` needs data.standard_error")?;
-            if se.len() != n || input.y.len() != n {
-                return Err(format!(
-                    "weighting `invvar`: {} standard errors and {} outcomes for {n} rows",
-                    se.len(),
-                    input.y.len()
-                ));
-            }
-            se.iter()
-                .zip(input.y)
-                .map(|(s, &y)| {
-                    let sz = match input.target {
-                        Some(t) => s * t.slope(y).abs(),
-                        None => *s,
-                    };
-                    1.0 / (sz * sz)
-                })
-                .collect()
-        }
-        other => return Err(format!("unknown weighting `{other}`")),
-    };
+    let raw = (crate::decl::lookup(OPTIONS, "weighting", &choice.option)?)(choice, input)?;
     let mean = raw.sum() / n.max(1) as f64;
     if !(mean.is_finite() && mean > 0.0) {
         return Err("weights are not finite and positive".into());
     }
     Ok(raw / mean)
+}
+
+/// Every unit weighs the same: its rows share one unit of weight.
+fn units(_choice: &Choice, input: &WeightInput) -> Result<Array1<f64>, String> {
+    Ok({
+        let mut count: HashMap<usize, usize> = HashMap::new();
+        for u in input.units {
+            *count.entry(*u).or_default() += 1;
+        }
+        input.units.iter().map(|u| 1.0 / count[u] as f64).collect()
+    })
+}
+
+/// Rows above the training-outcome quantile `q` weigh `factor`, others 1.
+fn high(choice: &Choice, input: &WeightInput) -> Result<Array1<f64>, String> {
+    Ok({
+        let q = choice.param("q").unwrap_or(0.75);
+        let f = choice.param("factor").unwrap_or(2.0);
+        let cut = quantile(input.y, q);
+        input
+            .y
+            .iter()
+            .map(|&y| if y > cut { f } else { 1.0 })
+            .collect()
+    })
+}
+
+/// (1 + (y - training min) / (training max - training min))^a.
+fn power(choice: &Choice, input: &WeightInput) -> Result<Array1<f64>, String> {
+    Ok({
+        let a = choice.param("a").unwrap_or(1.0);
+        let lo = input.y.iter().copied().fold(f64::INFINITY, f64::min);
+        let hi = input.y.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let range = hi - lo;
+        input
+            .y
+            .iter()
+            .map(|&y| {
+                if range > 0.0 {
+                    (1.0 + (y - lo) / range).powf(a)
+                } else {
+                    1.0
+                }
+            })
+            .collect()
+    })
+}
+
+/// 1 / se^2 on the fitted scale (delta method: se times |h'(y)| at the row's outcome).
+fn invvar(_choice: &Choice, input: &WeightInput) -> Result<Array1<f64>, String> {
+    let n = input.units.len();
+    Ok({
+        let se = input
+            .se
+            .ok_or("weighting `invvar` needs data.standard_error")?;
+        if se.len() != n || input.y.len() != n {
+            return Err(format!(
+                "weighting `invvar`: {} standard errors and {} outcomes for {n} rows",
+                se.len(),
+                input.y.len()
+            ));
+        }
+        se.iter()
+            .zip(input.y)
+            .map(|(s, &y)| {
+                let sz = match input.target {
+                    Some(t) => s * t.slope(y).abs(),
+                    None => *s,
+                };
+                1.0 / (sz * sz)
+            })
+            .collect()
+    })
 }
 
 #[cfg(test)]

@@ -59,6 +59,7 @@ pub const FAMILY: Family = Family {
         ],
         help: "gradient boosting of regression trees (squared loss)",
         weighted: true,
+        excludes: &[],
     },
     // Per round: every indicator scanned at each level, plus a fixed part (residuals,
     // root lists, the prediction pass) worth about 6 indicators (fitted to the demo's

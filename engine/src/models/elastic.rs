@@ -39,6 +39,7 @@ pub const LASSO: Family = Family {
         params: &[ALPHA],
         help: "lasso (L1 penalty)",
         weighted: true,
+        excludes: &[],
     },
     cost: |_c, n, p| 100.0 * n * p,
     build: |c: &Choice| {
@@ -67,6 +68,7 @@ pub const ELASTIC: Family = Family {
         ],
         help: "elastic net (L1 + L2 penalty)",
         weighted: true,
+        excludes: &[],
     },
     cost: |_c, n, p| 100.0 * n * p,
     build: |c: &Choice| {

@@ -30,6 +30,7 @@ pub const FAMILY: Family = Family {
         ],
         help: "extremely randomised trees",
         weighted: true,
+        excludes: &[],
     },
     cost: |c, n, p| {
         c.param("trees").unwrap_or(200.0)

@@ -45,6 +45,7 @@ pub const FAMILY: Family = Family {
         ],
         help: "random forest (bootstrap, random indicator subsets)",
         weighted: true,
+        excludes: &[],
     },
     // Per tree: the split search over the tried indicators, keeping every indicator's
     // order through the splits, and a fixed part (bootstrap, root lists, leaves) worth

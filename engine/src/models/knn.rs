@@ -22,6 +22,7 @@ pub const FAMILY: Family = Family {
         }],
         help: "k-nearest-neighbour regression",
         weighted: true,
+        excludes: &[],
     },
     cost: |_c, n, p| n * n * p,
     build: |c: &Choice| {

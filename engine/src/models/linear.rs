@@ -22,6 +22,7 @@ pub const OLS: Family = Family {
         params: &[],
         help: "ordinary least squares",
         weighted: true,
+        excludes: &[],
     },
     cost: |_c, n, p| n * p * p + p * p * p,
     build: |_| Ok(Arc::new(Ols)),
@@ -42,6 +43,7 @@ pub const RIDGE: Family = Family {
         }],
         help: "ridge regression",
         weighted: true,
+        excludes: &[],
     },
     cost: |_c, n, p| n * p * p + p * p * p,
     build: |c: &Choice| {

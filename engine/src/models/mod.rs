@@ -11,6 +11,8 @@ pub mod forest;
 pub mod knn;
 pub mod linear;
 pub mod pls;
+#[cfg(feature = "test-options")]
+pub mod probe;
 pub mod tree;
 
 use crate::decl::{Choice, OptionDecl};
@@ -77,19 +79,25 @@ pub struct Family {
 
 /// Every model family, in the order `plan` lists them.
 pub fn registry() -> &'static [Family] {
-    static FAMILIES: [Family; 10] = [
-        linear::OLS,
-        linear::RIDGE,
-        elastic::LASSO,
-        elastic::ELASTIC,
-        pls::FAMILY,
-        tree::FAMILY,
-        forest::FAMILY,
-        extra::FAMILY,
-        boost::FAMILY,
-        knn::FAMILY,
-    ];
-    &FAMILIES
+    static FAMILIES: std::sync::OnceLock<Vec<Family>> = std::sync::OnceLock::new();
+    FAMILIES.get_or_init(|| {
+        #[allow(unused_mut)]
+        let mut v = vec![
+            linear::OLS,
+            linear::RIDGE,
+            elastic::LASSO,
+            elastic::ELASTIC,
+            pls::FAMILY,
+            tree::FAMILY,
+            forest::FAMILY,
+            extra::FAMILY,
+            boost::FAMILY,
+            knn::FAMILY,
+        ];
+        #[cfg(feature = "test-options")]
+        v.push(probe::FAMILY);
+        v
+    })
 }
 
 /// Relative cost of one fit of a model choice on `n` rows and `p` columns.

@@ -26,6 +26,7 @@ pub const FAMILY: Family = Family {
         params: &[K],
         help: "partial least squares regression",
         weighted: false,
+        excludes: &[],
     },
     cost: |c, n, p| c.param("k").unwrap_or(2.0) * 4.0 * n * p,
     build: |c: &Choice| {

@@ -8,74 +8,108 @@
 //! Each component's sign is fixed so its largest-magnitude loading is positive, which
 //! makes components (and so results) reproducible.
 
-use super::{Fitted, Stage, StageInput};
-use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
+use super::{Fitted, Stage, StageInput, StageOption};
+use crate::decl::{Excludes, OptionDecl, ParamDecl, ParamKind, Registered};
 use crate::error::FitError;
 use linfa_linalg::eigh::{EigSort, Eigh};
 use ndarray::{Array1, Array2, ArrayView2, Axis};
 use std::sync::Arc;
 
-pub const OPTIONS: &[OptionDecl] = &[
-    OptionDecl {
-        name: "none",
-        params: &[],
-        help: "use the pooled indicators as they are",
-        weighted: true,
+pub const OPTIONS: &[StageOption] = &[
+    Registered {
+        decl: OptionDecl {
+            name: "none",
+            params: &[],
+            help: "use the pooled indicators as they are",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |_, _| Ok(Arc::new(Identity)),
     },
-    OptionDecl {
-        name: "pca",
-        params: &[ParamDecl {
-            name: "k",
-            kind: ParamKind::Int {
-                min: 1,
-                max: 10_000,
-            },
-            default: 5.0,
-            help: "number of principal components kept",
-        }],
-        help: "principal components of the training rows",
-        weighted: true,
-    },
-    OptionDecl {
-        name: "nmf",
-        params: &[
-            ParamDecl {
+    Registered {
+        decl: OptionDecl {
+            name: "pca",
+            params: &[ParamDecl {
                 name: "k",
                 kind: ParamKind::Int {
                     min: 1,
                     max: 10_000,
                 },
                 default: 5.0,
-                help: "number of non-negative components",
-            },
-            ParamDecl {
-                name: "max_iter",
-                kind: ParamKind::Int {
-                    min: 1,
-                    max: 1_000_000,
-                },
-                default: 500.0,
-                help: "most HALS sweeps",
-            },
-            ParamDecl {
-                name: "tol",
-                kind: ParamKind::Real {
-                    min: 0.0,
-                    max: 1.0,
-                    open_min: false,
-                },
-                default: 1e-6,
-                help: "stop when the objective falls by less than this share",
-            },
-        ],
-        help: "non-negative matrix factorisation (needs scale minmax or non-negative data)",
-        weighted: true,
+                help: "number of principal components kept",
+            }],
+            help: "principal components of the training rows",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |c, _| {
+            Ok(Arc::new(Pca {
+                k: c.param("k").ok_or("pca needs k")? as usize,
+            }))
+        },
     },
-    OptionDecl {
-        name: "pls",
-        params: &[crate::models::pls::K],
-        help: "PLS components, supervised by the training outcome",
-        weighted: true,
+    Registered {
+        decl: OptionDecl {
+            name: "nmf",
+            params: &[
+                ParamDecl {
+                    name: "k",
+                    kind: ParamKind::Int {
+                        min: 1,
+                        max: 10_000,
+                    },
+                    default: 5.0,
+                    help: "number of non-negative components",
+                },
+                ParamDecl {
+                    name: "max_iter",
+                    kind: ParamKind::Int {
+                        min: 1,
+                        max: 1_000_000,
+                    },
+                    default: 500.0,
+                    help: "most HALS sweeps",
+                },
+                ParamDecl {
+                    name: "tol",
+                    kind: ParamKind::Real {
+                        min: 0.0,
+                        max: 1.0,
+                        open_min: false,
+                    },
+                    default: 1e-6,
+                    help: "stop when the objective falls by less than this share",
+                },
+            ],
+            help: "non-negative matrix factorisation (needs scale minmax or non-negative data)",
+            weighted: true,
+            excludes: &[Excludes {
+                dim: "scale",
+                options: &["standardise"],
+                why: "NMF needs non-negative input",
+            }],
+        },
+        build: |c, _| {
+            Ok(Arc::new(Nmf {
+                k: c.param("k").ok_or("nmf needs k")? as usize,
+                max_iter: c.param("max_iter").ok_or("nmf needs max_iter")? as usize,
+                tol: c.param("tol").ok_or("nmf needs tol")?,
+            }))
+        },
+    },
+    Registered {
+        decl: OptionDecl {
+            name: "pls",
+            params: &[crate::models::pls::K],
+            help: "PLS components, supervised by the training outcome",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |c, _| {
+            Ok(Arc::new(PlsStage {
+                k: c.param("k").ok_or("pls needs k")? as usize,
+            }))
+        },
     },
 ];
 
@@ -198,25 +232,6 @@ pub struct PcaFitted {
     pub explained_variance_ratio: Array1<f64>,
     pub input_names: Vec<String>,
     names: Vec<String>,
-}
-
-pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
-    match c.option.as_str() {
-        "none" => Ok(Arc::new(Identity)),
-        "pca" => {
-            let k = c.param("k").ok_or("pca needs k")?;
-            Ok(Arc::new(Pca { k: k as usize }))
-        }
-        "pls" => Ok(Arc::new(PlsStage {
-            k: c.param("k").ok_or("pls needs k")? as usize,
-        })),
-        "nmf" => Ok(Arc::new(Nmf {
-            k: c.param("k").ok_or("nmf needs k")? as usize,
-            max_iter: c.param("max_iter").ok_or("nmf needs max_iter")? as usize,
-            tol: c.param("tol").ok_or("nmf needs tol")?,
-        })),
-        o => Err(format!("unknown compress `{o}`")),
-    }
 }
 
 impl Stage for Identity {

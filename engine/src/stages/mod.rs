@@ -15,7 +15,7 @@ pub mod nmf;
 pub mod pool;
 pub mod scale;
 
-use crate::decl::Choice;
+use crate::decl::{Choice, Registered};
 use crate::error::FitError;
 use ndarray::{Array2, ArrayView1, ArrayView2};
 use std::sync::Arc;
@@ -60,14 +60,32 @@ pub trait Fitted: Send + Sync {
     }
 }
 
+/// What builds a stage option: its checked, unfitted stage from a choice. The panel gives
+/// a pool its members' names and the `carry` fill its units and waves; `None` outside a
+/// run (a stage built on its own, as the reference tests do).
+pub type StageBuild = fn(&Choice, Option<&crate::panel::Panel>) -> Result<Arc<dyn Stage>, String>;
+/// A stage option's entry in its dimension's `OPTIONS` table.
+pub type StageOption = Registered<StageBuild>;
+
+/// The options table of a stage dimension.
+pub fn options(dim: &str) -> Option<&'static [StageOption]> {
+    match dim {
+        "fill" => Some(fill::OPTIONS),
+        "pool" => Some(pool::OPTIONS),
+        "scale" => Some(scale::OPTIONS),
+        "compress" => Some(compress::OPTIONS),
+        _ => None,
+    }
+}
+
 /// Build the stage of a stage-dimension choice.
 pub fn build(choice: &Choice, panel: &crate::panel::Panel) -> Result<Arc<dyn Stage>, String> {
-    match choice.dim {
-        "fill" => fill::build_with(choice, Some(panel)),
-        "pool" => pool::build(choice, panel),
-        "scale" => scale::build(choice),
-        "compress" => compress::build(choice),
-        other => Err(format!("`{other}` is not a stage dimension")),
+    match options(choice.dim) {
+        Some(_) if choice.dim == "pool" => pool::build(choice, Some(panel)),
+        Some(table) => {
+            (crate::decl::lookup(table, choice.dim, &choice.option)?)(choice, Some(panel))
+        }
+        None => Err(format!("`{}` is not a stage dimension", choice.dim)),
     }
 }
 

@@ -17,27 +17,36 @@
 //!   over them, scores 0. The k highest scores are kept (ties: the earlier column first),
 //!   in panel column order; with k at least the number of indicators, all are kept.
 
-use super::{Fitted, Stage, StageInput};
-use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
+use super::{Fitted, Stage, StageInput, StageOption};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind, Registered};
 use crate::error::FitError;
 use crate::panel::Panel;
 use ndarray::{Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
 use std::sync::Arc;
 
-/// Declared pool options that take parameters (`all`, groups and named lists take none).
-pub const OPTIONS: &[OptionDecl] = &[OptionDecl {
-    name: "screen",
-    params: &[ParamDecl {
-        name: "k",
-        kind: ParamKind::Int {
-            min: 1,
-            max: 100_000,
-        },
-        default: 10.0,
-        help: "indicators kept: largest |correlation| with the outcome over the training rows where each has a value",
-    }],
-    help: "in-fold screening by correlation with the outcome",
-    weighted: true,
+/// Registered pool options (`all`, groups and named lists are declared by the config and
+/// codebook instead: a [`Choice`] with `members`, built by [`build`]).
+pub const OPTIONS: &[StageOption] = &[Registered {
+    decl: OptionDecl {
+        name: "screen",
+        params: &[ParamDecl {
+            name: "k",
+            kind: ParamKind::Int {
+                min: 1,
+                max: 100_000,
+            },
+            default: 10.0,
+            help: "indicators kept: largest |correlation| with the outcome over the training rows where each has a value",
+        }],
+        help: "in-fold screening by correlation with the outcome",
+        weighted: true,
+        excludes: &[],
+    },
+    build: |c, _| {
+        Ok(Arc::new(Pool::Screen(
+            c.param("k").ok_or("screen needs k")? as usize,
+        )))
+    },
 }];
 
 enum Pool {
@@ -50,16 +59,14 @@ struct Select {
     names: Vec<String>,
 }
 
-pub fn build(c: &Choice, panel: &Panel) -> Result<Arc<dyn Stage>, String> {
-    if c.option == "screen" {
-        return Ok(Arc::new(Pool::Screen(
-            c.param("k").ok_or("screen needs k")? as usize,
-        )));
-    }
-    let members = c
-        .members
-        .as_ref()
-        .ok_or_else(|| format!("pool `{}` has no members", c.option))?;
+/// Build a pool: a fixed list (the choice's `members`: `all`, a group, a named list) or a
+/// registered option.
+pub fn build(c: &Choice, panel: Option<&Panel>) -> Result<Arc<dyn Stage>, String> {
+    let Some(members) = c.members.as_ref() else {
+        return (crate::decl::lookup(OPTIONS, "pool", &c.option)?)(c, panel);
+    };
+    let panel =
+        panel.ok_or_else(|| format!("pool `{}` needs the panel's indicator names", c.option))?;
     Ok(Arc::new(Pool::Fixed(
         members
             .iter()

@@ -2,30 +2,42 @@
 //! as scikit-learn's StandardScaler) or min-max to [0, 1] over the training range.
 //! A column constant on the training rows maps to 0 (it carries no information there).
 
-use super::{Fitted, Stage, StageInput};
-use crate::decl::{Choice, OptionDecl};
+use super::{Fitted, Stage, StageInput, StageOption};
+use crate::decl::{OptionDecl, Registered};
 use crate::error::FitError;
 use ndarray::{Array2, ArrayView2, Axis};
 use std::sync::Arc;
 
-pub const OPTIONS: &[OptionDecl] = &[
-    OptionDecl {
-        name: "standardise",
-        params: &[],
-        help: "centre on the training mean, divide by the training sd",
-        weighted: true,
+pub const OPTIONS: &[StageOption] = &[
+    Registered {
+        decl: OptionDecl {
+            name: "standardise",
+            params: &[],
+            help: "centre on the training mean, divide by the training sd",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |_, _| Ok(Arc::new(Scale(Kind::Standardise))),
     },
-    OptionDecl {
-        name: "minmax",
-        params: &[],
-        help: "map the training range to [0, 1]",
-        weighted: true,
+    Registered {
+        decl: OptionDecl {
+            name: "minmax",
+            params: &[],
+            help: "map the training range to [0, 1]",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |_, _| Ok(Arc::new(Scale(Kind::MinMax))),
     },
-    OptionDecl {
-        name: "none",
-        params: &[],
-        help: "leave values as they are",
-        weighted: true,
+    Registered {
+        decl: OptionDecl {
+            name: "none",
+            params: &[],
+            help: "leave values as they are",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |_, _| Ok(Arc::new(Scale(Kind::Identity))),
     },
 ];
 
@@ -43,15 +55,6 @@ struct Affine {
     shift: Vec<f64>,
     factor: Vec<f64>,
     names: Vec<String>,
-}
-
-pub fn build(c: &Choice) -> Result<Arc<dyn Stage>, String> {
-    match c.option.as_str() {
-        "standardise" => Ok(Arc::new(Scale(Kind::Standardise))),
-        "minmax" => Ok(Arc::new(Scale(Kind::MinMax))),
-        "none" => Ok(Arc::new(Scale(Kind::Identity))),
-        o => Err(format!("unknown scale `{o}`")),
-    }
 }
 
 impl Stage for Scale {

@@ -65,6 +65,7 @@ pub const FAMILY: Family = Family {
         params: &[DEPTH, MIN_LEAF],
         help: "regression tree (CART, squared error)",
         weighted: true,
+        excludes: &[],
     },
     cost: |c, n, p| p * n * c.param("depth").unwrap_or(8.0).min(n.log2().max(1.0)),
     build: |c: &Choice| {

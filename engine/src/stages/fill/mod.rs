@@ -31,8 +31,8 @@
 //! the spec's `notes`. Later stages match indicators by name (pools) or fit on what they
 //! are given, so a column absent in one fold is absent from that fold's chain only.
 
-use super::{present, Fitted, Stage, StageInput};
-use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
+use super::{present, Fitted, Stage, StageInput, StageOption};
+use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind, Registered};
 use crate::error::FitError;
 pub use crate::metrics::median;
 use ndarray::{Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
@@ -58,64 +58,93 @@ const FLAGS: ParamDecl = ParamDecl {
     help: "1: add a 0/1 missingness column per indicator with gaps",
 };
 
-pub const OPTIONS: &[OptionDecl] = &[
-    OptionDecl {
-        name: "mean",
-        params: &[DROP, FLAGS],
-        help: "training-row mean of the indicator",
-        weighted: true,
+pub const OPTIONS: &[StageOption] = &[
+    Registered {
+        decl: OptionDecl {
+            name: "mean",
+            params: &[DROP, FLAGS],
+            help: "training-row mean of the indicator",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |c, p| make(c, p, Rule::Mean),
     },
-    OptionDecl {
-        name: "median",
-        params: &[DROP, FLAGS],
-        help: "training-row median of the indicator",
-        weighted: true,
+    Registered {
+        decl: OptionDecl {
+            name: "median",
+            params: &[DROP, FLAGS],
+            help: "training-row median of the indicator",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |c, p| make(c, p, Rule::Median),
     },
-    OptionDecl {
-        name: "knn",
-        params: &[
-            ParamDecl {
-                name: "k",
-                kind: ParamKind::Int { min: 1, max: 1000 },
-                default: 5.0,
-                help: "neighbours averaged",
-            },
-            DROP,
-            FLAGS,
-        ],
-        help: "mean of the k nearest training rows (nan-euclidean distance)",
-        weighted: true,
-    },
-    OptionDecl {
-        name: "carry",
-        params: &[DROP, FLAGS],
-        help: "a unit's gap from its own nearest wave; else the training median",
-        weighted: true,
-    },
-    OptionDecl {
-        name: "chained",
-        params: &[
-            ParamDecl {
-                name: "rounds",
-                kind: ParamKind::Int { min: 1, max: 100 },
-                default: 5.0,
-                help: "rounds over the indicators with gaps",
-            },
-            ParamDecl {
-                name: "alpha",
-                kind: ParamKind::Real {
-                    min: 0.0,
-                    max: 1e12,
-                    open_min: true,
+    Registered {
+        decl: OptionDecl {
+            name: "knn",
+            params: &[
+                ParamDecl {
+                    name: "k",
+                    kind: ParamKind::Int { min: 1, max: 1000 },
+                    default: 5.0,
+                    help: "neighbours averaged",
                 },
-                default: 1.0,
-                help: "ridge penalty of each regression",
-            },
-            DROP,
-            FLAGS,
-        ],
-        help: "chained ridge regressions (iterative imputation), seeded from the mean",
-        weighted: true,
+                DROP,
+                FLAGS,
+            ],
+            help: "mean of the k nearest training rows (nan-euclidean distance)",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |c, p| make(c, p, Rule::Knn(c.param("k").ok_or("knn needs k")? as usize)),
+    },
+    Registered {
+        decl: OptionDecl {
+            name: "carry",
+            params: &[DROP, FLAGS],
+            help: "a unit's gap from its own nearest wave; else the training median",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |c, p| make(c, p, Rule::Carry),
+    },
+    Registered {
+        decl: OptionDecl {
+            name: "chained",
+            params: &[
+                ParamDecl {
+                    name: "rounds",
+                    kind: ParamKind::Int { min: 1, max: 100 },
+                    default: 5.0,
+                    help: "rounds over the indicators with gaps",
+                },
+                ParamDecl {
+                    name: "alpha",
+                    kind: ParamKind::Real {
+                        min: 0.0,
+                        max: 1e12,
+                        open_min: true,
+                    },
+                    default: 1.0,
+                    help: "ridge penalty of each regression",
+                },
+                DROP,
+                FLAGS,
+            ],
+            help: "chained ridge regressions (iterative imputation), seeded from the mean",
+            weighted: true,
+            excludes: &[],
+        },
+        build: |c, p| {
+            make(
+                c,
+                p,
+                Rule::Chained {
+                    rounds: c.param("rounds").ok_or("chained needs rounds")? as usize,
+                    alpha: c.param("alpha").ok_or("chained needs alpha")?,
+                },
+            )
+        },
     },
 ];
 
@@ -247,17 +276,15 @@ pub fn build_with(
     c: &Choice,
     panel: Option<&crate::panel::Panel>,
 ) -> Result<Arc<dyn Stage>, String> {
-    let rule = match c.option.as_str() {
-        "carry" => Rule::Carry,
-        "mean" => Rule::Mean,
-        "median" => Rule::Median,
-        "knn" => Rule::Knn(c.param("k").ok_or("knn needs k")? as usize),
-        "chained" => Rule::Chained {
-            rounds: c.param("rounds").ok_or("chained needs rounds")? as usize,
-            alpha: c.param("alpha").ok_or("chained needs alpha")?,
-        },
-        o => return Err(format!("unknown fill `{o}`")),
-    };
+    (crate::decl::lookup(OPTIONS, "fill", &c.option)?)(c, panel)
+}
+
+/// A fill of one rule with the parameters every rule shares.
+fn make(
+    c: &Choice,
+    panel: Option<&crate::panel::Panel>,
+    rule: Rule,
+) -> Result<Arc<dyn Stage>, String> {
     let waves = match rule {
         Rule::Carry => Some(Waves::of(
             panel.ok_or("fill `carry` needs the panel's units and waves")?,
