@@ -268,112 +268,136 @@ fn pool_options(cfg: &Config, panel: &Panel, listed: &[String]) -> Result<Vec<Ch
     Ok(out)
 }
 
-impl ChoiceSpace {
-    /// Expand the config's choice space against a panel (pools need its indicators).
-    pub fn build(cfg: &Config, panel: &Panel) -> Result<ChoiceSpace> {
-        let mut warnings = Vec::new();
-        // Every grid must name a known option and known parameters.
-        let mut all_decls: BTreeMap<&str, OptionDecl> = BTreeMap::new();
-        for d in DIMENSIONS {
-            for o in options_of(d) {
-                all_decls.insert(o.name, o);
-            }
+/// Every `[grid.NAME]` must name a known option and known parameters.
+fn check_grids(cfg: &Config) -> Result<()> {
+    let mut all_decls: BTreeMap<&str, OptionDecl> = BTreeMap::new();
+    for d in DIMENSIONS {
+        for o in options_of(d) {
+            all_decls.insert(o.name, o);
         }
-        for (opt, params) in &cfg.grid {
-            let decl = all_decls.get(opt.as_str()).ok_or_else(|| {
-                space_err(
-                    cfg,
-                    format!(
-                        "grid.{opt}: no option `{opt}` takes parameters{}",
-                        suggest(opt, all_decls.keys().copied())
-                    ),
-                )
-            })?;
-            for p in params.keys() {
-                if !decl.params.iter().any(|d| d.name == p) {
-                    let names: Vec<&str> = decl.params.iter().map(|d| d.name).collect();
-                    return Err(space_err(
-                        cfg,
-                        format!(
-                            "unknown key `grid.{opt}.{p}`{}; `{opt}` takes: {}",
-                            suggest(p, names.iter().copied()),
-                            if names.is_empty() {
-                                "no parameters".to_string()
-                            } else {
-                                names.join(", ")
-                            }
-                        ),
-                    ));
-                }
-            }
-        }
-
-        let mut options: Vec<Vec<Choice>> = Vec::new();
-        for dim in DIMENSIONS {
-            let listed: Vec<String> = match cfg.choices.get(*dim) {
-                Some(v) => v.clone(),
-                None => vec![default_option(dim).to_string()],
-            };
-            if listed.is_empty() {
+    }
+    for (opt, params) in &cfg.grid {
+        let decl = all_decls.get(opt.as_str()).ok_or_else(|| {
+            space_err(
+                cfg,
+                format!(
+                    "grid.{opt}: no option `{opt}` takes parameters{}",
+                    suggest(opt, all_decls.keys().copied())
+                ),
+            )
+        })?;
+        for p in params.keys() {
+            if !decl.params.iter().any(|d| d.name == p) {
+                let names: Vec<&str> = decl.params.iter().map(|d| d.name).collect();
                 return Err(space_err(
                     cfg,
-                    format!("choices.{dim} is empty: list at least one option"),
-                ));
-            }
-            let mut seen = BTreeSet::new();
-            for o in &listed {
-                if !seen.insert(o) {
-                    return Err(space_err(cfg, format!("choices.{dim} lists `{o}` twice")));
-                }
-            }
-            let expanded = if *dim == "pool" {
-                pool_options(cfg, panel, &listed)?
-            } else {
-                let decls = options_of(dim);
-                let mut out = Vec::new();
-                for o in &listed {
-                    let decl = decls.iter().find(|d| d.name == o).ok_or_else(|| {
-                        space_err(
-                            cfg,
-                            format!(
-                                "choices.{dim}: unknown option `{o}`{}; options: {}",
-                                suggest(o, decls.iter().map(|d| d.name)),
-                                decls.iter().map(|d| d.name).collect::<Vec<_>>().join(", ")
-                            ),
-                        )
-                    })?;
-                    out.extend(expand(cfg, dim, decl)?);
-                }
-                out
-            };
-            if *dim == "transform" {
-                for c in &expanded {
-                    crate::transform::check_domain(
-                        &c.option,
-                        panel.y.as_slice().unwrap_or(&[]),
-                        panel.outcome_scale,
-                    )
-                    .map_err(|m| space_err(cfg, format!("choices.transform: {m}")))?;
-                }
-            }
-            if *dim == "weighting"
-                && panel.se.is_none()
-                && expanded.iter().any(|c| c.option == "invvar")
-            {
-                return Err(space_err(cfg, "choices.weighting `invvar` needs data.standard_error (a column of standard errors)".into()));
-            }
-            options.push(expanded);
-        }
-        for opt in cfg.grid.keys() {
-            let used = options.iter().flatten().any(|c| &c.option == opt);
-            if !used {
-                warnings.push(format!(
-                    "grid.{opt} is set but `{opt}` is not among the chosen options"
+                    format!(
+                        "unknown key `grid.{opt}.{p}`{}; `{opt}` takes: {}",
+                        suggest(p, names.iter().copied()),
+                        if names.is_empty() {
+                            "no parameters".to_string()
+                        } else {
+                            names.join(", ")
+                        }
+                    ),
                 ));
             }
         }
+    }
 
-        // Exclusions: validate names, then filter the product.
+    Ok(())
+}
+
+/// The options of every dimension (in [`DIMENSIONS`] order), expanded by their grids and
+/// checked against the data (transform domains, `invvar` needs standard errors).
+fn dimension_options(cfg: &Config, panel: &Panel) -> Result<Vec<Vec<Choice>>> {
+    let mut options: Vec<Vec<Choice>> = Vec::new();
+    for dim in DIMENSIONS {
+        let listed: Vec<String> = match cfg.choices.get(*dim) {
+            Some(v) => v.clone(),
+            None => vec![default_option(dim).to_string()],
+        };
+        if listed.is_empty() {
+            return Err(space_err(
+                cfg,
+                format!("choices.{dim} is empty: list at least one option"),
+            ));
+        }
+        let mut seen = BTreeSet::new();
+        for o in &listed {
+            if !seen.insert(o) {
+                return Err(space_err(cfg, format!("choices.{dim} lists `{o}` twice")));
+            }
+        }
+        let expanded = if *dim == "pool" {
+            pool_options(cfg, panel, &listed)?
+        } else {
+            let decls = options_of(dim);
+            let mut out = Vec::new();
+            for o in &listed {
+                let decl = decls.iter().find(|d| d.name == o).ok_or_else(|| {
+                    space_err(
+                        cfg,
+                        format!(
+                            "choices.{dim}: unknown option `{o}`{}; options: {}",
+                            suggest(o, decls.iter().map(|d| d.name)),
+                            decls.iter().map(|d| d.name).collect::<Vec<_>>().join(", ")
+                        ),
+                    )
+                })?;
+                out.extend(expand(cfg, dim, decl)?);
+            }
+            out
+        };
+        if *dim == "transform" {
+            for c in &expanded {
+                crate::transform::check_domain(
+                    &c.option,
+                    panel.y.as_slice().unwrap_or(&[]),
+                    panel.outcome_scale,
+                )
+                .map_err(|m| space_err(cfg, format!("choices.transform: {m}")))?;
+            }
+        }
+        if *dim == "weighting"
+            && panel.se.is_none()
+            && expanded.iter().any(|c| c.option == "invvar")
+        {
+            return Err(space_err(cfg, "choices.weighting `invvar` needs data.standard_error (a column of standard errors)".into()));
+        }
+        options.push(expanded);
+    }
+    Ok(options)
+}
+
+/// A warning for each grid whose option is not chosen.
+fn unused_grids(cfg: &Config, options: &[Vec<Choice>], warnings: &mut Vec<String>) {
+    for opt in cfg.grid.keys() {
+        let used = options.iter().flatten().any(|c| &c.option == opt);
+        if !used {
+            warnings.push(format!(
+                "grid.{opt} is set but `{opt}` is not among the chosen options"
+            ));
+        }
+    }
+}
+
+/// The exclusions of a space: the config's rules (validated against the chosen options)
+/// and the automatic ones the chosen options declare, with their plain-text rules.
+struct Exclusions<'a> {
+    rules: Vec<String>,
+    /// Declared by an option: (its dimension, its name, the other dimension, the options
+    /// of that dimension it never runs with).
+    declared: Vec<(usize, &'static str, usize, &'static [&'static str])>,
+    /// Model families that take no row weights (they run only with `rows`).
+    unweighted: Vec<&'static str>,
+    model: usize,
+    weighting: usize,
+    user: &'a [BTreeMap<String, crate::config::OneOrMany>],
+}
+
+impl<'a> Exclusions<'a> {
+    fn new(cfg: &'a Config, options: &[Vec<Choice>]) -> Result<Exclusions<'a>> {
         let mut rules = Vec::new();
         for (i, rule) in cfg.exclude.iter().enumerate() {
             if rule.is_empty() {
@@ -455,103 +479,148 @@ impl ChoiceSpace {
                 used_unweighted.join(", ")
             ));
         }
-        let matches = |choices: &[Choice]| {
-            (unweighted.contains(&choices[mi].option.as_str()) && choices[wi].option != "rows")
-                || declared.iter().any(|(di, name, ti, opts)| {
-                    choices[*di].option == *name && opts.contains(&choices[*ti].option.as_str())
+        Ok(Exclusions {
+            rules,
+            declared,
+            unweighted,
+            model: mi,
+            weighting: wi,
+            user: &cfg.exclude,
+        })
+    }
+
+    /// True when a combination is excluded.
+    fn excludes(&self, choices: &[Choice]) -> bool {
+        (self
+            .unweighted
+            .contains(&choices[self.model].option.as_str())
+            && choices[self.weighting].option != "rows")
+            || self.declared.iter().any(|(di, name, ti, opts)| {
+                choices[*di].option == *name && opts.contains(&choices[*ti].option.as_str())
+            })
+            || self.user.iter().any(|rule| {
+                rule.iter().all(|(dim, names)| {
+                    let di = DIMENSIONS.iter().position(|d| d == dim).unwrap_or(0);
+                    names.items().contains(&choices[di].option.as_str())
                 })
-                || cfg.exclude.iter().any(|rule| {
-                    rule.iter().all(|(dim, names)| {
-                        let di = DIMENSIONS.iter().position(|d| d == dim).unwrap_or(0);
-                        names.items().contains(&choices[di].option.as_str())
-                    })
-                })
-        };
-        let mut specs = Vec::new();
-        let mut excluded = 0usize;
-        let total: usize = options.iter().map(Vec::len).product();
-        let mut idx = vec![0usize; options.len()];
-        for _ in 0..total {
-            let choices: Vec<Choice> = idx
-                .iter()
-                .enumerate()
-                .map(|(d, &k)| options[d][k].clone())
-                .collect();
-            if matches(&choices) {
-                excluded += 1;
-            } else {
-                specs.push(Spec::from_choices(choices));
+            })
+    }
+}
+
+/// The product of the options minus the exclusions, in odometer order (the last
+/// dimension fastest), and the number excluded.
+fn product(options: &[Vec<Choice>], ex: &Exclusions) -> Result<(Vec<Spec>, usize)> {
+    let mut specs = Vec::new();
+    let mut excluded = 0usize;
+    let total: usize = options.iter().map(Vec::len).product();
+    let mut idx = vec![0usize; options.len()];
+    for _ in 0..total {
+        let choices: Vec<Choice> = idx
+            .iter()
+            .enumerate()
+            .map(|(d, &k)| options[d][k].clone())
+            .collect();
+        if ex.excludes(&choices) {
+            excluded += 1;
+        } else {
+            specs.push(Spec::from_choices(choices));
+        }
+        for d in (0..idx.len()).rev() {
+            idx[d] += 1;
+            if idx[d] < options[d].len() {
+                break;
             }
-            for d in (0..idx.len()).rev() {
-                idx[d] += 1;
-                if idx[d] < options[d].len() {
-                    break;
+            idx[d] = 0;
+        }
+    }
+    if specs.is_empty() {
+        return Err(Error::Space(format!(
+            "the exclusions remove all {total} combinations: nothing is left to run"
+        )));
+    }
+    Ok((specs, excluded))
+}
+
+/// NMF without scaling needs non-negative indicators in its pool; a spec id is unique.
+fn check_specs(cfg: &Config, panel: &Panel, specs: &[Spec]) -> Result<()> {
+    let mut checked: BTreeSet<String> = BTreeSet::new();
+    for s in specs {
+        if s.choice("compress").option == "nmf"
+            && s.choice("scale").option == "none"
+            && checked.insert(s.choice("pool").canonical())
+        {
+            let pool = s.choice("pool");
+            for &j in pool.members.as_deref().map(|m| m.as_slice()).unwrap_or(&[]) {
+                if let Some(i) = panel.x.column(j).iter().position(|v| *v < 0.0) {
+                    return Err(space_err(cfg, format!(
+                        "compress `nmf` with scale `none` needs non-negative indicators, but `{}` is {} in row {} (pool `{}`): use scale `minmax` or exclude nmf with scale none",
+                        panel.indicators[j], panel.x[[i, j]], i + 1, pool.option
+                    )));
                 }
-                idx[d] = 0;
             }
         }
-        if specs.is_empty() {
+    }
+    let mut ids = BTreeSet::new();
+    for s in specs {
+        if !ids.insert(&s.id) {
             return Err(Error::Space(format!(
-                "the exclusions remove all {total} combinations: nothing is left to run"
+                "two specs share the id {} ({})",
+                s.id,
+                s.label()
             )));
         }
-        // NMF without scaling needs non-negative indicators in its pool.
-        let mut checked: BTreeSet<String> = BTreeSet::new();
-        for s in &specs {
-            if s.choice("compress").option == "nmf"
-                && s.choice("scale").option == "none"
-                && checked.insert(s.choice("pool").canonical())
-            {
-                let pool = s.choice("pool");
-                for &j in pool.members.as_deref().map(|m| m.as_slice()).unwrap_or(&[]) {
-                    if let Some(i) = panel.x.column(j).iter().position(|v| *v < 0.0) {
-                        return Err(space_err(cfg, format!(
-                            "compress `nmf` with scale `none` needs non-negative indicators, but `{}` is {} in row {} (pool `{}`): use scale `minmax` or exclude nmf with scale none",
-                            panel.indicators[j], panel.x[[i, j]], i + 1, pool.option
-                        )));
-                    }
-                }
-            }
+    }
+    Ok(())
+}
+
+/// The seeded sample of `[sample]` (its own random stream); the space's size before it.
+fn sample(
+    cfg: &Config,
+    specs: &mut Vec<Spec>,
+    warnings: &mut Vec<String>,
+) -> Result<Option<usize>> {
+    let mut sampled_from = None;
+    if let Some(sample) = &cfg.sample {
+        if sample.specs == 0 {
+            return Err(space_err(cfg, "sample.specs must be at least 1".into()));
         }
-        let mut ids = BTreeSet::new();
-        for s in &specs {
-            if !ids.insert(&s.id) {
-                return Err(Error::Space(format!(
-                    "two specs share the id {} ({})",
-                    s.id,
-                    s.label()
-                )));
-            }
+        if sample.specs < specs.len() {
+            use rand::SeedableRng;
+            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(crate::streams::mix(
+                cfg.seed,
+                crate::streams::SPEC_SAMPLE,
+            ));
+            let mut keep = rand::seq::index::sample(&mut rng, specs.len(), sample.specs).into_vec();
+            keep.sort_unstable();
+            sampled_from = Some(specs.len());
+            *specs = keep.into_iter().map(|i| specs[i].clone()).collect();
+        } else {
+            warnings.push(format!(
+                "sample.specs = {} is not below the {} specs of the space: all are run",
+                sample.specs,
+                specs.len()
+            ));
         }
-        let mut sampled_from = None;
-        if let Some(sample) = &cfg.sample {
-            if sample.specs == 0 {
-                return Err(space_err(cfg, "sample.specs must be at least 1".into()));
-            }
-            if sample.specs < specs.len() {
-                use rand::SeedableRng;
-                let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(crate::streams::mix(
-                    cfg.seed,
-                    crate::streams::SPEC_SAMPLE,
-                ));
-                let mut keep =
-                    rand::seq::index::sample(&mut rng, specs.len(), sample.specs).into_vec();
-                keep.sort_unstable();
-                sampled_from = Some(specs.len());
-                specs = keep.into_iter().map(|i| specs[i].clone()).collect();
-            } else {
-                warnings.push(format!(
-                    "sample.specs = {} is not below the {} specs of the space: all are run",
-                    sample.specs,
-                    specs.len()
-                ));
-            }
-        }
+    }
+    Ok(sampled_from)
+}
+
+impl ChoiceSpace {
+    /// Expand the config's choice space against a panel (pools need its indicators).
+    pub fn build(cfg: &Config, panel: &Panel) -> Result<ChoiceSpace> {
+        let mut warnings = Vec::new();
+        check_grids(cfg)?;
+        let options = dimension_options(cfg, panel)?;
+        unused_grids(cfg, &options, &mut warnings);
+        let ex = Exclusions::new(cfg, &options)?;
+        let (mut specs, excluded) = product(&options, &ex)?;
+        check_specs(cfg, panel, &specs)?;
+        let sampled_from = sample(cfg, &mut specs, &mut warnings)?;
         Ok(ChoiceSpace {
             options,
             specs,
             excluded,
-            exclusion_rules: rules,
+            exclusion_rules: ex.rules,
             warnings,
             sampled_from,
         })
