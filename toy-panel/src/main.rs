@@ -1,19 +1,63 @@
-//! `toy-panel [OUT_DIR]`: write the invented demo panel (panel.csv, codebook.csv,
-//! truth.json) into OUT_DIR (default: this crate's folder).
+//! `toy-panel [OUT_DIR] [--units N] [--seed S]`: write the invented demo panel
+//! (panel.csv, codebook.csv, truth.json) into OUT_DIR (default: this crate's folder, which
+//! holds the committed demo: 64 districts, seed 20261201). `--units` and `--seed` make a
+//! panel of the same structure at another size or draw (for recovery against sample
+//! size); they need an OUT_DIR, so the committed files are never overwritten by them.
 use std::path::PathBuf;
+use std::process::ExitCode;
 
-fn main() -> std::io::Result<()> {
-    let out = std::env::args()
-        .nth(1)
-        .map(PathBuf::from)
-        .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")));
-    let panel = forkmap_toy_panel::generate(forkmap_toy_panel::SEED);
-    std::fs::create_dir_all(&out)?;
-    std::fs::write(out.join("panel.csv"), panel.panel_csv)?;
-    std::fs::write(out.join("codebook.csv"), panel.codebook_csv)?;
-    std::fs::write(out.join("truth.json"), panel.truth_json)?;
+fn main() -> ExitCode {
+    match run() {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("toy-panel: error: {e}");
+            ExitCode::from(2)
+        }
+    }
+}
+
+fn run() -> Result<(), String> {
+    let mut out: Option<PathBuf> = None;
+    let mut units = forkmap_toy_panel::N_DISTRICTS;
+    let mut seed = forkmap_toy_panel::SEED;
+    let mut args = std::env::args().skip(1);
+    while let Some(a) = args.next() {
+        let mut value = |flag: &str| -> Result<u64, String> {
+            let v = args.next().ok_or(format!("{flag} needs a value"))?;
+            v.parse::<u64>()
+                .map_err(|_| format!("{flag}: `{v}` is not a whole number"))
+        };
+        match a.as_str() {
+            "--units" => {
+                units = value("--units")? as usize;
+                if !(8..=100_000).contains(&units) {
+                    return Err(format!("--units: {units} is outside 8..=100000"));
+                }
+            }
+            "--seed" => seed = value("--seed")?,
+            s if s.starts_with("--") => return Err(format!("unknown flag `{s}`")),
+            s if out.is_none() => out = Some(PathBuf::from(s)),
+            s => return Err(format!("unexpected argument `{s}`")),
+        }
+    }
+    let custom = units != forkmap_toy_panel::N_DISTRICTS || seed != forkmap_toy_panel::SEED;
+    let out = match out {
+        Some(o) => o,
+        None if custom => return Err("--units and --seed need an OUT_DIR".into()),
+        None => PathBuf::from(env!("CARGO_MANIFEST_DIR")),
+    };
+    let panel = forkmap_toy_panel::generate_with(seed, units);
+    std::fs::create_dir_all(&out).map_err(|e| format!("{}: {e}", out.display()))?;
+    for (name, text) in [
+        ("panel.csv", &panel.panel_csv),
+        ("codebook.csv", &panel.codebook_csv),
+        ("truth.json", &panel.truth_json),
+    ] {
+        let path = out.join(name);
+        std::fs::write(&path, text).map_err(|e| format!("{}: {e}", path.display()))?;
+    }
     eprintln!(
-        "wrote panel.csv, codebook.csv, truth.json to {}",
+        "wrote panel.csv, codebook.csv, truth.json ({units} districts, seed {seed}) to {}",
         out.display()
     );
     Ok(())

@@ -44,3 +44,30 @@ fn panel_shape_is_as_documented() {
     let frac = blank as f64 / cells as f64;
     assert!(frac > 0.04 && frac < 0.12, "missing fraction {frac}");
 }
+
+#[test]
+fn other_sizes_keep_the_structure() {
+    use forkmap_toy_panel::{generate_with, N_DISTRICTS};
+    assert_eq!(
+        generate_with(SEED, N_DISTRICTS).panel_csv,
+        generate(SEED).panel_csv
+    );
+    for units in [30usize, 240] {
+        let p = generate_with(SEED, units);
+        let truth: serde_json::Value = serde_json::from_str(&p.truth_json).unwrap();
+        assert_eq!(truth["units"], units);
+        let mut names = std::collections::BTreeSet::new();
+        let mut rows = 0;
+        for line in p.panel_csv.lines().skip(1) {
+            let cells: Vec<&str> = line.split(',').collect();
+            assert_eq!(cells.len(), 4 + 90, "{line}");
+            names.insert(cells[0].to_string());
+            rows += 1;
+        }
+        assert_eq!(names.len(), units, "every district has at least one row");
+        assert!(rows > units && rows <= 2 * units, "rows = {rows}");
+        let high = truth["high_outcome_units"].as_array().unwrap().len();
+        assert_eq!(high, (units / 16).max(2));
+        assert_eq!(p.codebook_csv, generate(SEED).codebook_csv);
+    }
+}
