@@ -58,7 +58,7 @@ fn a_declared_option_runs_through_every_layer() {
     for (si, spec) in &probes {
         let shift = spec.choice("model").param("shift").unwrap();
         let r = &res[*si];
-        assert_eq!(r.status, "ok", "{:?}", r.message);
+        assert_eq!(r.status, forkmap::error::Status::Ok, "{:?}", r.message);
         assert_eq!(r.predictions.len(), p.panel.y.len() * p.folds.repeats);
         for pr in &r.predictions {
             let fold = p

@@ -245,7 +245,7 @@ fn shared_draws_change_nothing() {
     let mut permuted = 0;
     for (a, b) in shared.iter().zip(&own) {
         assert_eq!(a.spec, b.spec);
-        assert_eq!(a.status, "ok", "{:?}", a.message);
+        assert_eq!(a.status, forkmap::error::Status::Ok, "{:?}", a.message);
         assert_eq!(a.predictions, b.predictions);
         assert_eq!(
             a.importance,
@@ -281,7 +281,7 @@ fn compressed_specs_report_raw_indicators() {
     assert_eq!(res.len(), 4);
     for r in &res {
         let label = space.specs[r.spec].label();
-        assert_eq!(r.status, "ok", "{label}");
+        assert_eq!(r.status, forkmap::error::Status::Ok, "{label}");
         let perm: Vec<&ImportanceRow> = r
             .importance
             .iter()

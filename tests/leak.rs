@@ -249,7 +249,7 @@ fn every_fitted_step_is_handed_only_training_rows() {
     for r in &results {
         assert_eq!(
             r.status,
-            "ok",
+            forkmap::error::Status::Ok,
             "{}: {:?}",
             c.space.specs[r.spec].label(),
             r.message
@@ -404,7 +404,7 @@ fn changing_a_folds_test_rows_moves_none_of_its_other_predictions() {
     for (a, b) in base.iter().zip(&pert) {
         assert_eq!(a.spec, b.spec);
         let spec = &c.space.specs[a.spec];
-        if a.status != "ok" || b.status != "ok" {
+        if !a.status.is_ok() || !b.status.is_ok() {
             failed.push(format!(
                 "{}: {:?} / {:?}",
                 spec.label(),
@@ -507,7 +507,7 @@ fn failing_specs_are_recorded_and_the_sweep_goes_on() {
             && s.choice("pool").option == "all"
             && s.choice("compress").option == "none";
         if wide {
-            assert_eq!(r.status, "singular", "{}", s.label());
+            assert_eq!(r.status, forkmap::error::Status::Singular, "{}", s.label());
             assert!(
                 r.message
                     .as_deref()
@@ -519,7 +519,13 @@ fn failing_specs_are_recorded_and_the_sweep_goes_on() {
             assert!(r.predictions.is_empty() && r.scores.is_none());
             singular += 1;
         } else {
-            assert_eq!(r.status, "ok", "{}: {:?}", s.label(), r.message);
+            assert_eq!(
+                r.status,
+                forkmap::error::Status::Ok,
+                "{}: {:?}",
+                s.label(),
+                r.message
+            );
         }
     }
     assert!(singular > 0);

@@ -88,8 +88,8 @@ fn smearing_back_transform_is_fitted_in_fold_and_passes_through() {
     let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
     let res = results(&sweep);
     let (r0, r1) = (&res[s0], &res[s1]);
-    assert_eq!(r0.status, "ok");
-    assert_eq!(r1.status, "ok");
+    assert_eq!(r0.status, forkmap::error::Status::Ok);
+    assert_eq!(r1.status, forkmap::error::Status::Ok);
     let mut above = 0;
     for (a, b) in pairs(&r0.predictions, &r1.predictions, "predictions") {
         assert_eq!(a.row, b.row);
@@ -154,7 +154,12 @@ fn permutation_importance_uses_the_smeared_back_transform() {
     sweep.importance = permutation_only(1);
     let res = results(&sweep);
     assert_eq!(res.len(), 1);
-    assert_eq!(res[0].status, "ok", "{:?}", res[0].message);
+    assert_eq!(
+        res[0].status,
+        forkmap::error::Status::Ok,
+        "{:?}",
+        res[0].message
+    );
     let rows: Vec<_> = res[0]
         .importance
         .iter()
@@ -242,7 +247,12 @@ fn indicator_without_training_values_is_dropped_with_a_note() {
     let (space, _, with) = sweep_mem(&panel, choices, permutation_only(1), DRAWS_BUDGET);
     for (si, r) in with.iter().enumerate() {
         let label = space.specs[si].label();
-        assert_eq!(r.status, "ok", "{label}: {:?}", r.message);
+        assert_eq!(
+            r.status,
+            forkmap::error::Status::Ok,
+            "{label}: {:?}",
+            r.message
+        );
         assert_eq!(r.notes.len(), 1, "{label}: {:?}", r.notes);
         let note = &r.notes[0];
         assert!(
@@ -273,7 +283,7 @@ fn nmf_at_its_iteration_limit_is_noted() {
     );
     let res = results(&Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap());
     for (si, r) in res.iter().enumerate() {
-        assert_eq!(r.status, "ok");
+        assert_eq!(r.status, forkmap::error::Status::Ok);
         let one = p.space.specs[si].label().contains("max_iter=1,");
         if one {
             assert_eq!(r.notes.len(), p.folds.folds.len(), "{:?}", r.notes);
@@ -319,7 +329,7 @@ fn failed_importance_is_recorded() {
         DRAWS_BUDGET,
     );
     let r = &res[0];
-    assert_eq!(r.status, "ok", "{:?}", r.message);
+    assert_eq!(r.status, forkmap::error::Status::Ok, "{:?}", r.message);
     assert!(r.scores.unwrap().mae.is_finite());
     assert!(r.importance_failed);
     assert!(r.importance.is_empty(), "{:?}", &r.importance[..2]);

@@ -139,8 +139,18 @@ fn a_pool_bounds_what_a_spec_uses_under_every_fill() {
             let spec = &p.space.specs[si];
             let label = spec.label();
             assert_eq!(a.spec, b.spec);
-            assert_eq!(a.status, "ok", "{label}: {:?}", a.message);
-            assert_eq!(b.status, "ok", "{label}: {:?}", b.message);
+            assert_eq!(
+                a.status,
+                forkmap::error::Status::Ok,
+                "{label}: {:?}",
+                a.message
+            );
+            assert_eq!(
+                b.status,
+                forkmap::error::Status::Ok,
+                "{label}: {:?}",
+                b.message
+            );
             assert_eq!(a.predictions.len(), b.predictions.len());
             for (x, y) in a.predictions.iter().zip(&b.predictions) {
                 assert_eq!(x.row, y.row);

@@ -60,25 +60,61 @@ pub enum FitError {
 }
 
 impl FitError {
-    /// Short cause for the `status` column and the exit summary.
-    pub fn cause(&self) -> &'static str {
+    /// The failure's status (the `status` column and the exit summary).
+    pub fn cause(&self) -> Status {
         match self {
-            FitError::Singular(_) => "singular",
-            FitError::Invalid(_) => "invalid",
-            FitError::NoConvergence(_) => "no_convergence",
-            FitError::Panic(_) => "panic",
+            FitError::Singular(_) => Status::Singular,
+            FitError::Invalid(_) => Status::Invalid,
+            FitError::NoConvergence(_) => Status::NoConvergence,
+            FitError::Panic(_) => Status::Panic,
         }
     }
 }
 
-/// The `&'static` spelling of a stored failure cause (as read back from a run).
-pub fn cause_name(cause: &str) -> &'static str {
-    match cause {
-        "singular" => "singular",
-        "invalid" => "invalid",
-        "no_convergence" => "no_convergence",
-        "panic" => "panic",
-        _ => "other",
+/// What became of a spec: `ok`, or the cause of its failure. Stored by name in the `status`
+/// column of `specs`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Status {
+    Ok,
+    Singular,
+    Invalid,
+    NoConvergence,
+    Panic,
+}
+
+impl Status {
+    pub const ALL: [Status; 5] = [
+        Status::Ok,
+        Status::Singular,
+        Status::Invalid,
+        Status::NoConvergence,
+        Status::Panic,
+    ];
+
+    /// The stored name.
+    pub fn name(self) -> &'static str {
+        match self {
+            Status::Ok => "ok",
+            Status::Singular => "singular",
+            Status::Invalid => "invalid",
+            Status::NoConvergence => "no_convergence",
+            Status::Panic => "panic",
+        }
+    }
+
+    /// The status of a stored name; `None` for a name this version never writes.
+    pub fn parse(name: &str) -> Option<Status> {
+        Status::ALL.into_iter().find(|s| s.name() == name)
+    }
+
+    pub fn is_ok(self) -> bool {
+        self == Status::Ok
+    }
+}
+
+impl std::fmt::Display for Status {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
     }
 }
 

@@ -281,7 +281,7 @@ impl RunSet {
             }
             for (id, cause) in &d.done.failed {
                 if counted.insert(id.as_str()) {
-                    *c.failures.entry(cause.clone()).or_default() += 1;
+                    *c.failures.entry(cause.name().to_string()).or_default() += 1;
                 }
             }
         }

@@ -19,7 +19,7 @@ pub struct Done {
     /// (spec id, skill) of the ok specs among them (NaN where the skill is null: undefined).
     pub skills: Vec<(String, f64)>,
     /// (spec id, failure cause) of the failed ones.
-    pub failed: Vec<(String, String)>,
+    pub failed: Vec<(String, crate::error::Status)>,
     /// Next free part number.
     pub next_part: usize,
     /// Specs with notes among them (the `notes` column not null).
@@ -95,7 +95,17 @@ pub fn read_done(out: &Path) -> Result<(Done, HashSet<String>)> {
                 }
                 for i in 0..batch.num_rows() {
                     let id = ids.value(i).to_string();
-                    if status.value(i) == "ok" {
+                    let st = crate::error::Status::parse(status.value(i)).ok_or_else(|| {
+                        out_err(
+                            &path,
+                            format!(
+                                "row {} (spec {id}) has status `{}`, which this version never writes",
+                                i + 1,
+                                status.value(i)
+                            ),
+                        )
+                    })?;
+                    if st.is_ok() {
                         let sk = if skill.is_null(i) {
                             f64::NAN
                         } else {
@@ -103,7 +113,7 @@ pub fn read_done(out: &Path) -> Result<(Done, HashSet<String>)> {
                         };
                         done.skills.push((id.clone(), sk));
                     } else {
-                        done.failed.push((id.clone(), status.value(i).to_string()));
+                        done.failed.push((id.clone(), st));
                     }
                     done.ids.insert(id);
                 }

@@ -275,7 +275,7 @@ fn stream(
                 if failed.is_some() {
                     continue;
                 }
-                if r.status == "ok" {
+                if r.status.is_ok() {
                     ok += 1;
                 }
                 if let Some(sc) = r.scores.as_ref().filter(|sc| sc.skill.is_finite()) {
@@ -412,7 +412,7 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
     );
     let mut failures = sink.failures.clone();
     for (_, cause) in &done.failed {
-        *failures.entry(crate::error::cause_name(cause)).or_default() += 1;
+        *failures.entry(cause.name()).or_default() += 1;
     }
     let ok = ok_now + done.skills.len();
     let best = skills

@@ -145,8 +145,8 @@ impl<'a> ParquetSink<'a> {
     }
 
     pub fn accept(&mut self, r: SpecResult) -> Result<()> {
-        if r.status != "ok" {
-            *self.failures.entry(r.status).or_default() += 1;
+        if !r.status.is_ok() {
+            *self.failures.entry(r.status.name()).or_default() += 1;
         }
         if !r.notes.is_empty() {
             self.noted += 1;
@@ -243,7 +243,7 @@ impl<'a> ParquetSink<'a> {
         }
         fields.push(Field::new("status", DataType::Utf8, false));
         cols.push(Arc::new(StringArray::from_iter_values(
-            rs.iter().map(|r| r.status),
+            rs.iter().map(|r| r.status.name()),
         )));
         fields.push(Field::new("message", DataType::Utf8, true));
         cols.push(Arc::new(StringArray::from_iter(

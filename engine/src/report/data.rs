@@ -171,7 +171,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                 if seen.insert(id.clone(), ()).is_some() {
                     continue;
                 }
-                if status.value(i) != "ok" {
+                if status.value(i) != crate::error::Status::Ok.name() {
                     *t.left_out
                         .entry(format!("failed ({})", status.value(i)))
                         .or_default() += 1;

@@ -67,7 +67,7 @@ pub struct SpecResult {
     /// feed a prediction); `None` without compression.
     pub loadings: Option<Arc<Loadings>>,
     /// `ok` or the failure cause (`singular`, `invalid`, `no_convergence`, `panic`).
-    pub status: &'static str,
+    pub status: crate::error::Status,
     pub message: Option<String>,
     /// Notes on an ok (or failed) spec, in fold order, each naming its repeat, fold and
     /// step (`repeat 0, fold 2: fill `median`: ...`); written `; `-joined to the `notes`

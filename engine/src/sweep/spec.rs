@@ -160,7 +160,7 @@ impl<'a> Sweep<'a> {
         SpecResult {
             spec: si,
             loadings: None,
-            status: "ok",
+            status: crate::error::Status::Ok,
             message: None,
             notes,
             importance_failed,
