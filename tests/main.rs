@@ -7,6 +7,7 @@ mod common;
 mod curves;
 mod determinism;
 mod end_to_end;
+mod extend;
 mod folds_prop;
 mod importance;
 mod intake_fuzz;

@@ -8,6 +8,7 @@
 pub mod config;
 pub mod curves;
 pub mod error;
+pub mod extend;
 pub mod folds;
 pub mod gather;
 pub mod importance;
