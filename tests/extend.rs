@@ -309,6 +309,11 @@ fn an_extended_run_equals_a_fresh_run_and_keeps_its_old_parts() {
             total - old_specs
         );
         assert!(l[1]["finished"].is_string());
+        // The forest's parameters are columns the old specs parts lack.
+        assert_eq!(
+            l[1]["added_columns"],
+            serde_json::json!(["forest_trees", "forest_tried", "forest_min_leaf"])
+        );
         // The report was rewritten for the whole extended space.
         assert!(out.join("report/index.html").is_file());
         let page = std::fs::read_to_string(out.join("report/index.html")).unwrap();
@@ -318,7 +323,10 @@ fn an_extended_run_equals_a_fresh_run_and_keeps_its_old_parts() {
         let text = String::from_utf8_lossy(&c.stdout);
         assert!(c.status.success(), "{text}");
         assert!(
-            text.contains("extended") && text.contains(&format!("{total} of {total}")),
+            text.contains("extended")
+                && text.contains(&format!("{total} of {total}"))
+                && text.contains("forest_trees")
+                && text.contains("union_by_name"),
             "{text}"
         );
         // The same config again is a resume with nothing to run; nothing changes.
@@ -462,6 +470,46 @@ fn extensions_that_change_old_results_are_refused_naming_the_difference() {
     assert_ne!(o.status.code(), Some(0));
     assert!(stderr(&o).contains("add --extend"), "{}", stderr(&o));
     assert!(snapshot(&out) == before);
+}
+
+/// A gathered run extends like any finished run (its lineage keeps where the shards were),
+/// and `forkmap map` reads the extended run.
+#[test]
+fn a_gathered_run_is_extended() {
+    let tmp = tempfile::tempdir().unwrap();
+    let knobs = Knobs {
+        within: "within = 0.05",
+        ..Knobs::default()
+    };
+    let small = write_config(tmp.path(), "small.toml", SMALL, &knobs);
+    let big = write_config(tmp.path(), "big.toml", BIG, &knobs);
+    let fresh = tmp.path().join("fresh");
+    ok(&run(&big, &fresh, &["--no-map"]), "fresh run");
+    let shards = tmp.path().join("shards");
+    for s in ["1/2", "2/2"] {
+        let d = shards.join(s.replace('/', "-of-"));
+        ok(&run(&small, &d, &["--shard", s]), "shard");
+    }
+    let out = tmp.path().join("gathered");
+    let mut a: Vec<&std::ffi::OsStr> = vec!["gather".as_ref(), shards.as_os_str()];
+    a.extend([
+        "--out".as_ref(),
+        out.as_os_str(),
+        "--config".as_ref(),
+        small.as_os_str(),
+    ]);
+    ok(&forkmap(&a), "gather");
+    ok(&run(&big, &out, &["--extend", "--no-map"]), "extension");
+    assert_same_tables(&out, &fresh);
+    let m = manifest(&out);
+    assert_eq!(
+        m["lineage"][0]["gathered_from"].as_array().unwrap().len(),
+        2
+    );
+    assert_eq!(m["status"], "complete");
+    let o = forkmap(&["map".as_ref(), out.as_os_str(), "--quiet".as_ref()]);
+    ok(&o, "map");
+    assert!(out.join("report/index.html").is_file());
 }
 
 fn specs_parts(d: &Path) -> usize {

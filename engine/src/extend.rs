@@ -30,6 +30,21 @@ use std::path::Path;
 /// between a run and its extension. Every other key must be equal.
 pub const SPACE_KEYS: &[&str] = &["choices", "pools", "grid", "exclude", "sample", "output"];
 
+/// Column names of the run's complete specs parts (the union over parts).
+fn specs_columns(out: &Path, parts: &std::collections::HashSet<String>) -> BTreeSet<String> {
+    let mut names = BTreeSet::new();
+    for name in parts {
+        let path = out.join("specs").join(name);
+        let Ok(f) = std::fs::File::open(&path) else {
+            continue;
+        };
+        if let Ok(b) = parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder::try_new(f) {
+            names.extend(b.schema().fields().iter().map(|f| f.name().clone()));
+        }
+    }
+    names
+}
+
 /// An accepted extension.
 #[derive(Debug)]
 pub struct Extension {
@@ -39,6 +54,9 @@ pub struct Extension {
     pub old: usize,
     /// Specs this config adds.
     pub added: usize,
+    /// Parameter columns of the specs table that the run's parts lack (a reader that
+    /// takes the first part's schema would miss them).
+    pub added_columns: Vec<String>,
 }
 
 /// sha256 (hex) of a canonical config's JSON text.
@@ -139,7 +157,7 @@ pub fn check(
             "it is shard {s}: a shard's specs follow from the whole space, which an extension changes, so shards are not extended (gather them with `forkmap gather`, then extend the gathered run)"
         ));
     }
-    let (done, _) = read_done(out).map_err(|e| e.to_string())?;
+    let (done, parts) = read_done(out).map_err(|e| e.to_string())?;
     let total = manifest["specs"].as_u64().unwrap_or(0) as usize;
     if manifest["status"] != "complete" || done.ids.len() < total {
         return Err(format!(
@@ -208,17 +226,33 @@ pub fn check(
         );
     }
     added.sort_unstable();
+    let have = specs_columns(out, &parts);
+    let added_columns: Vec<String> = p
+        .space
+        .param_columns()
+        .into_iter()
+        .map(|(o, c)| format!("{o}_{c}"))
+        .filter(|c| !have.contains(c))
+        .collect();
     let now = chrono::Utc::now().to_rfc3339();
     let mut lineage: Vec<Value> = match manifest["lineage"].as_array() {
         Some(l) => l.clone(),
-        None => vec![json!({
-            "config_file": manifest["config_file"],
-            "config_sha256": config_sha256(old),
-            "specs_added": done.ids.len(),
-            "spec_ids": Value::Null,
-            "started": manifest["started"],
-            "finished": manifest["finished"],
-        })],
+        None => {
+            let mut first = json!({
+                "config_file": manifest["config_file"],
+                "config_sha256": config_sha256(old),
+                "specs_added": done.ids.len(),
+                "spec_ids": Value::Null,
+                "started": manifest["started"],
+                "finished": manifest["finished"],
+            });
+            // A gathered run: where its shards were (the rewritten manifest drops it).
+            if !manifest["gathered_from"].is_null() {
+                first["gathered_from"] = manifest["gathered_from"].clone();
+                first["finished"] = manifest["gathered"].clone();
+            }
+            vec![first]
+        }
     };
     lineage.push(json!({
         "config_file": p.cfg.source,
@@ -226,6 +260,7 @@ pub fn check(
         "specs_added": added.len(),
         "specs_total": p.space.specs.len(),
         "spec_ids": added,
+        "added_columns": added_columns,
         "started": now,
         "finished": Value::Null,
     }));
@@ -233,6 +268,7 @@ pub fn check(
         lineage: Value::Array(lineage),
         old: done.ids.len(),
         added: added.len(),
+        added_columns,
     })
 }
 
@@ -247,12 +283,29 @@ pub fn finish_lineage(lineage: &Value) -> Value {
     l
 }
 
-/// One line per lineage entry, for `forkmap check`.
-pub fn describe(manifest: &Value) -> Vec<String> {
+/// The note to print when an extension adds parameter columns to the specs table.
+pub fn columns_note(columns: &[String], out: &Path) -> Option<String> {
+    (!columns.is_empty()).then(|| {
+        format!(
+            "the new specs parts add the specs columns {}, which the older parts lack: read the table by column name (DuckDB: read_parquet('{}/specs/*.parquet', union_by_name = true); pyarrow: a dataset with the parts' unified schema)",
+            columns.join(", "),
+            out.display()
+        )
+    })
+}
+
+/// One line per lineage entry, for `forkmap check`, then the columns note.
+pub fn describe(manifest: &Value, out: &Path) -> Vec<String> {
     let Some(l) = manifest["lineage"].as_array() else {
         return Vec::new();
     };
-    l.iter()
+    let columns: Vec<String> = l
+        .iter()
+        .flat_map(|e| e["added_columns"].as_array().cloned().unwrap_or_default())
+        .filter_map(|c| c.as_str().map(str::to_string))
+        .collect();
+    let mut lines: Vec<String> = l
+        .iter()
         .enumerate()
         .map(|(i, e)| {
             format!(
@@ -272,7 +325,9 @@ pub fn describe(manifest: &Value) -> Vec<String> {
                 }
             )
         })
-        .collect()
+        .collect();
+    lines.extend(columns_note(&columns, out).map(|n| format!("note       {n}")));
+    lines
 }
 
 #[cfg(test)]

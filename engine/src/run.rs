@@ -438,6 +438,9 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
                 ext.old,
                 todo.len()
             );
+            if let Some(n) = crate::extend::columns_note(&ext.added_columns, out) {
+                eprintln!("forkmap: note: {n}");
+            }
         } else if !opts.quiet && resumes > 0 {
             eprintln!(
                 "forkmap: resuming: {} specs done, {} to run",
