@@ -465,6 +465,31 @@ fn extensions_that_change_old_results_are_refused_naming_the_difference() {
         stderr(&o)
     );
     assert!(!none.exists(), "--extend created a folder");
+    // A run of another forkmap version, and an unfinished run (manifests edited in copies).
+    for (name, field, value, want) in [
+        (
+            "version",
+            "version",
+            "0.0.0-old",
+            "forkmap version differs (the run's \"0.0.0-old\"",
+        ),
+        ("unfinished", "status", "running", "it is unfinished"),
+    ] {
+        let copy = tmp.path().join(name);
+        for (rel, bytes) in &before {
+            let p = copy.join(rel);
+            std::fs::create_dir_all(p.parent().unwrap()).unwrap();
+            std::fs::write(p, bytes).unwrap();
+        }
+        let mut m = manifest(&copy);
+        m[field] = serde_json::json!(value);
+        std::fs::write(copy.join("manifest.json"), m.to_string()).unwrap();
+        let was = snapshot(&copy);
+        let o = run(&big, &copy, &["--extend"]);
+        assert_ne!(o.status.code(), Some(0), "{name}: accepted");
+        assert!(stderr(&o).contains(want), "{name}: {}", stderr(&o));
+        assert!(snapshot(&copy) == was, "{name}: the run directory changed");
+    }
     // Without --extend, a run the config extends is refused with a pointer to --extend.
     let o = run(&big, &out, &[]);
     assert_ne!(o.status.code(), Some(0));
