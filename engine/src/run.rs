@@ -91,7 +91,7 @@ enum Start {
         done: crate::resume::Done,
         manifest: serde_json::Value,
         /// Set when the folder's run is extended with a larger config (`--extend`).
-        extension: Option<crate::extend::Extension>,
+        extension: Option<Box<crate::extend::Extension>>,
     },
 }
 
@@ -164,7 +164,7 @@ fn open_out(
                 return Ok(Start::Resume {
                     done: crate::resume::scan(out)?,
                     manifest: m,
-                    extension: Some(ext),
+                    extension: Some(Box::new(ext)),
                 });
             }
             Err(what) if !restart => {
