@@ -8,6 +8,7 @@ mod curves;
 mod declare;
 mod determinism;
 mod end_to_end;
+mod extend;
 mod folds_prop;
 mod importance;
 mod intake_fuzz;

@@ -90,6 +90,8 @@ enum Start {
     Resume {
         done: crate::resume::Done,
         manifest: serde_json::Value,
+        /// Set when the folder's run is extended with a larger config (`--extend`).
+        extension: Option<Box<crate::extend::Extension>>,
     },
 }
 
@@ -106,7 +108,14 @@ fn open_out(
     sha: &str,
     restart: bool,
     shard: Option<crate::shard::Shard>,
+    extend: bool,
 ) -> Result<Start> {
+    if extend && !out.join("manifest.json").is_file() {
+        return Err(out_err(
+            out,
+            "holds no forkmap run to extend (--extend adds specs to a finished run)",
+        ));
+    }
     if !out.exists() {
         std::fs::create_dir_all(out).map_err(|e| out_err(out, format!("cannot create: {e}")))?;
         return Ok(Start::Fresh { created: true });
@@ -142,12 +151,31 @@ fn open_out(
                 return Ok(Start::Resume {
                     done: crate::resume::scan(out)?,
                     manifest: m,
+                    extension: None,
+                });
+            }
+            Err(_) if extend => {
+                let ext = crate::extend::check(&m, out, p, sha).map_err(|what| {
+                    out_err(
+                        out,
+                        format!("cannot be extended with this config: its {what}"),
+                    )
+                })?;
+                return Ok(Start::Resume {
+                    done: crate::resume::scan(out)?,
+                    manifest: m,
+                    extension: Some(Box::new(ext)),
                 });
             }
             Err(what) if !restart => {
+                let hint = if shard.is_none() && crate::extend::check(&m, out, p, sha).is_ok() {
+                    " (this config keeps every spec of that run: add --extend to run only its new specs)"
+                } else {
+                    ""
+                };
                 return Err(out_err(
                     out,
-                    format!("holds a run whose {what} differs from this one: resume refused (use --restart to discard that run, or choose another --out)"),
+                    format!("holds a run whose {what} differs from this one: resume refused (use --restart to discard that run, or choose another --out){hint}"),
                 ));
             }
             _ => {
@@ -310,6 +338,23 @@ fn stream(
 
 /// Run every spec of `p` into `out`.
 pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSummary> {
+    run_inner(p, out, opts, false)
+}
+
+/// Extend the finished run in `out` with `p`, a config whose space holds every spec of
+/// the run: run only the new specs (see [`crate::extend`]). A run of this same config in
+/// `out` is resumed as by [`run_to_dir`].
+pub fn extend_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSummary> {
+    if opts.shard.is_some() || opts.restart {
+        return Err(out_err(
+            out,
+            "--extend takes neither --shard (shards are not extended: gather them, then extend the gathered run) nor --restart",
+        ));
+    }
+    run_inner(p, out, opts, true)
+}
+
+fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Result<RunSummary> {
     let imp = &p.cfg.importance;
     let mut sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None)?;
     // With `importance.within`, the permutation kinds wait for a second pass over the
@@ -323,9 +368,11 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
     if let Some(sh) = opts.shard {
         crate::shard::check(&p.space, sh)?;
     }
-    let start = open_out(p, out, &sha, opts.restart, opts.shard)?;
+    let start = open_out(p, out, &sha, opts.restart, opts.shard, extend)?;
     let t0 = std::time::Instant::now();
     let manifest_path = out.join("manifest.json");
+    let mut lineage = serde_json::Value::Null;
+    let mut extension = None;
     let (created, done, started, resumes) = match start {
         Start::Fresh { created } => (
             created,
@@ -333,7 +380,30 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
             chrono::Utc::now().to_rfc3339(),
             0u64,
         ),
-        Start::Resume { done, manifest } => {
+        Start::Resume {
+            done,
+            manifest,
+            extension: Some(ext),
+        } => {
+            // The old report describes a smaller run: it is rewritten at the end.
+            let report = out.join(crate::report::REPORT_DIR);
+            if report.is_dir() {
+                std::fs::remove_dir_all(&report).map_err(|e| Error::io(&report, e))?;
+            }
+            lineage = ext.lineage.clone();
+            extension = Some(ext);
+            let started = manifest["started"]
+                .as_str()
+                .map(str::to_string)
+                .unwrap_or_else(|| chrono::Utc::now().to_rfc3339());
+            (false, done, started, 0u64)
+        }
+        Start::Resume {
+            done,
+            manifest,
+            extension: None,
+        } => {
+            lineage = manifest["lineage"].clone();
             let started = manifest["started"]
                 .as_str()
                 .map(str::to_string)
@@ -362,7 +432,16 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
         } else {
             imp.clone()
         });
-        if !opts.quiet && resumes > 0 {
+        if let (false, Some(ext)) = (opts.quiet, &extension) {
+            eprintln!(
+                "forkmap: extending: {} specs kept, {} new to run",
+                ext.old,
+                todo.len()
+            );
+            if let Some(n) = crate::extend::columns_note(&ext.added_columns, out) {
+                eprintln!("forkmap: note: {n}");
+            }
+        } else if !opts.quiet && resumes > 0 {
             eprintln!(
                 "forkmap: resuming: {} specs done, {} to run",
                 done.ids.len(),
@@ -376,6 +455,9 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
     });
     let mut first_extra = shard_fields.clone();
     first_extra["resumes"] = serde_json::json!(resumes);
+    if !lineage.is_null() {
+        first_extra["lineage"] = lineage.clone();
+    }
     let first = manifest(p, &sha, opts.threads, &started, "running", first_extra);
     if let Err(e) = write_bytes_atomic(
         &manifest_path,
@@ -464,6 +546,9 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
     });
     if let (Some(e), serde_json::Value::Object(sf)) = (extra.as_object_mut(), shard_fields) {
         e.extend(sf);
+    }
+    if !lineage.is_null() {
+        extra["lineage"] = crate::extend::finish_lineage(&lineage);
     }
     let last = manifest(p, &sha, opts.threads, &started, "complete", extra);
     write_bytes_atomic(

@@ -1,5 +1,6 @@
 """Compare two forkmap run directories table by table: the same rows, bit for bit, once
-sorted (columns ending in `seconds`, wall-clock timings, are left out). Exit 1 on any
+sorted (columns ending in `seconds`, wall-clock timings, are left out; columns are
+matched by name, a column a part lacks read as null). Exit 1 on any
 difference. Usage: python same_results.py RUN_A RUN_B"""
 
 import sys
@@ -10,13 +11,14 @@ import pyarrow.parquet as pq
 TABLES = ["specs", "predictions", "loadings", "importance"]
 
 
-def rows(run: Path, table: str):
-    files = sorted((run / table).glob("part-*.parquet"))
+def rows(run: Path, table: str, names: list):
+    """Rows as text over `names`, by column name: a column a part lacks is null there (the
+    specs parts of an extended run carry the parameter columns of their own config)."""
     out = []
-    for f in files:
+    for f in sorted((run / table).glob("part-*.parquet")):
         t = pq.read_table(f)
-        keep = [c for c in t.column_names if not c.endswith("seconds")]
-        cols = [t.column(c).to_pylist() for c in keep]
+        n = t.num_rows
+        cols = [t.column(c).to_pylist() if c in t.column_names else [None] * n for c in names]
         for r in zip(*cols):
             # repr of a float is exact (shortest round-trip), so equal text = equal bits.
             out.append("|".join(repr(v) for v in r))
@@ -24,11 +26,20 @@ def rows(run: Path, table: str):
     return out
 
 
+def columns(runs, table: str) -> list:
+    names = set()
+    for run in runs:
+        for f in (run / table).glob("part-*.parquet"):
+            names.update(pq.read_schema(f).names)
+    return sorted(c for c in names if not c.endswith("seconds"))
+
+
 def main() -> int:
     a, b = Path(sys.argv[1]), Path(sys.argv[2])
     bad = 0
     for t in TABLES:
-        ra, rb = rows(a, t), rows(b, t)
+        names = columns([a, b], t)
+        ra, rb = rows(a, t, names), rows(b, t, names)
         if ra != rb:
             only_a = len(set(ra) - set(rb))
             only_b = len(set(rb) - set(ra))

@@ -31,6 +31,11 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             d.expected
         );
     }
+    for d in &set.dirs {
+        for line in forkmap::extend::describe(&d.manifest, &d.path) {
+            println!("{line}");
+        }
+    }
     let c = set.completeness();
     for line in c.describe() {
         println!("{line}");

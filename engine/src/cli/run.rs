@@ -1,5 +1,5 @@
 //! `forkmap run CONFIG --out RUN_DIR [--threads N] [--quiet] [--restart] [--shard I/N]
-//!  [--no-map] [map flags]`
+//!  [--extend] [--no-map] [map flags]`
 //!
 //! Run every spec of the config on all cores and write RUN_DIR: `manifest.json`,
 //! `specs/part-*.parquet` (one row per spec) and `predictions/part-*.parquet` (one row per
@@ -15,6 +15,12 @@
 //! the sweep completed (failed specs are recorded and counted), 2 on an error. A report
 //! that fails does not fail the run: its results are complete and kept, the failure is
 //! printed as a warning, and `forkmap map RUN_DIR` writes the report later.
+//!
+//! With `--extend`, RUN_DIR holds a finished run of a smaller config: CONFIG must keep
+//! every spec of it and change nothing its results depend on (data file, seed, folds,
+//! importance settings, version; see `forkmap::extend`); only the new specs run, the old
+//! parts stay as they are, the manifest's `lineage` records the extension, and the report
+//! is rewritten. Anything else is refused naming what differs, with nothing written.
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -40,6 +46,10 @@ pub struct Args {
     /// `forkmap gather` joins the shards.
     #[arg(long, value_name = "I/N")]
     shard: Option<forkmap::shard::Shard>,
+    /// Add the specs of CONFIG that the finished run in RUN_DIR lacks (CONFIG keeps every
+    /// spec of that run, with the same data, seed, folds and importance settings).
+    #[arg(long, conflicts_with_all = ["restart", "shard"])]
+    extend: bool,
     /// Do not write the report at the end.
     #[arg(long)]
     no_map: bool,
@@ -74,16 +84,17 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             a.out.display()
         );
     }
-    let s = forkmap::run::run_to_dir(
-        &p,
-        &a.out,
-        &forkmap::run::RunOptions {
-            threads,
-            quiet: a.quiet,
-            restart: a.restart,
-            shard: a.shard,
-        },
-    )?;
+    let opts = forkmap::run::RunOptions {
+        threads,
+        quiet: a.quiet,
+        restart: a.restart,
+        shard: a.shard,
+    };
+    let s = if a.extend {
+        forkmap::run::extend_dir(&p, &a.out, &opts)?
+    } else {
+        forkmap::run::run_to_dir(&p, &a.out, &opts)?
+    };
     let failed: usize = s.failures.values().sum();
     println!("specs      {} ({} ok, {failed} failed)", s.specs, s.ok);
     for (cause, n) in &s.failures {

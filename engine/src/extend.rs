@@ -1,0 +1,368 @@
+//! Extending a finished run with a larger config (`forkmap run BIGGER.toml --out RUN
+//! --extend`): only the spec ids new to the run are run, into new parts numbered after the
+//! old ones; the old parts are left as they are, byte for byte.
+//!
+//! An extension is accepted only when nothing that an old spec's results depend on has
+//! changed: the forkmap version, the data file (sha256), and every part of the config
+//! outside the choice space (`seed`, `[data]` but its file path, `[folds]`,
+//! `[importance]`, and any section added later, which is compared by default), and only
+//! when every spec id of the run is still in the new space (invariant 2: an id is the hash
+//! of the canonical spec, so an unchanged id over unchanged data, folds and seed means
+//! unchanged results, invariant 3). The sections that only shape the space (`[choices]`,
+//! `[pools]`, `[grid]`, `[exclude]`, `[sample]`) and `[output]` (part sizes) may differ.
+//! The run must be finished and a whole-space run: a shard's spec list comes from
+//! `shard::owners` over the whole space, which a larger space redistributes, so shards are
+//! gathered first and the gathered run is extended.
+//!
+//! What changes with the space is recomputed, as a resume does: the deferred permutation
+//! pass (`importance.within`, `importance/part-iNNNNN`) over the whole extended space, the
+//! manifest's counts, and the report. The manifest's `lineage` lists which config (path,
+//! sha256 of its canonical form) added which specs, how many and when.
+
+use crate::resume::read_done;
+use crate::run::Prepared;
+use serde_json::{json, Value};
+use sha2::{Digest, Sha256};
+use std::collections::BTreeSet;
+use std::path::Path;
+
+/// Config keys that only shape the choice space (or the part size): they may differ
+/// between a run and its extension. Every other key must be equal.
+pub const SPACE_KEYS: &[&str] = &["choices", "pools", "grid", "exclude", "sample", "output"];
+
+/// Column names of the run's complete specs parts (the union over parts).
+fn specs_columns(out: &Path, parts: &std::collections::HashSet<String>) -> BTreeSet<String> {
+    let mut names = BTreeSet::new();
+    for name in parts {
+        let path = out.join("specs").join(name);
+        let Ok(f) = std::fs::File::open(&path) else {
+            continue;
+        };
+        if let Ok(b) = parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder::try_new(f) {
+            names.extend(b.schema().fields().iter().map(|f| f.name().clone()));
+        }
+    }
+    names
+}
+
+/// An accepted extension.
+#[derive(Debug)]
+pub struct Extension {
+    /// The lineage to write into the manifest (the run's entries, then this one).
+    pub lineage: Value,
+    /// Specs the run holds.
+    pub old: usize,
+    /// Specs this config adds.
+    pub added: usize,
+    /// Parameter columns of the specs table that the run's parts lack (a reader that
+    /// takes the first part's schema would miss them).
+    pub added_columns: Vec<String>,
+}
+
+/// sha256 (hex) of a canonical config's JSON text.
+pub fn config_sha256(config: &Value) -> String {
+    hex::encode(Sha256::digest(config.to_string().as_bytes()))
+}
+
+fn show(v: &Value) -> String {
+    match v {
+        Value::Null => "not set".into(),
+        other => other.to_string(),
+    }
+}
+
+/// The first place (a dotted key path) where two JSON values differ, with both values.
+fn first_difference(path: &str, a: &Value, b: &Value) -> Option<String> {
+    match (a, b) {
+        (Value::Object(x), Value::Object(y)) => {
+            let keys: BTreeSet<&String> = x.keys().chain(y.keys()).collect();
+            keys.into_iter().find_map(|k| {
+                let p = if path.is_empty() {
+                    k.clone()
+                } else {
+                    format!("{path}.{k}")
+                };
+                first_difference(
+                    &p,
+                    x.get(k).unwrap_or(&Value::Null),
+                    y.get(k).unwrap_or(&Value::Null),
+                )
+            })
+        }
+        _ if a == b => None,
+        _ => Some(format!(
+            "{path} (the run's {}, this config's {})",
+            show(a),
+            show(b)
+        )),
+    }
+}
+
+/// Options, grid values and pools the run's config lists that the new config drops,
+/// where both configs list them (a dimension left to its default is judged by spec ids).
+fn removed_options(old: &Value, new: &Value) -> Vec<String> {
+    let mut out = Vec::new();
+    let list = |v: &Value| -> Vec<Value> { v.as_array().cloned().unwrap_or_default() };
+    if let (Some(o), Some(n)) = (old["choices"].as_object(), new["choices"].as_object()) {
+        for (dim, opts) in o {
+            let Some(nopts) = n.get(dim) else { continue };
+            for opt in list(opts) {
+                if !list(nopts).contains(&opt) {
+                    out.push(format!("option {dim} = {opt}"));
+                }
+            }
+        }
+    }
+    if let (Some(o), Some(n)) = (old["grid"].as_object(), new["grid"].as_object()) {
+        for (opt, params) in o {
+            for (param, vals) in params.as_object().into_iter().flatten() {
+                let nvals = list(&n.get(opt).map(|g| g[param].clone()).unwrap_or_default());
+                for v in list(vals) {
+                    if !nvals.contains(&v) {
+                        out.push(format!("grid value {opt}.{param} = {v}"));
+                    }
+                }
+            }
+        }
+    }
+    if let (Some(o), Some(n)) = (old["pools"].as_object(), new["pools"].as_object()) {
+        for (name, members) in o {
+            match n.get(name) {
+                None => out.push(format!("pool {name}")),
+                Some(m) if m != members => out.push(format!("pool {name}'s members")),
+                _ => {}
+            }
+        }
+    }
+    out
+}
+
+/// Whether `p` (with data sha256 `sha`) may extend the run in `out` whose manifest is
+/// `manifest`; `Err` names what differs. Reads the run, changes nothing.
+pub fn check(
+    manifest: &Value,
+    out: &Path,
+    p: &Prepared,
+    sha: &str,
+) -> std::result::Result<Extension, String> {
+    if manifest["version"] != env!("CARGO_PKG_VERSION") {
+        return Err(format!(
+            "forkmap version differs (the run's {}, this is {})",
+            show(&manifest["version"]),
+            env!("CARGO_PKG_VERSION")
+        ));
+    }
+    if let Some(s) = manifest["shard"].as_str() {
+        return Err(format!(
+            "it is shard {s}: a shard's specs follow from the whole space, which an extension changes, so shards are not extended (gather them with `forkmap gather`, then extend the gathered run)"
+        ));
+    }
+    let (done, parts) = read_done(out).map_err(|e| e.to_string())?;
+    let total = manifest["specs"].as_u64().unwrap_or(0) as usize;
+    if manifest["status"] != "complete" || done.ids.len() < total {
+        return Err(format!(
+            "it is unfinished ({} of {total} specs): finish it first with `forkmap run {} --out {}`, then extend it",
+            done.ids.len(),
+            manifest["config_file"].as_str().unwrap_or("CONFIG"),
+            out.display()
+        ));
+    }
+    if manifest["data_sha256"] != sha {
+        return Err(format!(
+            "data file differs (sha256 of {} is not that of the run's {})",
+            p.data_path.display(),
+            manifest["data_file"].as_str().unwrap_or("data file")
+        ));
+    }
+    let new = p.cfg.canonical_json();
+    let old = &manifest["config"];
+    let identity = |c: &Value| -> Value {
+        let mut c = c.clone();
+        if let Some(o) = c.as_object_mut() {
+            for k in SPACE_KEYS {
+                o.remove(*k);
+            }
+        }
+        // The data file is judged by its sha256 above, not by the path written.
+        if let Some(d) = c.get_mut("data").and_then(Value::as_object_mut) {
+            d.remove("file");
+        }
+        c
+    };
+    if let Some(d) = first_difference("", &identity(old), &identity(&new)) {
+        return Err(format!("{d} differs"));
+    }
+    let removed = removed_options(old, &new);
+    if !removed.is_empty() {
+        return Err(format!(
+            "config removes {} (an extension keeps every spec of the run)",
+            removed.join(", ")
+        ));
+    }
+    let ids: BTreeSet<&str> = p.space.specs.iter().map(|s| s.id.as_str()).collect();
+    let mut missing: Vec<&String> = done
+        .ids
+        .iter()
+        .filter(|id| !ids.contains(id.as_str()))
+        .collect();
+    if !missing.is_empty() {
+        missing.sort();
+        let shown: Vec<&str> = missing.iter().take(3).map(|s| s.as_str()).collect();
+        return Err(format!(
+            "space lacks {} of the run's {} specs (e.g. spec_id {}: a removed option, grid value or pool, an added exclusion or a different sample); an extension keeps every spec of the run",
+            missing.len(),
+            done.ids.len(),
+            shown.join(", ")
+        ));
+    }
+    let mut added: Vec<&str> = ids
+        .iter()
+        .copied()
+        .filter(|id| !done.ids.contains(*id))
+        .collect();
+    if added.is_empty() {
+        return Err(
+            "config adds no spec to it: nothing to extend (the config's space is the run's)".into(),
+        );
+    }
+    added.sort_unstable();
+    let have = specs_columns(out, &parts);
+    let added_columns: Vec<String> = p
+        .space
+        .param_columns()
+        .into_iter()
+        .map(|(o, c)| format!("{o}_{c}"))
+        .filter(|c| !have.contains(c))
+        .collect();
+    let now = chrono::Utc::now().to_rfc3339();
+    let mut lineage: Vec<Value> = match manifest["lineage"].as_array() {
+        Some(l) => l.clone(),
+        None => {
+            let mut first = json!({
+                "config_file": manifest["config_file"],
+                "config_sha256": config_sha256(old),
+                "specs_added": done.ids.len(),
+                "spec_ids": Value::Null,
+                "started": manifest["started"],
+                "finished": manifest["finished"],
+            });
+            // A gathered run: where its shards were (the rewritten manifest drops it).
+            if !manifest["gathered_from"].is_null() {
+                first["gathered_from"] = manifest["gathered_from"].clone();
+                first["finished"] = manifest["gathered"].clone();
+            }
+            vec![first]
+        }
+    };
+    lineage.push(json!({
+        "config_file": p.cfg.source,
+        "config_sha256": config_sha256(&new),
+        "specs_added": added.len(),
+        "specs_total": p.space.specs.len(),
+        "spec_ids": added,
+        "added_columns": added_columns,
+        "started": now,
+        "finished": Value::Null,
+    }));
+    Ok(Extension {
+        lineage: Value::Array(lineage),
+        old: done.ids.len(),
+        added: added.len(),
+        added_columns,
+    })
+}
+
+/// The lineage to write when a run completes: the last entry's `finished` set when unset.
+pub fn finish_lineage(lineage: &Value) -> Value {
+    let mut l = lineage.clone();
+    if let Some(last) = l.as_array_mut().and_then(|a| a.last_mut()) {
+        if last["finished"].is_null() {
+            last["finished"] = json!(chrono::Utc::now().to_rfc3339());
+        }
+    }
+    l
+}
+
+/// The note to print when an extension adds parameter columns to the specs table.
+pub fn columns_note(columns: &[String], out: &Path) -> Option<String> {
+    (!columns.is_empty()).then(|| {
+        format!(
+            "the new specs parts add the specs columns {}, which the older parts lack: read the table by column name (DuckDB: read_parquet('{}/specs/*.parquet', union_by_name = true); pyarrow: a dataset with the parts' unified schema)",
+            columns.join(", "),
+            out.display()
+        )
+    })
+}
+
+/// One line per lineage entry, for `forkmap check`, then the columns note.
+pub fn describe(manifest: &Value, out: &Path) -> Vec<String> {
+    let Some(l) = manifest["lineage"].as_array() else {
+        return Vec::new();
+    };
+    let columns: Vec<String> = l
+        .iter()
+        .flat_map(|e| e["added_columns"].as_array().cloned().unwrap_or_default())
+        .filter_map(|c| c.as_str().map(str::to_string))
+        .collect();
+    let mut lines: Vec<String> = l
+        .iter()
+        .enumerate()
+        .map(|(i, e)| {
+            format!(
+                "{} {} (config sha256 {}): {} specs, {}{}",
+                if i == 0 { "lineage   " } else { "extended  " },
+                e["config_file"].as_str().unwrap_or("?"),
+                e["config_sha256"]
+                    .as_str()
+                    .map(|s| &s[..s.len().min(12)])
+                    .unwrap_or("?"),
+                e["specs_added"],
+                e["started"].as_str().unwrap_or("?"),
+                if e["finished"].is_null() {
+                    ", unfinished"
+                } else {
+                    ""
+                }
+            )
+        })
+        .collect();
+    lines.extend(columns_note(&columns, out).map(|n| format!("note       {n}")));
+    lines
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn first_difference_names_the_key_path() {
+        let a = json!({"seed": 1, "folds": {"k": 5, "scheme": "kfold"}});
+        let b = json!({"seed": 1, "folds": {"k": 4, "scheme": "kfold"}});
+        assert_eq!(
+            first_difference("", &a, &b).unwrap(),
+            "folds.k (the run's 5, this config's 4)"
+        );
+        assert!(first_difference("", &a, &a).is_none());
+        let c = json!({"seed": 1, "folds": {"k": 5, "scheme": "kfold"}, "x": {"y": 2}});
+        assert_eq!(
+            first_difference("", &a, &c).unwrap(),
+            "x (the run's not set, this config's {\"y\":2})"
+        );
+    }
+
+    #[test]
+    fn removed_options_are_named() {
+        let old = json!({"choices": {"model": ["ridge", "tree"]}, "grid": {"ridge": {"alpha": [1, 10]}}, "pools": {"core": ["a"]}});
+        let new = json!({"choices": {"model": ["ridge", "forest"]}, "grid": {"ridge": {"alpha": [1]}}, "pools": {"core": ["a", "b"]}});
+        let r = removed_options(&old, &new);
+        assert_eq!(
+            r,
+            vec![
+                "option model = \"tree\"",
+                "grid value ridge.alpha = 10",
+                "pool core's members"
+            ]
+        );
+        assert!(removed_options(&old, &old).is_empty());
+    }
+}
