@@ -294,12 +294,12 @@ fn an_extended_run_equals_a_fresh_run_and_keeps_its_old_parts() {
         assert_eq!(l[0]["specs_added"], old_specs);
         assert_eq!(
             l[0]["config_sha256"],
-            forkmap::extend::config_sha256(&old["config"])
+            forkmap::run::extend::config_sha256(&old["config"])
         );
         assert_eq!(l[1]["config_file"], big.display().to_string());
         assert_eq!(
             l[1]["config_sha256"],
-            forkmap::extend::config_sha256(&f["config"])
+            forkmap::run::extend::config_sha256(&f["config"])
         );
         let total = f["specs"].as_u64().unwrap() as usize;
         assert!(total > old_specs, "{total} vs {old_specs}");

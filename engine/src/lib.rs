@@ -9,7 +9,6 @@ pub mod config;
 pub mod curves;
 pub mod decl;
 pub mod error;
-pub mod extend;
 pub mod folds;
 pub mod gather;
 pub mod importance;

@@ -19,8 +19,8 @@
 //! manifest's counts, and the report. The manifest's `lineage` lists which config (path,
 //! sha256 of its canonical form) added which specs, how many and when.
 
+use super::Prepared;
 use crate::resume::read_done;
-use crate::run::Prepared;
 use serde_json::{json, Value};
 use sha2::{Digest, Sha256};
 use std::collections::BTreeSet;

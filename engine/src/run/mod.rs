@@ -1,6 +1,8 @@
 //! Running a sweep into a run directory: validate everything first, then write the
 //! manifest, stream results into Parquet parts, and close the manifest.
 
+pub mod extend;
+
 use crate::config::Config;
 use crate::error::{Error, Result};
 use crate::folds::FoldPlan;
@@ -91,7 +93,7 @@ enum Start {
         done: crate::resume::Done,
         manifest: serde_json::Value,
         /// Set when the folder's run is extended with a larger config (`--extend`).
-        extension: Option<Box<crate::extend::Extension>>,
+        extension: Option<Box<extend::Extension>>,
     },
 }
 
@@ -155,7 +157,7 @@ fn open_out(
                 });
             }
             Err(_) if extend => {
-                let ext = crate::extend::check(&m, out, p, sha).map_err(|what| {
+                let ext = extend::check(&m, out, p, sha).map_err(|what| {
                     out_err(
                         out,
                         format!("cannot be extended with this config: its {what}"),
@@ -168,7 +170,7 @@ fn open_out(
                 });
             }
             Err(what) if !restart => {
-                let hint = if shard.is_none() && crate::extend::check(&m, out, p, sha).is_ok() {
+                let hint = if shard.is_none() && extend::check(&m, out, p, sha).is_ok() {
                     " (this config keeps every spec of that run: add --extend to run only its new specs)"
                 } else {
                     ""
@@ -342,7 +344,7 @@ pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
 }
 
 /// Extend the finished run in `out` with `p`, a config whose space holds every spec of
-/// the run: run only the new specs (see [`crate::extend`]). A run of this same config in
+/// the run: run only the new specs (see [`extend`]). A run of this same config in
 /// `out` is resumed as by [`run_to_dir`].
 pub fn extend_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSummary> {
     if opts.shard.is_some() || opts.restart {
@@ -438,7 +440,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
                 ext.old,
                 todo.len()
             );
-            if let Some(n) = crate::extend::columns_note(&ext.added_columns, out) {
+            if let Some(n) = extend::columns_note(&ext.added_columns, out) {
                 eprintln!("forkmap: note: {n}");
             }
         } else if !opts.quiet && resumes > 0 {
@@ -548,7 +550,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
         e.extend(sf);
     }
     if !lineage.is_null() {
-        extra["lineage"] = crate::extend::finish_lineage(&lineage);
+        extra["lineage"] = extend::finish_lineage(&lineage);
     }
     let last = manifest(p, &sha, opts.threads, &started, "complete", extra);
     write_bytes_atomic(
