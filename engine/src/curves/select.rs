@@ -46,3 +46,56 @@ pub fn top_indicators(t: &RunTables, k: usize) -> Option<(String, Vec<String>)> 
         mean.into_iter().take(k).map(|(_, n)| n.clone()).collect(),
     ))
 }
+
+/// The good set under the report's chosen definition (`[map] good`: ratio, margin or
+/// paired), computed as `forkmap map` computes it (same metric, resamples and seed), so
+/// the curves' members are the report's good set. Returns the best spec's id, the members
+/// (best first, then by id) and the rule in words.
+pub fn chosen_good(
+    t: &RunTables,
+    ms: &crate::config::map::MapSection,
+    seed: u64,
+) -> Option<(String, Vec<String>, String)> {
+    use crate::report::stats;
+    let nu = t.n_units();
+    let ru = stats::resample_indices(nu, ms.resamples, seed);
+    let counts = stats::resample_counts(&ru, nu);
+    let e = Errors::compute(t, &ms.metric, &counts);
+    let best = e.best()?;
+    let be = e.point[best];
+    let (members, rule) = match ms.good.as_str() {
+        "margin" => {
+            let m = ms.margin.unwrap_or_else(|| {
+                let sd = stats::sd(e.replicates(best));
+                if sd.is_nan() {
+                    0.0
+                } else {
+                    sd
+                }
+            });
+            (
+                goodset::margin(&e.point, be, m),
+                format!("margin: {} <= best + {m:.4}", ms.metric),
+            )
+        }
+        "paired" => (
+            goodset::paired(&e, best, ms.level),
+            format!(
+                "paired: not worse than the best in more than {:.0}% of {} paired unit resamples",
+                100.0 * ms.level,
+                ms.resamples
+            ),
+        ),
+        _ => (
+            goodset::ratio(&e.point, be, ms.ratio_eps),
+            format!("ratio: {} <= (1 + {}) x best", ms.metric, ms.ratio_eps),
+        ),
+    };
+    let mut good = vec![t.spec_ids[best].clone()];
+    for (i, &m) in members.iter().enumerate() {
+        if m && i != best {
+            good.push(t.spec_ids[i].clone());
+        }
+    }
+    Some((t.spec_ids[best].clone(), good, rule))
+}

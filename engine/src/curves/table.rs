@@ -10,6 +10,7 @@
 //! - `signs`: indicator, members, rises, falls, flat, turns (shares of member specs).
 //! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_breakpoint,
 //!   cluster_slope_left, cluster_slope_right, distance, bound, departs.
+//! - `curves.json`: the settings and the members' rule (written last, read by the report).
 
 use super::compute::Output;
 use crate::error::{Error, Result};
@@ -177,15 +178,30 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
     Ok(())
 }
 
-/// Write the tables into RUN_DIR/curves atomically (hidden folder, then rename).
-pub fn write(o: &Output, panel: &Panel, ids: &[String], level: f64, run: &Path) -> Result<PathBuf> {
+/// Name of the settings file beside the tables (its presence marks a whole curves folder).
+pub const META: &str = "curves.json";
+
+/// Write the tables (and `meta` as `curves.json`) into RUN_DIR/curves atomically (hidden
+/// folder, then rename).
+pub fn write(
+    o: &Output,
+    panel: &Panel,
+    ids: &[String],
+    level: f64,
+    meta: &serde_json::Value,
+    run: &Path,
+) -> Result<PathBuf> {
     let dest = run.join(CURVES_DIR);
     let tmp = run.join(format!(".{CURVES_DIR}.tmp-{}", std::process::id()));
     if tmp.exists() {
         std::fs::remove_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
     }
     std::fs::create_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
-    if let Err(e) = write_tables(o, panel, ids, level, &tmp) {
+    let written = write_tables(o, panel, ids, level, &tmp).and_then(|_| {
+        let text = serde_json::to_string_pretty(meta).unwrap_or_default();
+        crate::sink::write_bytes_atomic(&tmp.join(META), text.as_bytes())
+    });
+    if let Err(e) = written {
         let _ = std::fs::remove_dir_all(&tmp);
         return Err(e);
     }
