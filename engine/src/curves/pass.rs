@@ -90,6 +90,7 @@ pub fn draw(p: &Prepared, run: &Path, req: &Request) -> Result<Drawn> {
     }
     let (best, good, rule) = select::chosen_good(&t, &ms, req.map_seed)
         .ok_or_else(|| fail("the run has no ok spec to draw curves for".into()))?;
+    let pick_among = good.clone();
     let (ids, detail, rule): (Vec<String>, Vec<String>, String) = match &req.specs {
         Specs::Best => (vec![best.clone()], vec![best], "the best spec".into()),
         Specs::Good => (good, vec![best], rule),
@@ -106,7 +107,7 @@ pub fn draw(p: &Prepared, run: &Path, req: &Request) -> Result<Drawn> {
     let detail: Vec<usize> = detail.iter().map(index).collect::<Result<_>>()?;
     let (kind, names): (String, Vec<String>) = match &req.indicators {
         Some(v) => ("listed".into(), v.clone()),
-        None => select::top_indicators(&t, req.top_k).ok_or_else(|| {
+        None => select::top_indicators(&t, req.top_k, Some(&pick_among)).ok_or_else(|| {
             fail(format!(
                 "the run holds no indicator-level importance to pick the top {} from: pass --indicators A,B",
                 req.top_k

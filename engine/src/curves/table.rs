@@ -10,6 +10,8 @@
 //! - `signs`: indicator, members, rises, falls, flat, turns (shares of member specs).
 //! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_breakpoint,
 //!   cluster_slope_left, cluster_slope_right, distance, bound, departs.
+//! - `observed`: indicator, unit, wave (nullable), value (NaN when missing): the chosen
+//!   indicators' observed values.
 //! - `curves.json`: the settings and the members' rule (written last, read by the report).
 
 use super::compute::Output;
@@ -131,6 +133,23 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .f("flat", bs.iter().map(|b| b.2.flat))
         .f("turns", bs.iter().map(|b| b.2.turns))
         .write(dir, "signs")?;
+    // observed values of the chosen indicators (the report's rug)
+    let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    for b in &o.bands {
+        for r in 0..panel.n_rows() {
+            let v = panel.x[[r, b.0]];
+            t.0.push(ind(b.0));
+            t.1.push(panel.units[panel.row_unit[r]].clone());
+            t.2.push(panel.row_wave[r].clone());
+            t.3.push(v);
+        }
+    }
+    Cols::default()
+        .s("indicator", t.0)
+        .s("unit", t.1)
+        .os("wave", t.2)
+        .f("value", t.3)
+        .write(dir, "observed")?;
     // clusters
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());
     let mut f = (
