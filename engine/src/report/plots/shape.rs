@@ -161,7 +161,7 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
             marks.push((x0, y0, x1, y1));
             // Rug.
             for &v in &s.observed {
-                vline(root, px(v), y1 + 3, y1 + 12, &MUTED, 1)?;
+                vline(root, px(v), y1 + 3, y1 + 12, &POINT, 1)?;
             }
             marks.push((x0, y1 + 3, x1, y1 + 12));
             // Direction shares.
