@@ -151,7 +151,10 @@ fn open_out(
                 ));
             }
             _ => {
-                for t in TABLES.iter().chain(&[crate::report::REPORT_DIR]) {
+                for t in TABLES
+                    .iter()
+                    .chain(&[crate::report::REPORT_DIR, crate::report::shape::CURVES_DIR])
+                {
                     let d = out.join(t);
                     if d.exists() {
                         std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;

@@ -20,7 +20,7 @@ use crate::panel::Panel;
 use crate::sink::Cols;
 use std::path::{Path, PathBuf};
 
-pub const CURVES_DIR: &str = "curves";
+pub use crate::report::shape::CURVES_DIR;
 
 fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Path) -> Result<()> {
     let ind = |c: usize| panel.indicators[c].clone();

@@ -27,7 +27,9 @@ pub(super) fn section(report: &Report, h: &mut String) {
          about which units drive the shape). Subgroups: k-means on each unit's mean centred curve, k = 2 to 4 by \
          the largest mean silhouette, kept only if it reaches 0.5 (a rule of common practice), else one group; a \
          unit departs when its distance from the mean centred curve exceeds the median + 3 x 1.4826 x MAD of \
-         the distances. The tables are in <code>curves/</code> beside the run's tables.</p>",
+         the distances. A continuous hinge fitted to a curve with a jump (trees, forests and boosting give steps) \
+         starts its ramp before the jump: read the breakpoint beside the plot. The tables are in \
+         <code>curves/</code> beside the run's tables.</p>",
         sh.members,
         escape(&sh.rule),
         if sh.indicators_by == "listed" {
