@@ -392,7 +392,15 @@ fn tables_are_written_whole_and_replaced() {
             .sum()
     };
     for _ in 0..2 {
-        forkmap::curves::table::write(&out, &p.panel, &ids, 0.9, run.path()).unwrap();
+        forkmap::curves::table::write(
+            &out,
+            &p.panel,
+            &ids,
+            0.9,
+            &serde_json::json!({}),
+            run.path(),
+        )
+        .unwrap();
         let names: Vec<String> = std::fs::read_dir(run.path())
             .unwrap()
             .map(|e| e.unwrap().file_name().to_string_lossy().to_string())

@@ -5,6 +5,8 @@
 mod bad_input;
 mod common;
 mod curves;
+mod curves_reference;
+mod curves_run;
 mod declare;
 mod determinism;
 mod end_to_end;

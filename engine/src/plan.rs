@@ -162,6 +162,13 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
     } else if imp.wants("native") {
         let _ = writeln!(t, "importance: native only (no extra fits)");
     }
+    if let Some(c) = p.cfg.curves.checked().ok().filter(|c| c.draw) {
+        let _ = writeln!(
+            t,
+            "{}",
+            crate::curves::pass::cost(p, c.members, c.top_k, c.grid, c.resamples)
+        );
+    }
     let mut estimate = f64::NAN;
     if let (true, Ok(sweep)) = (
         probe,

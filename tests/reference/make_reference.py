@@ -376,4 +376,44 @@ dump(
         "bootstrap": {"unit_n": unit_n.tolist(), "indices": idx.tolist(), "specs": specs, "level": 0.95, "results": boot},
     },
 )
+
+# The curves' subgroups and breakpoints (engine/src/curves): scikit-learn's silhouette_score
+# (Euclidean) and KMeans on fixed small datasets, and the hinge breakpoint against a
+# brute-force numpy least-squares fit over the same candidate breakpoints (200 evenly
+# spaced between the second and the second-to-last grid points, the first least SSE wins).
+from sklearn.cluster import KMeans
+from sklearn.metrics import silhouette_score
+
+rng = np.random.default_rng(19)
+sil_cases = []
+# Three blobs in 2-D, one blob with a singleton (sklearn scores a singleton 0), and 5-D
+# curves-like rows with two groups.
+xa = np.vstack([rng.normal(c, 0.4, (8, 2)) for c in ([0, 0], [3, 0], [0, 3])])
+sil_cases.append({"x": xa.tolist(), "labels": [0] * 8 + [1] * 8 + [2] * 8})
+xb = np.vstack([rng.normal(0, 1, (6, 3)), [[9.0, 9.0, 9.0]]])
+sil_cases.append({"x": xb.tolist(), "labels": [0, 0, 0, 1, 1, 1, 2]})
+xc = rng.normal(0, 1, (15, 5))
+sil_cases.append({"x": xc.tolist(), "labels": (rng.permutation(15) % 2).tolist()})
+for c in sil_cases:
+    c["silhouette"] = float(silhouette_score(np.array(c["x"]), np.array(c["labels"]), metric="euclidean"))
+
+km_cases = []
+for k, centres in [(2, [[0, 0, 0], [4, 4, 4]]), (3, [[0, 0], [5, 0], [0, 5]]), (4, [[0, 0], [6, 0], [0, 6], [6, 6]])]:
+    x = np.vstack([rng.normal(c, 0.5, (7 + i, len(c))) for i, c in enumerate(centres)])
+    km = KMeans(n_clusters=k, n_init=20, random_state=0).fit(x)
+    km_cases.append({"x": x.tolist(), "k": k, "labels": km.labels_.tolist(), "inertia": float(km.inertia_)})
+
+hinge_cases = []
+for t_true, noise, n in [(6.3, 0.0, 20), (2.5, 0.05, 12), (0.7, 0.3, 30), (4.0, 0.0, 8)]:
+    x = np.sort(rng.uniform(0, 10 if t_true > 1 else 1.5, n))
+    y = 1.0 + 0.5 * x - 2.0 * np.maximum(0, x - t_true) + rng.normal(0, noise, n)
+    best = None
+    for t in np.linspace(x[1], x[-2], 200):
+        a = np.column_stack([np.ones(n), x, np.maximum(0, x - t)])
+        z, *_ = np.linalg.lstsq(a, y, rcond=None)
+        sse = float(((y - a @ z) ** 2).sum())
+        if best is None or sse < best[0]:
+            best = (sse, float(t), float(z[1]), float(z[1] + z[2]))
+    hinge_cases.append({"x": x.tolist(), "y": y.tolist(), "sse": best[0], "breakpoint": best[1], "slope_left": best[2], "slope_right": best[3]})
+dump("shape.json", {"silhouette": sil_cases, "kmeans": km_cases, "hinge": hinge_cases})
 print(f"reference values written to {out}")

@@ -9,15 +9,15 @@
 //! interval, and subgroups of units for the best spec (or each listed id), as Parquet
 //! tables under RUN_DIR/curves/ (written whole or not at all).
 //!
-//! `--specs best` (default `good`: the best spec and every spec whose error is within
-//! (1 + ratio_eps) x best, the report's ratio rule with the run's `[map]` metric and
-//! ratio_eps). `--top K` (default 5) takes the K indicators of largest mean importance
+//! `--specs best` (default `good`: the best spec and the report's good set, under the
+//! run's `[map]` good definition, metric, resamples and seed, as `forkmap map` computes
+//! it; `--ratio-eps E` uses the ratio rule with E instead). `--top K` (default 5) takes the K indicators of largest mean importance
 //! (first indicator-level kind in the run); `--indicators` lists them by name. ICE rows
 //! and subgroups are kept for the best spec (or for every listed id). Exit 0 when the
 //! tables are written, 2 on an error.
 
-use forkmap::curves::compute::{compute, Settings};
-use forkmap::curves::{select, table};
+use forkmap::curves::compute::Settings;
+use forkmap::curves::pass;
 use forkmap::report::settings::MapSection;
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -33,8 +33,8 @@ pub struct Args {
     /// Indicator names separated by commas (default: the top K by importance).
     #[arg(long, conflicts_with = "top")]
     indicators: Option<String>,
-    /// Good set for `--specs good`: error <= (1 + E) x best (default: the run's `[map]`
-    /// ratio_eps).
+    /// Good set for `--specs good` by the ratio rule: error <= (1 + E) x best (default:
+    /// the run's `[map]` good definition).
     #[arg(long, value_name = "E")]
     ratio_eps: Option<f64>,
     /// Number of indicators taken by importance.
@@ -80,13 +80,6 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         anyhow::bail!("--flat must be a finite share >= 0, got {}", a.flat);
     }
     let set = forkmap::results::RunSet::open(std::slice::from_ref(&a.run))?;
-    let c = set.completeness();
-    if !c.is_complete() {
-        anyhow::bail!(
-            "the run is incomplete:\n  {}\n(finish the run first)",
-            c.describe().join("\n  ")
-        );
-    }
     let manifest = set.manifest().clone();
     let cfg_path = match &a.config {
         Some(p) => p.clone(),
@@ -96,108 +89,119 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         },
     };
     let p = forkmap::run::prepare(&cfg_path)?;
-    let sha = forkmap::run::sha256_file(&p.data_path)?;
-    if let Some(want) = manifest["data_sha256"].as_str() {
-        if want != sha {
-            anyhow::bail!(
-                "{} has changed since the run (sha256 {} in the manifest, {} now): curves would not describe the run's fits",
-                p.data_path.display(),
-                want,
-                sha
-            );
-        }
-    }
-    let t = forkmap::report::data::read(&set)?;
+    pass::check_run(&set, &p)?;
     let ms: MapSection = match manifest.get("map") {
         Some(v) if !v.is_null() => serde_json::from_value(v.clone())
             .map_err(|e| anyhow::anyhow!("the manifest's `map` settings are unreadable: {e}"))?,
         _ => MapSection::default(),
     };
-    let eps = a.ratio_eps.unwrap_or(ms.ratio_eps);
-    if !(eps >= 0.0 && eps.is_finite()) {
-        anyhow::bail!("--ratio-eps must be a finite number >= 0, got {eps}");
-    }
-    let (best, good) = select::best_and_good(&t, &ms.metric, eps)
-        .ok_or_else(|| anyhow::anyhow!("the run has no ok spec to draw curves for"))?;
-    let (ids, detail): (Vec<String>, Vec<String>) = match a.specs.as_str() {
-        "best" => (vec![best.clone()], vec![best]),
-        "good" => (good, vec![best]),
-        list => {
-            let v: Vec<String> = list.split(',').map(|s| s.trim().to_string()).collect();
-            (v.clone(), v)
-        }
+    let run_seed = manifest["seed"].as_u64().unwrap_or(1);
+    let specs = match a.specs.as_str() {
+        "best" => pass::Specs::Best,
+        "good" => pass::Specs::Good,
+        list => pass::Specs::Ids(list.split(',').map(|s| s.trim().to_string()).collect()),
     };
-    let index = |id: &String| {
-        p.space
-            .specs
-            .iter()
-            .position(|s| &s.id == id)
-            .ok_or_else(|| anyhow::anyhow!("--specs: no spec `{id}` in the run's choice space"))
-    };
-    let specs: Vec<usize> = ids.iter().map(index).collect::<anyhow::Result<_>>()?;
-    let detail: Vec<usize> = detail.iter().map(index).collect::<anyhow::Result<_>>()?;
-    let names: Vec<String> = match &a.indicators {
-        Some(s) => s.split(',').map(|x| x.trim().to_string()).collect(),
-        None => match select::top_indicators(&t, a.top) {
-            Some((_, v)) => v,
-            None => anyhow::bail!(
-                "the run holds no indicator-level importance to pick the top {} from: pass --indicators A,B",
-                a.top
-            ),
+    let req = pass::Request {
+        specs,
+        indicators: a
+            .indicators
+            .as_ref()
+            .map(|s| s.split(',').map(|x| x.trim().to_string()).collect()),
+        top_k: a.top,
+        ratio_eps: a.ratio_eps,
+        settings: Settings {
+            grid: a.grid,
+            resamples: a.resamples,
+            level: a.level,
+            flat_share: a.flat,
+            seed: a.seed.unwrap_or(run_seed),
         },
+        map_seed: ms.seed.unwrap_or(run_seed),
+        map: ms,
     };
-    let cols: Vec<usize> = names
-        .iter()
-        .map(|n| {
-            p.panel
-                .indicators
-                .iter()
-                .position(|x| x == n)
-                .ok_or_else(|| {
-                    anyhow::anyhow!("--indicators: `{n}` is not an indicator of the panel")
-                })
-        })
-        .collect::<anyhow::Result<_>>()?;
-    let s = Settings {
-        grid: a.grid,
-        resamples: a.resamples,
-        level: a.level,
-        flat_share: a.flat,
-        seed: a.seed.or_else(|| manifest["seed"].as_u64()).unwrap_or(1),
-    };
-    if !a.quiet {
-        eprintln!(
-            "forkmap: curves for {} specs x {} indicators ({} rows x {} grid points each, {} resamples)",
-            specs.len(),
-            cols.len(),
-            p.panel.n_rows(),
-            a.grid,
-            a.resamples
-        );
-    }
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(super::threads(a.threads))
         .build()?;
-    let t0 = std::time::Instant::now();
-    let out = pool.install(|| compute(&p, &specs, &detail, &cols, &s))?;
-    let ids_all: Vec<String> = p.space.specs.iter().map(|s| s.id.clone()).collect();
-    let dir = table::write(&out, &p.panel, &ids_all, a.level, &a.run)?;
+    let d = pool.install(|| pass::draw(&p, &a.run, &req))?;
     if !a.quiet {
-        for (c, _, b) in &out.bands {
-            println!(
-                "{:<24} rises {:>5.1}%  falls {:>5.1}%  flat {:>5.1}%  turns {:>5.1}%",
-                p.panel.indicators[*c],
-                100.0 * b.rises,
-                100.0 * b.falls,
-                100.0 * b.flat,
-                100.0 * b.turns
-            );
-        }
-        println!(
-            "curves     {} ({:.1} s)",
-            dir.display(),
-            t0.elapsed().as_secs_f64()
-        );
+        print_summary(&d);
     }
     Ok(ExitCode::SUCCESS)
+}
+
+/// The terminal summary of a pass (shared with `forkmap run`).
+pub fn print_summary(d: &pass::Drawn) {
+    println!(
+        "curves     {} specs ({}) x {} indicators",
+        d.members,
+        d.rule,
+        d.indicators.len()
+    );
+    for (name, (_, _, b)) in d.indicators.iter().zip(&d.output.bands) {
+        println!(
+            "  {:<22} rises {:>5.1}%  falls {:>5.1}%  flat {:>5.1}%  turns {:>5.1}%",
+            name,
+            100.0 * b.rises,
+            100.0 * b.falls,
+            100.0 * b.flat,
+            100.0 * b.turns
+        );
+    }
+    println!("curves     {} ({:.1} s)", d.dir.display(), d.seconds);
+}
+
+/// The cost line printed before a run (and by `plan`).
+pub fn cost_line(p: &forkmap::run::Prepared, c: &forkmap::curves::CurvesChecked) -> String {
+    pass::cost(p, c.members, c.top_k, c.grid, c.resamples)
+}
+
+/// Draw the curves at the end of `forkmap run` with the config's `[curves]` and the
+/// report's settings (map flags applied); a failure is printed as a warning.
+pub fn after_run(
+    p: &forkmap::run::Prepared,
+    run: &std::path::Path,
+    c: &forkmap::curves::CurvesChecked,
+    over: &super::map::Overrides,
+    threads: usize,
+    quiet: bool,
+) {
+    let mut ms = p.cfg.map.clone();
+    over.apply(&mut ms);
+    let req = pass::Request {
+        specs: match c.members {
+            forkmap::curves::Members::Good => pass::Specs::Good,
+            forkmap::curves::Members::Best => pass::Specs::Best,
+        },
+        indicators: None,
+        top_k: c.top_k,
+        ratio_eps: None,
+        settings: Settings {
+            grid: c.grid,
+            resamples: c.resamples,
+            level: c.level,
+            flat_share: c.flat_share,
+            seed: p.cfg.seed,
+        },
+        map_seed: ms.seed.unwrap_or(p.cfg.seed),
+        map: ms,
+    };
+    let drawn = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(anyhow::Error::from)
+        .and_then(|pool| {
+            pool.install(|| pass::draw(p, run, &req))
+                .map_err(Into::into)
+        });
+    match drawn {
+        Ok(d) => {
+            if !quiet {
+                print_summary(&d);
+            }
+        }
+        Err(e) => eprintln!(
+            "forkmap: warning: the run is complete and kept, but its curves failed: {e:#}\n  (draw them later with `forkmap curves {}`)",
+            run.display()
+        ),
+    }
 }

@@ -1,5 +1,5 @@
 //! `forkmap run CONFIG --out RUN_DIR [--threads N] [--quiet] [--restart] [--shard I/N]
-//!  [--extend] [--no-map] [map flags]`
+//!  [--extend] [--no-map] [--no-curves] [map flags]`
 //!
 //! Run every spec of the config on all cores and write RUN_DIR: `manifest.json`,
 //! `specs/part-*.parquet` (one row per spec) and `predictions/part-*.parquet` (one row per
@@ -11,7 +11,10 @@
 //! shard I of a deterministic, cost-balanced split into N runs (`forkmap gather` joins the
 //! shards; `forkmap check` reports what is missing). A run of the whole space ends by
 //! writing its report to RUN_DIR/report/ (as `forkmap map RUN_DIR` would; `--no-map`
-//! skips it, a shard leaves it to the merged run) and prints its headline. Exit code 0 when
+//! skips it, a shard leaves it to the merged run) and prints its headline. Before the
+//! report it draws the curves (`forkmap curves RUN_DIR` with the config's `[curves]`
+//! settings) into RUN_DIR/curves/ unless `--no-curves` or `[curves] draw = false`; failed
+//! curves are a warning, like a failed report. Exit code 0 when
 //! the sweep completed (failed specs are recorded and counted), 2 on an error. A report
 //! that fails does not fail the run: its results are complete and kept, the failure is
 //! printed as a warning, and `forkmap map RUN_DIR` writes the report later.
@@ -53,6 +56,9 @@ pub struct Args {
     /// Do not write the report at the end.
     #[arg(long)]
     no_map: bool,
+    /// Do not draw the curves at the end (`[curves] draw = false` does the same).
+    #[arg(long)]
+    no_curves: bool,
     #[command(flatten)]
     over: super::map::Overrides,
 }
@@ -69,6 +75,8 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         tracing::warn!("{w}");
     }
     let threads = super::threads(a.threads);
+    let curves = p.cfg.curves.checked().map_err(|m| anyhow::anyhow!("{m}"))?;
+    let draw_curves = curves.draw && !a.no_curves && a.shard.is_none();
     if !a.quiet {
         let share = match a.shard {
             Some(sh) => format!(
@@ -83,6 +91,9 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             p.folds.n_fits_per_spec(),
             a.out.display()
         );
+        if draw_curves {
+            eprintln!("forkmap: then {}", super::curves::cost_line(&p, &curves));
+        }
     }
     let opts = forkmap::run::RunOptions {
         threads,
@@ -114,6 +125,9 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     }
     println!("seconds    {:.1}", s.seconds);
     println!("results    {}", a.out.display());
+    if draw_curves {
+        super::curves::after_run(&p, &a.out, &curves, &a.over, threads, a.quiet);
+    }
     let best = || {
         if let Some((id, skill)) = &s.best {
             println!("best skill {skill:.4} (spec {id})");

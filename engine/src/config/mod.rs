@@ -4,6 +4,7 @@
 //! unknown key is named, with the closest valid key suggested), then deserialised into
 //! typed sections. Paths are resolved relative to the config file's folder.
 
+pub mod curves;
 pub mod importance;
 pub mod map;
 
@@ -45,6 +46,10 @@ pub struct Config {
     /// the canonical form (the manifest stores it apart, under `map`).
     #[serde(default, skip_serializing)]
     pub map: map::MapSection,
+    /// Curves drawn by `forkmap run` after the sweep. Not part of the run's identity (the
+    /// manifest stores it apart, under `curves`).
+    #[serde(default, skip_serializing)]
+    pub curves: curves::CurvesSection,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -239,6 +244,7 @@ const TOP_KEYS: &[&str] = &[
     "sample",
     "importance",
     "map",
+    "curves",
 ];
 const DATA_KEYS: &[&str] = &[
     "file",
@@ -283,6 +289,7 @@ impl Config {
             ("folds", FOLD_KEYS),
             ("output", OUTPUT_KEYS),
             ("map", map::MAP_KEYS),
+            ("curves", curves::CURVES_KEYS),
         ] {
             if let Some(v) = table.get(section) {
                 let t = v
@@ -348,6 +355,7 @@ impl Config {
             }
         }
         cfg.map.check().map_err(&err)?;
+        cfg.curves.checked().map_err(&err)?;
         if cfg.output.batch_specs == 0 {
             return Err(err("output.batch_specs must be at least 1".into()));
         }

@@ -14,9 +14,11 @@ pub mod cluster;
 pub mod compute;
 pub mod hinge;
 pub mod ice;
+pub mod pass;
 pub mod select;
 pub mod table;
 
+pub use crate::config::curves::{CurvesChecked, CurvesSection, Members};
 pub use cluster::{kmeans, silhouette, subgroups, Subgroups};
 pub use hinge::{bootstrap_breakpoint, fit_hinge, Hinge};
 pub use ice::{band, centred, direction, ice, pd, quantile_grid, Band, Direction};

@@ -10,6 +10,9 @@
 //! - `signs`: indicator, members, rises, falls, flat, turns (shares of member specs).
 //! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_breakpoint,
 //!   cluster_slope_left, cluster_slope_right, distance, bound, departs.
+//! - `observed`: indicator, unit, wave (nullable), value (NaN when missing): the chosen
+//!   indicators' observed values.
+//! - `curves.json`: the settings and the members' rule (written last, read by the report).
 
 use super::compute::Output;
 use crate::error::{Error, Result};
@@ -17,7 +20,7 @@ use crate::panel::Panel;
 use crate::sink::Cols;
 use std::path::{Path, PathBuf};
 
-pub const CURVES_DIR: &str = "curves";
+pub use crate::report::shape::CURVES_DIR;
 
 fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Path) -> Result<()> {
     let ind = |c: usize| panel.indicators[c].clone();
@@ -130,6 +133,23 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .f("flat", bs.iter().map(|b| b.2.flat))
         .f("turns", bs.iter().map(|b| b.2.turns))
         .write(dir, "signs")?;
+    // observed values of the chosen indicators (the report's rug)
+    let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    for b in &o.bands {
+        for r in 0..panel.n_rows() {
+            let v = panel.x[[r, b.0]];
+            t.0.push(ind(b.0));
+            t.1.push(panel.units[panel.row_unit[r]].clone());
+            t.2.push(panel.row_wave[r].clone());
+            t.3.push(v);
+        }
+    }
+    Cols::default()
+        .s("indicator", t.0)
+        .s("unit", t.1)
+        .os("wave", t.2)
+        .f("value", t.3)
+        .write(dir, "observed")?;
     // clusters
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());
     let mut f = (
@@ -177,15 +197,30 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
     Ok(())
 }
 
-/// Write the tables into RUN_DIR/curves atomically (hidden folder, then rename).
-pub fn write(o: &Output, panel: &Panel, ids: &[String], level: f64, run: &Path) -> Result<PathBuf> {
+/// Name of the settings file beside the tables (its presence marks a whole curves folder).
+pub const META: &str = "curves.json";
+
+/// Write the tables (and `meta` as `curves.json`) into RUN_DIR/curves atomically (hidden
+/// folder, then rename).
+pub fn write(
+    o: &Output,
+    panel: &Panel,
+    ids: &[String],
+    level: f64,
+    meta: &serde_json::Value,
+    run: &Path,
+) -> Result<PathBuf> {
     let dest = run.join(CURVES_DIR);
     let tmp = run.join(format!(".{CURVES_DIR}.tmp-{}", std::process::id()));
     if tmp.exists() {
         std::fs::remove_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
     }
     std::fs::create_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
-    if let Err(e) = write_tables(o, panel, ids, level, &tmp) {
+    let written = write_tables(o, panel, ids, level, &tmp).and_then(|_| {
+        let text = serde_json::to_string_pretty(meta).unwrap_or_default();
+        crate::sink::write_bytes_atomic(&tmp.join(META), text.as_bytes())
+    });
+    if let Err(e) = written {
         let _ = std::fs::remove_dir_all(&tmp);
         return Err(e);
     }

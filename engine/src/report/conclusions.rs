@@ -45,6 +45,42 @@ impl Statement {
     }
 }
 
+/// The sign claims of the curves (RUN_DIR/curves/): per indicator, the direction most
+/// members' partial dependence takes, with every direction's share.
+pub fn signs(shape: &super::shape::Shape) -> Vec<Conclusion> {
+    shape
+        .indicators
+        .iter()
+        .map(|s| {
+            let (dir, share) = super::shape::dominant(s);
+            let p = |v: f64| format!("{:.0}%", 100.0 * v);
+            Conclusion {
+                source: "curves".into(),
+                statement: format!(
+                    "the partial dependence on {} {dir} across {} of {} members ({}): rises {}, falls {}, flat {}, turns {}",
+                    s.name,
+                    p(share),
+                    s.members,
+                    shape.rule,
+                    p(s.rises),
+                    p(s.falls),
+                    p(s.flat),
+                    p(s.turns)
+                ),
+                level: "indicator".into(),
+                kind: "partial dependence".into(),
+                support_all: f64::NAN,
+                n_all: 0,
+                support_good: share,
+                n_good: s.members,
+                pivot_dimension: String::new(),
+                pivot_choice: String::new(),
+                support_without: f64::NAN,
+            }
+        })
+        .collect()
+}
+
 /// Share of `rows` (positions in the kind table) where the statement holds; NaN when empty.
 pub fn support(st: &Statement, kt: &KindTable, rows: &[usize]) -> f64 {
     if rows.is_empty() {

@@ -75,7 +75,7 @@ impl KindTable {
     }
 }
 
-fn read_batches(path: &Path) -> Result<Vec<RecordBatch>> {
+pub(crate) fn read_batches(path: &Path) -> Result<Vec<RecordBatch>> {
     let bad = |m: String| Error::Output {
         path: path.to_path_buf(),
         msg: m,
@@ -89,7 +89,7 @@ fn read_batches(path: &Path) -> Result<Vec<RecordBatch>> {
         .map_err(|e| bad(format!("unreadable Parquet part: {e}")))
 }
 
-fn col<'a, T: 'static>(b: &'a RecordBatch, name: &str, path: &Path) -> Result<&'a T> {
+pub(crate) fn col<'a, T: 'static>(b: &'a RecordBatch, name: &str, path: &Path) -> Result<&'a T> {
     b.column_by_name(name)
         .and_then(|c| c.as_any().downcast_ref::<T>())
         .ok_or_else(|| Error::Output {

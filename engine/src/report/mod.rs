@@ -20,6 +20,7 @@ pub mod html;
 pub mod influence;
 pub mod model;
 pub mod plots;
+pub mod shape;
 pub use crate::config::map as settings;
 pub mod stability;
 pub mod stats;
@@ -70,6 +71,7 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
         notes.push(format!("{n} specs left out: {why}"));
     }
     let mut built = analyse(&t, s, seed)?;
+    shape::attach(set, &mut built.report);
     let m = &mut built.report.meta;
     m.runs = set
         .dirs

@@ -37,6 +37,8 @@ pub struct Report {
     pub stability: Vec<Stability>,
     /// How often each spec is the best over the resamples (specs best at least once).
     pub best_frequency: Vec<BestFrequency>,
+    /// The curves of RUN_DIR/curves/ when the run has them.
+    pub shape: Option<super::shape::Shape>,
 }
 
 /// Settings and provenance.

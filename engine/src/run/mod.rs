@@ -181,7 +181,10 @@ fn open_out(
                 ));
             }
             _ => {
-                for t in TABLES.iter().chain(&[crate::report::REPORT_DIR]) {
+                for t in TABLES
+                    .iter()
+                    .chain(&[crate::report::REPORT_DIR, crate::report::shape::CURVES_DIR])
+                {
                     let d = out.join(t);
                     if d.exists() {
                         std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
@@ -261,6 +264,8 @@ fn manifest(
         "tables": TABLES,
         // How the report is made (not part of the run's identity; `forkmap map` reads it).
         "map": serde_json::to_value(&p.cfg.map).unwrap_or(serde_json::Value::Null),
+        // The curves' settings (not part of the run's identity either).
+        "curves": serde_json::to_value(&p.cfg.curves).unwrap_or(serde_json::Value::Null),
     });
     if let (Some(obj), serde_json::Value::Object(e)) = (m.as_object_mut(), extra) {
         obj.extend(e);

@@ -15,6 +15,7 @@ use std::fmt::Write as _;
 use std::path::Path;
 
 mod sections;
+mod shape;
 mod table;
 #[cfg(test)]
 mod tests;
@@ -76,6 +77,9 @@ pub fn render(report: &Report, plots: &[Plot]) -> String {
     h.push_str("<nav aria-label=\"contents\"><ol>\n");
     h.push_str("<li><a href=\"#headline\">In brief</a></li>\n<li><a href=\"#cautions\">Cautions</a></li>\n");
     h.push_str("<li><a href=\"#run\">The run</a></li>\n<li><a href=\"#plots\">Plots</a></li>\n");
+    if report.shape.is_some() {
+        h.push_str("<li><a href=\"#shape\">Shapes</a></li>\n");
+    }
     h.push_str("<li><a href=\"#tables\">Tables</a></li>\n</ol></nav>\n");
 
     // Headline.
@@ -228,6 +232,8 @@ pub fn render(report: &Report, plots: &[Plot]) -> String {
         );
     }
     h.push_str("</section>\n");
+
+    shape::section(report, &mut h);
 
     // Tables.
     h.push_str("<section id=\"tables\">\n<h2>Tables</h2>\n");

@@ -20,6 +20,9 @@
 //! * `agreement-LEVEL-KIND.svg`: Kendall's tau-b between good members' importance orders,
 //!   in blocks of members once there are more than [`MATRIX_CELLS_MAX`].
 //!
+//! * `shape-INDICATOR.svg` (with curves in the run): see [`shape`]; shown in the page's
+//!   own section on the shape of associations.
+//!
 //! Every plot has a title, axis labels with units and a caption (drawn in the SVG, and kept
 //! in [`Plot`] for the page). Each plot also carries invisible `<rect class="fm-data">`
 //! markers over its data regions, which the browser test crops to.
@@ -37,6 +40,7 @@ mod curve;
 mod draw;
 mod importance;
 mod influence;
+pub(crate) mod shape;
 #[cfg(test)]
 pub(crate) mod tests;
 
@@ -108,7 +112,10 @@ pub fn render_all(report: &Report) -> Result<Vec<Plot>> {
 /// Write each plot as its own `.svg` file in `dir` (atomically); returns their paths.
 pub fn write_all(report: &Report, dir: &Path) -> Result<Vec<PathBuf>> {
     let mut paths = Vec::new();
-    for plot in render_all(report)? {
+    for plot in render_all(report)?
+        .into_iter()
+        .chain(shape::shape_plots(report)?)
+    {
         let path = dir.join(&plot.file);
         let mut doc = String::from("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
         doc.push_str(&plot.svg);

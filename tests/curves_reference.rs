@@ -1,0 +1,90 @@
+//! The curves' subgroups and breakpoints against libraries outside the project
+//! (tests/reference/shape.json, written by tests/reference/make_reference.py):
+//! scikit-learn's `silhouette_score` (Euclidean) and `KMeans` (n_init = 20) on fixed small
+//! datasets, and the hinge breakpoint against a brute-force numpy least-squares fit
+//! (`numpy.linalg.lstsq` at each of the same 200 candidate breakpoints).
+
+use crate::common::{cases, close, f64s, matrix, reference};
+use forkmap::curves::{fit_hinge, kmeans, silhouette};
+
+fn labels(v: &serde_json::Value) -> Vec<usize> {
+    v.as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_u64().unwrap() as usize)
+        .collect()
+}
+
+/// Two labellings describe the same partition (equal up to renaming the clusters).
+fn same_partition(a: &[usize], b: &[usize]) -> bool {
+    let mut map = std::collections::HashMap::new();
+    let mut back = std::collections::HashMap::new();
+    a.iter()
+        .zip(b)
+        .all(|(x, y)| *map.entry(*x).or_insert(*y) == *y && *back.entry(*y).or_insert(*x) == *x)
+}
+
+#[test]
+fn silhouette_matches_scikit_learn() {
+    let r = reference("shape.json");
+    for (i, c) in cases(&r["silhouette"], 3, "silhouette").iter().enumerate() {
+        let x = matrix(&c["x"]);
+        let got = silhouette(x.view(), &labels(&c["labels"]));
+        close(
+            got,
+            c["silhouette"].as_f64().unwrap(),
+            1e-12,
+            &format!("silhouette case {i}"),
+        );
+    }
+}
+
+#[test]
+fn kmeans_matches_scikit_learn_on_separated_groups() {
+    let r = reference("shape.json");
+    for (i, c) in cases(&r["kmeans"], 3, "kmeans").iter().enumerate() {
+        let x = matrix(&c["x"]);
+        let k = c["k"].as_u64().unwrap() as usize;
+        let (lab, wss) = kmeans(x.view(), k, 11);
+        let want = labels(&c["labels"]);
+        assert!(
+            same_partition(&lab, &want),
+            "case {i}: {lab:?} vs sklearn {want:?}"
+        );
+        close(
+            wss,
+            c["inertia"].as_f64().unwrap(),
+            1e-9,
+            &format!("kmeans inertia case {i}"),
+        );
+    }
+}
+
+#[test]
+fn hinge_matches_a_brute_force_numpy_fit() {
+    let r = reference("shape.json");
+    for (i, c) in cases(&r["hinge"], 4, "hinge").iter().enumerate() {
+        let (x, y) = (f64s(&c["x"]), f64s(&c["y"]));
+        let h = fit_hinge(&x, &y).expect("a hinge fits");
+        let what = |s: &str| format!("hinge case {i}: {s}");
+        close(
+            h.breakpoint,
+            c["breakpoint"].as_f64().unwrap(),
+            1e-9,
+            &what("breakpoint"),
+        );
+        close(
+            h.slope_left,
+            c["slope_left"].as_f64().unwrap(),
+            1e-7,
+            &what("slope left"),
+        );
+        close(
+            h.slope_right,
+            c["slope_right"].as_f64().unwrap(),
+            1e-7,
+            &what("slope right"),
+        );
+        close(h.sse, c["sse"].as_f64().unwrap(), 1e-8, &what("sse"));
+    }
+}
