@@ -14,7 +14,10 @@
 //! skips it, a shard leaves it to the merged run) and prints its headline. Exit code 0 when
 //! the sweep completed (failed specs are recorded and counted), 2 on an error. A report
 //! that fails does not fail the run: its results are complete and kept, the failure is
-//! printed as a warning, and `forkmap map RUN_DIR` writes the report later.
+//! printed as a warning, and `forkmap map RUN_DIR` writes the report later. With a
+//! `[nested]` section the nested estimate of choosing the best runs after the sweep,
+//! before the report, into RUN_DIR/nested/ (one table per outer fold; a rerun skips the
+//! folds done; a shard skips it: run the whole space for it).
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -84,6 +87,18 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             shard: a.shard,
         },
     )?;
+    // The nested estimate (`[nested]`): after the sweep, before the report; a shard
+    // leaves it to a run of the whole space.
+    let nested = match a.shard {
+        None => {
+            let mut m = p.cfg.map.clone();
+            a.over.apply(&mut m);
+            forkmap::nested::exec::run_in_dir(
+                &p.cfg, &p.panel, &p.space, &a.out, &m.metric, threads, a.quiet,
+            )?
+        }
+        Some(_) => None,
+    };
     let failed: usize = s.failures.values().sum();
     println!("specs      {} ({} ok, {failed} failed)", s.specs, s.ok);
     for (cause, n) in &s.failures {
@@ -102,6 +117,17 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         );
     }
     println!("seconds    {:.1}", s.seconds);
+    if let Some(n) = &nested {
+        println!(
+            "nested     {} {:.4} over {} outer folds (baseline {:.4}; {:.1} s) -> {}",
+            n.metric,
+            n.nested,
+            n.folds,
+            n.baseline,
+            n.seconds,
+            a.out.join(forkmap::nested::table::NESTED_DIR).display()
+        );
+    }
     println!("results    {}", a.out.display());
     let best = || {
         if let Some((id, skill)) = &s.best {
