@@ -211,3 +211,79 @@ fn pure_noise_nested_is_within_noise_of_the_baseline() {
     let mean_gap = gap.iter().sum::<f64>() / n;
     assert!(mean_gap > 0.0, "the naive best was not optimistic: {gap:?}");
 }
+
+/// `[nested]` keys are checked: an unknown key is named with the closest valid one, bad
+/// values name their key, and the section is not part of the run's identity.
+#[test]
+fn nested_section_is_checked_and_outside_the_identity() {
+    let base = "[data]\nfile = \"x.csv\"\nunit = \"u\"\noutcome = \"y\"\n";
+    let parse = |extra: &str| {
+        forkmap::config::Config::from_toml(
+            &format!("{base}{extra}"),
+            std::path::Path::new("."),
+            "t",
+        )
+    };
+    let c = parse("[nested]\nouter_folds = 4\nspecs = 30\n").expect("valid");
+    let n = c.nested.clone().expect("section");
+    assert_eq!((n.outer_folds, n.specs, n.inner_folds), (4, Some(30), None));
+    let plain = parse("").expect("valid");
+    assert_eq!(c.canonical_json(), plain.canonical_json());
+    let e = parse("[nested]\nouter_fold = 4\n").unwrap_err().to_string();
+    assert!(
+        e.contains("nested.outer_fold") && e.contains("outer_folds"),
+        "{e}"
+    );
+    let e = parse("[nested]\nouter_folds = 1\n")
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("nested.outer_folds"), "{e}");
+    let e = parse("[nested]\nspecs = 0\n").unwrap_err().to_string();
+    assert!(e.contains("nested.specs"), "{e}");
+    let e = parse("[nested]\ninner_folds = 1\n")
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("nested.inner_folds"), "{e}");
+}
+
+/// Resume: folds lost to a kill (their tables missing, a half-written temp file left)
+/// are recomputed, the finished ones skipped, and the tables are identical to an
+/// uninterrupted run's.
+#[test]
+fn resume_after_lost_folds_gives_identical_tables() {
+    let mut p = toy();
+    p.cfg.nested = Some(NestedSection {
+        outer_folds: 4,
+        inner_folds: Some(3),
+        specs: Some(5),
+        seed: Some(77),
+    });
+    let dir = std::env::temp_dir().join(format!("forkmap-nested-resume-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("dir");
+    let go = || {
+        forkmap::nested::exec::run_in_dir(&p.cfg, &p.panel, &p.space, &dir, "mae", 2, true)
+            .expect("nested")
+            .expect("configured")
+    };
+    let first = go();
+    assert_eq!((first.folds, first.resumed), (4, 0));
+    let nd = dir.join(forkmap::nested::table::NESTED_DIR);
+    let a = forkmap::nested::table::read_folds(&nd).expect("read");
+    for o in [1, 3] {
+        std::fs::remove_file(nd.join(format!("fold-00{o}.parquet"))).expect("rm");
+    }
+    std::fs::write(nd.join(".fold-003.parquet.tmp"), b"half").expect("tmp");
+    let second = go();
+    assert_eq!((second.folds, second.resumed), (4, 2));
+    let b = forkmap::nested::table::read_folds(&nd).expect("read");
+    assert_eq!(format!("{a:?}"), format!("{b:?}"));
+    assert_eq!(first.nested.to_bits(), second.nested.to_bits());
+    // Other settings: the tables are recomputed, not mixed.
+    p.cfg.nested.as_mut().expect("section").specs = Some(4);
+    let third = go();
+    assert_eq!((third.folds, third.resumed), (4, 0));
+    let c = forkmap::nested::table::read_folds(&nd).expect("read");
+    assert!(c.iter().all(|r| r.n_specs == 4));
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -37,6 +37,8 @@ pub struct Report {
     pub stability: Vec<Stability>,
     /// How often each spec is the best over the resamples (specs best at least once).
     pub best_frequency: Vec<BestFrequency>,
+    /// The nested estimate of choosing the best (RUN_DIR/nested), when the run has one.
+    pub nested: Option<super::nested::NestedReport>,
 }
 
 /// Settings and provenance.
