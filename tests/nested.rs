@@ -261,12 +261,12 @@ fn resume_after_lost_folds_gives_identical_tables() {
     let dir = std::env::temp_dir().join(format!("forkmap-nested-resume-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).expect("dir");
-    let go = || {
+    let go = |p: &Prepared| {
         forkmap::nested::exec::run_in_dir(&p.cfg, &p.panel, &p.space, &dir, "mae", 2, true)
             .expect("nested")
             .expect("configured")
     };
-    let first = go();
+    let first = go(&p);
     assert_eq!((first.folds, first.resumed), (4, 0));
     let nd = dir.join(forkmap::nested::table::NESTED_DIR);
     let a = forkmap::nested::table::read_folds(&nd).expect("read");
@@ -274,14 +274,14 @@ fn resume_after_lost_folds_gives_identical_tables() {
         std::fs::remove_file(nd.join(format!("fold-00{o}.parquet"))).expect("rm");
     }
     std::fs::write(nd.join(".fold-003.parquet.tmp"), b"half").expect("tmp");
-    let second = go();
+    let second = go(&p);
     assert_eq!((second.folds, second.resumed), (4, 2));
     let b = forkmap::nested::table::read_folds(&nd).expect("read");
     assert_eq!(format!("{a:?}"), format!("{b:?}"));
     assert_eq!(first.nested.to_bits(), second.nested.to_bits());
     // Other settings: the tables are recomputed, not mixed.
     p.cfg.nested.as_mut().expect("section").specs = Some(4);
-    let third = go();
+    let third = go(&p);
     assert_eq!((third.folds, third.resumed), (4, 0));
     let c = forkmap::nested::table::read_folds(&nd).expect("read");
     assert!(c.iter().all(|r| r.n_specs == 4));
