@@ -72,7 +72,9 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
     }
     let mut built = analyse(&t, s, seed)?;
     if let Some(n) = nested::load(set, &built.report)? {
-        built.report.headline.push(nested::headline(&n));
+        // before the closing cautions sentence
+        let h = &mut built.report.headline;
+        h.insert(h.len().saturating_sub(1), nested::headline(&n));
         built.report.nested = Some(n);
     }
     let m = &mut built.report.meta;

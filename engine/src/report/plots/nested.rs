@@ -86,12 +86,14 @@ pub(super) fn nested(report: &Report) -> Result<Option<Plot>> {
                     continue;
                 }
                 rect(root, left, ya + 9, x(*v), yb - 9, col)?;
-                text(root, &num(*v), x(*v) + 6, yc, &value)?;
+                let mut end = *v;
                 if *name == "nested" {
                     for f in &folds {
                         vline(root, x(*f), ya + 4, yb - 4, &GOOD_DARK, 2)?;
+                        end = end.max(*f);
                     }
                 }
+                text(root, &num(*v), x(end) + 6, yc, &value)?;
             }
             // bracket the optimism between the naive and nested bar ends
             if n.naive_error.is_finite() {

@@ -177,6 +177,7 @@ pub(crate) fn sample(n_specs: usize) -> Report {
         conclusions: vec![],
         stability: vec![],
         best_frequency: vec![],
+        nested: None,
     }
 }
 
