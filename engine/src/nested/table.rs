@@ -6,7 +6,8 @@
 //! * `fold-OOO.parquet`: one row per outer fold `OOO`, written atomically when the fold
 //!   is done (a kill loses at most the fold in flight; a resume skips the folds present).
 //!   Columns: `outer_fold`, `spec_id` (null when no spec succeeded inside), one column per
-//!   choice dimension with the chosen option's label, `inner_error`, `outer_error`,
+//!   choice dimension with the chosen option's label, `inner_error`, `outer_error` (null
+//!   when undefined),
 //!   `baseline_error` (the training-median baseline on the same outer test rows),
 //!   `n_rows`, `n_units` (outer test rows and units), `n_specs`, `n_ok` (specs swept
 //!   inside, and those that succeeded), `metric`, `message`.
@@ -102,9 +103,9 @@ pub fn write_fold(
     for dim in DIMENSIONS {
         cols = cols.os(dim, [spec.map(|s| s.choice(dim).label())]);
     }
-    cols.f("inner_error", [r.inner_error])
-        .f("outer_error", [r.outer_error])
-        .f("baseline_error", [r.baseline_error])
+    cols.of("inner_error", [r.inner_error])
+        .of("outer_error", [r.outer_error])
+        .of("baseline_error", [r.baseline_error])
         .i("n_rows", [r.n_rows as i64])
         .i("n_units", [r.n_units as i64])
         .i("n_specs", [r.n_specs as i64])
@@ -173,6 +174,8 @@ pub fn read_folds(dir: &Path) -> Result<Vec<FoldRow>> {
                     .ok_or_else(|| out_err(&path, format!("column `{n}` is not an integer")))
             };
             let opt = |a: &StringArray, i: usize| (!a.is_null(i)).then(|| a.value(i).to_string());
+            // null (undefined) reads back as NaN
+            let val = |a: &Float64Array, i: usize| if a.is_null(i) { f64::NAN } else { a.value(i) };
             let (fold, id, msg, metric) = (
                 int("outer_fold")?,
                 text("spec_id")?,
@@ -202,9 +205,9 @@ pub fn read_folds(dir: &Path) -> Result<Vec<FoldRow>> {
                     fold: fold.value(i).max(0) as usize,
                     spec_id: opt(&id, i),
                     choices,
-                    inner_error: inner.value(i),
-                    outer_error: outer.value(i),
-                    baseline_error: base.value(i),
+                    inner_error: val(&inner, i),
+                    outer_error: val(&outer, i),
+                    baseline_error: val(&base, i),
                     n_rows: nr.value(i).max(0) as usize,
                     n_units: nu.value(i).max(0) as usize,
                     n_specs: ns.value(i).max(0) as usize,

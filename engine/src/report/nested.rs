@@ -172,14 +172,14 @@ pub fn write_tables(n: &NestedReport, dir: &Path) -> Result<Vec<PathBuf>> {
     out.push(
         Cols::default()
             .s("metric", [&n.metric])
-            .f("naive_error", [n.naive_error])
+            .of("naive_error", [n.naive_error])
             .os(
                 "naive_spec_id",
                 [(!n.naive_spec.is_empty()).then(|| n.naive_spec.clone())],
             )
-            .f("nested_error", [n.nested_error])
-            .f("baseline_error", [n.baseline_error])
-            .f("optimism", [n.optimism])
+            .of("nested_error", [n.nested_error])
+            .of("baseline_error", [n.baseline_error])
+            .of("optimism", [n.optimism])
             .i("outer_folds", [n.outer_folds as i64])
             .i("folds_failed", [n.folds_failed as i64])
             .i("specs_swept", [n.specs_swept as i64])
@@ -200,9 +200,9 @@ pub fn write_tables(n: &NestedReport, dir: &Path) -> Result<Vec<PathBuf>> {
         Cols::default()
             .i("outer_fold", f.iter().map(|x| x.fold as i64))
             .os("spec_id", f.iter().map(|x| x.spec_id.clone()))
-            .f("inner_error", f.iter().map(|x| x.inner_error))
-            .f("outer_error", f.iter().map(|x| x.outer_error))
-            .f("baseline_error", f.iter().map(|x| x.baseline_error))
+            .of("inner_error", f.iter().map(|x| x.inner_error))
+            .of("outer_error", f.iter().map(|x| x.outer_error))
+            .of("baseline_error", f.iter().map(|x| x.baseline_error))
             .i("n_rows", f.iter().map(|x| x.n_rows as i64))
             .i("n_ok", f.iter().map(|x| x.n_ok as i64))
             .i("n_specs", f.iter().map(|x| x.n_specs as i64))
