@@ -164,16 +164,18 @@ fn toy_nested_lies_between_naive_best_and_baseline() {
 
 /// Pure noise: the toy indicators with an outcome of seeded normals (independent of every
 /// indicator). Selection cannot find skill that is not there, so the nested error must not
-/// sit below the baseline's beyond noise: over 8 repetitions the mean of
+/// sit below the baseline's beyond noise: over 20 repetitions the mean of
 /// d = nested / baseline - 1 must exceed -2 standard errors of that mean (a one-sided
 /// bound at about 2.5% under a normal approximation, common practice), and no single
-/// repetition may beat the baseline by more than 10%. The naive best on the same data is
+/// repetition may beat the baseline by more than 10%. The bound is one-sided on purpose:
+/// on noise the chosen spec may do worse than the baseline (its fit adds variance; in the
+/// first 8 repetitions d was +2.7% on average), which is no optimism. The naive best on the same data is
 /// the contrast: it is optimistic (below the nested error on average).
 #[test]
 fn pure_noise_nested_is_within_noise_of_the_baseline() {
     let p = toy();
     let subset = fast_specs(&p);
-    let reps = 8u64;
+    let reps = 20u64;
     let (mut d, mut gap) = (Vec::new(), Vec::new());
     for rep in 0..reps {
         let y = ndarray::Array1::from(
