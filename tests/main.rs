@@ -15,6 +15,7 @@ mod folds_prop;
 mod importance;
 mod intake_fuzz;
 mod leak;
+mod nested;
 mod numbers;
 mod pools;
 mod reference;

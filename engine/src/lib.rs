@@ -14,6 +14,7 @@ pub mod gather;
 pub mod importance;
 pub mod metrics;
 pub mod models;
+pub mod nested;
 pub mod null;
 pub mod panel;
 pub mod plan;

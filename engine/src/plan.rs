@@ -270,6 +270,9 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             human(estimate)
         );
     }
+    if let Some(n) = crate::nested::exec::plan_text(&p.cfg, &p.panel, &p.space, fits, estimate) {
+        t.push_str(&n);
+    }
     let mut no_weights = Vec::new();
     let mi = DIMENSIONS.iter().position(|d| *d == "model").unwrap_or(0);
     for o in options_of("model") {

@@ -433,6 +433,13 @@ impl Cols {
         self.cols.push(Arc::new(Float64Array::from_iter_values(v)));
         self
     }
+    /// A nullable number column: NaN (undefined) is written as null.
+    pub fn of<I: IntoIterator<Item = f64>>(mut self, name: &str, v: I) -> Self {
+        let a: Vec<Option<f64>> = v.into_iter().map(|x| (!x.is_nan()).then_some(x)).collect();
+        self.fields.push(Field::new(name, DataType::Float64, true));
+        self.cols.push(Arc::new(Float64Array::from(a)));
+        self
+    }
     pub fn i<I: IntoIterator<Item = i64>>(mut self, name: &str, v: I) -> Self {
         self.fields.push(Field::new(name, DataType::Int64, false));
         self.cols.push(Arc::new(Int64Array::from_iter_values(v)));

@@ -24,3 +24,9 @@ pub const PLAN_TIMING: u64 = 0x0091_20BE;
 pub const PERMUTATION_DRAWS: u64 = 0x5045_524d_5554_4531;
 /// The report's bootstrap over units.
 pub const REPORT_RESAMPLES: u64 = 0x4d41_505f_424f_4f54;
+/// The nested estimate's outer folds (`[nested]`).
+pub const NESTED_OUTER: u64 = 0x4e45_5354_4f55_5445;
+/// The nested estimate's inner folds: outer fold `o` draws from `mix(NESTED_INNER, o)`.
+pub const NESTED_INNER: u64 = 0x4e45_5354_494e_4e45;
+/// The nested estimate's spec sample.
+pub const NESTED_SAMPLE: u64 = 0x4e45_5354_5341_4d50;

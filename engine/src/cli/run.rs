@@ -24,6 +24,10 @@
 //! importance settings, version; see `forkmap::extend`); only the new specs run, the old
 //! parts stay as they are, the manifest's `lineage` records the extension, and the report
 //! is rewritten. Anything else is refused naming what differs, with nothing written.
+//! printed as a warning, and `forkmap map RUN_DIR` writes the report later. With a
+//! `[nested]` section the nested estimate of choosing the best runs after the sweep,
+//! before the report, into RUN_DIR/nested/ (one table per outer fold; a rerun skips the
+//! folds done; a shard skips it: run the whole space for it).
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -106,6 +110,18 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     } else {
         forkmap::run::run_to_dir(&p, &a.out, &opts)?
     };
+    // The nested estimate (`[nested]`): after the sweep, before the report; a shard
+    // leaves it to a run of the whole space.
+    let nested = match a.shard {
+        None => {
+            let mut m = p.cfg.map.clone();
+            a.over.apply(&mut m);
+            forkmap::nested::exec::run_in_dir(
+                &p.cfg, &p.panel, &p.space, &a.out, &m.metric, threads, a.quiet,
+            )?
+        }
+        Some(_) => None,
+    };
     let failed: usize = s.failures.values().sum();
     println!("specs      {} ({} ok, {failed} failed)", s.specs, s.ok);
     for (cause, n) in &s.failures {
@@ -124,6 +140,17 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         );
     }
     println!("seconds    {:.1}", s.seconds);
+    if let Some(n) = &nested {
+        println!(
+            "nested     {} {:.4} over {} outer folds (baseline {:.4}; {:.1} s) -> {}",
+            n.metric,
+            n.nested,
+            n.folds,
+            n.baseline,
+            n.seconds,
+            a.out.join(forkmap::nested::table::NESTED_DIR).display()
+        );
+    }
     println!("results    {}", a.out.display());
     if draw_curves {
         super::curves::after_run(&p, &a.out, &curves, &a.over, threads, a.quiet);

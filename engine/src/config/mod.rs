@@ -7,6 +7,7 @@
 pub mod curves;
 pub mod importance;
 pub mod map;
+pub mod nested;
 
 use crate::error::{suggest, Error, Result};
 use serde::{Deserialize, Serialize};
@@ -50,6 +51,10 @@ pub struct Config {
     /// manifest stores it apart, under `curves`).
     #[serde(default, skip_serializing)]
     pub curves: curves::CurvesSection,
+    /// The nested estimate of choosing the best (`[nested]`; run after the sweep when
+    /// present). Not part of the run's identity: stored with its tables under nested/.
+    #[serde(default, skip_serializing)]
+    pub nested: Option<nested::NestedSection>,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -245,6 +250,7 @@ const TOP_KEYS: &[&str] = &[
     "importance",
     "map",
     "curves",
+    "nested",
 ];
 const DATA_KEYS: &[&str] = &[
     "file",
@@ -290,6 +296,7 @@ impl Config {
             ("output", OUTPUT_KEYS),
             ("map", map::MAP_KEYS),
             ("curves", curves::CURVES_KEYS),
+            ("nested", nested::NESTED_KEYS),
         ] {
             if let Some(v) = table.get(section) {
                 let t = v
@@ -356,6 +363,9 @@ impl Config {
         }
         cfg.map.check().map_err(&err)?;
         cfg.curves.checked().map_err(&err)?;
+        if let Some(n) = &cfg.nested {
+            n.check().map_err(&err)?;
+        }
         if cfg.output.batch_specs == 0 {
             return Err(err("output.batch_specs must be at least 1".into()));
         }

@@ -19,6 +19,7 @@ pub mod headline;
 pub mod html;
 pub mod influence;
 pub mod model;
+pub mod nested;
 pub mod plots;
 pub mod shape;
 pub use crate::config::map as settings;
@@ -72,6 +73,12 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
     }
     let mut built = analyse(&t, s, seed)?;
     shape::attach(set, &mut built.report);
+    if let Some(n) = nested::load(set, &built.report)? {
+        // before the closing cautions sentence
+        let h = &mut built.report.headline;
+        h.insert(h.len().saturating_sub(1), nested::headline(&n));
+        built.report.nested = Some(n);
+    }
     let m = &mut built.report.meta;
     m.runs = set
         .dirs
@@ -404,6 +411,9 @@ pub fn is_report(dir: &Path) -> bool {
 
 fn write_into(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
     let mut files = tables::write_all(built, dir)?;
+    if let Some(n) = &built.report.nested {
+        files.extend(nested::write_tables(n, dir)?);
+    }
     let head = built.report.headline.join("\n") + "\n";
     let hp = dir.join("headline.txt");
     crate::sink::write_bytes_atomic(&hp, head.as_bytes())?;

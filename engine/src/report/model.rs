@@ -39,6 +39,8 @@ pub struct Report {
     pub best_frequency: Vec<BestFrequency>,
     /// The curves of RUN_DIR/curves/ when the run has them.
     pub shape: Option<super::shape::Shape>,
+    /// The nested estimate of choosing the best (RUN_DIR/nested), when the run has one.
+    pub nested: Option<super::nested::NestedReport>,
 }
 
 /// Settings and provenance.

@@ -17,6 +17,8 @@
 //!   top-k share across that dimension's choices.
 //! * `importance-LEVEL-KIND.svg`: per name over the good set: importance spread (quartile
 //!   box, median, empirical range), rank distribution, share top-k.
+//! * `nested.svg`: naive best vs nested error vs baseline (report/nested.rs; only when
+//!   the run has a nested estimate).
 //! * `agreement-LEVEL-KIND.svg`: Kendall's tau-b between good members' importance orders,
 //!   in blocks of members once there are more than [`MATRIX_CELLS_MAX`].
 //!
@@ -40,6 +42,7 @@ mod curve;
 mod draw;
 mod importance;
 mod influence;
+mod nested;
 pub(crate) mod shape;
 #[cfg(test)]
 pub(crate) mod tests;
@@ -105,6 +108,9 @@ pub fn render_all(report: &Report) -> Result<Vec<Plot>> {
         if let Some(p) = agreement(report, i, &a.level, &a.kind)? {
             plots.push(p);
         }
+    }
+    if let Some(p) = nested::nested(report)? {
+        plots.push(p);
     }
     Ok(plots)
 }

@@ -178,6 +178,7 @@ pub(crate) fn sample(n_specs: usize) -> Report {
         stability: vec![],
         best_frequency: vec![],
         shape: None,
+        nested: None,
     }
 }
 
