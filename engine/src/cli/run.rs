@@ -11,7 +11,10 @@
 //! shard I of a deterministic, cost-balanced split into N runs (`forkmap gather` joins the
 //! shards; `forkmap check` reports what is missing). A run of the whole space ends by
 //! writing its report to RUN_DIR/report/ (as `forkmap map RUN_DIR` would; `--no-map`
-//! skips it, a shard leaves it to the merged run) and prints its headline. Exit code 0 when
+//! skips it, a shard leaves it to the merged run) and prints its headline. With a `[null]`
+//! section, a whole-space run runs the permutation null after the sweep and before the
+//! report, into RUN_DIR/null/ (resumable draw by draw); a shard leaves the null to the
+//! gathered run. Exit code 0 when
 //! the sweep completed (failed specs are recorded and counted), 2 on an error. A report
 //! that fails does not fail the run: its results are complete and kept, the failure is
 //! printed as a warning, and `forkmap map RUN_DIR` writes the report later.
@@ -100,6 +103,18 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             "importance {} spec(s) without importances (see specs.notes)",
             s.importance_failed
         );
+    }
+    if let Some(n) = &s.null {
+        println!(
+            "null       {} draws x {} specs ({} run now) in {:.1}s -> {}",
+            n.draws,
+            n.specs_per_draw,
+            n.ran,
+            n.seconds,
+            a.out.join(forkmap::null::table::NULL_DIR).display()
+        );
+    } else if p.cfg.null.is_some() && a.shard.is_some() {
+        println!("null       left to the gathered run: after `forkmap gather`, run `forkmap run CONFIG --out GATHERED` (the finished specs are not rerun; only the null runs)");
     }
     println!("seconds    {:.1}", s.seconds);
     println!("results    {}", a.out.display());

@@ -6,6 +6,7 @@
 
 pub mod importance;
 pub mod map;
+pub mod null;
 
 use crate::error::{suggest, Error, Result};
 use serde::{Deserialize, Serialize};
@@ -45,6 +46,10 @@ pub struct Config {
     /// the canonical form (the manifest stores it apart, under `map`).
     #[serde(default, skip_serializing)]
     pub map: map::MapSection,
+    /// The permutation null (`[null]`; absent: no null). Not part of the run's identity:
+    /// the null keeps its own in `RUN_DIR/null/manifest.json`.
+    #[serde(default, skip_serializing)]
+    pub null: Option<null::NullSection>,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -239,6 +244,7 @@ const TOP_KEYS: &[&str] = &[
     "sample",
     "importance",
     "map",
+    "null",
 ];
 const DATA_KEYS: &[&str] = &[
     "file",
@@ -283,6 +289,7 @@ impl Config {
             ("folds", FOLD_KEYS),
             ("output", OUTPUT_KEYS),
             ("map", map::MAP_KEYS),
+            ("null", null::NULL_KEYS),
         ] {
             if let Some(v) = table.get(section) {
                 let t = v
@@ -348,6 +355,9 @@ impl Config {
             }
         }
         cfg.map.check().map_err(&err)?;
+        if let Some(n) = &cfg.null {
+            n.check().map_err(&err)?;
+        }
         if cfg.output.batch_specs == 0 {
             return Err(err("output.batch_specs must be at least 1".into()));
         }

@@ -16,10 +16,15 @@
 //! that succeeded, the best skill, and the share of specs with skill > 0.
 //! p-values follow `p = (1 + #{null as good as or better than observed}) / (1 + D)`.
 
+pub mod plan;
+pub mod run;
+pub mod table;
+
 use crate::error::{Error, Result};
-use crate::folds::{mix, FoldPlan};
+use crate::folds::FoldPlan;
 use crate::panel::Panel;
 use crate::space::ChoiceSpace;
+use crate::streams::mix;
 use crate::sweep::Sweep;
 use rand::seq::SliceRandom;
 use rand::SeedableRng;
