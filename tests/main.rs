@@ -11,6 +11,7 @@ mod folds_prop;
 mod importance;
 mod intake_fuzz;
 mod leak;
+mod null;
 mod numbers;
 mod pools;
 mod reference;

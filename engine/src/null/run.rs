@@ -392,3 +392,22 @@ pub fn progress_of(out: &Path) -> Result<Option<(usize, usize)>> {
         .count();
     Ok(Some((done, asked)))
 }
+
+/// `forkmap check`'s lines on the null of a whole-space run directory (`asked`: its
+/// manifest says the config asks for a null) and whether the null is complete.
+pub fn check_lines(out: &Path, asked: bool) -> Result<(Vec<String>, bool)> {
+    Ok(match progress_of(out)? {
+        Some((done, want)) if done >= want => (vec![format!("null       {done} of {want} draws")], true),
+        Some((done, want)) => (
+            vec![format!(
+                "null       {done} of {want} draws (incomplete: rerun the same `forkmap run` to finish it; complete draws are kept)"
+            )],
+            false,
+        ),
+        None if asked => (
+            vec!["null       not run yet (the config asks for one: rerun the same `forkmap run` on this directory)".into()],
+            false,
+        ),
+        None => (Vec::new(), true),
+    })
+}
