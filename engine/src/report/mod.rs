@@ -19,6 +19,7 @@ pub mod headline;
 pub mod html;
 pub mod influence;
 pub mod model;
+pub mod null;
 pub mod plots;
 pub use crate::config::map as settings;
 pub mod stability;
@@ -70,6 +71,11 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
         notes.push(format!("{n} specs left out: {why}"));
     }
     let mut built = analyse(&t, s, seed)?;
+    built.report.null = null::analyse(set, &t)?;
+    if let Some(n) = &built.report.null {
+        built.report.headline.push(null::headline(n));
+        notes.extend(n.notes.iter().cloned());
+    }
     let m = &mut built.report.meta;
     m.runs = set
         .dirs

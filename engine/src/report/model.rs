@@ -37,6 +37,8 @@ pub struct Report {
     pub stability: Vec<Stability>,
     /// How often each spec is the best over the resamples (specs best at least once).
     pub best_frequency: Vec<BestFrequency>,
+    /// The permutation null, when the run has one (`report::null`).
+    pub null: Option<super::null::NullReport>,
 }
 
 /// Settings and provenance.

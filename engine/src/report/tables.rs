@@ -234,5 +234,8 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
             .s("unit", ru.iter().map(|&u| built.units[u as usize].as_str()))
             .write(dir, "resamples")?,
     );
+    if let Some(n) = &built.report.null {
+        out.extend(super::null::write_tables(n, dir)?);
+    }
     Ok(out)
 }

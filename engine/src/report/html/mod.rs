@@ -14,6 +14,7 @@ use crate::error::Result;
 use std::fmt::Write as _;
 use std::path::Path;
 
+mod null;
 mod sections;
 mod table;
 #[cfg(test)]

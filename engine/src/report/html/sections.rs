@@ -439,5 +439,6 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
     }
     out.push(t);
 
+    out.extend(super::null::tables(r));
     out
 }
