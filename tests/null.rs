@@ -296,3 +296,118 @@ fn check_reports_an_incomplete_null() {
         "{text}"
     );
 }
+
+fn column_f64(b: &arrow_array::RecordBatch, name: &str) -> Vec<f64> {
+    use arrow_array::Array;
+    let c = b.column_by_name(name).unwrap();
+    let a = c
+        .as_any()
+        .downcast_ref::<arrow_array::Float64Array>()
+        .unwrap();
+    (0..a.len()).map(|i| a.value(i)).collect()
+}
+
+fn column_str(b: &arrow_array::RecordBatch, name: &str) -> Vec<String> {
+    use arrow_array::Array;
+    let c = b.column_by_name(name).unwrap();
+    let a = c
+        .as_any()
+        .downcast_ref::<arrow_array::StringArray>()
+        .unwrap();
+    (0..a.len()).map(|i| a.value(i).to_string()).collect()
+}
+
+#[test]
+fn the_report_shows_the_null_with_p_from_the_formula() {
+    use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
+    let tmp = tempfile::tempdir().unwrap();
+    let cfg = config(tmp.path(), "a", "[null]\ndraws = 9\nspecs = 12\n");
+    let out = tmp.path().join("run");
+    let o = Command::new(env!("CARGO_BIN_EXE_forkmap"))
+        .arg("run")
+        .arg(&cfg)
+        .arg("--out")
+        .arg(&out)
+        .args(["--threads", "2", "--quiet"])
+        .output()
+        .unwrap();
+    let stdout = String::from_utf8_lossy(&o.stdout).to_string();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(stdout.contains("Permutation null (9 draws"), "{stdout}");
+    // Observed best and median over the null's sample, from the run's specs table.
+    let m: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(out.join(NULL_DIR).join("manifest.json")).unwrap(),
+    )
+    .unwrap();
+    let sample: Vec<String> = m["spec_ids"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_str().unwrap().to_string())
+        .collect();
+    let mut errors = Vec::new();
+    for b in crate::end_to_end::read_table(&out.join("specs")) {
+        let ids = column_str(&b, "spec_id");
+        let mae = column_f64(&b, "mae");
+        for (id, e) in ids.iter().zip(mae) {
+            if sample.contains(id) && e.is_finite() {
+                errors.push(e);
+            }
+        }
+    }
+    assert_eq!(errors.len(), 12);
+    errors.sort_by(f64::total_cmp);
+    let best = errors[0];
+    let median = (errors[5] + errors[6]) / 2.0; // 12 values: numpy's linear median
+    let draws = read_draws(&out.join(NULL_DIR)).unwrap();
+    assert_eq!(draws.len(), 9);
+    let p = |obs: f64, null: Vec<f64>| {
+        (1 + null.iter().filter(|v| **v <= obs).count()) as f64 / 10.0
+    };
+    let p_best = p(best, draws.iter().map(|d| d.best_error).collect());
+    let p_median = p(median, draws.iter().map(|d| d.median_error).collect());
+    let f = std::fs::File::open(out.join("report/null_summary.parquet")).unwrap();
+    let b = ParquetRecordBatchReaderBuilder::try_new(f)
+        .unwrap()
+        .build()
+        .unwrap()
+        .next()
+        .unwrap()
+        .unwrap();
+    assert_eq!(column_str(&b, "statistic"), ["best", "median"]);
+    let obs = column_f64(&b, "observed");
+    assert_eq!(obs[0], best);
+    assert!((obs[1] - median).abs() < 1e-12, "{} vs {median}", obs[1]);
+    let ps = column_f64(&b, "p");
+    assert_eq!(ps, [p_best, p_median]);
+    // The page shows the section, the histogram with its data marker, and the formula.
+    let page = std::fs::read_to_string(out.join("report/index.html")).unwrap();
+    assert!(page.contains("id=\"table-null_summary\""));
+    assert!(page.contains("id=\"table-null_indicators\""));
+    assert!(page.contains("plot-null-best"));
+    assert!(page.contains("+1 correction"));
+    let svg = std::fs::read_to_string(out.join("report/null-best.svg")).unwrap();
+    assert!(svg.contains("class=\"fm-data\""));
+    // The indicator table: chance rates in [0, 1], p only where observed top.
+    let f = std::fs::File::open(out.join("report/null_indicators.parquet")).unwrap();
+    let b = ParquetRecordBatchReaderBuilder::try_new(f)
+        .unwrap()
+        .build()
+        .unwrap()
+        .next()
+        .unwrap()
+        .unwrap();
+    let chance = column_f64(&b, "chance_top");
+    assert!(chance.iter().all(|c| (0.0..=1.0).contains(c)));
+    assert!(chance.iter().any(|c| *c > 0.0));
+    let tops = read_tops(&out.join(NULL_DIR), &(0..9).collect::<Vec<_>>()).unwrap();
+    let names = column_str(&b, "name");
+    let levels = column_str(&b, "level");
+    for ((n, l), c) in names.iter().zip(&levels).zip(&chance) {
+        let hits = tops
+            .iter()
+            .filter(|t| &t.name == n && &t.level == l && t.top)
+            .count();
+        assert_eq!(*c, hits as f64 / 9.0, "{l} {n}");
+    }
+}
