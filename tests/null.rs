@@ -361,9 +361,8 @@ fn the_report_shows_the_null_with_p_from_the_formula() {
     let median = (errors[5] + errors[6]) / 2.0; // 12 values: numpy's linear median
     let draws = read_draws(&out.join(NULL_DIR)).unwrap();
     assert_eq!(draws.len(), 9);
-    let p = |obs: f64, null: Vec<f64>| {
-        (1 + null.iter().filter(|v| **v <= obs).count()) as f64 / 10.0
-    };
+    let p =
+        |obs: f64, null: Vec<f64>| (1 + null.iter().filter(|v| **v <= obs).count()) as f64 / 10.0;
     let p_best = p(best, draws.iter().map(|d| d.best_error).collect());
     let p_median = p(median, draws.iter().map(|d| d.median_error).collect());
     let f = std::fs::File::open(out.join("report/null_summary.parquet")).unwrap();
@@ -410,4 +409,50 @@ fn the_report_shows_the_null_with_p_from_the_formula() {
             .count();
         assert_eq!(*c, hits as f64 / 9.0, "{l} {n}");
     }
+}
+
+#[test]
+fn shards_leave_the_null_to_the_gathered_run() {
+    let tmp = tempfile::tempdir().unwrap();
+    let cfg = config(tmp.path(), "a", "[null]\ndraws = 2\nspecs = 4\n");
+    let shards = tmp.path().join("shards");
+    for i in 1..=2 {
+        let out = shards.join(format!("shard-{i}"));
+        let o = run(&cfg, &out, "2", &["--quiet", "--shard", &format!("{i}/2")]);
+        let text = String::from_utf8_lossy(&o.stdout).to_string();
+        assert!(
+            text.contains("null       left to the gathered run"),
+            "{text}"
+        );
+        assert!(!out.join(NULL_DIR).exists());
+    }
+    let gathered = tmp.path().join("gathered");
+    let fm = |args: &[&std::ffi::OsStr]| {
+        Command::new(env!("CARGO_BIN_EXE_forkmap"))
+            .args(args)
+            .output()
+            .unwrap()
+    };
+    let o = fm(&[
+        "gather".as_ref(),
+        shards.as_os_str(),
+        "--out".as_ref(),
+        gathered.as_os_str(),
+        "--quiet".as_ref(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let o = fm(&["check".as_ref(), gathered.as_os_str()]);
+    let text = String::from_utf8_lossy(&o.stdout).to_string();
+    assert_eq!(o.status.code(), Some(1), "{text}");
+    assert!(text.contains("null       not run yet"), "{text}");
+    // The same run command on the gathered folder runs only the null.
+    run(&cfg, &gathered, "2", &["--quiet"]);
+    let o = fm(&["check".as_ref(), gathered.as_os_str()]);
+    let text = String::from_utf8_lossy(&o.stdout).to_string();
+    assert!(o.status.success(), "{text}");
+    assert!(text.contains("null       2 of 2 draws"), "{text}");
+    // And gives the tables of a whole-space run.
+    let whole = tmp.path().join("whole");
+    run(&cfg, &whole, "2", &["--quiet"]);
+    assert_eq!(null_rows(&gathered), null_rows(&whole));
 }
