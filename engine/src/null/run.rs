@@ -337,7 +337,7 @@ fn summarise_draw(
         .filter(|s| s.is_finite())
         .fold(f64::NAN, f64::max);
     let id = |g: &Got| inp.space.specs[g.spec].id.clone();
-    let k = inp.settings.top_k as u32;
+    let k = inp.settings.top_k;
     let tops = top_spec
         .map(|g| {
             g.importance

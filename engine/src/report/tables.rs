@@ -44,6 +44,9 @@ pub const REPORT_TABLES: &[&str] = &[
     "resamples",
 ];
 
+/// Tables written only when the run has a permutation null (`report/null.rs`).
+pub const NULL_TABLES: &[&str] = &["null_summary", "null_indicators"];
+
 /// Write every table of `built` into `dir`.
 pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
     let r = &built.report;
