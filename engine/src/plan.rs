@@ -273,6 +273,15 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
     if let Some(n) = crate::nested::exec::plan_text(&p.cfg, &p.panel, &p.space, fits, estimate) {
         t.push_str(&n);
     }
+    if let Some(ns) = p.cfg.null.as_ref().and_then(|n| n.check().ok()) {
+        t.push_str(&crate::null::plan::lines(
+            &ns,
+            p.space.specs.len(),
+            p.folds.n_fits_per_spec(),
+            estimate,
+            imp.wants("permutation") || imp.wants("group"),
+        ));
+    }
     let mut no_weights = Vec::new();
     let mi = DIMENSIONS.iter().position(|d| *d == "model").unwrap_or(0);
     for o in options_of("model") {

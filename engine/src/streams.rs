@@ -30,3 +30,9 @@ pub const NESTED_OUTER: u64 = 0x4e45_5354_4f55_5445;
 pub const NESTED_INNER: u64 = 0x4e45_5354_494e_4e45;
 /// The nested estimate's spec sample.
 pub const NESTED_SAMPLE: u64 = 0x4e45_5354_5341_4d50;
+/// The permutation null's draws: draw `d` is seeded by `mix(mix(seed, NULL_DRAWS), d)`.
+pub const NULL_DRAWS: u64 = 0x4e75_6c6c_4472_6177;
+/// The permutation null's spec sample.
+pub const NULL_SAMPLE: u64 = 0x4e75_6c6c_5370_6563;
+/// The curves' unit bootstrap of a breakpoint.
+pub const CURVE_BOOTSTRAP: u64 = 0x4355_5256_4553_4254;

@@ -14,7 +14,9 @@
 //! skips it, a shard leaves it to the merged run) and prints its headline. Before the
 //! report it draws the curves (`forkmap curves RUN_DIR` with the config's `[curves]`
 //! settings) into RUN_DIR/curves/ unless `--no-curves` or `[curves] draw = false`; failed
-//! curves are a warning, like a failed report. Exit code 0 when
+//! curves are a warning, like a failed report. With a `[null]` section, a whole-space run
+//! runs the permutation null after the sweep and before the report, into RUN_DIR/null/
+//! (resumable draw by draw); a shard leaves the null to the gathered run. Exit code 0 when
 //! the sweep completed (failed specs are recorded and counted), 2 on an error. A report
 //! that fails does not fail the run: its results are complete and kept, the failure is
 //! printed as a warning, and `forkmap map RUN_DIR` writes the report later.
@@ -138,6 +140,18 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             "importance {} spec(s) without importances (see specs.notes)",
             s.importance_failed
         );
+    }
+    if let Some(n) = &s.null {
+        println!(
+            "null       {} draws x {} specs ({} run now) in {:.1}s -> {}",
+            n.draws,
+            n.specs_per_draw,
+            n.ran,
+            n.seconds,
+            a.out.join(forkmap::null::table::NULL_DIR).display()
+        );
+    } else if p.cfg.null.is_some() && a.shard.is_some() {
+        println!("null       left to the gathered run: after `forkmap gather`, run `forkmap run CONFIG --out GATHERED` (the finished specs are not rerun; only the null runs)");
     }
     println!("seconds    {:.1}", s.seconds);
     if let Some(n) = &nested {

@@ -8,6 +8,7 @@ pub mod curves;
 pub mod importance;
 pub mod map;
 pub mod nested;
+pub mod null;
 
 use crate::error::{suggest, Error, Result};
 use serde::{Deserialize, Serialize};
@@ -55,6 +56,10 @@ pub struct Config {
     /// present). Not part of the run's identity: stored with its tables under nested/.
     #[serde(default, skip_serializing)]
     pub nested: Option<nested::NestedSection>,
+    /// The permutation null (`[null]`; absent: no null). Not part of the run's identity:
+    /// the null keeps its own in `RUN_DIR/null/manifest.json`.
+    #[serde(default, skip_serializing)]
+    pub null: Option<null::NullSection>,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -251,6 +256,7 @@ const TOP_KEYS: &[&str] = &[
     "map",
     "curves",
     "nested",
+    "null",
 ];
 const DATA_KEYS: &[&str] = &[
     "file",
@@ -297,6 +303,7 @@ impl Config {
             ("map", map::MAP_KEYS),
             ("curves", curves::CURVES_KEYS),
             ("nested", nested::NESTED_KEYS),
+            ("null", null::NULL_KEYS),
         ] {
             if let Some(v) = table.get(section) {
                 let t = v
@@ -364,6 +371,9 @@ impl Config {
         cfg.map.check().map_err(&err)?;
         cfg.curves.checked().map_err(&err)?;
         if let Some(n) = &cfg.nested {
+            n.check().map_err(&err)?;
+        }
+        if let Some(n) = &cfg.null {
             n.check().map_err(&err)?;
         }
         if cfg.output.batch_specs == 0 {

@@ -92,8 +92,7 @@ pub fn fit_hinge(x: &[f64], y: &[f64]) -> Option<Hinge> {
     best
 }
 
-/// Stream of the curves' unit bootstrap.
-const STREAM: u64 = 0x4355_5256_4553_4254;
+use crate::streams::CURVE_BOOTSTRAP as STREAM;
 
 /// Percentile interval (`level`, e.g. 0.9) of the hinge breakpoint over `b` unit
 /// resamples: each draw takes `n_units` units with replacement (ChaCha8 seeded with

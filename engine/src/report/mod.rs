@@ -20,6 +20,7 @@ pub mod html;
 pub mod influence;
 pub mod model;
 pub mod nested;
+pub mod null;
 pub mod plots;
 pub mod shape;
 pub use crate::config::map as settings;
@@ -78,6 +79,13 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
         let h = &mut built.report.headline;
         h.insert(h.len().saturating_sub(1), nested::headline(&n));
         built.report.nested = Some(n);
+    }
+    built.report.null = null::analyse(set, &t)?;
+    if let Some(n) = &built.report.null {
+        // before the closing cautions sentence
+        let h = &mut built.report.headline;
+        h.insert(h.len().saturating_sub(1), null::headline(n));
+        notes.extend(n.notes.iter().cloned());
     }
     let m = &mut built.report.meta;
     m.runs = set

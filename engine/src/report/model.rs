@@ -41,6 +41,8 @@ pub struct Report {
     pub shape: Option<super::shape::Shape>,
     /// The nested estimate of choosing the best (RUN_DIR/nested), when the run has one.
     pub nested: Option<super::nested::NestedReport>,
+    /// The permutation null, when the run has one (`report::null`).
+    pub null: Option<super::null::NullReport>,
 }
 
 /// Settings and provenance.

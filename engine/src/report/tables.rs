@@ -44,6 +44,9 @@ pub const REPORT_TABLES: &[&str] = &[
     "resamples",
 ];
 
+/// Tables written only when the run has a permutation null (`report/null.rs`).
+pub const NULL_TABLES: &[&str] = &["null_summary", "null_indicators"];
+
 /// Write every table of `built` into `dir`.
 pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
     let r = &built.report;
@@ -234,5 +237,8 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
             .s("unit", ru.iter().map(|&u| built.units[u as usize].as_str()))
             .write(dir, "resamples")?,
     );
+    if let Some(n) = &built.report.null {
+        out.extend(super::null::write_tables(n, dir)?);
+    }
     Ok(out)
 }

@@ -72,6 +72,8 @@ pub struct RunSummary {
     pub importance_failed: usize,
     pub seconds: f64,
     pub best: Option<(String, f64)>,
+    /// The permutation null, when the config asks for one and this is a whole-space run.
+    pub null: Option<crate::null::run::NullSummary>,
 }
 
 /// Settings of one run.
@@ -181,10 +183,12 @@ fn open_out(
                 ));
             }
             _ => {
-                for t in TABLES
-                    .iter()
-                    .chain(&[crate::report::REPORT_DIR, crate::report::shape::CURVES_DIR])
-                {
+                for t in TABLES.iter().chain(&[
+                    crate::report::REPORT_DIR,
+                    crate::report::shape::CURVES_DIR,
+                    crate::null::table::NULL_DIR,
+                    crate::nested::table::NESTED_DIR,
+                ]) {
                     let d = out.join(t);
                     if d.exists() {
                         std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
@@ -266,6 +270,8 @@ fn manifest(
         "map": serde_json::to_value(&p.cfg.map).unwrap_or(serde_json::Value::Null),
         // The curves' settings (not part of the run's identity either).
         "curves": serde_json::to_value(&p.cfg.curves).unwrap_or(serde_json::Value::Null),
+        // The permutation null asked for (not part of the run's identity; see null/).
+        "null": serde_json::to_value(&p.cfg.null).unwrap_or(serde_json::Value::Null),
     });
     if let (Some(obj), serde_json::Value::Object(e)) = (m.as_object_mut(), extra) {
         obj.extend(e);
@@ -564,7 +570,27 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
             .unwrap_or_default()
             .as_bytes(),
     )?;
+    // The permutation null (`[null]`), after the sweep is complete; a shard leaves it to
+    // the gathered run.
+    let null = match (&p.cfg.null, opts.shard) {
+        (Some(n), None) => Some(crate::null::run::run_null(
+            &crate::null::run::NullInput {
+                panel: &p.panel,
+                space: &p.space,
+                folds: &p.folds,
+                seed: p.cfg.seed,
+                settings: n.check().map_err(Error::Space)?,
+                run_config: p.cfg.canonical_json(),
+                data_sha256: sha.clone(),
+            },
+            out,
+            &pool,
+            opts.quiet,
+        )?),
+        _ => None,
+    };
     Ok(RunSummary {
+        null,
         specs: sink.written_specs,
         ok,
         failures,

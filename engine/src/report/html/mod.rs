@@ -15,6 +15,7 @@ use std::fmt::Write as _;
 use std::path::Path;
 
 mod nested;
+mod null;
 mod sections;
 mod shape;
 mod table;

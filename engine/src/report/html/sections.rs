@@ -440,5 +440,6 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
     out.push(t);
 
     out.extend(super::nested::tables(r));
+    out.extend(super::null::tables(r));
     out
 }

@@ -25,10 +25,13 @@ fn the_page_has_every_section() {
         "id=\"plot-rank-influence-indicator-permutation\"",
         "id=\"plot-importance-indicator-permutation\"",
         "id=\"plot-agreement-indicator-permutation\"",
+        "id=\"plot-null-best\"",
+        "id=\"table-null_summary\"",
+        "id=\"table-null_indicators\"",
     ] {
         assert!(h.contains(id), "missing {id}");
     }
-    assert_eq!(h.matches("<svg ").count(), 5);
+    assert_eq!(h.matches("<svg ").count(), 6);
     assert!(h.contains("These are associations, not causes."));
 }
 
@@ -143,11 +146,12 @@ fn long_tables_are_cut_with_a_pointer_to_their_file() {
 fn every_table_points_at_a_file_the_report_writes() {
     let r = sample(5);
     let ts = tables(&r);
-    assert_eq!(ts.len(), 14);
+    assert_eq!(ts.len(), 16);
     for t in &ts {
         let stem = t.file.trim_end_matches(".parquet");
         assert!(
-            crate::report::tables::REPORT_TABLES.contains(&stem),
+            crate::report::tables::REPORT_TABLES.contains(&stem)
+                || crate::report::tables::NULL_TABLES.contains(&stem),
             "{} is not a report table",
             t.file
         );
@@ -194,7 +198,7 @@ fn write_puts_the_page_and_each_plot_in_the_folder() {
     let r = sample(20);
     let files = plots::write_all(&r, dir.path()).unwrap();
     write(&r, dir.path()).unwrap();
-    assert_eq!(files.len(), 5);
+    assert_eq!(files.len(), 6);
     for f in &files {
         let s = std::fs::read_to_string(f).unwrap();
         assert!(s.starts_with("<?xml"));

@@ -43,6 +43,7 @@ mod draw;
 mod importance;
 mod influence;
 mod nested;
+mod null;
 pub(crate) mod shape;
 #[cfg(test)]
 pub(crate) mod tests;
@@ -100,6 +101,9 @@ pub fn render_all(report: &Report) -> Result<Vec<Plot>> {
         if let Some(p) = importance(report, &level, &kind)? {
             plots.push(p);
         }
+    }
+    if let Some(p) = null::null_best(report)? {
+        plots.push(p);
     }
     let mut order: Vec<usize> = (0..report.agreement.len()).collect();
     order.sort_by_key(|&i| kind_order(&report.agreement[i].level, &report.agreement[i].kind));

@@ -179,6 +179,23 @@ pub(crate) fn sample(n_specs: usize) -> Report {
         best_frequency: vec![],
         shape: None,
         nested: None,
+        null: Some(crate::report::null::NullReport {
+            draws: 19,
+            draws_asked: 19,
+            specs: 40,
+            specs_in_space: 544,
+            metric: "mae".into(),
+            top_k: 3,
+            observed_best: 3.2,
+            observed_median: 4.0,
+            null_best: (0..19).map(|d| 3.6 + 0.05 * d as f64).collect(),
+            null_median: (0..19).map(|d| 4.1 + 0.02 * d as f64).collect(),
+            p_best: 0.05,
+            p_median: 0.05,
+            top_spec: Some("abc".into()),
+            indicators: vec![],
+            notes: vec![],
+        }),
     }
 }
 
@@ -194,6 +211,7 @@ fn every_plot_renders_with_title_caption_and_data_marks() {
             "error-influence.svg",
             "rank-influence-indicator-permutation.svg",
             "importance-indicator-permutation.svg",
+            "null-best.svg",
             "agreement-indicator-permutation.svg"
         ]
     );

@@ -16,20 +16,22 @@
 //! that succeeded, the best skill, and the share of specs with skill > 0.
 //! p-values follow `p = (1 + #{null as good as or better than observed}) / (1 + D)`.
 
+pub mod plan;
+pub mod run;
+pub mod table;
+
 use crate::error::{Error, Result};
-use crate::folds::{mix, FoldPlan};
+use crate::folds::FoldPlan;
 use crate::panel::Panel;
 use crate::space::ChoiceSpace;
+use crate::streams::mix;
 use crate::sweep::Sweep;
 use rand::seq::SliceRandom;
 use rand::SeedableRng;
 use std::collections::BTreeMap;
 use std::sync::Mutex;
 
-/// Random stream of the permutation null (distinct from folds, models, importance).
-pub const NULL_STREAM: u64 = 0x4e75_6c6c_4472_6177;
-/// Random stream of the spec sample.
-pub const SAMPLE_STREAM: u64 = 0x4e75_6c6c_5370_6563;
+pub use crate::streams::{NULL_DRAWS as NULL_STREAM, NULL_SAMPLE as SAMPLE_STREAM};
 
 /// The outcome of `panel` permuted across units (waves of a unit move together), with the
 /// standard error, if any, moved alongside. Errors if a unit has two rows with one wave.

@@ -1,0 +1,132 @@
+//! The `[null]` config section: the permutation null of the whole sweep (issue 18). Its
+//! presence asks `forkmap run` to run the null after the sweep. It is NOT part of the run's
+//! identity (changing the number of draws must not invalidate a finished sweep): it is left
+//! out of the canonical form, and the null keeps its own identity (these settings plus the
+//! run's identity) in `RUN_DIR/null/manifest.json`. Imports nothing from the crate but
+//! `crate::error`.
+
+use serde::{Deserialize, Serialize};
+
+/// Keys of `[null]`.
+pub const NULL_KEYS: &[&str] = &["draws", "specs", "top_k", "metric"];
+
+/// Error metrics a null draw can rank its specs by.
+pub const NULL_METRICS: &[&str] = &["mae", "rmse", "unit_mae"];
+
+/// `[null]` as written.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct NullSection {
+    /// Permutation draws D (default 100).
+    #[serde(default = "default_draws")]
+    pub draws: usize,
+    /// Specs per draw: a seeded sample of this many specs of the run's space (default:
+    /// every spec). The same sample in every draw and for the observed statistics.
+    #[serde(default)]
+    pub specs: Option<usize>,
+    /// An indicator (group) is "top" in a draw when its native-importance rank in the
+    /// draw's best spec is <= top_k (default 3).
+    #[serde(default = "default_top_k")]
+    pub top_k: usize,
+    /// Error the draws rank specs by: mae (default), rmse or unit_mae.
+    #[serde(default = "default_metric")]
+    pub metric: String,
+}
+
+fn default_draws() -> usize {
+    100
+}
+fn default_top_k() -> usize {
+    3
+}
+fn default_metric() -> String {
+    "mae".into()
+}
+
+impl Default for NullSection {
+    fn default() -> Self {
+        NullSection {
+            draws: default_draws(),
+            specs: None,
+            top_k: default_top_k(),
+            metric: default_metric(),
+        }
+    }
+}
+
+/// The error a null ranks by (checked).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum NullMetric {
+    Mae,
+    Rmse,
+    UnitMae,
+}
+
+impl NullMetric {
+    pub fn name(self) -> &'static str {
+        match self {
+            NullMetric::Mae => "mae",
+            NullMetric::Rmse => "rmse",
+            NullMetric::UnitMae => "unit_mae",
+        }
+    }
+}
+
+/// `[null]` checked: what the null code reads.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub struct NullSettings {
+    pub draws: u32,
+    pub specs: Option<u32>,
+    pub top_k: u32,
+    pub metric: NullMetric,
+}
+
+/// Most draws accepted (a p-value resolution of 1e-5 is more than any report needs).
+pub const MAX_DRAWS: usize = 100_000;
+
+impl NullSection {
+    /// Check values into [`NullSettings`]; the message names the key at fault.
+    pub fn check(&self) -> Result<NullSettings, String> {
+        use crate::error::suggest;
+        if !(1..=MAX_DRAWS).contains(&self.draws) {
+            return Err(format!(
+                "null.draws = {}: must be between 1 and {MAX_DRAWS} (the smallest p-value is 1/(1 + draws))",
+                self.draws
+            ));
+        }
+        let specs = match self.specs {
+            Some(0) => {
+                return Err(
+                    "null.specs = 0: must be at least 1 (or leave it out to use every spec)".into(),
+                )
+            }
+            Some(s) => Some(u32::try_from(s).map_err(|_| format!("null.specs = {s}: too large"))?),
+            None => None,
+        };
+        if !(1..=1000).contains(&self.top_k) {
+            return Err(format!(
+                "null.top_k = {}: must be between 1 and 1000",
+                self.top_k
+            ));
+        }
+        let metric = match self.metric.as_str() {
+            "mae" => NullMetric::Mae,
+            "rmse" => NullMetric::Rmse,
+            "unit_mae" => NullMetric::UnitMae,
+            other => {
+                return Err(format!(
+                    "null.metric = \"{other}\"{}: one of {}",
+                    suggest(other, NULL_METRICS.iter().copied()),
+                    NULL_METRICS.join(", ")
+                ))
+            }
+        };
+        Ok(NullSettings {
+            draws: self.draws as u32,
+            specs,
+            top_k: self.top_k as u32,
+            metric,
+        })
+    }
+}

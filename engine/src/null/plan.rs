@@ -1,0 +1,64 @@
+//! The null's lines in `forkmap plan`: draws x specs x fits, and a time estimate scaled
+//! from the sweep's.
+
+use crate::config::null::NullSettings;
+use std::fmt::Write;
+
+/// Plan lines for a null of `settings` over a space of `space_specs` specs with
+/// `fits_per_spec` fits each; `sweep_seconds` is the sweep's estimate (NaN: unknown);
+/// `sweep_importance` says whether that estimate includes permutation importances.
+pub fn lines(
+    settings: &NullSettings,
+    space_specs: usize,
+    fits_per_spec: usize,
+    sweep_seconds: f64,
+    sweep_importance: bool,
+) -> String {
+    let s = settings
+        .specs
+        .map_or(space_specs, |k| (k as usize).min(space_specs));
+    let d = settings.draws as usize;
+    let mut t = String::new();
+    let _ = writeln!(
+        t,
+        "\nnull    {d} permutation draws x {s} specs{} x {fits_per_spec} fits = {} model fits (native importances only; ranked by {}, top {})",
+        if s < space_specs {
+            format!(" (a seeded sample of {space_specs})")
+        } else {
+            String::new()
+        },
+        d * s * fits_per_spec,
+        settings.metric.name(),
+        settings.top_k
+    );
+    let est = sweep_seconds * d as f64 * s as f64 / space_specs.max(1) as f64;
+    let _ = writeln!(
+        t,
+        "        estimated null time: {} (the sweep's estimate x {d} draws x {s}/{space_specs} specs{})",
+        human(est),
+        if sweep_importance {
+            "; an upper bound: the sweep's estimate includes permutation importances, which the null does not compute"
+        } else {
+            ""
+        }
+    );
+    let _ = writeln!(
+        t,
+        "        runs after the sweep in a whole-space run (a shard leaves it to the gathered run)"
+    );
+    t
+}
+
+/// `93s`, `12.5 min`, `3.2 h` (as the sweep's estimate; kept here so the null does not
+/// import the plan above it).
+fn human(s: f64) -> String {
+    if !s.is_finite() {
+        "unknown".into()
+    } else if s < 120.0 {
+        format!("{s:.0}s")
+    } else if s < 7200.0 {
+        format!("{:.1} min", s / 60.0)
+    } else {
+        format!("{:.1} h", s / 3600.0)
+    }
+}

@@ -1,0 +1,413 @@
+//! Running the permutation null into `RUN_DIR/null/` after the sweep: draw by draw, each
+//! draw's tables written atomically as soon as it is done, so a kill loses at most the
+//! draw in flight and a rerun skips the complete draws.
+//!
+//! Identity: `null/manifest.json` holds the null's own identity (the checked `[null]`
+//! settings but `draws`, plus the run's canonical config, data sha256 and forkmap
+//! version). When it differs, the null alone restarts (the message names the key); the
+//! sweep's results are untouched. Changing only `draws` keeps the complete draws below
+//! the new count (draw d depends only on the seed and d) and removes those above it.
+
+use super::table::{self, DrawRow, TopRow, DRAWS, TOPS};
+use super::{draw_seed, permute_units, sample_specs};
+use crate::config::importance::ImportanceSection;
+use crate::config::null::NullSettings;
+use crate::error::{Error, Result};
+use crate::folds::FoldPlan;
+use crate::panel::Panel;
+use crate::progress::Progress;
+use crate::sink::write_bytes_atomic;
+use crate::space::ChoiceSpace;
+use crate::sweep::Sweep;
+use std::path::Path;
+use std::sync::Mutex;
+
+/// What the null needs from the run.
+pub struct NullInput<'a> {
+    pub panel: &'a Panel,
+    pub space: &'a ChoiceSpace,
+    pub folds: &'a FoldPlan,
+    pub seed: u64,
+    pub settings: NullSettings,
+    /// The run's identity: canonical config, data sha256 (the version is added here).
+    pub run_config: serde_json::Value,
+    pub data_sha256: String,
+}
+
+/// What a null run did.
+#[derive(Debug, Clone)]
+pub struct NullSummary {
+    pub draws: usize,
+    /// Draws run by this invocation (the rest were complete).
+    pub ran: usize,
+    pub specs_per_draw: usize,
+    pub seconds: f64,
+    /// Why the null restarted, when it did (names the key).
+    pub restarted: Option<String>,
+}
+
+/// The null's identity (every setting but `draws`, and the run's identity).
+pub fn identity(inp: &NullInput) -> serde_json::Value {
+    serde_json::json!({
+        "version": env!("CARGO_PKG_VERSION"),
+        "data_sha256": inp.data_sha256,
+        "config": inp.run_config,
+        "specs": inp.settings.specs,
+        "top_k": inp.settings.top_k,
+        "metric": inp.settings.metric.name(),
+    })
+}
+
+/// The first identity field that differs, in the user's words.
+fn differs(old: &serde_json::Value, new: &serde_json::Value) -> Option<String> {
+    for (key, what) in [
+        ("specs", "null.specs"),
+        ("top_k", "null.top_k"),
+        ("metric", "null.metric"),
+        ("version", "forkmap version"),
+        ("data_sha256", "data file (sha256)"),
+        ("config", "run config"),
+    ] {
+        if old[key] != new[key] {
+            return Some(format!(
+                "{what} changed (was {}, now {})",
+                short(&old[key]),
+                short(&new[key])
+            ));
+        }
+    }
+    None
+}
+
+fn short(v: &serde_json::Value) -> String {
+    let s = v.to_string();
+    if s.len() > 40 {
+        "...".into()
+    } else {
+        s
+    }
+}
+
+/// Spec indices of the null's sample (every spec without `specs`), sorted.
+pub fn sample(inp: &NullInput) -> Vec<usize> {
+    sample_specs(
+        inp.space.specs.len(),
+        inp.settings.specs.map(|s| s as usize),
+        inp.seed,
+    )
+}
+
+fn io_out(path: &Path, msg: String) -> Error {
+    Error::Output {
+        path: path.to_path_buf(),
+        msg,
+    }
+}
+
+/// Prepare `out/null` for (re)starting: returns the complete draws below `draws` and why
+/// it restarted (if so). Removes temporaries, draws at or above `draws`, and `tops` files
+/// without their `draws` file.
+fn open(
+    null_dir: &Path,
+    ident: &serde_json::Value,
+    draws: u64,
+) -> Result<(Vec<u64>, Option<String>)> {
+    let manifest = null_dir.join("manifest.json");
+    let mut restarted = None;
+    if manifest.exists() {
+        let old: Option<serde_json::Value> = std::fs::read_to_string(&manifest)
+            .ok()
+            .and_then(|t| serde_json::from_str(&t).ok());
+        let why = match &old {
+            Some(m) => differs(&m["identity"], ident),
+            None => Some("null/manifest.json unreadable".into()),
+        };
+        if let Some(why) = why {
+            std::fs::remove_dir_all(null_dir).map_err(|e| Error::io(null_dir, e))?;
+            restarted = Some(why);
+        }
+    } else if null_dir.exists() {
+        // Killed before its manifest: nothing of value.
+        std::fs::remove_dir_all(null_dir).map_err(|e| Error::io(null_dir, e))?;
+    }
+    for t in [DRAWS, TOPS] {
+        let d = null_dir.join(t);
+        std::fs::create_dir_all(&d).map_err(|e| Error::io(&d, e))?;
+    }
+    let complete: Vec<u64> = table::complete_files(&null_dir.join(DRAWS))?
+        .into_iter()
+        .map(|(d, _)| d)
+        .collect();
+    for t in [DRAWS, TOPS] {
+        let d = null_dir.join(t);
+        for e in std::fs::read_dir(&d).map_err(|e| Error::io(&d, e))? {
+            let path = e.map_err(|e| Error::io(&d, e))?.path();
+            let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
+            let stale = match table::draw_of(name) {
+                Some(k) => k >= draws || (t == TOPS && complete.binary_search(&k).is_err()),
+                None => name.starts_with('.'),
+            };
+            if stale {
+                std::fs::remove_file(&path).map_err(|e| Error::io(&path, e))?;
+            }
+        }
+    }
+    Ok((
+        complete.into_iter().filter(|&d| d < draws).collect(),
+        restarted,
+    ))
+}
+
+fn write_manifest(
+    null_dir: &Path,
+    inp: &NullInput,
+    subset: &[usize],
+    status: &str,
+    done: usize,
+    seconds: f64,
+) -> Result<()> {
+    let m = serde_json::json!({
+        "status": status,
+        "identity": identity(inp),
+        "draws": inp.settings.draws,
+        "draws_done": done,
+        "seed": inp.seed,
+        "specs_in_space": inp.space.specs.len(),
+        "spec_ids": subset.iter().map(|&i| inp.space.specs[i].id.as_str()).collect::<Vec<_>>(),
+        "permutation": "the outcome (and its standard error) is permuted across units; a unit's waves move together; units are exchanged only with units observed in the same set of waves",
+        "top": "an indicator (group) is top in a draw when its native-importance rank in the draw's best spec (lowest error among the specs with native importances) is <= top_k and its importance is > 0",
+        "p_value": "p = (1 + #{draws at least as extreme as observed}) / (1 + D) (the +1 correction counts the observed data as one permutation)",
+        "seconds_this_invocation": seconds,
+        "tables": [format!("{}/{DRAWS}", table::NULL_DIR), format!("{}/{TOPS}", table::NULL_DIR)],
+    });
+    write_bytes_atomic(
+        &null_dir.join("manifest.json"),
+        serde_json::to_string_pretty(&m)
+            .unwrap_or_default()
+            .as_bytes(),
+    )
+}
+
+/// Run (or finish) the null of `inp` into `out/null` on `pool`.
+pub fn run_null(
+    inp: &NullInput,
+    out: &Path,
+    pool: &rayon::ThreadPool,
+    quiet: bool,
+) -> Result<NullSummary> {
+    let t0 = std::time::Instant::now();
+    let null_dir = out.join(table::NULL_DIR);
+    let draws = inp.settings.draws as u64;
+    let ident = identity(inp);
+    let (complete, restarted) = open(&null_dir, &ident, draws)?;
+    let subset = sample(inp);
+    if let (Some(why), false) = (&restarted, quiet) {
+        eprintln!("forkmap: null: {why}: its earlier draws are discarded and the null restarts (the sweep's results are kept)");
+    }
+    write_manifest(&null_dir, inp, &subset, "running", complete.len(), 0.0)?;
+    let todo: Vec<u64> = (0..draws)
+        .filter(|d| complete.binary_search(d).is_err())
+        .collect();
+    if !quiet {
+        eprintln!(
+            "forkmap: null: {} draws x {} specs x {} fits{}",
+            todo.len(),
+            subset.len(),
+            inp.folds.n_fits_per_spec(),
+            if complete.is_empty() {
+                String::new()
+            } else {
+                format!(" ({} of {draws} draws already complete)", complete.len())
+            }
+        );
+    }
+    let progress = Mutex::new(Progress::new(todo.len() * subset.len(), quiet));
+    // Draws run side by side (each one's sweep is parallel too); each is written as soon
+    // as it is done. A draw depends only on the seed and d, so the tables do not depend
+    // on the order draws finish in or on the thread count.
+    {
+        use rayon::prelude::*;
+        pool.install(|| {
+            todo.par_iter().try_for_each(|&d| {
+                let (row, tops) = one_draw(inp, &subset, d, pool, &progress)?;
+                table::write_draw(&null_dir, &row, &tops)
+            })
+        })?;
+    }
+    if let Ok(p) = progress.lock() {
+        p.finish();
+    }
+    let seconds = t0.elapsed().as_secs_f64();
+    write_manifest(&null_dir, inp, &subset, "complete", draws as usize, seconds)?;
+    Ok(NullSummary {
+        draws: draws as usize,
+        ran: todo.len(),
+        specs_per_draw: subset.len(),
+        seconds,
+        restarted,
+    })
+}
+
+/// One spec's outcome in a draw.
+struct Got {
+    spec: usize,
+    error: f64,
+    skill: f64,
+    importance: Vec<crate::importance::ImportanceRow>,
+}
+
+/// Run draw `d`: permute, sweep the sample with native importances, summarise.
+pub fn one_draw(
+    inp: &NullInput,
+    subset: &[usize],
+    d: u64,
+    pool: &rayon::ThreadPool,
+    progress: &Mutex<Progress>,
+) -> Result<(DrawRow, Vec<TopRow>)> {
+    let seed = draw_seed(inp.seed, d);
+    let permuted = permute_units(inp.panel, seed)?;
+    let mut sweep = Sweep::new(&permuted, inp.space, inp.folds, inp.seed, Some(subset))?;
+    sweep.describe = false;
+    sweep.importance = Some(ImportanceSection {
+        repeats: 0,
+        kinds: vec!["native".into()],
+        within: None,
+    });
+    let metric = inp.settings.metric;
+    let got: Mutex<Vec<Got>> = Mutex::new(Vec::with_capacity(subset.len()));
+    pool.install(|| {
+        sweep.run(&|r| {
+            if let Ok(mut p) = progress.lock() {
+                p.inc();
+            }
+            let Some(s) = r.scores.filter(|_| r.status.is_ok()) else {
+                return;
+            };
+            let error = match metric {
+                crate::config::null::NullMetric::Mae => s.mae,
+                crate::config::null::NullMetric::Rmse => s.rmse,
+                crate::config::null::NullMetric::UnitMae => s.unit_mae,
+            };
+            if let Ok(mut g) = got.lock() {
+                g.push(Got {
+                    spec: r.spec,
+                    error,
+                    skill: s.skill,
+                    importance: r.importance,
+                });
+            }
+        })
+    });
+    let mut got = got.into_inner().unwrap_or_default();
+    // By spec index: nothing below depends on completion order.
+    got.sort_by_key(|g| g.spec);
+    Ok(summarise_draw(inp, subset.len(), d, seed, &got))
+}
+
+/// Lowest error, first (lowest spec index) on ties.
+fn argmin<'a>(it: impl Iterator<Item = &'a Got>) -> Option<&'a Got> {
+    it.fold(None::<&Got>, |b, g| match b {
+        Some(b) if b.error <= g.error => Some(b),
+        _ => Some(g),
+    })
+}
+
+fn summarise_draw(
+    inp: &NullInput,
+    n_specs: usize,
+    d: u64,
+    seed: u64,
+    got: &[Got],
+) -> (DrawRow, Vec<TopRow>) {
+    let ok: Vec<&Got> = got.iter().filter(|g| g.error.is_finite()).collect();
+    let errors: Vec<f64> = ok.iter().map(|g| g.error).collect();
+    let q = |p: f64| {
+        if errors.is_empty() {
+            f64::NAN
+        } else {
+            crate::metrics::quantile(&errors, p)
+        }
+    };
+    // Lowest error, lowest spec index on ties (`got` is sorted by spec).
+    let best = argmin(ok.iter().copied());
+    let top_spec = argmin(ok.iter().copied().filter(|g| !g.importance.is_empty()));
+    let best_skill = got
+        .iter()
+        .map(|g| g.skill)
+        .filter(|s| s.is_finite())
+        .fold(f64::NAN, f64::max);
+    let id = |g: &Got| inp.space.specs[g.spec].id.clone();
+    let k = inp.settings.top_k;
+    let tops = top_spec
+        .map(|g| {
+            g.importance
+                .iter()
+                .map(|r| TopRow {
+                    draw: d as i64,
+                    level: r.level.to_string(),
+                    kind: r.kind.to_string(),
+                    name: r.name.to_string(),
+                    importance: r.importance,
+                    rank: r.rank as i64,
+                    top: r.rank <= k && r.importance > 0.0,
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+    let row = DrawRow {
+        draw: d as i64,
+        seed: format!("{seed:016x}"),
+        metric: inp.settings.metric.name().into(),
+        best_error: best.map_or(f64::NAN, |g| g.error),
+        q1_error: q(0.25),
+        median_error: q(0.5),
+        q3_error: q(0.75),
+        best_skill,
+        share_skill_positive: got.iter().filter(|g| g.skill > 0.0).count() as f64
+            / n_specs.max(1) as f64,
+        specs: n_specs as i64,
+        n_ok: ok.len() as i64,
+        best_spec: best.map(id),
+        top_spec: top_spec.map(id),
+    };
+    (row, tops)
+}
+
+/// Draws complete in `out/null` and the draws asked (from its manifest); `None` when the
+/// run directory holds no null.
+pub fn progress_of(out: &Path) -> Result<Option<(usize, usize)>> {
+    let null_dir = out.join(table::NULL_DIR);
+    let manifest = null_dir.join("manifest.json");
+    if !manifest.exists() {
+        return Ok(None);
+    }
+    let m: serde_json::Value = std::fs::read_to_string(&manifest)
+        .ok()
+        .and_then(|t| serde_json::from_str(&t).ok())
+        .ok_or_else(|| io_out(&manifest, "unreadable null manifest".into()))?;
+    let asked = m["draws"].as_u64().unwrap_or(0) as usize;
+    let done = table::complete_files(&null_dir.join(DRAWS))?
+        .iter()
+        .filter(|(d, _)| (*d as usize) < asked)
+        .count();
+    Ok(Some((done, asked)))
+}
+
+/// `forkmap check`'s lines on the null of a whole-space run directory (`asked`: its
+/// manifest says the config asks for a null) and whether the null is complete.
+pub fn check_lines(out: &Path, asked: bool) -> Result<(Vec<String>, bool)> {
+    Ok(match progress_of(out)? {
+        Some((done, want)) if done >= want => (vec![format!("null       {done} of {want} draws")], true),
+        Some((done, want)) => (
+            vec![format!(
+                "null       {done} of {want} draws (incomplete: rerun the same `forkmap run` to finish it; complete draws are kept)"
+            )],
+            false,
+        ),
+        None if asked => (
+            vec!["null       not run yet (the config asks for one: rerun the same `forkmap run` on this directory)".into()],
+            false,
+        ),
+        None => (Vec::new(), true),
+    })
+}

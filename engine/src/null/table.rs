@@ -1,0 +1,241 @@
+//! The null's tables under `RUN_DIR/null/`, one Parquet file per draw and table, each
+//! written atomically (temporary file, fsync, rename):
+//!
+//! * `draws/draw-NNNNNN.parquet`: one row per draw (what the draw's sweep says).
+//! * `tops/draw-NNNNNN.parquet`: one row per indicator (and codebook group) of the draw:
+//!   its native-importance rank in the draw's best spec and whether it is top-k.
+//!
+//! The `tops` file of a draw is written before its `draws` file, so a draw is complete
+//! exactly when its `draws` file exists.
+
+use crate::error::{Error, Result};
+use crate::sink::Cols;
+use arrow_array::{Array, BooleanArray, Float64Array, Int64Array, StringArray};
+use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
+use std::path::{Path, PathBuf};
+
+/// Folder of the null inside a run directory.
+pub const NULL_DIR: &str = "null";
+/// The per-draw table.
+pub const DRAWS: &str = "draws";
+/// The per-draw indicator (and group) table.
+pub const TOPS: &str = "tops";
+
+/// One row of `null/draws`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DrawRow {
+    /// Draw index d (0-based).
+    pub draw: i64,
+    /// The draw's seed, `mix(mix(run seed, NULL_STREAM), d)`, as 16 hex digits.
+    pub seed: String,
+    /// Error the draw ranks specs by (`mae`, `rmse`, `unit_mae`).
+    pub metric: String,
+    pub best_error: f64,
+    pub q1_error: f64,
+    pub median_error: f64,
+    pub q3_error: f64,
+    /// Highest skill (1 - MAE / baseline MAE) over the draw's ok specs.
+    pub best_skill: f64,
+    /// Share of the draw's specs (all asked, failed ones count as not positive) with
+    /// skill > 0.
+    pub share_skill_positive: f64,
+    /// Specs run in the draw.
+    pub specs: i64,
+    /// Of them, ok with a finite error.
+    pub n_ok: i64,
+    /// Spec id of the draw's best spec (lowest error, lowest id on ties).
+    pub best_spec: Option<String>,
+    /// Spec id whose native importances give the draw's `tops` rows: the best spec
+    /// among those with native importances.
+    pub top_spec: Option<String>,
+}
+
+/// One row of `null/tops`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TopRow {
+    pub draw: i64,
+    /// `indicator` or `group`.
+    pub level: String,
+    /// Native importance kind of the spec: `coefficient` or `impurity`.
+    pub kind: String,
+    pub name: String,
+    pub importance: f64,
+    /// Competition rank (1 = most important) as in the run's importance table.
+    pub rank: i64,
+    /// rank <= top_k and importance > 0.
+    pub top: bool,
+}
+
+/// File name of draw `d`.
+pub fn file_name(d: u64) -> String {
+    format!("draw-{d:06}.parquet")
+}
+
+/// Draw index of a complete file name.
+pub fn draw_of(name: &str) -> Option<u64> {
+    name.strip_prefix("draw-")?
+        .strip_suffix(".parquet")?
+        .parse()
+        .ok()
+}
+
+/// Write one draw's two files (tops first).
+pub fn write_draw(null_dir: &Path, row: &DrawRow, tops: &[TopRow]) -> Result<()> {
+    let name = format!("draw-{:06}", row.draw);
+    Cols::default()
+        .i("draw", tops.iter().map(|t| t.draw))
+        .s("level", tops.iter().map(|t| &t.level))
+        .s("kind", tops.iter().map(|t| &t.kind))
+        .s("name", tops.iter().map(|t| &t.name))
+        .f("importance", tops.iter().map(|t| t.importance))
+        .i("rank", tops.iter().map(|t| t.rank))
+        .b("top", tops.iter().map(|t| t.top))
+        .write(&null_dir.join(TOPS), &name)?;
+    let r = std::slice::from_ref(row);
+    Cols::default()
+        .i("draw", r.iter().map(|t| t.draw))
+        .s("seed", r.iter().map(|t| &t.seed))
+        .s("metric", r.iter().map(|t| &t.metric))
+        .f("best_error", r.iter().map(|t| t.best_error))
+        .f("q1_error", r.iter().map(|t| t.q1_error))
+        .f("median_error", r.iter().map(|t| t.median_error))
+        .f("q3_error", r.iter().map(|t| t.q3_error))
+        .f("best_skill", r.iter().map(|t| t.best_skill))
+        .f(
+            "share_skill_positive",
+            r.iter().map(|t| t.share_skill_positive),
+        )
+        .i("specs", r.iter().map(|t| t.specs))
+        .i("n_ok", r.iter().map(|t| t.n_ok))
+        .os("best_spec", r.iter().map(|t| t.best_spec.clone()))
+        .os("top_spec", r.iter().map(|t| t.top_spec.clone()))
+        .write(&null_dir.join(DRAWS), &name)?;
+    Ok(())
+}
+
+/// Complete draw files of a table folder, by draw index.
+pub fn complete_files(dir: &Path) -> Result<Vec<(u64, PathBuf)>> {
+    let mut out = Vec::new();
+    if !dir.is_dir() {
+        return Ok(out);
+    }
+    for e in std::fs::read_dir(dir).map_err(|e| Error::io(dir, e))? {
+        let path = e.map_err(|e| Error::io(dir, e))?.path();
+        if let Some(d) = path.file_name().and_then(|n| n.to_str()).and_then(draw_of) {
+            out.push((d, path));
+        }
+    }
+    out.sort();
+    Ok(out)
+}
+
+fn bad(path: &Path, msg: String) -> Error {
+    Error::Output {
+        path: path.to_path_buf(),
+        msg,
+    }
+}
+
+/// Read every batch of one Parquet file with `f`.
+fn each_batch(
+    path: &Path,
+    mut f: impl FnMut(&arrow_array::RecordBatch) -> Result<()>,
+) -> Result<()> {
+    let file = std::fs::File::open(path).map_err(|e| Error::io(path, e))?;
+    let reader = ParquetRecordBatchReaderBuilder::try_new(file)
+        .and_then(|b| b.build())
+        .map_err(|e| bad(path, format!("unreadable null table: {e}")))?;
+    for b in reader {
+        let b = b.map_err(|e| bad(path, format!("unreadable null table: {e}")))?;
+        f(&b)?;
+    }
+    Ok(())
+}
+
+fn col<'a, T: 'static>(b: &'a arrow_array::RecordBatch, path: &Path, n: &str) -> Result<&'a T> {
+    b.column_by_name(n)
+        .and_then(|c| c.as_any().downcast_ref::<T>())
+        .ok_or_else(|| {
+            bad(
+                path,
+                format!("null table lacks column {n} (or it has another type)"),
+            )
+        })
+}
+
+/// Read `null/draws` (sorted by draw).
+pub fn read_draws(null_dir: &Path) -> Result<Vec<DrawRow>> {
+    let mut out = Vec::new();
+    for (_, path) in complete_files(&null_dir.join(DRAWS))? {
+        each_batch(&path, |b| {
+            let draw = col::<Int64Array>(b, &path, "draw")?;
+            let seed = col::<StringArray>(b, &path, "seed")?;
+            let metric = col::<StringArray>(b, &path, "metric")?;
+            let f = |n: &str| col::<Float64Array>(b, &path, n);
+            let (be, q1, me, q3, bs, sp) = (
+                f("best_error")?,
+                f("q1_error")?,
+                f("median_error")?,
+                f("q3_error")?,
+                f("best_skill")?,
+                f("share_skill_positive")?,
+            );
+            let specs = col::<Int64Array>(b, &path, "specs")?;
+            let n_ok = col::<Int64Array>(b, &path, "n_ok")?;
+            let best = col::<StringArray>(b, &path, "best_spec")?;
+            let top = col::<StringArray>(b, &path, "top_spec")?;
+            let os = |a: &StringArray, i: usize| (!a.is_null(i)).then(|| a.value(i).to_string());
+            for i in 0..b.num_rows() {
+                out.push(DrawRow {
+                    draw: draw.value(i),
+                    seed: seed.value(i).to_string(),
+                    metric: metric.value(i).to_string(),
+                    best_error: be.value(i),
+                    q1_error: q1.value(i),
+                    median_error: me.value(i),
+                    q3_error: q3.value(i),
+                    best_skill: bs.value(i),
+                    share_skill_positive: sp.value(i),
+                    specs: specs.value(i),
+                    n_ok: n_ok.value(i),
+                    best_spec: os(best, i),
+                    top_spec: os(top, i),
+                });
+            }
+            Ok(())
+        })?;
+    }
+    Ok(out)
+}
+
+/// Read `null/tops` for the given (complete) draws.
+pub fn read_tops(null_dir: &Path, draws: &[u64]) -> Result<Vec<TopRow>> {
+    let mut out = Vec::new();
+    for (d, path) in complete_files(&null_dir.join(TOPS))? {
+        if draws.binary_search(&d).is_err() {
+            continue;
+        }
+        each_batch(&path, |b| {
+            let draw = col::<Int64Array>(b, &path, "draw")?;
+            let level = col::<StringArray>(b, &path, "level")?;
+            let kind = col::<StringArray>(b, &path, "kind")?;
+            let name = col::<StringArray>(b, &path, "name")?;
+            let imp = col::<Float64Array>(b, &path, "importance")?;
+            let rank = col::<Int64Array>(b, &path, "rank")?;
+            let top = col::<BooleanArray>(b, &path, "top")?;
+            for i in 0..b.num_rows() {
+                out.push(TopRow {
+                    draw: draw.value(i),
+                    level: level.value(i).to_string(),
+                    kind: kind.value(i).to_string(),
+                    name: name.value(i).to_string(),
+                    importance: imp.value(i),
+                    rank: rank.value(i),
+                    top: top.value(i),
+                });
+            }
+            Ok(())
+        })?;
+    }
+    Ok(out)
+}

@@ -1,0 +1,114 @@
+//! The permutation null's tables on the page (when the run has a null).
+
+use super::*;
+
+pub(super) fn tables(r: &Report) -> Vec<Table> {
+    let Some(n) = &r.null else {
+        return Vec::new();
+    };
+    let mut out = Vec::new();
+    let sample = if n.specs < n.specs_in_space {
+        format!(
+            "a seeded sample of {} of the {} specs",
+            n.specs, n.specs_in_space
+        )
+    } else {
+        format!("all {} specs", n.specs)
+    };
+    let mut t = Table::new(
+        "null_summary",
+        "Better than chance? The observed sweep against the permutation null",
+        "null_summary.parquet",
+        format!(
+            "Each of the {} draws permutes the outcome across units (a unit's waves move together; units are exchanged \
+             only with units observed in the same waves) and reruns {sample}; the observed statistics use the same specs \
+             and the {} error. p = (1 + number of draws at least as good as observed) / (1 + {}): the +1 correction \
+             counts the observed data as one permutation, so the smallest possible p is {}. A small p says the best \
+             (or median) error is lower than the outcome-shuffled data give by searching the same specs; it says \
+             nothing about which spec or indicator matters.{}",
+            n.draws,
+            n.metric,
+            n.draws,
+            num(1.0 / (1.0 + n.draws as f64)),
+            if n.draws < n.draws_asked {
+                format!(" Incomplete: {} of {} draws.", n.draws, n.draws_asked)
+            } else {
+                String::new()
+            }
+        ),
+    )
+    .cols(&[
+        ("statistic", false),
+        ("observed", true),
+        ("null 5%", true),
+        ("null median", true),
+        ("null 95%", true),
+        ("draws as good", true),
+        ("draws", true),
+        ("p", true),
+    ]);
+    for (name, obs, v, p) in [
+        ("best", n.observed_best, &n.null_best, n.p_best),
+        ("median", n.observed_median, &n.null_median, n.p_median),
+    ] {
+        t.push(vec![
+            format!("{name} {}", n.metric),
+            num(obs),
+            num(crate::report::null::q(v, 0.05)),
+            num(crate::report::null::q(v, 0.5)),
+            num(crate::report::null::q(v, 0.95)),
+            v.iter()
+                .filter(|x| !x.is_finite() || **x <= obs)
+                .count()
+                .to_string(),
+            n.draws.to_string(),
+            num(p),
+        ]);
+    }
+    out.push(t);
+
+    let mut t = Table::new(
+        "null_indicators",
+        "How often each indicator would rank top by chance",
+        "null_indicators.parquet",
+        format!(
+            "An indicator (group) is top when its native-importance rank in the best spec (lowest {} among the null's specs \
+             holding native importances{}) is at most {} and its importance is above 0, in the observed run and in each \
+             draw alike. Chance = share of draws where it is top; p = (1 + draws where it is top) / (1 + {}), shown for \
+             the indicators top in the observed run. These rates stand in for the report's conclusions under the null: \
+             the null keeps only each draw's best spec's native importances, so the support of a conclusion over the \
+             good set is not recomputed per draw.",
+            n.metric,
+            n.top_spec
+                .as_ref()
+                .map(|s| format!("; observed: spec {s}"))
+                .unwrap_or_default(),
+            n.top_k,
+            n.draws
+        ),
+    )
+    .cols(&[
+        ("level", false),
+        ("name", false),
+        ("observed rank", true),
+        ("observed top", false),
+        ("chance top", true),
+        ("p", true),
+    ]);
+    for i in &n.indicators {
+        t.push(vec![
+            i.level.clone(),
+            i.name.clone(),
+            i.observed_rank.map_or("-".into(), |r| r.to_string()),
+            if i.observed_top { "yes" } else { "no" }.into(),
+            share(i.chance_top),
+            if i.p.is_finite() {
+                num(i.p)
+            } else {
+                "-".into()
+            },
+        ]);
+    }
+    out.push(t);
+    out
+}

@@ -1,0 +1,302 @@
+//! The permutation null in the report (issue 18): reads `RUN_DIR/null/` one-way and sets
+//! the observed run against it.
+//!
+//! * Observed statistics are taken over the null's own spec sample (`spec_ids` of
+//!   `null/manifest.json`), from the run's `specs` table, with the null's metric: the
+//!   observed best and median error are compared with the same statistics of every draw.
+//! * p-values: `p = (1 + #{draws at least as extreme}) / (1 + D)`, with "at least as
+//!   extreme" meaning a null error <= the observed one (ties count), and `D` the complete
+//!   draws. The +1 correction counts the observed data as one of the permutations, so p is
+//!   never 0 and its smallest value is 1/(1 + D).
+//! * Indicators: an indicator (group) is "top" when its native-importance rank in the best
+//!   spec (lowest error among the sample's specs holding native importances) is <= top_k
+//!   and its importance > 0; the same rule in the observed run and in every draw. Its
+//!   chance rate is the share of draws where it is top; for an indicator top in the
+//!   observed run, p = (1 + #{draws where it is top}) / (1 + D).
+
+use super::data::RunTables;
+use crate::error::Result;
+use crate::null::table::{read_draws, read_tops, NULL_DIR};
+use crate::results::RunSet;
+use crate::sink::Cols;
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+/// The null as the report shows it.
+#[derive(Debug, Clone, Default)]
+pub struct NullReport {
+    /// Complete draws read (D).
+    pub draws: usize,
+    /// Draws the null asked for.
+    pub draws_asked: usize,
+    /// Specs per draw (the null's sample) and of the space.
+    pub specs: usize,
+    pub specs_in_space: usize,
+    pub metric: String,
+    pub top_k: usize,
+    /// Over the sample's ok specs in the observed run.
+    pub observed_best: f64,
+    pub observed_median: f64,
+    /// Per draw (draw order).
+    pub null_best: Vec<f64>,
+    pub null_median: Vec<f64>,
+    pub p_best: f64,
+    pub p_median: f64,
+    /// The observed spec whose native importances decide "top" (None: no sample spec
+    /// holds native importances).
+    pub top_spec: Option<String>,
+    pub indicators: Vec<NullIndicator>,
+    /// Notes (an incomplete null, specs missing from the observed run).
+    pub notes: Vec<String>,
+}
+
+/// One indicator (or group) under the null.
+#[derive(Debug, Clone, Default)]
+pub struct NullIndicator {
+    pub level: String,
+    pub name: String,
+    /// Rank and top-k membership in the observed best spec (None: not held there).
+    pub observed_rank: Option<u32>,
+    pub observed_top: bool,
+    /// Share of draws where it is top.
+    pub chance_top: f64,
+    /// `(1 + #{draws where top}) / (1 + D)` when observed top; NaN otherwise.
+    pub p: f64,
+}
+
+const NATIVE: [&str; 2] = ["coefficient", "impurity"];
+
+/// The null of a whole-space run read as `set` (its tables `t`), when it has one.
+pub fn analyse(set: &RunSet, t: &RunTables) -> Result<Option<NullReport>> {
+    // The null lives in a whole-space run directory (a shard never runs it).
+    let Some(dir) = set.dirs.iter().find(|d| d.shard.is_none()) else {
+        return Ok(None);
+    };
+    let null_dir = dir.path.join(NULL_DIR);
+    let Ok(text) = std::fs::read_to_string(null_dir.join("manifest.json")) else {
+        return Ok(None);
+    };
+    let m: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();
+    let draws = read_draws(&null_dir)?;
+    if draws.is_empty() {
+        return Ok(None);
+    }
+    let asked = m["draws"].as_u64().unwrap_or(0) as usize;
+    let draws: Vec<_> = draws
+        .into_iter()
+        .filter(|d| (d.draw as usize) < asked)
+        .collect();
+    let ids: Vec<u64> = draws.iter().map(|d| d.draw as u64).collect();
+    let tops = read_tops(&null_dir, &ids)?;
+    let metric = m["identity"]["metric"]
+        .as_str()
+        .unwrap_or("mae")
+        .to_string();
+    let top_k = m["identity"]["top_k"].as_u64().unwrap_or(3) as usize;
+    let sample: Vec<&str> = m["spec_ids"]
+        .as_array()
+        .map(|a| a.iter().filter_map(|v| v.as_str()).collect())
+        .unwrap_or_default();
+    let mut n = NullReport {
+        draws: draws.len(),
+        draws_asked: asked,
+        specs: sample.len(),
+        specs_in_space: m["specs_in_space"].as_u64().unwrap_or(0) as usize,
+        metric: metric.clone(),
+        top_k,
+        null_best: draws.iter().map(|d| d.best_error).collect(),
+        null_median: draws.iter().map(|d| d.median_error).collect(),
+        ..Default::default()
+    };
+    if n.draws < asked {
+        n.notes.push(format!(
+            "The null is incomplete: {} of {asked} draws (rerun the same `forkmap run` to finish it); the p-values use the draws present.",
+            n.draws
+        ));
+    }
+    // Observed: the sample's ok specs in the run, by spec index of `t`.
+    let index: BTreeMap<&str, usize> = t
+        .spec_ids
+        .iter()
+        .enumerate()
+        .map(|(i, s)| (s.as_str(), i))
+        .collect();
+    let stored = t.stored.get(&metric);
+    let mut obs: Vec<(f64, usize)> = sample
+        .iter()
+        .filter_map(|id| index.get(id).copied())
+        .filter_map(|i| stored.map(|s| (s[i], i)))
+        .filter(|(e, _)| e.is_finite())
+        .collect();
+    if obs.len() < sample.len() {
+        n.notes.push(format!(
+            "{} of the null's {} specs are not ok in the observed run: the observed statistics use the other {}.",
+            sample.len() - obs.len(),
+            sample.len(),
+            obs.len()
+        ));
+    }
+    // Lowest error first, then the spec id (the draws break ties by spec index, which
+    // follows the id order of the space, not the report's).
+    obs.sort_by(|a, b| {
+        a.0.total_cmp(&b.0)
+            .then_with(|| t.spec_ids[a.1].cmp(&t.spec_ids[b.1]))
+    });
+    let errors: Vec<f64> = obs.iter().map(|o| o.0).collect();
+    n.observed_best = errors.first().copied().unwrap_or(f64::NAN);
+    n.observed_median = if errors.is_empty() {
+        f64::NAN
+    } else {
+        crate::metrics::quantile(&errors, 0.5)
+    };
+    n.p_best = crate::null::p_value(&n.null_best, n.observed_best, true);
+    n.p_median = crate::null::p_value(&n.null_median, n.observed_median, true);
+
+    // Observed top: the best sample spec holding a native kind at indicator level.
+    let held = |i: usize| {
+        t.importance.iter().position(|kt| {
+            kt.level == "indicator"
+                && NATIVE.contains(&kt.kind.as_str())
+                && kt.specs.binary_search(&i).is_ok()
+        })
+    };
+    let found = obs.iter().find_map(|&(_, i)| held(i).map(|k| (i, k)));
+    let mut observed: BTreeMap<(String, String), (u32, bool)> = BTreeMap::new();
+    if let Some((si, ki)) = found {
+        n.top_spec = Some(t.spec_ids[si].clone());
+        let kind = t.importance[ki].kind.clone();
+        for kt in t.importance.iter().filter(|kt| kt.kind == kind) {
+            let Ok(row) = kt.specs.binary_search(&si) else {
+                continue;
+            };
+            let vals = kt.row_values(row);
+            for (j, name) in kt.names.iter().enumerate() {
+                let r = kt.rank(row, j);
+                observed.insert(
+                    (kt.level.clone(), name.clone()),
+                    (r, r as usize <= top_k && vals[j] > 0.0),
+                );
+            }
+        }
+    }
+    let mut chance: BTreeMap<(String, String), usize> = BTreeMap::new();
+    for r in &tops {
+        let e = chance.entry((r.level.clone(), r.name.clone())).or_default();
+        if r.top {
+            *e += 1;
+        }
+    }
+    let mut keys: Vec<(String, String)> = observed.keys().chain(chance.keys()).cloned().collect();
+    keys.sort();
+    keys.dedup();
+    let d = n.draws as f64;
+    for (level, name) in keys {
+        let hits = chance
+            .get(&(level.clone(), name.clone()))
+            .copied()
+            .unwrap_or(0);
+        let o = observed.get(&(level.clone(), name.clone())).copied();
+        let observed_top = o.is_some_and(|o| o.1);
+        n.indicators.push(NullIndicator {
+            observed_rank: o.map(|o| o.0),
+            observed_top,
+            chance_top: hits as f64 / d.max(1.0),
+            p: if observed_top {
+                (1 + hits) as f64 / (1.0 + d)
+            } else {
+                f64::NAN
+            },
+            level,
+            name,
+        });
+    }
+    // Indicators before groups; observed top first, then by chance rate.
+    n.indicators.sort_by(|a, b| {
+        (a.level != "indicator")
+            .cmp(&(b.level != "indicator"))
+            .then(b.observed_top.cmp(&a.observed_top))
+            .then(b.chance_top.total_cmp(&a.chance_top))
+            .then(a.name.cmp(&b.name))
+    });
+    Ok(Some(n))
+}
+
+/// The headline sentence.
+pub fn headline(n: &NullReport) -> String {
+    let floor = 1.0 / (1.0 + n.draws as f64);
+    let verdict = if floor > 0.05 {
+        "not testable at the 5% level with so few draws (the smallest possible p is 1/(1 + draws))"
+    } else if n.p_best <= 0.05 {
+        "better than chance at the 5% level"
+    } else {
+        "not distinguishable from chance at the 5% level"
+    };
+    let beaten = n
+        .null_best
+        .iter()
+        .filter(|v| !v.is_finite() || **v <= n.observed_best)
+        .count();
+    format!(
+        "Permutation null ({} draws, outcome shuffled across units, {} specs each): the observed best {} {} is {verdict} \
+         (p = {:.3}; {beaten} of {} draws did as well); the observed median {} {} has p = {:.3}.",
+        n.draws,
+        n.specs,
+        n.metric,
+        super::plots::num(n.observed_best),
+        n.p_best,
+        n.draws,
+        n.metric,
+        super::plots::num(n.observed_median),
+        n.p_median
+    )
+}
+
+/// Quantile of the finite values (NaN when none).
+pub fn q(v: &[f64], p: f64) -> f64 {
+    let f: Vec<f64> = v.iter().copied().filter(|x| x.is_finite()).collect();
+    if f.is_empty() {
+        f64::NAN
+    } else {
+        crate::metrics::quantile(&f, p)
+    }
+}
+
+/// `null_summary.parquet` and `null_indicators.parquet` under the report folder.
+pub fn write_tables(n: &NullReport, dir: &Path) -> Result<Vec<PathBuf>> {
+    let stats = [
+        ("best", n.observed_best, &n.null_best, n.p_best),
+        ("median", n.observed_median, &n.null_median, n.p_median),
+    ];
+    let s = Cols::default()
+        .s("statistic", stats.iter().map(|s| s.0))
+        .s("metric", stats.iter().map(|_| n.metric.as_str()))
+        .f("observed", stats.iter().map(|s| s.1))
+        .f("null_q05", stats.iter().map(|s| q(s.2, 0.05)))
+        .f("null_median", stats.iter().map(|s| q(s.2, 0.5)))
+        .f("null_q95", stats.iter().map(|s| q(s.2, 0.95)))
+        .i(
+            "draws_as_good",
+            stats
+                .iter()
+                .map(|s| s.2.iter().filter(|v| !v.is_finite() || **v <= s.1).count() as i64),
+        )
+        .i("draws", stats.iter().map(|_| n.draws as i64))
+        .i("specs", stats.iter().map(|_| n.specs as i64))
+        .f("p", stats.iter().map(|s| s.3))
+        .write(dir, "null_summary")?;
+    let ind = &n.indicators;
+    let i = Cols::default()
+        .s("level", ind.iter().map(|r| r.level.as_str()))
+        .s("name", ind.iter().map(|r| r.name.as_str()))
+        .i(
+            "observed_rank",
+            ind.iter().map(|r| r.observed_rank.map_or(-1, i64::from)),
+        )
+        .b("observed_top", ind.iter().map(|r| r.observed_top))
+        .f("chance_top", ind.iter().map(|r| r.chance_top))
+        .f("p", ind.iter().map(|r| r.p))
+        .i("draws", ind.iter().map(|_| n.draws as i64))
+        .i("top_k", ind.iter().map(|_| n.top_k as i64))
+        .write(dir, "null_indicators")?;
+    Ok(vec![s, i])
+}
