@@ -34,6 +34,11 @@ pub fn median(v: &mut [f64]) -> f64 {
 pub fn quantile(v: &[f64], q: f64) -> f64 {
     let mut s = v.to_vec();
     s.sort_by(f64::total_cmp);
+    quantile_sorted(&s, q)
+}
+
+/// [`quantile`] of values already sorted ascending; NaN when empty.
+pub fn quantile_sorted(s: &[f64], q: f64) -> f64 {
     if s.is_empty() {
         return f64::NAN;
     }

@@ -73,3 +73,16 @@ impl Progress {
         }
     }
 }
+
+/// A duration for people: `93s`, `12.5 min`, `3.2 h` (plan's estimates, the null's).
+pub fn human(s: f64) -> String {
+    if !s.is_finite() {
+        "unknown".into()
+    } else if s < 120.0 {
+        format!("{s:.0}s")
+    } else if s < 7200.0 {
+        format!("{:.1} min", s / 60.0)
+    } else {
+        format!("{:.1} h", s / 3600.0)
+    }
+}

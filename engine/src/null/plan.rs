@@ -49,16 +49,4 @@ pub fn lines(
     t
 }
 
-/// `93s`, `12.5 min`, `3.2 h` (as the sweep's estimate; kept here so the null does not
-/// import the plan above it).
-fn human(s: f64) -> String {
-    if !s.is_finite() {
-        "unknown".into()
-    } else if s < 120.0 {
-        format!("{s:.0}s")
-    } else if s < 7200.0 {
-        format!("{:.1} min", s / 60.0)
-    } else {
-        format!("{:.1} h", s / 3600.0)
-    }
-}
+use crate::progress::human;

@@ -11,17 +11,7 @@ use super::model::Spread;
 use crate::streams::mix;
 use rand::{Rng, SeedableRng};
 
-/// Quantile with linear interpolation between order statistics (numpy's default
-/// `method="linear"`) of values already sorted ascending; NaN when empty.
-pub fn quantile_sorted(s: &[f64], q: f64) -> f64 {
-    if s.is_empty() {
-        return f64::NAN;
-    }
-    let h = (s.len() - 1) as f64 * q;
-    let lo = h.floor() as usize;
-    let hi = h.ceil() as usize;
-    s[lo] + (h - lo as f64) * (s[hi] - s[lo])
-}
+pub use crate::metrics::quantile_sorted;
 
 /// Five-number summary (numpy linear quartiles); NaN-valued fields when `v` is empty.
 /// NaN values are left out.
