@@ -11,8 +11,10 @@
 //! * Indicators: an indicator (group) is "top" when its native-importance rank in the best
 //!   spec (lowest error among the sample's specs holding native importances) is <= top_k
 //!   and its importance > 0; the same rule in the observed run and in every draw. Its
-//!   chance rate is the share of draws where it is top; for an indicator top in the
-//!   observed run, p = (1 + #{draws where it is top}) / (1 + D).
+//!   chance rate is the share of draws where it is top (about top_k names are top in each
+//!   draw, so the rates average about top_k / names). No per-indicator p-value is given:
+//!   one for the names that came out top would be selected after the fact (under the
+//!   complete null every observed-top name would get p of about top_k / names).
 
 use super::data::RunTables;
 use crate::error::Result;
@@ -60,8 +62,6 @@ pub struct NullIndicator {
     pub observed_top: bool,
     /// Share of draws where it is top.
     pub chance_top: f64,
-    /// `(1 + #{draws where top}) / (1 + D)` when observed top; NaN otherwise.
-    pub p: f64,
 }
 
 const NATIVE: [&str; 2] = ["coefficient", "impurity"];
@@ -201,11 +201,6 @@ pub fn analyse(set: &RunSet, t: &RunTables) -> Result<Option<NullReport>> {
             observed_rank: o.map(|o| o.0),
             observed_top,
             chance_top: hits as f64 / d.max(1.0),
-            p: if observed_top {
-                (1 + hits) as f64 / (1.0 + d)
-            } else {
-                f64::NAN
-            },
             level,
             name,
         });
@@ -294,7 +289,6 @@ pub fn write_tables(n: &NullReport, dir: &Path) -> Result<Vec<PathBuf>> {
         )
         .b("observed_top", ind.iter().map(|r| r.observed_top))
         .f("chance_top", ind.iter().map(|r| r.chance_top))
-        .f("p", ind.iter().map(|r| r.p))
         .i("draws", ind.iter().map(|_| n.draws as i64))
         .i("top_k", ind.iter().map(|_| n.top_k as i64))
         .write(dir, "null_indicators")?;

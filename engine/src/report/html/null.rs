@@ -74,8 +74,9 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         format!(
             "An indicator (group) is top when its native-importance rank in the best spec (lowest {} among the null's specs \
              holding native importances{}) is at most {} and its importance is above 0, in the observed run and in each \
-             draw alike. Chance = share of draws where it is top; p = (1 + draws where it is top) / (1 + {}), shown for \
-             the indicators top in the observed run. These rates stand in for the report's conclusions under the null: \
+             draw alike. Chance = share of the {} draws where it is top. About top_k names are top in every draw, so \
+             the chance rates average about top_k / (number of names): a rate for a name picked because it came out top \
+             is not a p-value for it (no test here survives that selection). These rates stand in for the report's conclusions under the null: \
              the null keeps only each draw's best spec's native importances, so the support of a conclusion over the \
              good set is not recomputed per draw.",
             n.metric,
@@ -93,7 +94,6 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         ("observed rank", true),
         ("observed top", false),
         ("chance top", true),
-        ("p", true),
     ]);
     for i in &n.indicators {
         t.push(vec![
@@ -102,11 +102,6 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             i.observed_rank.map_or("-".into(), |r| r.to_string()),
             if i.observed_top { "yes" } else { "no" }.into(),
             share(i.chance_top),
-            if i.p.is_finite() {
-                num(i.p)
-            } else {
-                "-".into()
-            },
         ]);
     }
     out.push(t);

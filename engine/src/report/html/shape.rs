@@ -79,24 +79,34 @@ pub(super) fn section(report: &Report, h: &mut String) {
                 escape(&p.file)
             );
         }
+        let best = if s.direction == "flat" {
+            "The best spec's curve is flat (its range is within the flat tolerance, or its pool does not hold \
+             the indicator): no breakpoint is given for it"
+                .to_string()
+        } else {
+            format!(
+                "The best spec's curve {}; its hinge breakpoint is {} ({:.0}% interval over unit resamples with \
+                 the model held fixed: {} to {}, {} resamples fitted; it says which units drive the bend, not how \
+                 sure the threshold is), slope {} left of it and {} right of it",
+                escape(&s.direction),
+                num(s.breakpoint),
+                100.0 * sh.level,
+                num(s.breakpoint_lo),
+                num(s.breakpoint_hi),
+                s.draws,
+                num(s.slope_left),
+                num(s.slope_right),
+            )
+        };
         let _ = writeln!(
             h,
-            "<p>Over {} members the curve rises in {}, falls in {}, is flat in {} and turns in {}. The best spec's \
-             curve {}; its breakpoint is {} ({:.0}% interval {} to {}, {} resamples fitted), slope {} left of it \
-             and {} right of it; the members' median breakpoint is {}.</p>",
+            "<p>Over {} members the curve rises in {}, falls in {}, is flat in {} and turns in {}. {best}; the \
+             members' median breakpoint is {}.</p>",
             s.members,
             share(s.rises),
             share(s.falls),
             share(s.flat),
             share(s.turns),
-            escape(&s.direction),
-            num(s.breakpoint),
-            100.0 * sh.level,
-            num(s.breakpoint_lo),
-            num(s.breakpoint_hi),
-            s.draws,
-            num(s.slope_left),
-            num(s.slope_right),
             num(s.members_breakpoint)
         );
         let mut t = Table::new(
