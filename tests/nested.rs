@@ -289,3 +289,47 @@ fn resume_after_lost_folds_gives_identical_tables() {
     assert!(c.iter().all(|r| r.n_specs == 4));
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// `run --restart` on a run holding a nested estimate (and a null) discards them with the
+/// rest and reruns: the folder is never left holding only derived tables (which the next
+/// run would refuse as "no forkmap run"). Cold review finding M1.
+#[test]
+fn restart_discards_the_nested_tables_with_the_run() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = crate::common::root().join("toy-panel/panel.csv");
+    let cfg = dir.path().join("c.toml");
+    std::fs::write(
+        &cfg,
+        format!(
+            "seed = 4\n[data]\nfile = {data:?}\nunit = \"district\"\nwave = \"wave\"\noutcome = \"hardship_pct\"\nignore = [\"region\"]\n\
+             [folds]\nk = 3\n[choices]\nmodel = [\"ols\", \"ridge\"]\n[importance]\nkinds = []\n\
+             [curves]\ndraw = false\n[nested]\nouter_folds = 3\ninner_folds = 3\n[null]\ndraws = 2\n"
+        ),
+    )
+    .unwrap();
+    let out = dir.path().join("run");
+    let run = |extra: &[&str]| {
+        std::process::Command::new(env!("CARGO_BIN_EXE_forkmap"))
+            .args(["run", cfg.to_str().unwrap(), "--out", out.to_str().unwrap()])
+            .args(["--quiet", "--no-map", "--threads", "1"])
+            .args(extra)
+            .output()
+            .unwrap()
+    };
+    let first = run(&[]);
+    assert!(
+        first.status.success(),
+        "{}",
+        String::from_utf8_lossy(&first.stderr)
+    );
+    assert!(out.join("nested/fold-000.parquet").is_file());
+    assert!(out.join("null").is_dir());
+    let again = run(&["--restart"]);
+    assert!(
+        again.status.success(),
+        "{}",
+        String::from_utf8_lossy(&again.stderr)
+    );
+    assert!(out.join("manifest.json").is_file());
+    assert!(out.join("nested/fold-002.parquet").is_file());
+}
