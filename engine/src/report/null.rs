@@ -231,8 +231,16 @@ pub fn headline(n: &NullReport) -> String {
         .iter()
         .filter(|v| !v.is_finite() || **v <= n.observed_best)
         .count();
+    let over = if n.specs < n.specs_in_space {
+        format!(
+            " of the same {} sampled specs (not the report's best over all {} specs)",
+            n.specs, n.specs_in_space
+        )
+    } else {
+        String::new()
+    };
     format!(
-        "Permutation null ({} draws, outcome shuffled across units, {} specs each): the observed best {} {} is {verdict} \
+        "Permutation null ({} draws, outcome shuffled across units, {} specs each): the observed best {}{over} {} is {verdict} \
          (p = {:.3}; {beaten} of {} draws did as well); the observed median {} {} has p = {:.3}.",
         n.draws,
         n.specs,
