@@ -11,6 +11,7 @@ import sys
 
 import duckdb
 import pyarrow.dataset as ds
+import pyarrow.parquet as pq
 
 run = sys.argv[1]
 passed, failed = 0, 0
@@ -118,6 +119,23 @@ oop = con.execute(f"select count(*) from '{imp_glob}' where not in_pool and impo
 check("duckdb: out-of-pool indicators have importance 0", oop == 0)
 it = ds.dataset(os.path.join(run, "importance"), format="parquet").to_table()
 check("pyarrow: importance columns", it.column_names == ["spec_id", "indicator", "level", "kind", "importance", "spread", "rank", "in_pool"], f"{it.column_names}")
+
+# The nested estimate's naive best is the best, in the run's own folds, of the same specs
+# the outer folds chose among (settings.json), so its optimism is the selection's alone.
+nested_settings = os.path.join(run, "nested", "settings.json")
+summary = os.path.join(run, "report", "nested_summary.parquet")
+if os.path.exists(nested_settings) and os.path.exists(summary):
+    ids = json.load(open(nested_settings))["spec_ids"]
+    specs_glob = os.path.join(run, "specs", "*.parquet")
+    want = con.execute(
+        f"select min(mae) from '{specs_glob}' where status = 'ok' and spec_id in ({','.join(repr(i) for i in ids)})"
+    ).fetchone()[0]
+    got = pq.read_table(summary).to_pylist()[0]
+    # the report sums per-unit errors in its own order: equal to the specs table's to 1e-12
+    check("duckdb: nested naive best over the swept specs", abs(got["naive_error"] - want) <= 1e-12 * want, f"{got['naive_error']} vs {want}")
+    best_all = con.execute(f"select min(mae) from '{specs_glob}' where status = 'ok'").fetchone()[0]
+    check("duckdb: nested naive_all_error is the best of all specs", abs(got["naive_all_error"] - best_all) <= 1e-12 * best_all, f"{got['naive_all_error']} vs {best_all}")
+    check("nested optimism = nested - naive", abs(got["optimism"] - (got["nested_error"] - got["naive_error"])) < 1e-12)
 
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)

@@ -75,8 +75,14 @@ pub fn settings_json(
         h.update(space.specs[i].id.as_bytes());
         h.update(b"\n");
     }
+    let ids: Vec<&str> = plan
+        .subset
+        .iter()
+        .map(|&i| space.specs[i].id.as_str())
+        .collect();
     serde_json::json!({
         "specs_sha256": hex::encode(h.finalize()),
+        "spec_ids": ids,
         "nested": section,
         "outer_folds": plan.outer.k,
         "inner_folds": plan.inner,

@@ -41,8 +41,16 @@ pub struct NestedReport {
     /// Specs swept inside each outer training set, and in the run the report reads.
     pub specs_swept: usize,
     pub specs_total: usize,
-    /// The report's best error (NaN when the report ranks by another metric).
+    /// The naive best error: the lowest error, in the run's own cross-validation, over the
+    /// same specs the nested estimate chose among (over all specs when their ids are not
+    /// known); NaN when the report ranks by another metric.
     pub naive_error: f64,
+    /// The report's best error over all specs (context; equals `naive_error` when every
+    /// spec was swept).
+    pub naive_all_error: f64,
+    /// Standard error of the nested error from its spread across outer folds (the sd of
+    /// the folds' errors / sqrt(folds)): a rough scale for the optimism.
+    pub fold_se: f64,
     pub naive_spec: String,
     /// Pooled outer error of the chosen specs, and of the training-median baseline.
     pub nested_error: f64,
@@ -60,7 +68,9 @@ pub fn load(set: &RunSet, report: &Report) -> Result<Option<NestedReport>> {
         if dir.is_dir() {
             let folds = read_folds(&dir)?;
             if !folds.is_empty() {
-                return Ok(Some(summarise(folds, report)));
+                let mut n = summarise(folds, report);
+                match_sample(&mut n, &dir, report);
+                return Ok(Some(n));
             }
         }
     }
@@ -123,11 +133,54 @@ pub fn summarise(folds: Vec<FoldRow>, report: &Report) -> NestedReport {
         },
         optimism: nested_error - naive_error,
         naive_error,
+        naive_all_error: naive_error,
+        fold_se: fold_se(&folds),
         nested_error,
         baseline_error,
         metric,
         chosen,
         folds,
+    }
+}
+
+/// sd of the finite outer-fold errors / sqrt(their count); NaN with fewer than two.
+fn fold_se(folds: &[FoldRow]) -> f64 {
+    let e: Vec<f64> = folds
+        .iter()
+        .map(|f| f.outer_error)
+        .filter(|v| v.is_finite())
+        .collect();
+    if e.len() < 2 {
+        return f64::NAN;
+    }
+    let m = e.iter().sum::<f64>() / e.len() as f64;
+    let var = e.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / (e.len() - 1) as f64;
+    (var / e.len() as f64).sqrt()
+}
+
+/// Match the naive best to the specs the nested estimate chose among (their ids from
+/// `settings.json`), so that the optimism is the selection's and not the sample size's.
+fn match_sample(n: &mut NestedReport, dir: &Path, report: &Report) {
+    if !n.naive_error.is_finite() {
+        return;
+    }
+    let Some(ids) = std::fs::read_to_string(dir.join("settings.json"))
+        .ok()
+        .and_then(|t| serde_json::from_str::<serde_json::Value>(&t).ok())
+        .and_then(|v| v["spec_ids"].as_array().cloned())
+    else {
+        return;
+    };
+    let ids: std::collections::HashSet<&str> = ids.iter().filter_map(|v| v.as_str()).collect();
+    let best = report
+        .curve
+        .iter()
+        .filter(|c| ids.contains(c.spec_id.as_str()) && c.error.is_finite())
+        .min_by(|a, b| a.error.total_cmp(&b.error).then(a.spec_id.cmp(&b.spec_id)));
+    if let Some(b) = best {
+        n.naive_error = b.error;
+        n.naive_spec = b.spec_id.clone();
+        n.optimism = n.nested_error - b.error;
     }
 }
 
@@ -145,7 +198,8 @@ pub fn headline(n: &NestedReport) -> String {
     } else {
         "does not beat"
     };
-    let among = if n.specs_swept < n.specs_total {
+    let sampled = n.specs_swept < n.specs_total;
+    let among = if sampled {
         format!(
             " (among a seeded sample of {} of the {} specs)",
             n.specs_swept, n.specs_total
@@ -153,10 +207,26 @@ pub fn headline(n: &NestedReport) -> String {
     } else {
         String::new()
     };
+    let best_of = if sampled && n.naive_all_error != n.naive_error {
+        format!(
+            "the best of those {} specs has {m} {:.4} in the run's own folds (the best of all {}: {:.4})",
+            n.specs_swept, n.naive_error, n.specs_total, n.naive_all_error
+        )
+    } else {
+        format!("the best spec's {m} is {:.4}", n.naive_error)
+    };
+    let se = if n.fold_se.is_finite() {
+        format!(
+            " (its fold-to-fold standard error is about {:.2})",
+            n.fold_se
+        )
+    } else {
+        String::new()
+    };
     if n.naive_error.is_finite() {
         format!(
-            "Choosing the best spec is optimistic by {:.4} {m}: the best spec's {m} is {:.4}, but repeating the choice{among} inside {} outer folds and scoring it on units the choice never saw gives {:.4}, which {beats} the training-median baseline ({:.4}).",
-            n.optimism, n.naive_error, n.outer_folds, n.nested_error, n.baseline_error
+            "Choosing the best spec is optimistic by about {:.4} {m}: {best_of}, but repeating the choice{among} inside {} outer folds and scoring it on units the choice never saw gives {:.4}{se}, which {beats} the training-median baseline ({:.4}).",
+            n.optimism, n.outer_folds, n.nested_error, n.baseline_error
         )
     } else {
         format!(
@@ -173,6 +243,8 @@ pub fn write_tables(n: &NestedReport, dir: &Path) -> Result<Vec<PathBuf>> {
         Cols::default()
             .s("metric", [&n.metric])
             .of("naive_error", [n.naive_error])
+            .of("naive_all_error", [n.naive_all_error])
+            .of("fold_se", [n.fold_se])
             .os(
                 "naive_spec_id",
                 [(!n.naive_spec.is_empty()).then(|| n.naive_spec.clone())],
@@ -263,7 +335,7 @@ mod tests {
             .any(|c| c.dimension == "model" && c.choice == "m-b"));
         let h = headline(&n);
         assert!(
-            h.contains("optimistic by 0.3000 mae") && h.contains("beats"),
+            h.contains("optimistic by about 0.3000 mae") && h.contains("beats"),
             "{h}"
         );
         // The section's plot and page tables.
