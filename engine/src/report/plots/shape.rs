@@ -96,7 +96,10 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
                 &font_at(11.0, &INK, HPos::Left, VPos::Center),
             )?;
             // Breakpoint interval (behind the curves).
-            let finite = |v: f64| v.is_finite();
+            // A flat best curve has no breakpoint worth drawing (its hinge is picked from
+            // numerical ties).
+            let bends = s.direction != "flat";
+            let finite = |v: f64| bends && v.is_finite();
             if finite(s.breakpoint_lo) && finite(s.breakpoint_hi) {
                 let (a, b) = (px(s.breakpoint_lo).max(x0), px(s.breakpoint_hi).min(x1));
                 if b >= a {
@@ -197,17 +200,25 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
             let small = font_at(11.0, &INK, HPos::Left, VPos::Center);
             let lines = [
                 format!("best spec: {}", s.direction),
-                format!(
-                    "breakpoint {} [{}, {}]",
-                    num(s.breakpoint),
-                    num(s.breakpoint_lo),
-                    num(s.breakpoint_hi)
-                ),
-                format!(
-                    "slope {} left, {} right",
-                    num(s.slope_left),
-                    num(s.slope_right)
-                ),
+                if bends {
+                    format!(
+                        "breakpoint {} [{}, {}]",
+                        num(s.breakpoint),
+                        num(s.breakpoint_lo),
+                        num(s.breakpoint_hi)
+                    )
+                } else {
+                    "breakpoint: none (flat)".to_string()
+                },
+                if bends {
+                    format!(
+                        "slope {} left, {} right",
+                        num(s.slope_left),
+                        num(s.slope_right)
+                    )
+                } else {
+                    String::new()
+                },
                 format!("members' median breakpoint {}", num(s.members_breakpoint)),
                 if s.k > 1 {
                     format!("subgroups: {} (silhouette {})", s.k, num(s.silhouette))
