@@ -538,16 +538,7 @@ fn a_gathered_run_is_extended() {
 }
 
 fn specs_parts(d: &Path) -> usize {
-    std::fs::read_dir(d.join("specs"))
-        .map(|r| {
-            r.filter(|e| {
-                e.as_ref()
-                    .map(|e| !e.file_name().to_string_lossy().starts_with('.'))
-                    .unwrap_or(false)
-            })
-            .count()
-        })
-        .unwrap_or(0)
+    crate::common::files_in(&d.join("specs"), |n| !n.starts_with('.'))
 }
 
 /// SIGKILL mid-extension, then the same command (or a plain run of the larger config)

@@ -203,16 +203,7 @@ fn kill_mid_null_then_resume_gives_the_same_tables() {
         let t0 = Instant::now();
         let target = 1 + 3 * k as usize; // draws on disk before the kill
         let done = |o: &Path| {
-            std::fs::read_dir(o.join(NULL_DIR).join("draws"))
-                .map(|r| {
-                    r.filter(|e| {
-                        e.as_ref()
-                            .map(|e| e.file_name().to_string_lossy().starts_with("draw-"))
-                            .unwrap_or(false)
-                    })
-                    .count()
-                })
-                .unwrap_or(0)
+            crate::common::files_in(&o.join(NULL_DIR).join("draws"), |n| n.starts_with("draw-"))
         };
         while done(&out) < target
             && child.try_wait().unwrap().is_none()

@@ -144,18 +144,7 @@ fn kill_at_random_instants_then_resume_equals_an_uninterrupted_run() {
             .spawn()
             .unwrap();
         let t0 = Instant::now();
-        let parts = |d: &Path| {
-            std::fs::read_dir(d.join("specs"))
-                .map(|r| {
-                    r.filter(|e| {
-                        e.as_ref()
-                            .map(|e| !e.file_name().to_string_lossy().starts_with('.'))
-                            .unwrap_or(false)
-                    })
-                    .count()
-                })
-                .unwrap_or(0)
-        };
+        let parts = |d: &Path| crate::common::files_in(&d.join("specs"), |n| !n.starts_with('.'));
         while parts(&out) < target
             && child.try_wait().unwrap().is_none()
             && t0.elapsed().as_secs() < 120

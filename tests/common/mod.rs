@@ -144,3 +144,18 @@ pub fn normals(n: usize, seed: u64) -> Vec<f64> {
         })
         .collect()
 }
+
+/// Files in `dir` whose names pass `keep` (0 when the folder is missing): how far a run
+/// that is about to be killed has written.
+pub fn files_in(dir: &Path, keep: impl Fn(&str) -> bool) -> usize {
+    std::fs::read_dir(dir)
+        .map(|r| {
+            r.filter(|e| {
+                e.as_ref()
+                    .map(|e| keep(&e.file_name().to_string_lossy()))
+                    .unwrap_or(false)
+            })
+            .count()
+        })
+        .unwrap_or(0)
+}
