@@ -18,21 +18,17 @@ use shared::{
 /// indicators, so later stages see gaps a fill would have removed only where they cope
 /// with them: fills first, then the rest on the median-filled rows) and applied to them.
 fn stages(c: &mut Criterion) {
-    use forkmap::space::STAGE_DIMENSIONS;
+    use forkmap::space::Dim;
     use forkmap::stages::{build, StageInput};
     let p = prepared();
     let fold = &p.folds.folds[0];
     let (raw, y, filled) = fold0(&p);
     let names = p.panel.indicators.clone();
     let mut g = c.benchmark_group("stage fit + apply, one fold");
-    for dim in STAGE_DIMENSIONS {
-        let d = forkmap::space::DIMENSIONS
-            .iter()
-            .position(|x| x == dim)
-            .expect("a stage dimension");
-        for choice in &p.space.options[d] {
+    for dim in Dim::STAGES {
+        for choice in &p.space.options[dim.index()] {
             let stage = build(choice, &p.panel).expect("stage builds");
-            let x = if *dim == "fill" { &raw } else { &filled };
+            let x = if dim == Dim::Fill { &raw } else { &filled };
             let input = StageInput {
                 x: x.view(),
                 y: y.view(),
@@ -99,17 +95,18 @@ fn bench(c: &mut Criterion) {
         .space
         .specs
         .iter()
-        .map(|s| s.choice("model").option.clone())
+        .map(|s| s.choice(forkmap::space::Dim::Model).option.clone())
         .collect();
     families.sort();
     families.dedup();
     for fam in families {
-        let of_family = |s: &forkmap::space::Spec| s.choice("model").option == fam;
+        let of_family =
+            |s: &forkmap::space::Spec| s.choice(forkmap::space::Dim::Model).option == fam;
         let si = p
             .space
             .specs
             .iter()
-            .position(|s| of_family(s) && s.choice("compress").option == "none")
+            .position(|s| of_family(s) && s.choice(forkmap::space::Dim::Compress).option == "none")
             .or_else(|| p.space.specs.iter().position(of_family))
             .expect("a spec of a family listed in the space");
         let sweep =

@@ -39,12 +39,12 @@ fn a_declared_option_runs_through_every_layer() {
         .specs
         .iter()
         .enumerate()
-        .filter(|(_, s)| s.choice("model").option == "probe")
+        .filter(|(_, s)| s.choice(forkmap::decl::Dim::Model).option == "probe")
         .collect();
     assert_eq!(probes.len(), 2);
     assert!(probes
         .iter()
-        .all(|(_, s)| s.choice("compress").option == "none"));
+        .all(|(_, s)| s.choice(forkmap::decl::Dim::Compress).option == "none"));
     assert!(
         p.space.exclusion_rules.iter().any(|r| r
             == "model in [probe] and compress in [pca] (automatic: a test of declared exclusions)"),
@@ -56,7 +56,10 @@ fn a_declared_option_runs_through_every_layer() {
     let sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None).unwrap();
     let res = results(&sweep);
     for (si, spec) in &probes {
-        let shift = spec.choice("model").param("shift").unwrap();
+        let shift = spec
+            .choice(forkmap::decl::Dim::Model)
+            .param("shift")
+            .unwrap();
         let r = &res[*si];
         assert_eq!(r.status, forkmap::error::Status::Ok, "{:?}", r.message);
         assert_eq!(r.predictions.len(), p.panel.y.len() * p.folds.repeats);

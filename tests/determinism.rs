@@ -182,7 +182,7 @@ fn spec_ids_are_stable_under_reordering() {
 fn spec_id_is_sha256_of_canonical_form() {
     use forkmap::space::{Choice, Spec};
     let c = |dim: &'static str, option: &str, params: Vec<(&'static str, f64)>| Choice {
-        dim,
+        dim: forkmap::decl::Dim::parse(dim).expect("a dimension name"),
         option: option.into(),
         params,
         members: None,

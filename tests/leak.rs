@@ -299,8 +299,13 @@ fn every_fitted_step_is_handed_only_training_rows() {
             .map(|&si| {
                 let s = &c.space.specs[si];
                 // The stage tree shares a forward transform across back-transforms (smear).
-                let mut key = vec![forkmap::transform::fit_key(s.choice("transform"))];
-                key.extend(upto.iter().map(|d| s.choice(d).canonical()));
+                let mut key = vec![forkmap::transform::fit_key(
+                    s.choice(forkmap::decl::Dim::Transform),
+                )];
+                key.extend(upto.iter().map(|d| {
+                    s.choice(forkmap::decl::Dim::parse(d).expect("a dimension name"))
+                        .canonical()
+                }));
                 key
             })
             .collect::<BTreeSet<_>>()
@@ -414,7 +419,7 @@ fn changing_a_folds_test_rows_moves_none_of_its_other_predictions() {
             continue;
         }
         ok += 1;
-        let carry = spec.choice("fill").option == "carry";
+        let carry = spec.choice(forkmap::decl::Dim::Fill).option == "carry";
         let mut moved_elsewhere = false;
         assert_eq!(a.predictions.len(), b.predictions.len());
         for (pa, pb) in a.predictions.iter().zip(&b.predictions) {
@@ -503,9 +508,9 @@ fn failing_specs_are_recorded_and_the_sweep_goes_on() {
     let mut singular = 0;
     for r in &results {
         let s = &p.space.specs[r.spec];
-        let wide = s.choice("model").option == "ols"
-            && s.choice("pool").option == "all"
-            && s.choice("compress").option == "none";
+        let wide = s.choice(forkmap::decl::Dim::Model).option == "ols"
+            && s.choice(forkmap::decl::Dim::Pool).option == "all"
+            && s.choice(forkmap::decl::Dim::Compress).option == "none";
         if wide {
             assert_eq!(r.status, forkmap::error::Status::Singular, "{}", s.label());
             assert!(

@@ -13,12 +13,13 @@ fn fast_specs(p: &Prepared) -> Vec<usize> {
     (0..p.space.specs.len())
         .filter(|&i| {
             let s = &p.space.specs[i];
-            s.choice("transform").option == "identity"
-                && s.choice("fill").option == "median"
-                && s.choice("weighting").option == "rows"
-                && s.choice("scale").option == "standardise"
-                && ["ols", "ridge"].contains(&s.choice("model").option.as_str())
-                && ["none", "pca", "pls"].contains(&s.choice("compress").option.as_str())
+            s.choice(forkmap::decl::Dim::Transform).option == "identity"
+                && s.choice(forkmap::decl::Dim::Fill).option == "median"
+                && s.choice(forkmap::decl::Dim::Weighting).option == "rows"
+                && s.choice(forkmap::decl::Dim::Scale).option == "standardise"
+                && ["ols", "ridge"].contains(&s.choice(forkmap::decl::Dim::Model).option.as_str())
+                && ["none", "pca", "pls"]
+                    .contains(&s.choice(forkmap::decl::Dim::Compress).option.as_str())
         })
         .collect()
 }
@@ -30,10 +31,10 @@ fn linear_specs(p: &Prepared) -> Vec<usize> {
     (0..p.space.specs.len())
         .filter(|&i| {
             let s = &p.space.specs[i];
-            s.choice("transform").option == "identity"
-                && s.choice("fill").option == "median"
-                && s.choice("weighting").option == "rows"
-                && ["ols", "ridge"].contains(&s.choice("model").option.as_str())
+            s.choice(forkmap::decl::Dim::Transform).option == "identity"
+                && s.choice(forkmap::decl::Dim::Fill).option == "median"
+                && s.choice(forkmap::decl::Dim::Weighting).option == "rows"
+                && ["ols", "ridge"].contains(&s.choice(forkmap::decl::Dim::Model).option.as_str())
         })
         .collect()
 }

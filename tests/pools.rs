@@ -114,12 +114,15 @@ fn a_pool_bounds_what_a_spec_uses_under_every_fill() {
     let mut compared = 0usize;
     for pool in ["group:housing", "core", "screen"] {
         let subset: Vec<usize> = (0..p.space.specs.len())
-            .filter(|&si| p.space.specs[si].choice("pool").option == pool)
+            .filter(|&si| p.space.specs[si].choice(forkmap::decl::Dim::Pool).option == pool)
             .collect();
         assert_eq!(subset.len(), 20, "{pool}");
         // The indicators the pool's specs may use: a fixed pool's members; for `screen`,
         // those screened in in some fold (in_pool in the unscrambled run).
-        let keep: BTreeSet<usize> = match &p.space.specs[subset[0]].choice("pool").members {
+        let keep: BTreeSet<usize> = match &p.space.specs[subset[0]]
+            .choice(forkmap::decl::Dim::Pool)
+            .members
+        {
             Some(m) => m.iter().copied().collect(),
             None => indicator_rows(&base[subset[0]])
                 .filter(|x| x.kind == "permutation" && x.in_pool)
@@ -216,7 +219,7 @@ fn a_pool_bounds_what_a_spec_uses_under_every_fill() {
                     x.kind
                 );
             }
-            fills_seen.insert(spec.choice("fill").option.clone());
+            fills_seen.insert(spec.choice(forkmap::decl::Dim::Fill).option.clone());
         }
     }
     assert_eq!(fills_seen.len(), 5, "every fill compared: {fills_seen:?}");

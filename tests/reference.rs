@@ -474,7 +474,7 @@ fn knn_fill_matches_scikit_learn_knn_imputer() {
     let x = ndarray::Array2::from_shape_vec((n, p), rows.into_iter().flatten().collect()).unwrap();
     let t = r["train_rows"].as_u64().unwrap() as usize;
     let choice = Choice {
-        dim: "fill",
+        dim: forkmap::decl::Dim::Fill,
         option: "knn".into(),
         params: vec![
             ("k", r["k"].as_f64().unwrap()),
@@ -592,7 +592,7 @@ fn screen_scores_match_pandas_pairwise_complete_correlation() {
     )
     .unwrap();
     let choice = Choice {
-        dim: "pool",
+        dim: forkmap::decl::Dim::Pool,
         option: "screen".into(),
         params: vec![("k", 3.0)],
         members: None,

@@ -103,7 +103,8 @@ fn fast_specs(p: &forkmap::run::Prepared) -> Vec<usize> {
     (0..p.space.specs.len())
         .filter(|&i| {
             let s = &p.space.specs[i];
-            s.choice("model").option == "ols" && s.choice("compress").option == "none"
+            s.choice(forkmap::decl::Dim::Model).option == "ols"
+                && s.choice(forkmap::decl::Dim::Compress).option == "none"
         })
         .collect()
 }

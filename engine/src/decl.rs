@@ -6,33 +6,85 @@
 
 use std::sync::Arc;
 
-/// The choice dimensions, in the order a spec's id lists them (this order is part of every
-/// spec id, so it never changes; the stage tree's order is [`STAGE_DIMENSIONS`]). The
-/// registry of each lives in its own module (see `space::options_of`).
-pub const DIMENSIONS: &[&str] = &[
-    "transform",
-    "fill",
-    "pool",
-    "scale",
-    "compress",
-    "model",
-    "weighting",
-];
-/// Dimensions fitted as shared stages, in tree order: the pool first, so that no step
-/// that reads indicator values (the fill included) sees an indicator outside the pool.
-pub const STAGE_DIMENSIONS: &[&str] = &["pool", "fill", "scale", "compress"];
-/// Default option of a dimension the config leaves out.
-pub fn default_option(dim: &str) -> &'static str {
-    match dim {
-        "transform" => "identity",
-        "fill" => "median",
-        "pool" => "all",
-        "scale" => "standardise",
-        "compress" => "none",
-        "model" => "ridge",
-        _ => "rows",
+/// A choice dimension. The order of [`Dim::ALL`] is the order a spec's id lists them (it
+/// is part of every spec id, so it never changes); the stage tree's order is
+/// [`Dim::STAGES`]. The registry of each lives in its own module (see `space::options_of`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Dim {
+    Transform,
+    Fill,
+    Pool,
+    Scale,
+    Compress,
+    Model,
+    Weighting,
+}
+
+impl Dim {
+    /// Every dimension, in spec-id order.
+    pub const ALL: [Dim; 7] = [
+        Dim::Transform,
+        Dim::Fill,
+        Dim::Pool,
+        Dim::Scale,
+        Dim::Compress,
+        Dim::Model,
+        Dim::Weighting,
+    ];
+    /// Dimensions fitted as shared stages, in tree order: the pool first, so that no step
+    /// that reads indicator values (the fill included) sees an indicator outside the pool.
+    pub const STAGES: [Dim; 4] = [Dim::Pool, Dim::Fill, Dim::Scale, Dim::Compress];
+
+    /// The dimension's name in configs, tables and spec labels.
+    pub const fn name(self) -> &'static str {
+        match self {
+            Dim::Transform => "transform",
+            Dim::Fill => "fill",
+            Dim::Pool => "pool",
+            Dim::Scale => "scale",
+            Dim::Compress => "compress",
+            Dim::Model => "model",
+            Dim::Weighting => "weighting",
+        }
+    }
+    /// The dimension named `name`, if any (config keys, table columns).
+    pub fn parse(name: &str) -> Option<Dim> {
+        Dim::ALL.into_iter().find(|d| d.name() == name)
+    }
+    /// Position in [`Dim::ALL`] (and in a spec's `choices`).
+    pub const fn index(self) -> usize {
+        self as usize
+    }
+    /// Default option when the config leaves the dimension out.
+    pub const fn default_option(self) -> &'static str {
+        match self {
+            Dim::Transform => "identity",
+            Dim::Fill => "median",
+            Dim::Pool => "all",
+            Dim::Scale => "standardise",
+            Dim::Compress => "none",
+            Dim::Model => "ridge",
+            Dim::Weighting => "rows",
+        }
     }
 }
+
+impl std::fmt::Display for Dim {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// The dimension names in spec-id order (config keys and table columns).
+pub const DIMENSIONS: &[&str] = &[
+    Dim::Transform.name(),
+    Dim::Fill.name(),
+    Dim::Pool.name(),
+    Dim::Scale.name(),
+    Dim::Compress.name(),
+    Dim::Model.name(),
+    Dim::Weighting.name(),
+];
 
 /// The kind and range of an option's parameter.
 #[derive(Debug, Clone, Copy)]
@@ -69,7 +121,7 @@ pub struct OptionDecl {
 /// An automatic exclusion declared by an option: it never runs with `options` of `dim`.
 #[derive(Debug, Clone, Copy)]
 pub struct Excludes {
-    pub dim: &'static str,
+    pub dim: Dim,
     pub options: &'static [&'static str],
     /// Why, in a few words (shown in the rule: "automatic: WHY").
     pub why: &'static str,
@@ -88,7 +140,7 @@ pub struct Registered<B: 'static> {
 }
 
 /// The builder of `option` in a dimension's table; the error names the dimension.
-pub fn lookup<'a, B>(table: &'a [Registered<B>], dim: &str, option: &str) -> Result<&'a B, String> {
+pub fn lookup<'a, B>(table: &'a [Registered<B>], dim: Dim, option: &str) -> Result<&'a B, String> {
     table
         .iter()
         .find(|r| r.decl.name == option)
@@ -104,7 +156,7 @@ pub fn decls<B>(table: &[Registered<B>]) -> Vec<OptionDecl> {
 /// One option of one dimension with concrete parameter values.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Choice {
-    pub dim: &'static str,
+    pub dim: Dim,
     pub option: String,
     /// Parameter values in declaration order.
     pub params: Vec<(&'static str, f64)>,

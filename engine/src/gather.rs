@@ -225,7 +225,7 @@ fn write_gathered(
         }
     }
     write_bytes_atomic(
-        &tmp.join("manifest.json"),
+        &tmp.join(crate::schema::MANIFEST),
         serde_json::to_string_pretty(&m)
             .unwrap_or_default()
             .as_bytes(),

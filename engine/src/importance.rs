@@ -191,7 +191,7 @@ fn indicator_of(name: &str) -> &str {
 
 impl<'a> Accumulator<'a> {
     pub fn new(panel: &'a Panel, spec: &Spec, cfg: &'a ImportanceSection, seed: u64) -> Self {
-        let pool: Vec<usize> = match &spec.choice("pool").members {
+        let pool: Vec<usize> = match &spec.choice(crate::decl::Dim::Pool).members {
             Some(m) => m.to_vec(),
             None => (0..panel.indicators.len()).collect(),
         };

@@ -23,6 +23,7 @@ pub mod report;
 pub mod results;
 pub mod resume;
 pub mod run;
+pub mod schema;
 pub mod shard;
 pub mod sink;
 pub mod space;

@@ -1,7 +1,7 @@
 //! What a sweep will do, before it does it: dimensions, counts, a timed estimate, warnings.
 
 use crate::run::Prepared;
-use crate::space::{options_of, DIMENSIONS};
+use crate::space::{options_of, Dim, DIMENSIONS};
 use crate::sweep::Sweep;
 use std::collections::BTreeMap;
 use std::fmt::Write;
@@ -32,11 +32,8 @@ pub fn warnings(p: &Prepared) -> Vec<String> {
     }
     let units = p.panel.n_units();
     let limit = (units as f64 / 10.0).max(1.0);
-    let pools = &p.space.options[DIMENSIONS.iter().position(|d| *d == "pool").unwrap_or(1)];
-    let comp = &p.space.options[DIMENSIONS
-        .iter()
-        .position(|d| *d == "compress")
-        .unwrap_or(3)];
+    let pools = &p.space.options[Dim::Pool.index()];
+    let comp = &p.space.options[Dim::Compress.index()];
     let uncompressed = comp.iter().any(|c| c.option == "none");
     for pool in pools {
         let size = pool.members.as_ref().map(|m| m.len()).unwrap_or(0);
@@ -177,7 +174,7 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
         let _ = writeln!(
             t,
             "stage tree ({}): {} distinct preparations, each fitted once per fold",
-            crate::space::STAGE_DIMENSIONS.join(" -> "),
+            crate::space::Dim::STAGES.map(|d| d.name()).join(" -> "),
             sweep.n_stage_nodes()
         );
         // Probe: run a seeded random ~2% of the specs (at least 30, at most 200) through
@@ -212,7 +209,12 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
                 probe.run(&|r| {
                     if let Ok(mut g) = model_secs.lock() {
                         let e = g
-                            .entry(p.space.specs[r.spec].choice("model").option.clone())
+                            .entry(
+                                p.space.specs[r.spec]
+                                    .choice(crate::decl::Dim::Model)
+                                    .option
+                                    .clone(),
+                            )
                             .or_default();
                         e.0 += r.seconds;
                         e.1 += 1;
@@ -221,7 +223,12 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
                         drop(g);
                         if let Ok(mut f) = imp_by_fill.lock() {
                             let e = f
-                                .entry(p.space.specs[r.spec].choice("fill").option.clone())
+                                .entry(
+                                    p.space.specs[r.spec]
+                                        .choice(crate::decl::Dim::Fill)
+                                        .option
+                                        .clone(),
+                                )
                                 .or_default();
                             e.0 += r.importance_seconds;
                             e.1 += 1;
@@ -283,8 +290,8 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
         ));
     }
     let mut no_weights = Vec::new();
-    let mi = DIMENSIONS.iter().position(|d| *d == "model").unwrap_or(0);
-    for o in options_of("model") {
+    let mi = Dim::Model.index();
+    for o in options_of(Dim::Model) {
         if !o.weighted && p.space.options[mi].iter().any(|c| c.option == o.name) {
             no_weights.push(o.name);
         }
@@ -362,7 +369,7 @@ fn estimate_from_probe(
     let mut fit_by_family: BTreeMap<&str, f64> = BTreeMap::new();
     let mut model = 0.0;
     for s in &p.space.specs {
-        let fam = s.choice("model").option.as_str();
+        let fam = s.choice(crate::decl::Dim::Model).option.as_str();
         let rate = per_family
             .get(fam)
             .filter(|v| v.2 > 0.0)
@@ -370,7 +377,7 @@ fn estimate_from_probe(
         let fit = rate * crate::shard::spec_cost(s, &p.panel);
         *fit_by_family.entry(fam).or_default() += fit;
         let imp = imp_by_fill
-            .get(&s.choice("fill").option)
+            .get(&s.choice(crate::decl::Dim::Fill).option)
             .filter(|v| v.1 > 0)
             .map_or(overall.1, |v| own * v.0 / v.1 as f64);
         model += fit + imp;

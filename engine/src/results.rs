@@ -30,7 +30,7 @@ pub struct RunDir {
 
 impl RunDir {
     fn open(path: &Path) -> Result<RunDir> {
-        let mpath = path.join("manifest.json");
+        let mpath = path.join(crate::schema::MANIFEST);
         let text = std::fs::read_to_string(&mpath).map_err(|e| Error::io(&mpath, e))?;
         let manifest: serde_json::Value =
             serde_json::from_str(&text).map_err(|e| Error::Output {
@@ -146,7 +146,7 @@ impl Completeness {
 }
 
 fn is_run(p: &Path) -> bool {
-    p.join("manifest.json").is_file()
+    p.join(crate::schema::MANIFEST).is_file()
 }
 
 impl RunSet {

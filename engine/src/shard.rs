@@ -45,13 +45,13 @@ impl std::fmt::Display for Shard {
 pub fn spec_cost(spec: &Spec, panel: &Panel) -> f64 {
     let n = panel.n_rows() as f64;
     let all = panel.indicators.len() as f64;
-    let pool = spec.choice("pool");
+    let pool = spec.choice(crate::decl::Dim::Pool);
     let mut p = match (&pool.members, pool.param("k")) {
         (Some(m), _) => m.len() as f64,
         (None, Some(k)) => k.min(all),
         (None, None) => all,
     };
-    let compress = spec.choice("compress");
+    let compress = spec.choice(crate::decl::Dim::Compress);
     if compress.option != "none" {
         if let Some(k) = compress.param("k") {
             p = p.min(k);
@@ -59,7 +59,7 @@ pub fn spec_cost(spec: &Spec, panel: &Panel) -> f64 {
     }
     // The stages are shared, so a spec's own share of them is small; a pass over the
     // pooled columns stands for it.
-    crate::models::cost(spec.choice("model"), n, p) + n * all
+    crate::models::cost(spec.choice(crate::decl::Dim::Model), n, p) + n * all
 }
 
 /// The spec indices (ascending) that shard `shard` runs.

@@ -23,7 +23,7 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 /// Names of the output tables (one folder each under the run directory).
-pub const TABLES: &[&str] = &["specs", "predictions", "loadings", "importance"];
+pub use crate::schema::TABLES;
 
 pub struct ParquetSink<'a> {
     dir: PathBuf,

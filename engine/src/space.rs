@@ -12,21 +12,19 @@ use std::collections::{BTreeMap, BTreeSet};
 use std::sync::Arc;
 
 pub use crate::decl::{
-    default_option, Choice, OptionDecl, ParamDecl, ParamKind, DIMENSIONS, QUIET_AT_DEFAULT,
-    STAGE_DIMENSIONS,
+    Choice, Dim, OptionDecl, ParamDecl, ParamKind, DIMENSIONS, QUIET_AT_DEFAULT,
 };
 
 /// Declared options of a dimension (pools are built from the config and codebook).
-pub fn options_of(dim: &str) -> Vec<OptionDecl> {
+pub fn options_of(dim: Dim) -> Vec<OptionDecl> {
     match dim {
-        "transform" => crate::decl::decls(crate::transform::OPTIONS),
-        "fill" => crate::decl::decls(crate::stages::fill::OPTIONS),
-        "scale" => crate::decl::decls(crate::stages::scale::OPTIONS),
-        "compress" => crate::decl::decls(crate::stages::compress::OPTIONS),
-        "model" => crate::models::registry().iter().map(|f| f.decl).collect(),
-        "weighting" => crate::decl::decls(crate::weights::OPTIONS),
-        "pool" => crate::decl::decls(crate::stages::pool::OPTIONS),
-        _ => Vec::new(),
+        Dim::Transform => crate::decl::decls(crate::transform::OPTIONS),
+        Dim::Fill => crate::decl::decls(crate::stages::fill::OPTIONS),
+        Dim::Scale => crate::decl::decls(crate::stages::scale::OPTIONS),
+        Dim::Compress => crate::decl::decls(crate::stages::compress::OPTIONS),
+        Dim::Model => crate::models::registry().iter().map(|f| f.decl).collect(),
+        Dim::Weighting => crate::decl::decls(crate::weights::OPTIONS),
+        Dim::Pool => crate::decl::decls(crate::stages::pool::OPTIONS),
     }
 }
 
@@ -50,9 +48,8 @@ impl Spec {
             choices,
         }
     }
-    pub fn choice(&self, dim: &str) -> &Choice {
-        let i = DIMENSIONS.iter().position(|d| *d == dim).unwrap_or(0);
-        &self.choices[i]
+    pub fn choice(&self, dim: Dim) -> &Choice {
+        &self.choices[dim.index()]
     }
     /// `fill=mean; pool=all; ...`
     pub fn label(&self) -> String {
@@ -123,7 +120,7 @@ fn parse_param(cfg: &Config, key: &str, decl: &ParamDecl, v: &toml::Value) -> Re
 }
 
 /// Expand one option by its grid (product of its parameter lists, defaults elsewhere).
-fn expand(cfg: &Config, dim: &'static str, decl: &OptionDecl) -> Result<Vec<Choice>> {
+fn expand(cfg: &Config, dim: Dim, decl: &OptionDecl) -> Result<Vec<Choice>> {
     let grid = cfg.grid.get(decl.name);
     let mut lists: Vec<(&'static str, Vec<f64>)> = Vec::new();
     for p in decl.params {
@@ -184,7 +181,7 @@ fn pool_choice(name: &str, members: Vec<usize>, panel: &Panel) -> Choice {
     names.sort_unstable();
     let digest = hex::encode(Sha256::digest(names.join("\n").as_bytes()))[..8].to_string();
     Choice {
-        dim: "pool",
+        dim: crate::decl::Dim::Pool,
         option: name.to_string(),
         params: Vec::new(),
         members: Some(Arc::new(m)),
@@ -208,7 +205,7 @@ fn pool_options(cfg: &Config, panel: &Panel, listed: &[String]) -> Result<Vec<Ch
             .iter()
             .find(|r| r.decl.name == opt)
         {
-            out.extend(expand(cfg, "pool", &r.decl)?);
+            out.extend(expand(cfg, Dim::Pool, &r.decl)?);
         } else if opt == "all" {
             out.push(pool_choice(
                 "all",
@@ -271,7 +268,7 @@ fn pool_options(cfg: &Config, panel: &Panel, listed: &[String]) -> Result<Vec<Ch
 /// Every `[grid.NAME]` must name a known option and known parameters.
 fn check_grids(cfg: &Config) -> Result<()> {
     let mut all_decls: BTreeMap<&str, OptionDecl> = BTreeMap::new();
-    for d in DIMENSIONS {
+    for d in Dim::ALL {
         for o in options_of(d) {
             all_decls.insert(o.name, o);
         }
@@ -312,10 +309,10 @@ fn check_grids(cfg: &Config) -> Result<()> {
 /// checked against the data (transform domains, `invvar` needs standard errors).
 fn dimension_options(cfg: &Config, panel: &Panel) -> Result<Vec<Vec<Choice>>> {
     let mut options: Vec<Vec<Choice>> = Vec::new();
-    for dim in DIMENSIONS {
-        let listed: Vec<String> = match cfg.choices.get(*dim) {
+    for dim in Dim::ALL {
+        let listed: Vec<String> = match cfg.choices.get(dim.name()) {
             Some(v) => v.clone(),
-            None => vec![default_option(dim).to_string()],
+            None => vec![dim.default_option().to_string()],
         };
         if listed.is_empty() {
             return Err(space_err(
@@ -329,7 +326,7 @@ fn dimension_options(cfg: &Config, panel: &Panel) -> Result<Vec<Vec<Choice>>> {
                 return Err(space_err(cfg, format!("choices.{dim} lists `{o}` twice")));
             }
         }
-        let expanded = if *dim == "pool" {
+        let expanded = if dim == Dim::Pool {
             pool_options(cfg, panel, &listed)?
         } else {
             let decls = options_of(dim);
@@ -349,7 +346,7 @@ fn dimension_options(cfg: &Config, panel: &Panel) -> Result<Vec<Vec<Choice>>> {
             }
             out
         };
-        if *dim == "transform" {
+        if dim == Dim::Transform {
             for c in &expanded {
                 crate::transform::check_domain(
                     &c.option,
@@ -359,7 +356,7 @@ fn dimension_options(cfg: &Config, panel: &Panel) -> Result<Vec<Vec<Choice>>> {
                 .map_err(|m| space_err(cfg, format!("choices.transform: {m}")))?;
             }
         }
-        if *dim == "weighting"
+        if dim == Dim::Weighting
             && panel.se.is_none()
             && expanded.iter().any(|c| c.option == "invvar")
         {
@@ -427,15 +424,13 @@ impl<'a> Exclusions<'a> {
         // Automatic exclusions declared by the chosen options (e.g. NMF never runs after
         // standardising, which gives negative input).
         let mut declared: Vec<(usize, &'static str, usize, &'static [&'static str])> = Vec::new();
-        for (di, dim) in DIMENSIONS.iter().enumerate() {
+        for (di, dim) in Dim::ALL.into_iter().enumerate() {
             for decl in options_of(dim) {
                 if !options[di].iter().any(|c| c.option == decl.name) {
                     continue;
                 }
                 for e in decl.excludes {
-                    let Some(ti) = DIMENSIONS.iter().position(|d| *d == e.dim) else {
-                        continue;
-                    };
+                    let ti = e.dim.index();
                     let mut hit: Vec<&str> = Vec::new();
                     for c in &options[ti] {
                         if e.options.contains(&c.option.as_str())
@@ -458,12 +453,9 @@ impl<'a> Exclusions<'a> {
             }
         }
         // Automatic: families that take no row weights run only with `rows` weighting.
-        let mi = DIMENSIONS.iter().position(|d| *d == "model").unwrap_or(0);
-        let wi = DIMENSIONS
-            .iter()
-            .position(|d| *d == "weighting")
-            .unwrap_or(0);
-        let unweighted: Vec<&'static str> = options_of("model")
+        let mi = Dim::Model.index();
+        let wi = Dim::Weighting.index();
+        let unweighted: Vec<&'static str> = options_of(Dim::Model)
             .iter()
             .filter(|d| !d.weighted)
             .map(|d| d.name)
@@ -545,11 +537,11 @@ fn product(options: &[Vec<Choice>], ex: &Exclusions) -> Result<(Vec<Spec>, usize
 fn check_specs(cfg: &Config, panel: &Panel, specs: &[Spec]) -> Result<()> {
     let mut checked: BTreeSet<String> = BTreeSet::new();
     for s in specs {
-        if s.choice("compress").option == "nmf"
-            && s.choice("scale").option == "none"
-            && checked.insert(s.choice("pool").canonical())
+        if s.choice(crate::decl::Dim::Compress).option == "nmf"
+            && s.choice(crate::decl::Dim::Scale).option == "none"
+            && checked.insert(s.choice(crate::decl::Dim::Pool).canonical())
         {
-            let pool = s.choice("pool");
+            let pool = s.choice(crate::decl::Dim::Pool);
             for &j in pool.members.as_deref().map(|m| m.as_slice()).unwrap_or(&[]) {
                 if let Some(i) = panel.x.column(j).iter().position(|v| *v < 0.0) {
                     return Err(space_err(cfg, format!(
@@ -658,8 +650,8 @@ mod tests {
     /// parameters must not share its name with an option of another dimension.
     #[test]
     fn parameterised_option_names_are_unique_across_dimensions() {
-        let mut seen: BTreeMap<&str, &str> = BTreeMap::new();
-        for dim in DIMENSIONS {
+        let mut seen: BTreeMap<&str, Dim> = BTreeMap::new();
+        for dim in Dim::ALL {
             for o in options_of(dim) {
                 if o.params.is_empty() {
                     continue;
@@ -669,20 +661,33 @@ mod tests {
                 }
             }
         }
-        for dim in DIMENSIONS {
+        for dim in Dim::ALL {
             for o in options_of(dim) {
                 if let Some(other) = seen.get(o.name) {
-                    assert!(other == dim || o.params.is_empty(), "{}", o.name);
+                    assert!(*other == dim || o.params.is_empty(), "{}", o.name);
                 }
             }
         }
         assert!(seen.len() >= 10);
     }
 
+    /// Every dimension name parses back to its dimension; `DIMENSIONS` lists them in
+    /// `Dim::ALL` order; an unknown name is `None`, never a fallback dimension.
+    #[test]
+    fn dimension_names_round_trip() {
+        for (i, d) in Dim::ALL.into_iter().enumerate() {
+            assert_eq!(Dim::parse(d.name()), Some(d));
+            assert_eq!(d.index(), i);
+            assert_eq!(DIMENSIONS[i], d.name());
+        }
+        assert_eq!(Dim::parse("weightings"), None);
+        assert_eq!(Dim::parse(""), None);
+    }
+
     #[test]
     fn labels_sort_parameters_by_name() {
         let c = Choice {
-            dim: "model",
+            dim: crate::decl::Dim::Model,
             option: "tree".into(),
             params: vec![("min_leaf", 5.0), ("depth", 3.0)],
             members: None,
@@ -696,7 +701,7 @@ mod tests {
     #[test]
     fn quiet_parameters_leave_the_label_only_at_their_default() {
         let logit = |smear: f64| Choice {
-            dim: "transform",
+            dim: crate::decl::Dim::Transform,
             option: "logit".into(),
             params: vec![("clamp", 0.001), ("smear", smear)],
             members: None,
@@ -705,7 +710,7 @@ mod tests {
         assert_eq!(logit(0.0).label(), "logit(clamp=0.001)");
         assert_eq!(logit(1.0).label(), "logit(clamp=0.001,smear=1)");
         let log1p = Choice {
-            dim: "transform",
+            dim: crate::decl::Dim::Transform,
             option: "log1p".into(),
             params: vec![("smear", 0.0)],
             members: None,
@@ -713,9 +718,9 @@ mod tests {
         };
         assert_eq!(log1p.label(), "log1p");
         for (o, p, d) in QUIET_AT_DEFAULT {
-            let decl = DIMENSIONS
-                .iter()
-                .flat_map(|dim| options_of(dim))
+            let decl = Dim::ALL
+                .into_iter()
+                .flat_map(options_of)
                 .find(|x| x.name == *o)
                 .unwrap();
             let param = decl.params.iter().find(|x| x.name == *p).unwrap();

@@ -206,12 +206,12 @@ pub struct TransformBuild {
 
 /// Build a transform. `scale` is the outcome's full scale (1 or 100) for logit.
 pub fn build(c: &Choice, scale: Option<f64>) -> Result<Arc<dyn Target>, String> {
-    (crate::decl::lookup(OPTIONS, "transform", &c.option)?.target)(c, scale)
+    (crate::decl::lookup(OPTIONS, crate::decl::Dim::Transform, &c.option)?.target)(c, scale)
 }
 
 /// Check that every outcome is in the transform's domain; the message names the row.
 pub fn check_domain(option: &str, y: &[f64], scale: Option<f64>) -> Result<(), String> {
-    (crate::decl::lookup(OPTIONS, "transform", option)?.domain)(y, scale)
+    (crate::decl::lookup(OPTIONS, crate::decl::Dim::Transform, option)?.domain)(y, scale)
 }
 
 const LOGIT_SCALE: &str =

@@ -123,7 +123,9 @@ pub type WeightBuild = fn(&Choice, &WeightInput) -> Result<Array1<f64>, String>;
 /// Weights of the training rows under a weighting choice (mean 1).
 pub fn weights(choice: &Choice, input: &WeightInput) -> Result<Array1<f64>, String> {
     let n = input.units.len();
-    let raw = (crate::decl::lookup(OPTIONS, "weighting", &choice.option)?)(choice, input)?;
+    let raw = (crate::decl::lookup(OPTIONS, crate::decl::Dim::Weighting, &choice.option)?)(
+        choice, input,
+    )?;
     let mean = raw.sum() / n.max(1) as f64;
     if !(mean.is_finite() && mean > 0.0) {
         return Err("weights are not finite and positive".into());
@@ -210,7 +212,7 @@ mod tests {
 
     fn choice(option: &str, params: Vec<(&'static str, f64)>) -> Choice {
         Choice {
-            dim: "weighting",
+            dim: crate::decl::Dim::Weighting,
             option: option.into(),
             params,
             members: None,
@@ -334,7 +336,7 @@ mod tests {
         let units = [0, 1];
         let log1p = crate::transform::build(
             &Choice {
-                dim: "transform",
+                dim: crate::decl::Dim::Transform,
                 option: "log1p".into(),
                 params: vec![("smear", 0.0)],
                 members: None,

@@ -128,7 +128,7 @@ pub fn map_runs(
         Some(d) => d,
         None if set.dirs.len() == 1
             && runs.len() == 1
-            && runs[0].join("manifest.json").is_file() =>
+            && runs[0].join(forkmap::schema::MANIFEST).is_file() =>
         {
             runs[0].join(forkmap::report::REPORT_DIR)
         }

@@ -198,7 +198,7 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
 }
 
 /// Name of the settings file beside the tables (its presence marks a whole curves folder).
-pub const META: &str = "curves.json";
+pub use crate::schema::CURVES_META as META;
 
 /// Write the tables (and `meta` as `curves.json`) into RUN_DIR/curves atomically (hidden
 /// folder, then rename).

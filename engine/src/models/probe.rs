@@ -27,7 +27,7 @@ pub const FAMILY: Family = Family {
         help: "test only: the weighted training mean plus a shift",
         weighted: true,
         excludes: &[Excludes {
-            dim: "compress",
+            dim: crate::decl::Dim::Compress,
             options: &["pca"],
             why: "a test of declared exclusions",
         }],

@@ -15,15 +15,15 @@
 use super::{OuterResult, Plan};
 use crate::error::{Error, Result};
 use crate::sink::Cols;
-use crate::space::{ChoiceSpace, DIMENSIONS};
+use crate::space::{ChoiceSpace, Dim, DIMENSIONS};
 use arrow_array::{Array, Float64Array, Int64Array, StringArray};
 use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
 use std::path::{Path, PathBuf};
 
 /// Folder of the nested tables inside a run directory.
-pub const NESTED_DIR: &str = "nested";
+pub use crate::schema::NESTED_DIR;
 /// The settings file inside [`NESTED_DIR`].
-pub const SETTINGS_FILE: &str = "settings.json";
+pub use crate::schema::NESTED_SETTINGS as SETTINGS_FILE;
 
 /// One outer fold as read back from its table.
 #[derive(Debug, Clone, PartialEq)]
@@ -116,8 +116,8 @@ pub fn write_fold(
     let mut cols = Cols::default()
         .i("outer_fold", [r.fold as i64])
         .os("spec_id", [spec.map(|s| s.id.clone())]);
-    for dim in DIMENSIONS {
-        cols = cols.os(dim, [spec.map(|s| s.choice(dim).label())]);
+    for dim in Dim::ALL {
+        cols = cols.os(dim.name(), [spec.map(|s| s.choice(dim).label())]);
     }
     cols.of("inner_error", [r.inner_error])
         .of("outer_error", [r.outer_error])

@@ -112,7 +112,7 @@ fn open(
     ident: &serde_json::Value,
     draws: u64,
 ) -> Result<(Vec<u64>, Option<String>)> {
-    let manifest = null_dir.join("manifest.json");
+    let manifest = null_dir.join(crate::schema::MANIFEST);
     let mut restarted = None;
     if manifest.exists() {
         let old: Option<serde_json::Value> = std::fs::read_to_string(&manifest)
@@ -181,7 +181,7 @@ fn write_manifest(
         "tables": [format!("{}/{DRAWS}", table::NULL_DIR), format!("{}/{TOPS}", table::NULL_DIR)],
     });
     write_bytes_atomic(
-        &null_dir.join("manifest.json"),
+        &null_dir.join(crate::schema::MANIFEST),
         serde_json::to_string_pretty(&m)
             .unwrap_or_default()
             .as_bytes(),
@@ -377,7 +377,7 @@ fn summarise_draw(
 /// run directory holds no null.
 pub fn progress_of(out: &Path) -> Result<Option<(usize, usize)>> {
     let null_dir = out.join(table::NULL_DIR);
-    let manifest = null_dir.join("manifest.json");
+    let manifest = null_dir.join(crate::schema::MANIFEST);
     if !manifest.exists() {
         return Ok(None);
     }

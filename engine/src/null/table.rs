@@ -15,11 +15,11 @@ use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
 use std::path::{Path, PathBuf};
 
 /// Folder of the null inside a run directory.
-pub const NULL_DIR: &str = "null";
+pub use crate::schema::NULL_DIR;
 /// The per-draw table.
-pub const DRAWS: &str = "draws";
+pub use crate::schema::NULL_DRAWS as DRAWS;
 /// The per-draw indicator (and group) table.
-pub const TOPS: &str = "tops";
+pub use crate::schema::NULL_TOPS as TOPS;
 
 /// One row of `null/draws`.
 #[derive(Debug, Clone, PartialEq)]

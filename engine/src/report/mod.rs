@@ -339,10 +339,10 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
 }
 
 /// Folder of the report inside a run directory.
-pub const REPORT_DIR: &str = "report";
+pub use crate::schema::REPORT_DIR;
 
 /// Marker file of a report folder.
-pub const MARKER: &str = "report.json";
+pub use crate::schema::REPORT_MARKER as MARKER;
 
 /// Write a built report into `dir`, replacing a previous report there: everything is
 /// written into a hidden sibling folder first and renamed into place when complete. A

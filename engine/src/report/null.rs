@@ -73,7 +73,7 @@ pub fn analyse(set: &RunSet, t: &RunTables) -> Result<Option<NullReport>> {
         return Ok(None);
     };
     let null_dir = dir.path.join(NULL_DIR);
-    let Ok(text) = std::fs::read_to_string(null_dir.join("manifest.json")) else {
+    let Ok(text) = std::fs::read_to_string(null_dir.join(crate::schema::MANIFEST)) else {
         return Ok(None);
     };
     let m: serde_json::Value = serde_json::from_str(&text).unwrap_or_default();

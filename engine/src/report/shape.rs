@@ -11,7 +11,7 @@ use std::collections::BTreeMap;
 use std::path::Path;
 
 /// Folder of the curves inside a run directory.
-pub const CURVES_DIR: &str = "curves";
+pub use crate::schema::CURVES_DIR;
 
 /// One cluster of units on the best spec's centred curves.
 #[derive(Debug, Clone, Default)]

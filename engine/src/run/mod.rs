@@ -114,7 +114,7 @@ fn open_out(
     shard: Option<crate::shard::Shard>,
     extend: bool,
 ) -> Result<Start> {
-    if extend && !out.join("manifest.json").is_file() {
+    if extend && !out.join(crate::schema::MANIFEST).is_file() {
         return Err(out_err(
             out,
             "holds no forkmap run to extend (--extend adds specs to a finished run)",
@@ -127,7 +127,7 @@ fn open_out(
     if !out.is_dir() {
         return Err(out_err(out, "exists and is not a directory"));
     }
-    let manifest_path = out.join("manifest.json");
+    let manifest_path = out.join(crate::schema::MANIFEST);
     if manifest_path.exists() {
         let text = std::fs::read_to_string(&manifest_path)
             .map_err(|e| out_err(out, format!("cannot read manifest.json: {e}")))?;
@@ -183,12 +183,7 @@ fn open_out(
                 ));
             }
             _ => {
-                for t in TABLES.iter().chain(&[
-                    crate::report::REPORT_DIR,
-                    crate::report::shape::CURVES_DIR,
-                    crate::null::table::NULL_DIR,
-                    crate::nested::table::NESTED_DIR,
-                ]) {
+                for t in TABLES.iter().chain(crate::schema::DERIVED_DIRS) {
                     let d = out.join(t);
                     if d.exists() {
                         std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
@@ -383,7 +378,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
     }
     let start = open_out(p, out, &sha, opts.restart, opts.shard, extend)?;
     let t0 = std::time::Instant::now();
-    let manifest_path = out.join("manifest.json");
+    let manifest_path = out.join(crate::schema::MANIFEST);
     let mut lineage = serde_json::Value::Null;
     let mut extension = None;
     let (created, done, started, resumes) = match start {

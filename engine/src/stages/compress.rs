@@ -84,7 +84,7 @@ pub const OPTIONS: &[StageOption] = &[
             help: "non-negative matrix factorisation (needs scale minmax or non-negative data)",
             weighted: true,
             excludes: &[Excludes {
-                dim: "scale",
+                dim: crate::decl::Dim::Scale,
                 options: &["standardise"],
                 why: "NMF needs non-negative input",
             }],

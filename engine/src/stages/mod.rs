@@ -15,7 +15,7 @@ pub mod nmf;
 pub mod pool;
 pub mod scale;
 
-use crate::decl::{Choice, Registered};
+use crate::decl::{Choice, Dim, Registered};
 use crate::error::FitError;
 use ndarray::{Array2, ArrayView1, ArrayView2};
 use std::sync::Arc;
@@ -68,20 +68,20 @@ pub type StageBuild = fn(&Choice, Option<&crate::panel::Panel>) -> Result<Arc<dy
 pub type StageOption = Registered<StageBuild>;
 
 /// The options table of a stage dimension.
-pub fn options(dim: &str) -> Option<&'static [StageOption]> {
+pub fn options(dim: Dim) -> Option<&'static [StageOption]> {
     match dim {
-        "fill" => Some(fill::OPTIONS),
-        "pool" => Some(pool::OPTIONS),
-        "scale" => Some(scale::OPTIONS),
-        "compress" => Some(compress::OPTIONS),
-        _ => None,
+        Dim::Fill => Some(fill::OPTIONS),
+        Dim::Pool => Some(pool::OPTIONS),
+        Dim::Scale => Some(scale::OPTIONS),
+        Dim::Compress => Some(compress::OPTIONS),
+        Dim::Transform | Dim::Model | Dim::Weighting => None,
     }
 }
 
 /// Build the stage of a stage-dimension choice.
 pub fn build(choice: &Choice, panel: &crate::panel::Panel) -> Result<Arc<dyn Stage>, String> {
     match options(choice.dim) {
-        Some(_) if choice.dim == "pool" => pool::build(choice, Some(panel)),
+        Some(_) if choice.dim == Dim::Pool => pool::build(choice, Some(panel)),
         Some(table) => {
             (crate::decl::lookup(table, choice.dim, &choice.option)?)(choice, Some(panel))
         }

@@ -63,7 +63,7 @@ struct Select {
 /// registered option.
 pub fn build(c: &Choice, panel: Option<&Panel>) -> Result<Arc<dyn Stage>, String> {
     let Some(members) = c.members.as_ref() else {
-        return (crate::decl::lookup(OPTIONS, "pool", &c.option)?)(c, panel);
+        return (crate::decl::lookup(OPTIONS, crate::decl::Dim::Pool, &c.option)?)(c, panel);
     };
     let panel =
         panel.ok_or_else(|| format!("pool `{}` needs the panel's indicator names", c.option))?;

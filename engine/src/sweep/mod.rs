@@ -25,7 +25,7 @@ use crate::folds::FoldPlan;
 use crate::metrics::Scores;
 use crate::models::{FitInput, Predictor, Regressor};
 use crate::panel::Panel;
-use crate::space::{ChoiceSpace, Spec, STAGE_DIMENSIONS};
+use crate::space::{ChoiceSpace, Dim, Spec};
 use crate::stages::{Fitted, Stage, StageInput};
 use crate::streams::mix;
 use crate::transform::Target;
@@ -254,7 +254,7 @@ impl<'a> Sweep<'a> {
         let mut roots: Vec<TargetNode> = Vec::new();
         for &si in chosen {
             let spec = &space.specs[si];
-            let tc = spec.choice("transform");
+            let tc = spec.choice(crate::decl::Dim::Transform);
             // Specs differing only in the back-transform share the fitted scale's tree.
             let tlabel = crate::transform::fit_key(tc);
             let ti = match roots.iter().position(|r| r.label == tlabel) {
@@ -271,7 +271,7 @@ impl<'a> Sweep<'a> {
                 }
             };
             let mut level_nodes = &mut roots[ti].children;
-            for (level, dim) in STAGE_DIMENSIONS.iter().enumerate() {
+            for (level, dim) in Dim::STAGES.into_iter().enumerate() {
                 let choice = spec.choice(dim);
                 let label = choice.canonical();
                 let pos = match level_nodes.iter().position(|n| n.label == label) {
@@ -288,7 +288,7 @@ impl<'a> Sweep<'a> {
                         level_nodes.len() - 1
                     }
                 };
-                if level + 1 == STAGE_DIMENSIONS.len() {
+                if level + 1 == Dim::STAGES.len() {
                     level_nodes[pos].specs.push(si);
                     break;
                 }
@@ -298,7 +298,7 @@ impl<'a> Sweep<'a> {
         let models = space
             .specs
             .iter()
-            .map(|s| crate::models::build(s.choice("model")).map_err(Error::Space))
+            .map(|s| crate::models::build(s.choice(crate::decl::Dim::Model)).map_err(Error::Space))
             .collect::<Result<Vec<_>>>()?;
         let ctx = folds
             .folds
@@ -350,12 +350,17 @@ impl<'a> Sweep<'a> {
     /// Fit a stage on its input, reporting to the audit exactly what it is handed.
     fn fit_stage(
         &self,
-        step: &str,
+        step: Dim,
         fold: usize,
         stage: &dyn Stage,
         input: &StageInput,
     ) -> std::result::Result<Arc<dyn Fitted>, FitError> {
-        self.audit(step, fold, input.rows, input.x.nrows().max(input.y.len()));
+        self.audit(
+            step.name(),
+            fold,
+            input.rows,
+            input.x.nrows().max(input.y.len()),
+        );
         guarded(|| stage.fit(input))
     }
 
@@ -448,7 +453,7 @@ impl<'a> Sweep<'a> {
         let f = guarded(|| node.stage.fit(&input)).ok()?;
         let x = guarded(|| Ok(f.apply_rows(w.x.view(), Some(&all)))).ok()?;
         let names = f.names().to_vec();
-        if node.level + 1 == STAGE_DIMENSIONS.len() {
+        if node.level + 1 == Dim::STAGES.len() {
             // At the last stage only the loadings are kept: x holds them, names the inputs.
             let (l, ind) = f.loadings()?;
             return Some(Whole {
@@ -471,7 +476,7 @@ impl<'a> Sweep<'a> {
         whole: Option<&Whole>,
         emit: &(dyn Fn(SpecResult) + Sync),
     ) {
-        let step = STAGE_DIMENSIONS[node.level];
+        let step = Dim::STAGES[node.level];
         let permutes = self
             .importance
             .as_ref()
@@ -479,7 +484,7 @@ impl<'a> Sweep<'a> {
         // Filled permutation draws are kept at the fill: below it every spec shares the
         // same fitted pool and fill, so a draw's filled rows are the same for all of them
         // (above it, specs under one pool have different fills).
-        let budget = (step == "fill" && self.draws_budget > 0 && permutes)
+        let budget = (step == Dim::Fill && self.draws_budget > 0 && permutes)
             .then(|| crate::importance::draws_budget(self.draws_budget));
         let states: std::result::Result<Vec<FoldState>, (usize, FitError)> = parent
             .par_iter()
@@ -573,7 +578,7 @@ impl<'a> Sweep<'a> {
             .par_iter()
             .for_each(|c| self.run_node(c, &states, next.as_ref(), emit));
         let loadings = next
-            .filter(|_| node.level + 1 == STAGE_DIMENSIONS.len())
+            .filter(|_| node.level + 1 == Dim::STAGES.len())
             .map(|w| {
                 let components = (1..=w.x.nrows())
                     .map(|c| format!("{}{c}", node.label.split('(').next().unwrap_or("c")))

@@ -32,7 +32,7 @@ impl<'a> Sweep<'a> {
                 .max(winput.y.len())
                 .max(winput.se.map_or(0, |s| s.len())),
         );
-        let w = crate::weights::weights(spec.choice("weighting"), &winput)
+        let w = crate::weights::weights(spec.choice(crate::decl::Dim::Weighting), &winput)
             .map_err(FitError::Invalid)?;
         let seed = mix(mix(self.seed, spec.stream()), fi as u64);
         let input = FitInput {
@@ -48,7 +48,7 @@ impl<'a> Sweep<'a> {
             input.x.nrows().max(input.y.len()).max(input.w.len()),
         );
         let model = guarded(|| self.models[si].fit(&input))?;
-        if !crate::transform::smears(spec.choice("transform")) {
+        if !crate::transform::smears(spec.choice(crate::decl::Dim::Transform)) {
             return Ok((model, st.target.clone()));
         }
         let fitted = guarded(|| Ok(model.predict(st.train.view())))?;
@@ -176,10 +176,13 @@ impl<'a> Sweep<'a> {
     pub fn fit_spec(&self, si: usize, fi: usize) -> std::result::Result<FittedSpec, FitError> {
         let spec = &self.space.specs[si];
         let fold = &self.folds.folds[fi];
-        let target = crate::transform::build(spec.choice("transform"), self.panel.outcome_scale)
-            .map_err(FitError::Invalid)?;
+        let target = crate::transform::build(
+            spec.choice(crate::decl::Dim::Transform),
+            self.panel.outcome_scale,
+        )
+        .map_err(FitError::Invalid)?;
         let mut st = self.base_state(fi, &target);
-        for dim in STAGE_DIMENSIONS {
+        for dim in Dim::STAGES {
             let stage =
                 crate::stages::build(spec.choice(dim), self.panel).map_err(FitError::Invalid)?;
             let input = StageInput {

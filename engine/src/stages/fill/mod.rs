@@ -276,7 +276,7 @@ pub fn build_with(
     c: &Choice,
     panel: Option<&crate::panel::Panel>,
 ) -> Result<Arc<dyn Stage>, String> {
-    (crate::decl::lookup(OPTIONS, "fill", &c.option)?)(c, panel)
+    (crate::decl::lookup(OPTIONS, crate::decl::Dim::Fill, &c.option)?)(c, panel)
 }
 
 /// A fill of one rule with the parameters every rule shares.
