@@ -471,7 +471,7 @@ fn extensions_that_change_old_results_are_refused_naming_the_difference() {
             "version",
             "version",
             "0.0.0-old",
-            "forkmap version differs (the run's \"0.0.0-old\"",
+            "forkmap version differs (the run's 0.0.0-old,",
         ),
         ("unfinished", "status", "running", "it is unfinished"),
     ] {

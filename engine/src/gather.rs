@@ -7,9 +7,10 @@
 //! into place. An interrupted gather leaves no target; running it again starts over.
 
 use crate::error::{Error, Result};
+use crate::manifest::{Gathered, RunState};
 use crate::results::RunSet;
 use crate::run::{prepare, sha256_file};
-use crate::sink::{write_bytes_atomic, TABLES};
+use crate::sink::TABLES;
 use std::path::{Path, PathBuf};
 
 pub struct GatherOptions {
@@ -140,9 +141,7 @@ fn write_gathered(
     } else {
         let cfg_path = match &opts.config {
             Some(p) => p.clone(),
-            None => set.manifest()["config_file"]
-                .as_str()
-                .map(PathBuf::from)
+            None => Some(PathBuf::from(&set.manifest().config_file))
                 .filter(|p| p.is_file())
                 .ok_or_else(|| {
                     out_err(
@@ -182,54 +181,39 @@ fn write_gathered(
         fsync_dir(&tmp.join(t))?;
     }
     let mut m = set.manifest().clone();
-    let seconds: f64 = set
-        .dirs
+    let seconds: f64 = set.dirs.iter().filter_map(|d| d.manifest.seconds()).sum();
+    m.status = RunState::Complete;
+    m.shard = None;
+    m.shard_specs = Some(c.total);
+    m.gathered_from = Some(
+        set.dirs
+            .iter()
+            .map(|d| Gathered {
+                path: d.path.display().to_string(),
+                shard: d.shard.map(|s| s.to_string()),
+                specs: d.done.ids.len(),
+                seconds: d.manifest.seconds(),
+            })
+            .collect(),
+    );
+    m.gathered = Some(chrono::Utc::now().to_rfc3339());
+    m.importance_pass_failures = importance_failures;
+    let mut finish = m.finish.take().unwrap_or_default();
+    finish.seconds = Some(seconds);
+    finish.specs_written = Some(c.present);
+    finish.specs_ok = Some(c.ok);
+    finish.failures = c
+        .failures
         .iter()
-        .filter_map(|d| d.manifest["seconds"].as_f64())
-        .sum();
-    if let Some(o) = m.as_object_mut() {
-        o.insert("status".into(), "complete".into());
-        o.insert("shard".into(), serde_json::Value::Null);
-        o.insert("shard_specs".into(), serde_json::json!(c.total));
-        o.insert(
-            "gathered_from".into(),
-            serde_json::json!(set
-                .dirs
-                .iter()
-                .map(|d| serde_json::json!({
-                    "path": d.path.display().to_string(),
-                    "shard": d.shard.map(|s| s.to_string()),
-                    "specs": d.done.ids.len(),
-                    "seconds": d.manifest["seconds"],
-                }))
-                .collect::<Vec<_>>()),
-        );
-        o.insert("gathered".into(), chrono::Utc::now().to_rfc3339().into());
-        o.insert("seconds".into(), serde_json::json!(seconds));
-        o.insert("specs_written".into(), serde_json::json!(c.present));
-        o.insert("specs_ok".into(), serde_json::json!(c.ok));
-        o.insert("failures".into(), serde_json::json!(c.failures));
-        o.insert(
-            "specs_with_notes".into(),
-            serde_json::json!(set.dirs.iter().map(|d| d.done.noted).sum::<usize>()),
-        );
-        o.insert("importance_pending".into(), false.into());
-        if let Some(n) = importance_failures {
-            o.insert("importance_pass_failures".into(), serde_json::json!(n));
-        }
-        if permutation_specs.is_some() || set.importance_pending() {
-            o.insert(
-                "importance_permutation_specs".into(),
-                serde_json::json!(permutation_specs),
-            );
-        }
+        .map(|(k, v)| (k.to_string(), *v))
+        .collect();
+    finish.specs_with_notes = Some(set.dirs.iter().map(|d| d.done.noted).sum::<usize>());
+    finish.importance_pending = false;
+    if permutation_specs.is_some() || set.importance_pending() {
+        finish.importance_permutation_specs = permutation_specs;
     }
-    write_bytes_atomic(
-        &tmp.join(crate::schema::MANIFEST),
-        serde_json::to_string_pretty(&m)
-            .unwrap_or_default()
-            .as_bytes(),
-    )?;
+    m.finish = Some(finish);
+    m.write(tmp)?;
     fsync_dir(tmp)?;
     Ok(GatherSummary {
         dirs: set.dirs.len(),

@@ -12,6 +12,7 @@ pub mod error;
 pub mod folds;
 pub mod gather;
 pub mod importance;
+pub mod manifest;
 pub mod metrics;
 pub mod models;
 pub mod nested;

@@ -8,6 +8,7 @@
 //! batches whose specs part is in place count; orphan parts are ignored).
 
 use crate::error::{Error, Result};
+use crate::manifest::Manifest;
 use crate::resume::{read_done, Done};
 use crate::shard::Shard;
 use crate::sink::TABLES;
@@ -18,7 +19,7 @@ use std::path::{Path, PathBuf};
 #[derive(Debug)]
 pub struct RunDir {
     pub path: PathBuf,
-    pub manifest: serde_json::Value,
+    pub manifest: Manifest,
     /// `None` for a run of the whole space.
     pub shard: Option<Shard>,
     /// Specs this directory should hold when complete.
@@ -31,28 +32,17 @@ pub struct RunDir {
 impl RunDir {
     fn open(path: &Path) -> Result<RunDir> {
         let mpath = path.join(crate::schema::MANIFEST);
-        let text = std::fs::read_to_string(&mpath).map_err(|e| Error::io(&mpath, e))?;
-        let manifest: serde_json::Value =
-            serde_json::from_str(&text).map_err(|e| Error::Output {
-                path: mpath.clone(),
-                msg: format!("unreadable manifest: {e}"),
-            })?;
-        if manifest["tool"] != "forkmap" {
-            return Err(Error::Output {
-                path: mpath,
-                msg: "is not a forkmap manifest".into(),
-            });
-        }
-        let shard = match manifest["shard"].as_str() {
+        let manifest = Manifest::read(path)?;
+        let shard = match manifest.shard.as_deref() {
             Some(s) => Some(s.parse::<Shard>().map_err(|e| Error::Output {
                 path: mpath.clone(),
                 msg: format!("bad shard field: {e}"),
             })?),
             None => None,
         };
-        let total = manifest["specs"].as_u64().unwrap_or(0) as usize;
+        let total = manifest.specs;
         let expected = match shard {
-            Some(_) => manifest["shard_specs"].as_u64().unwrap_or(0) as usize,
+            Some(_) => manifest.shard_specs.unwrap_or(0),
             None => total,
         };
         let (done, complete) = read_done(path)?;
@@ -70,7 +60,7 @@ impl RunDir {
 
     /// Finished: the manifest says so and every expected spec has its row.
     pub fn complete(&self) -> bool {
-        self.manifest["status"] == "complete" && self.done.ids.len() >= self.expected
+        self.manifest.complete() && self.done.ids.len() >= self.expected
     }
 }
 
@@ -193,12 +183,18 @@ impl RunSet {
             .collect::<Result<_>>()?;
         let first = &dirs[0];
         for d in &dirs[1..] {
-            for (field, what) in [
-                ("version", "forkmap version"),
-                ("data_sha256", "data file (sha256)"),
-                ("config", "config"),
+            for (same, what) in [
+                (
+                    d.manifest.version == first.manifest.version,
+                    "forkmap version",
+                ),
+                (
+                    d.manifest.data_sha256 == first.manifest.data_sha256,
+                    "data file (sha256)",
+                ),
+                (d.manifest.config == first.manifest.config, "config"),
             ] {
-                if d.manifest[field] != first.manifest[field] {
+                if !same {
                     return Err(Error::Output {
                         path: d.path.clone(),
                         msg: format!(
@@ -224,20 +220,18 @@ impl RunSet {
         Ok(RunSet { dirs })
     }
 
-    pub fn manifest(&self) -> &serde_json::Value {
+    pub fn manifest(&self) -> &Manifest {
         &self.dirs[0].manifest
     }
 
     /// Whether any directory deferred its permutation importances to `gather`.
     pub fn importance_pending(&self) -> bool {
-        self.dirs
-            .iter()
-            .any(|d| d.manifest["importance_pending"] == true)
+        self.dirs.iter().any(|d| d.manifest.importance_pending())
     }
 
     pub fn completeness(&self) -> Completeness {
         let mut c = Completeness {
-            total: self.manifest()["specs"].as_u64().unwrap_or(0) as usize,
+            total: self.manifest().specs,
             ..Default::default()
         };
         let whole = self.dirs.iter().any(|d| d.shard.is_none());
@@ -312,7 +306,7 @@ impl RunSet {
         if table == "importance" {
             // The deferred permutation pass of finished runs (`part-iNNNNN`).
             for d in &self.dirs {
-                if d.manifest["status"] != "complete" || d.manifest["importance_pending"] == true {
+                if !d.manifest.complete() || d.manifest.importance_pending() {
                     continue;
                 }
                 out.extend(second_pass_parts(&d.path.join("importance")));

@@ -151,21 +151,21 @@ fn remove_leftovers(out: &Path, complete: &HashSet<String>) -> Result<()> {
 /// Whether a manifest belongs to the same config, data and tool version; `Err` names the
 /// first field that differs.
 pub fn same_run(
-    manifest: &serde_json::Value,
+    manifest: &crate::manifest::Manifest,
     config: &serde_json::Value,
     sha: &str,
 ) -> std::result::Result<(), String> {
-    if manifest["version"] != env!("CARGO_PKG_VERSION") {
+    if manifest.version != env!("CARGO_PKG_VERSION") {
         return Err(format!(
             "forkmap version ({}, this is {})",
-            manifest["version"],
+            manifest.version,
             env!("CARGO_PKG_VERSION")
         ));
     }
-    if manifest["data_sha256"] != sha {
+    if manifest.data_sha256 != sha {
         return Err("data file (sha256)".into());
     }
-    if &manifest["config"] != config {
+    if &manifest.config != config {
         return Err("config".into());
     }
     Ok(())

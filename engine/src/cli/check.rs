@@ -46,7 +46,7 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     }
     let mut null_complete = true;
     for d in set.dirs.iter().filter(|d| d.shard.is_none()) {
-        let (lines, ok) = forkmap::null::run::check_lines(&d.path, d.manifest["null"].is_object())?;
+        let (lines, ok) = forkmap::null::run::check_lines(&d.path, d.manifest.null.is_object())?;
         lines.iter().for_each(|l| println!("{l}"));
         null_complete &= ok;
     }

@@ -83,19 +83,16 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     let manifest = set.manifest().clone();
     let cfg_path = match &a.config {
         Some(p) => p.clone(),
-        None => match manifest["config_file"].as_str() {
-            Some(s) => PathBuf::from(s),
-            None => anyhow::bail!("the manifest names no config_file: pass --config FILE"),
-        },
+        None => PathBuf::from(&manifest.config_file),
     };
     let p = forkmap::run::prepare(&cfg_path)?;
     pass::check_run(&set, &p)?;
-    let ms: MapSection = match manifest.get("map") {
+    let ms: MapSection = match Some(&manifest.map) {
         Some(v) if !v.is_null() => serde_json::from_value(v.clone())
             .map_err(|e| anyhow::anyhow!("the manifest's `map` settings are unreadable: {e}"))?,
         _ => MapSection::default(),
     };
-    let run_seed = manifest["seed"].as_u64().unwrap_or(1);
+    let run_seed = manifest.seed;
     let specs = match a.specs.as_str() {
         "best" => pass::Specs::Best,
         "good" => pass::Specs::Good,

@@ -139,7 +139,7 @@ pub fn map_runs(
     };
     let mut s = match settings {
         Some(s) => s,
-        None => match set.manifest().get("map") {
+        None => match Some(&set.manifest().map) {
             Some(v) if !v.is_null() => {
                 serde_json::from_value::<MapSection>(v.clone()).map_err(|e| {
                     anyhow::anyhow!("the manifest's `map` settings are unreadable: {e}")
@@ -150,10 +150,7 @@ pub fn map_runs(
     };
     over.apply(&mut s);
     s.check().map_err(|m| anyhow::anyhow!("{m}"))?;
-    let seed = s
-        .seed
-        .or_else(|| set.manifest()["seed"].as_u64())
-        .unwrap_or(1);
+    let seed = s.seed.unwrap_or(set.manifest().seed);
     if !quiet {
         eprintln!(
             "forkmap: mapping {} specs ({} resamples of units) -> {}",

@@ -61,8 +61,9 @@ pub fn check_run(set: &RunSet, p: &Prepared) -> Result<()> {
         )));
     }
     let sha = crate::run::sha256_file(&p.data_path)?;
-    if let Some(want) = set.manifest()["data_sha256"].as_str() {
-        if want != sha {
+    {
+        let want = &set.manifest().data_sha256;
+        if *want != sha {
             return Err(fail(format!(
                 "{} has changed since the run (sha256 {want} in the manifest, {sha} now): curves would not describe the run's fits",
                 p.data_path.display()
@@ -150,7 +151,7 @@ pub fn draw(p: &Prepared, run: &Path, req: &Request) -> Result<Drawn> {
         "seed": s.seed,
         "rows": p.panel.n_rows(),
         "units": p.panel.n_units(),
-        "data_sha256": set.manifest()["data_sha256"],
+        "data_sha256": set.manifest().data_sha256,
     });
     let dir = table::write(&output, &p.panel, &ids_all, s.level, &meta, run)?;
     Ok(Drawn {

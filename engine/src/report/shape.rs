@@ -97,7 +97,7 @@ pub fn read(set: &RunSet) -> Result<Option<Shape>> {
         serde_json::from_str(&text).map_err(|e| bad(format!("unreadable: {e}")))?;
     if let (Some(a), Some(b)) = (
         m["data_sha256"].as_str(),
-        set.manifest()["data_sha256"].as_str(),
+        Some(set.manifest().data_sha256.as_str()),
     ) {
         if a != b {
             return Err(bad(

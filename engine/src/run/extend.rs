@@ -20,8 +20,9 @@
 //! sha256 of its canonical form) added which specs, how many and when.
 
 use super::Prepared;
+use crate::manifest::{Lineage, Manifest};
 use crate::resume::read_done;
-use serde_json::{json, Value};
+use serde_json::Value;
 use sha2::{Digest, Sha256};
 use std::collections::BTreeSet;
 use std::path::Path;
@@ -49,7 +50,7 @@ fn specs_columns(out: &Path, parts: &std::collections::HashSet<String>) -> BTree
 #[derive(Debug)]
 pub struct Extension {
     /// The lineage to write into the manifest (the run's entries, then this one).
-    pub lineage: Value,
+    pub lineage: Vec<Lineage>,
     /// Specs the run holds.
     pub old: usize,
     /// Specs this config adds.
@@ -140,42 +141,42 @@ fn removed_options(old: &Value, new: &Value) -> Vec<String> {
 /// Whether `p` (with data sha256 `sha`) may extend the run in `out` whose manifest is
 /// `manifest`; `Err` names what differs. Reads the run, changes nothing.
 pub fn check(
-    manifest: &Value,
+    manifest: &Manifest,
     out: &Path,
     p: &Prepared,
     sha: &str,
 ) -> std::result::Result<Extension, String> {
-    if manifest["version"] != env!("CARGO_PKG_VERSION") {
+    if manifest.version != env!("CARGO_PKG_VERSION") {
         return Err(format!(
             "forkmap version differs (the run's {}, this is {})",
-            show(&manifest["version"]),
+            manifest.version,
             env!("CARGO_PKG_VERSION")
         ));
     }
-    if let Some(s) = manifest["shard"].as_str() {
+    if let Some(s) = &manifest.shard {
         return Err(format!(
             "it is shard {s}: a shard's specs follow from the whole space, which an extension changes, so shards are not extended (gather them with `forkmap gather`, then extend the gathered run)"
         ));
     }
     let (done, parts) = read_done(out).map_err(|e| e.to_string())?;
-    let total = manifest["specs"].as_u64().unwrap_or(0) as usize;
-    if manifest["status"] != "complete" || done.ids.len() < total {
+    let total = manifest.specs;
+    if !manifest.complete() || done.ids.len() < total {
         return Err(format!(
             "it is unfinished ({} of {total} specs): finish it first with `forkmap run {} --out {}`, then extend it",
             done.ids.len(),
-            manifest["config_file"].as_str().unwrap_or("CONFIG"),
+            manifest.config_file,
             out.display()
         ));
     }
-    if manifest["data_sha256"] != sha {
+    if manifest.data_sha256 != sha {
         return Err(format!(
             "data file differs (sha256 of {} is not that of the run's {})",
             p.data_path.display(),
-            manifest["data_file"].as_str().unwrap_or("data file")
+            manifest.data_file
         ));
     }
     let new = p.cfg.canonical_json();
-    let old = &manifest["config"];
+    let old = &manifest.config;
     let identity = |c: &Value| -> Value {
         let mut c = c.clone();
         if let Some(o) = c.as_object_mut() {
@@ -235,37 +236,38 @@ pub fn check(
         .filter(|c| !have.contains(c))
         .collect();
     let now = chrono::Utc::now().to_rfc3339();
-    let mut lineage: Vec<Value> = match manifest["lineage"].as_array() {
+    let mut lineage: Vec<Lineage> = match &manifest.lineage {
         Some(l) => l.clone(),
-        None => {
-            let mut first = json!({
-                "config_file": manifest["config_file"],
-                "config_sha256": config_sha256(old),
-                "specs_added": done.ids.len(),
-                "spec_ids": Value::Null,
-                "started": manifest["started"],
-                "finished": manifest["finished"],
-            });
-            // A gathered run: where its shards were (the rewritten manifest drops it).
-            if !manifest["gathered_from"].is_null() {
-                first["gathered_from"] = manifest["gathered_from"].clone();
-                first["finished"] = manifest["gathered"].clone();
-            }
-            vec![first]
-        }
+        None => vec![Lineage {
+            config_file: manifest.config_file.clone(),
+            config_sha256: Some(config_sha256(old)),
+            specs_added: done.ids.len(),
+            specs_total: None,
+            spec_ids: None,
+            added_columns: Vec::new(),
+            started: Some(manifest.started.clone()),
+            // A gathered run finished when it was gathered; where its shards were is
+            // kept here (the rewritten manifest drops it).
+            finished: match &manifest.gathered {
+                Some(g) => Some(g.clone()),
+                None => manifest.finish.as_ref().and_then(|f| f.finished.clone()),
+            },
+            gathered_from: manifest.gathered_from.clone(),
+        }],
     };
-    lineage.push(json!({
-        "config_file": p.cfg.source,
-        "config_sha256": config_sha256(&new),
-        "specs_added": added.len(),
-        "specs_total": p.space.specs.len(),
-        "spec_ids": added,
-        "added_columns": added_columns,
-        "started": now,
-        "finished": Value::Null,
-    }));
+    lineage.push(Lineage {
+        config_file: p.cfg.source.clone(),
+        config_sha256: Some(config_sha256(&new)),
+        specs_added: added.len(),
+        specs_total: Some(p.space.specs.len()),
+        spec_ids: Some(added.iter().map(|s| s.to_string()).collect()),
+        added_columns: added_columns.clone(),
+        started: Some(now),
+        finished: None,
+        gathered_from: None,
+    });
     Ok(Extension {
-        lineage: Value::Array(lineage),
+        lineage,
         old: done.ids.len(),
         added: added.len(),
         added_columns,
@@ -273,11 +275,11 @@ pub fn check(
 }
 
 /// The lineage to write when a run completes: the last entry's `finished` set when unset.
-pub fn finish_lineage(lineage: &Value) -> Value {
-    let mut l = lineage.clone();
-    if let Some(last) = l.as_array_mut().and_then(|a| a.last_mut()) {
-        if last["finished"].is_null() {
-            last["finished"] = json!(chrono::Utc::now().to_rfc3339());
+pub fn finish_lineage(lineage: &[Lineage]) -> Vec<Lineage> {
+    let mut l = lineage.to_vec();
+    if let Some(last) = l.last_mut() {
+        if last.finished.is_none() {
+            last.finished = Some(chrono::Utc::now().to_rfc3339());
         }
     }
     l
@@ -295,15 +297,11 @@ pub fn columns_note(columns: &[String], out: &Path) -> Option<String> {
 }
 
 /// One line per lineage entry, for `forkmap check`, then the columns note.
-pub fn describe(manifest: &Value, out: &Path) -> Vec<String> {
-    let Some(l) = manifest["lineage"].as_array() else {
+pub fn describe(manifest: &Manifest, out: &Path) -> Vec<String> {
+    let Some(l) = &manifest.lineage else {
         return Vec::new();
     };
-    let columns: Vec<String> = l
-        .iter()
-        .flat_map(|e| e["added_columns"].as_array().cloned().unwrap_or_default())
-        .filter_map(|c| c.as_str().map(str::to_string))
-        .collect();
+    let columns: Vec<String> = l.iter().flat_map(|e| e.added_columns.clone()).collect();
     let mut lines: Vec<String> = l
         .iter()
         .enumerate()
@@ -311,14 +309,14 @@ pub fn describe(manifest: &Value, out: &Path) -> Vec<String> {
             format!(
                 "{} {} (config sha256 {}): {} specs, {}{}",
                 if i == 0 { "lineage   " } else { "extended  " },
-                e["config_file"].as_str().unwrap_or("?"),
-                e["config_sha256"]
-                    .as_str()
+                e.config_file,
+                e.config_sha256
+                    .as_deref()
                     .map(|s| &s[..s.len().min(12)])
                     .unwrap_or("?"),
-                e["specs_added"],
-                e["started"].as_str().unwrap_or("?"),
-                if e["finished"].is_null() {
+                e.specs_added,
+                e.started.as_deref().unwrap_or("?"),
+                if e.finished.is_none() {
                     ", unfinished"
                 } else {
                     ""
@@ -333,6 +331,7 @@ pub fn describe(manifest: &Value, out: &Path) -> Vec<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use serde_json::json;
 
     #[test]
     fn first_difference_names_the_key_path() {

@@ -6,9 +6,11 @@ pub mod extend;
 use crate::config::Config;
 use crate::error::{Error, Result};
 use crate::folds::FoldPlan;
+use crate::manifest::{Finish, FoldsInfo, Manifest, PassNote, RunState, Work};
 use crate::panel::{self, Panel};
 use crate::progress::Progress;
-use crate::sink::{write_bytes_atomic, ParquetSink, TABLES};
+use crate::shard::Shard;
+use crate::sink::{ParquetSink, TABLES};
 use crate::space::ChoiceSpace;
 use crate::sweep::{SpecResult, Sweep};
 use sha2::{Digest, Sha256};
@@ -93,7 +95,7 @@ enum Start {
     /// The folder holds an unfinished (or finished) run of the same config and data.
     Resume {
         done: crate::resume::Done,
-        manifest: serde_json::Value,
+        manifest: Box<Manifest>,
         /// Set when the folder's run is extended with a larger config (`--extend`).
         extension: Option<Box<extend::Extension>>,
     },
@@ -137,28 +139,45 @@ fn open_out(
                 format!("manifest.json is unreadable ({e}): use --restart to discard this run"),
             )
         })?;
-        let same = crate::resume::same_run(&m, &p.cfg.canonical_json(), sha).and_then(|()| {
-            let want = shard.map(|s| s.to_string());
-            let have = m["shard"].as_str().map(str::to_string);
-            if want == have {
-                Ok(())
-            } else {
-                Err(format!(
-                    "shard ({}, this is {})",
-                    have.as_deref().unwrap_or("none"),
-                    want.as_deref().unwrap_or("none")
-                ))
-            }
+        if m["tool"] != "forkmap" {
+            return Err(out_err(
+                out,
+                "holds a manifest.json that is not forkmap's: choose a new --out (forkmap never mixes its results with other files)",
+            ));
+        }
+        // A manifest of another forkmap version may not read as this one's: its version
+        // differs, which resume refuses and --restart discards.
+        let typed: std::result::Result<Manifest, String> = serde_json::from_value(m.clone())
+            .map_err(|e| {
+                format!(
+                    "forkmap version ({}, this is {}; its manifest reads differently: {e})",
+                    m["version"],
+                    env!("CARGO_PKG_VERSION")
+                )
+            });
+        let same = typed.as_ref().map_err(Clone::clone).and_then(|m| {
+            crate::resume::same_run(m, &p.cfg.canonical_json(), sha).and_then(|()| {
+                let want = shard.map(|s| s.to_string());
+                if want == m.shard {
+                    Ok(())
+                } else {
+                    Err(format!(
+                        "shard ({}, this is {})",
+                        m.shard.as_deref().unwrap_or("none"),
+                        want.as_deref().unwrap_or("none")
+                    ))
+                }
+            })
         });
-        match same {
-            Ok(()) if !restart => {
+        match (same, typed) {
+            (Ok(()), Ok(m)) if !restart => {
                 return Ok(Start::Resume {
                     done: crate::resume::scan(out)?,
-                    manifest: m,
+                    manifest: Box::new(m),
                     extension: None,
                 });
             }
-            Err(_) if extend => {
+            (Err(_), Ok(m)) if extend => {
                 let ext = extend::check(&m, out, p, sha).map_err(|what| {
                     out_err(
                         out,
@@ -167,12 +186,15 @@ fn open_out(
                 })?;
                 return Ok(Start::Resume {
                     done: crate::resume::scan(out)?,
-                    manifest: m,
+                    manifest: Box::new(m),
                     extension: Some(Box::new(ext)),
                 });
             }
-            Err(what) if !restart => {
-                let hint = if shard.is_none() && extend::check(&m, out, p, sha).is_ok() {
+            (Err(what), typed) if !restart => {
+                let keeps = typed
+                    .as_ref()
+                    .is_ok_and(|m| extend::check(m, out, p, sha).is_ok());
+                let hint = if shard.is_none() && keeps {
                     " (this config keeps every spec of that run: add --extend to run only its new specs)"
                 } else {
                     ""
@@ -233,57 +255,69 @@ fn open_out(
     Ok(Start::Fresh { created: false })
 }
 
+/// The manifest written before the first spec (`status = "running"`); the finished run
+/// rewrites it with `complete` and its [`Finish`].
 fn manifest(
     p: &Prepared,
     sha: &str,
     threads: usize,
     started: &str,
-    status: &str,
-    extra: serde_json::Value,
-) -> serde_json::Value {
-    let mut m = serde_json::json!({
-        "tool": "forkmap",
-        "version": env!("CARGO_PKG_VERSION"),
-        "status": status,
-        "config_file": p.cfg.source,
-        "config": p.cfg.canonical_json(),
-        "data_file": p.data_path.display().to_string(),
-        "data_sha256": sha,
-        "seed": p.cfg.seed,
-        "threads": threads,
-        "started": started,
-        "specs": p.space.specs.len(),
-                "excluded": p.space.excluded,
-        "sampled_from": p.space.sampled_from,
-        "exclusions": p.space.exclusion_rules,
-        "rows": p.panel.n_rows(),
-        "units": p.panel.n_units(),
-        "indicators": p.panel.indicators.len(),
-        "folds": {"scheme": p.cfg.folds.scheme, "k": p.folds.k, "repeats": p.folds.repeats, "fits_per_spec": p.folds.n_fits_per_spec()},
-        "tables": TABLES,
-        // How the report is made (not part of the run's identity; `forkmap map` reads it).
-        "map": serde_json::to_value(&p.cfg.map).unwrap_or(serde_json::Value::Null),
-        // The curves' settings (not part of the run's identity either).
-        "curves": serde_json::to_value(&p.cfg.curves).unwrap_or(serde_json::Value::Null),
-        // The permutation null asked for (not part of the run's identity; see null/).
-        "null": serde_json::to_value(&p.cfg.null).unwrap_or(serde_json::Value::Null),
-    });
-    if let (Some(obj), serde_json::Value::Object(e)) = (m.as_object_mut(), extra) {
-        obj.extend(e);
+    shard: Option<Shard>,
+    shard_specs: usize,
+) -> Manifest {
+    let json = |v: Option<serde_json::Value>| v.unwrap_or(serde_json::Value::Null);
+    Manifest {
+        tool: "forkmap".into(),
+        version: env!("CARGO_PKG_VERSION").into(),
+        status: RunState::Running,
+        config_file: p.cfg.source.clone(),
+        config: p.cfg.canonical_json(),
+        data_file: p.data_path.display().to_string(),
+        data_sha256: sha.into(),
+        seed: p.cfg.seed,
+        threads,
+        started: started.into(),
+        specs: p.space.specs.len(),
+        excluded: p.space.excluded,
+        sampled_from: p.space.sampled_from,
+        exclusions: p.space.exclusion_rules.clone(),
+        rows: p.panel.n_rows(),
+        units: p.panel.n_units(),
+        indicators: p.panel.indicators.len(),
+        folds: FoldsInfo {
+            scheme: serde_json::to_value(p.cfg.folds.scheme)
+                .ok()
+                .and_then(|v| v.as_str().map(str::to_string))
+                .unwrap_or_default(),
+            k: p.folds.k,
+            repeats: p.folds.repeats,
+            fits_per_spec: p.folds.n_fits_per_spec(),
+        },
+        tables: TABLES.iter().map(|t| t.to_string()).collect(),
+        map: json(serde_json::to_value(&p.cfg.map).ok()),
+        curves: json(serde_json::to_value(&p.cfg.curves).ok()),
+        null: json(serde_json::to_value(&p.cfg.null).ok()),
+        shard: shard.map(|s| s.to_string()),
+        shard_specs: Some(shard_specs),
+        resumes: 0,
+        lineage: None,
+        gathered_from: None,
+        gathered: None,
+        importance_pass_failures: None,
+        finish: None,
     }
-    m
 }
 
 /// CPU seconds a stream spent in model fits and importances (summed over threads).
 #[derive(Debug, Default, Clone, Copy)]
-struct Work {
+struct StreamWork {
     fit: f64,
     importance: f64,
 }
 
 /// Skills of the ok specs with a defined skill (spec index, skill), the number of ok
 /// specs, and the work done.
-type Streamed = (Vec<(usize, f64)>, usize, Work);
+type Streamed = (Vec<(usize, f64)>, usize, StreamWork);
 
 /// Stream a sweep's results into a sink on `pool`, with progress; returns the skill of
 /// every ok spec with a defined skill (by spec index), the number of ok specs, and the work
@@ -299,7 +333,7 @@ fn stream(
     let (tx, rx) = std::sync::mpsc::sync_channel::<SpecResult>(1024);
     let mut skills: Vec<(usize, f64)> = Vec::new();
     let mut ok = 0usize;
-    let mut work = Work::default();
+    let mut work = StreamWork::default();
     std::thread::scope(|s| {
         let writer = s.spawn(|| -> Result<()> {
             let mut progress = Progress::new(total, quiet);
@@ -378,8 +412,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
     }
     let start = open_out(p, out, &sha, opts.restart, opts.shard, extend)?;
     let t0 = std::time::Instant::now();
-    let manifest_path = out.join(crate::schema::MANIFEST);
-    let mut lineage = serde_json::Value::Null;
+    let mut lineage: Option<Vec<crate::manifest::Lineage>> = None;
     let mut extension = None;
     let (created, done, started, resumes) = match start {
         Start::Fresh { created } => (
@@ -398,30 +431,17 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
             if report.is_dir() {
                 std::fs::remove_dir_all(&report).map_err(|e| Error::io(&report, e))?;
             }
-            lineage = ext.lineage.clone();
+            lineage = Some(ext.lineage.clone());
             extension = Some(ext);
-            let started = manifest["started"]
-                .as_str()
-                .map(str::to_string)
-                .unwrap_or_else(|| chrono::Utc::now().to_rfc3339());
-            (false, done, started, 0u64)
+            (false, done, manifest.started.clone(), 0u64)
         }
         Start::Resume {
             done,
             manifest,
             extension: None,
         } => {
-            lineage = manifest["lineage"].clone();
-            let started = manifest["started"]
-                .as_str()
-                .map(str::to_string)
-                .unwrap_or_else(|| chrono::Utc::now().to_rfc3339());
-            (
-                false,
-                done,
-                started,
-                manifest["resumes"].as_u64().unwrap_or(0) + 1,
-            )
+            lineage = manifest.lineage.clone();
+            (false, done, manifest.started.clone(), manifest.resumes + 1)
         }
     };
     let mine: Vec<usize> = match opts.shard {
@@ -457,22 +477,10 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
             );
         }
     }
-    let shard_fields = serde_json::json!({
-        "shard": opts.shard.map(|s| s.to_string()),
-        "shard_specs": mine.len(),
-    });
-    let mut first_extra = shard_fields.clone();
-    first_extra["resumes"] = serde_json::json!(resumes);
-    if !lineage.is_null() {
-        first_extra["lineage"] = lineage.clone();
-    }
-    let first = manifest(p, &sha, opts.threads, &started, "running", first_extra);
-    if let Err(e) = write_bytes_atomic(
-        &manifest_path,
-        serde_json::to_string_pretty(&first)
-            .unwrap_or_default()
-            .as_bytes(),
-    ) {
+    let mut first = manifest(p, &sha, opts.threads, &started, opts.shard, mine.len());
+    first.resumes = resumes;
+    first.lineage = lineage.clone();
+    if let Err(e) = first.write(out) {
         if created {
             let _ = std::fs::remove_dir_all(out);
         }
@@ -513,58 +521,55 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
     // shard does not know: `forkmap gather` runs it over the gathered shards.
     let pending = imp.deferred() && opts.shard.is_some();
     let (importance_specs, pass) = if pending {
-        (serde_json::Value::Null, None)
+        (None, None)
     } else {
         match permutation_pass(p, out, &skills, &pool, opts.quiet)? {
-            Some(pass) => (serde_json::json!(pass.specs), Some(pass)),
-            None => (serde_json::Value::Null, None),
+            Some(pass) => (Some(pass.specs), Some(pass)),
+            None => (None, None),
         }
     };
     let importance_failed =
         sink.importance_failed + pass.as_ref().map_or(0, |x| x.importance_failed);
     let seconds = t0.elapsed().as_secs_f64();
     let written = sink.written_specs + done.ids.len();
-    let mut extra = serde_json::json!({
-        "importance_pending": pending,
-        // Where the sweep's time went (this invocation, first pass): worker seconds in
-        // stage fits, model fits and importances, against wall seconds x threads.
-        "work": {
-            "sweep_wall_seconds": sweep_wall,
-            "threads": opts.threads,
-            "stage_seconds": sweep.stage_seconds(),
-            "fit_seconds": work.fit,
-            "importance_seconds": work.importance,
-            "other_share": 1.0 - (sweep.stage_seconds() + work.fit + work.importance)
-                / (sweep_wall * opts.threads as f64).max(1e-9),
-        },
-        "finished": chrono::Utc::now().to_rfc3339(),
-        "seconds": seconds,
-        "specs_ok": ok,
-        "failures": failures,
-        // Specs of this invocation with notes (`notes` column of `specs`), and those whose
-        // importances could not be computed.
-        "specs_with_notes": sink.noted + done.noted,
-        "importance_failures": importance_failed,
-        "importance_pass_notes": pass.as_ref().map(|x| x.notes.iter().map(|(id, n)| serde_json::json!({"spec_id": id, "notes": n})).collect::<Vec<_>>()),
-        "skipped_columns": p.panel.skipped,
-        "specs_written": written,
-        "resumes": resumes,
-        "importance_within": imp.within,
-        "importance_permutation_specs": importance_specs,
+    let mut last = first;
+    last.status = RunState::Complete;
+    last.lineage = lineage.as_deref().map(extend::finish_lineage);
+    last.finish = Some(Finish {
+        finished: Some(chrono::Utc::now().to_rfc3339()),
+        seconds: Some(seconds),
+        specs_written: Some(written),
+        specs_ok: Some(ok),
+        failures: failures.iter().map(|(k, v)| (k.to_string(), *v)).collect(),
+        // Specs of this invocation with notes (`notes` column of `specs`), and those
+        // whose importances could not be computed.
+        specs_with_notes: Some(sink.noted + done.noted),
+        importance_failures: Some(importance_failed),
+        importance_pass_notes: pass.as_ref().map(|x| {
+            x.notes
+                .iter()
+                .map(|(id, n)| PassNote {
+                    spec_id: id.clone(),
+                    notes: n.clone(),
+                })
+                .collect()
+        }),
+        skipped_columns: p.panel.skipped.clone(),
+        importance_within: imp.within,
+        importance_permutation_specs: importance_specs,
+        importance_pending: pending,
+        work: Some(Work {
+            sweep_wall_seconds: sweep_wall,
+            threads: opts.threads,
+            stage_seconds: sweep.stage_seconds(),
+            fit_seconds: work.fit,
+            importance_seconds: work.importance,
+            other_share: 1.0
+                - (sweep.stage_seconds() + work.fit + work.importance)
+                    / (sweep_wall * opts.threads as f64).max(1e-9),
+        }),
     });
-    if let (Some(e), serde_json::Value::Object(sf)) = (extra.as_object_mut(), shard_fields) {
-        e.extend(sf);
-    }
-    if !lineage.is_null() {
-        extra["lineage"] = extend::finish_lineage(&lineage);
-    }
-    let last = manifest(p, &sha, opts.threads, &started, "complete", extra);
-    write_bytes_atomic(
-        &manifest_path,
-        serde_json::to_string_pretty(&last)
-            .unwrap_or_default()
-            .as_bytes(),
-    )?;
+    last.write(out)?;
     // The permutation null (`[null]`), after the sweep is complete; a shard leaves it to
     // the gathered run.
     let null = match (&p.cfg.null, opts.shard) {
