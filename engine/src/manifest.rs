@@ -44,8 +44,6 @@ pub struct Lineage {
     /// The ids this config added (`None` for the first config: every spec not added later).
     #[serde(default)]
     pub spec_ids: Option<Vec<String>>,
-    #[serde(default)]
-    pub added_columns: Vec<String>,
     pub started: Option<String>,
     pub finished: Option<String>,
     /// A gathered first run: where its shards were.

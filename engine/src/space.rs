@@ -627,14 +627,21 @@ impl ChoiceSpace {
             .collect()
     }
 
-    /// The (option, parameter) pairs present, for the spec table's parameter columns.
+    /// The `specs` table's parameter columns: every declared parameter of every registered
+    /// option (dimensions in id order, options and parameters in declaration order), used
+    /// or not. The table's columns so depend only on the forkmap version, never on the
+    /// config: runs of different configs, and the parts an extension adds, share one
+    /// schema, and a reader that takes the first part's schema misses nothing. A column of
+    /// an option a spec does not take is null.
     pub fn param_columns(&self) -> Vec<(String, &'static str)> {
         let mut out: Vec<(String, &'static str)> = Vec::new();
-        for c in self.options.iter().flatten() {
-            for (p, _) in &c.params {
-                let key = (c.option.clone(), *p);
-                if !out.contains(&key) {
-                    out.push(key);
+        for dim in Dim::ALL {
+            for o in options_of(dim) {
+                for p in o.params {
+                    let key = (o.name.to_string(), p.name);
+                    if !out.contains(&key) {
+                        out.push(key);
+                    }
                 }
             }
         }

@@ -33,7 +33,7 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         );
     }
     for d in &set.dirs {
-        for line in forkmap::run::extend::describe(&d.manifest, &d.path) {
+        for line in forkmap::run::extend::describe(&d.manifest) {
             println!("{line}");
         }
     }

@@ -31,21 +31,6 @@ use std::path::Path;
 /// between a run and its extension. Every other key must be equal.
 pub const SPACE_KEYS: &[&str] = &["choices", "pools", "grid", "exclude", "sample", "output"];
 
-/// Column names of the run's complete specs parts (the union over parts).
-fn specs_columns(out: &Path, parts: &std::collections::HashSet<String>) -> BTreeSet<String> {
-    let mut names = BTreeSet::new();
-    for name in parts {
-        let path = out.join("specs").join(name);
-        let Ok(f) = std::fs::File::open(&path) else {
-            continue;
-        };
-        if let Ok(b) = parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder::try_new(f) {
-            names.extend(b.schema().fields().iter().map(|f| f.name().clone()));
-        }
-    }
-    names
-}
-
 /// An accepted extension.
 #[derive(Debug)]
 pub struct Extension {
@@ -55,9 +40,6 @@ pub struct Extension {
     pub old: usize,
     /// Specs this config adds.
     pub added: usize,
-    /// Parameter columns of the specs table that the run's parts lack (a reader that
-    /// takes the first part's schema would miss them).
-    pub added_columns: Vec<String>,
 }
 
 /// sha256 (hex) of a canonical config's JSON text.
@@ -158,7 +140,7 @@ pub fn check(
             "it is shard {s}: a shard's specs follow from the whole space, which an extension changes, so shards are not extended (gather them with `forkmap gather`, then extend the gathered run)"
         ));
     }
-    let (done, parts) = read_done(out).map_err(|e| e.to_string())?;
+    let (done, _) = read_done(out).map_err(|e| e.to_string())?;
     let total = manifest.specs;
     if !manifest.complete() || done.ids.len() < total {
         return Err(format!(
@@ -227,14 +209,6 @@ pub fn check(
         );
     }
     added.sort_unstable();
-    let have = specs_columns(out, &parts);
-    let added_columns: Vec<String> = p
-        .space
-        .param_columns()
-        .into_iter()
-        .map(|(o, c)| format!("{o}_{c}"))
-        .filter(|c| !have.contains(c))
-        .collect();
     let now = chrono::Utc::now().to_rfc3339();
     let mut lineage: Vec<Lineage> = match &manifest.lineage {
         Some(l) => l.clone(),
@@ -244,7 +218,6 @@ pub fn check(
             specs_added: done.ids.len(),
             specs_total: None,
             spec_ids: None,
-            added_columns: Vec::new(),
             started: Some(manifest.started.clone()),
             // A gathered run finished when it was gathered; where its shards were is
             // kept here (the rewritten manifest drops it).
@@ -261,7 +234,6 @@ pub fn check(
         specs_added: added.len(),
         specs_total: Some(p.space.specs.len()),
         spec_ids: Some(added.iter().map(|s| s.to_string()).collect()),
-        added_columns: added_columns.clone(),
         started: Some(now),
         finished: None,
         gathered_from: None,
@@ -270,7 +242,6 @@ pub fn check(
         lineage,
         old: done.ids.len(),
         added: added.len(),
-        added_columns,
     })
 }
 
@@ -285,25 +256,12 @@ pub fn finish_lineage(lineage: &[Lineage]) -> Vec<Lineage> {
     l
 }
 
-/// The note to print when an extension adds parameter columns to the specs table.
-pub fn columns_note(columns: &[String], out: &Path) -> Option<String> {
-    (!columns.is_empty()).then(|| {
-        format!(
-            "the new specs parts add the specs columns {}, which the older parts lack: read the table by column name (DuckDB: read_parquet('{}/specs/*.parquet', union_by_name = true); pyarrow: a dataset with the parts' unified schema)",
-            columns.join(", "),
-            out.display()
-        )
-    })
-}
-
-/// One line per lineage entry, for `forkmap check`, then the columns note.
-pub fn describe(manifest: &Manifest, out: &Path) -> Vec<String> {
+/// One line per lineage entry, for `forkmap check`.
+pub fn describe(manifest: &Manifest) -> Vec<String> {
     let Some(l) = &manifest.lineage else {
         return Vec::new();
     };
-    let columns: Vec<String> = l.iter().flat_map(|e| e.added_columns.clone()).collect();
-    let mut lines: Vec<String> = l
-        .iter()
+    l.iter()
         .enumerate()
         .map(|(i, e)| {
             format!(
@@ -323,9 +281,7 @@ pub fn describe(manifest: &Manifest, out: &Path) -> Vec<String> {
                 }
             )
         })
-        .collect();
-    lines.extend(columns_note(&columns, out).map(|n| format!("note       {n}")));
-    lines
+        .collect()
 }
 
 #[cfg(test)]

@@ -466,9 +466,6 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
                 ext.old,
                 todo.len()
             );
-            if let Some(n) = extend::columns_note(&ext.added_columns, out) {
-                eprintln!("forkmap: note: {n}");
-            }
         } else if !opts.quiet && resumes > 0 {
             eprintln!(
                 "forkmap: resuming: {} specs done, {} to run",
