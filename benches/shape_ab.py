@@ -5,13 +5,16 @@ Panels (benches/shape_panel.py): the --quick shapes (rows 120 and 400 by indicat
 and 30) with the full forest grid (100 and 500 trees, tried 1.0 and 0.33, min_leaf 1 and
 5, ridge, boosting), and issue 22's 729-spec grid at 400 rows x 20 indicators. Each
 binary runs each panel RUNS times, alternating A, B, A, B, ... (so drifts of a shared
-machine hit both alike); prints the median wall seconds of each and their ratio.
+machine hit both alike); prints the median CPU seconds (user + system, of the run and its
+threads) and wall seconds of each and their ratios. On a machine shared with other jobs
+the CPU seconds move less than the wall seconds; quote the CPU ratio there.
 
 Usage: python benches/shape_ab.py BIN_A BIN_B [--threads 2] [--runs 3] [--only NAME ...]
 (from the repository root; NAMEs: r120-p10 r120-p30 r400-p10 r400-p30 issue-r400-p20)
 """
 
 import argparse
+import resource
 import statistics
 import subprocess
 import sys
@@ -37,28 +40,33 @@ def main():
     ap.add_argument("--work", default="target/shape-ab")
     a = ap.parse_args()
     work = Path(a.work)
-    print("| panel | A median (s) | B median (s) | A / B | runs (A/B) |")
-    print("| --- | --- | --- | --- | --- |")
+    print("| panel | CPU A (s) | CPU B (s) | A / B | wall A (s) | wall B (s) | A / B | CPU runs (A/B) |")
+    print("| --- | --- | --- | --- | --- | --- | --- | --- |")
     for name, args in PANELS:
         if a.only and name not in a.only:
             continue
         d = work / name
         subprocess.run([sys.executable, "benches/shape_panel.py", *args, str(d)], check=True)
         times = {"a": [], "b": []}
+        cpu = {"a": [], "b": []}
         for _ in range(a.runs):
             for which in ("a", "b"):
                 out = d / f"out-{which}"
                 t0 = time.perf_counter()
+                r0 = resource.getrusage(resource.RUSAGE_CHILDREN)
                 subprocess.run(
                     [getattr(a, which), "run", str(d / "config.toml"), "--out", str(out),
                      "--threads", a.threads, "--quiet", "--no-map", "--restart"],
                     check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
                 )
                 times[which].append(time.perf_counter() - t0)
+                r1 = resource.getrusage(resource.RUSAGE_CHILDREN)
+                cpu[which].append(r1.ru_utime + r1.ru_stime - r0.ru_utime - r0.ru_stime)
         ta, tb = statistics.median(times["a"]), statistics.median(times["b"])
-        spread = ", ".join(f"{x:.1f}/{y:.1f}" for x, y in zip(times["a"], times["b"]))
-        print(f"| {name} | {ta:.2f} | {tb:.2f} | {ta / tb:.2f}x | {spread} |",
-              flush=True)
+        ca, cb = statistics.median(cpu["a"]), statistics.median(cpu["b"])
+        spread = ", ".join(f"{x:.1f}/{y:.1f}" for x, y in zip(cpu["a"], cpu["b"]))
+        print(f"| {name} | {ca:.2f} | {cb:.2f} | {ca / cb:.2f}x | {ta:.2f} | {tb:.2f} | "
+              f"{ta / tb:.2f}x | {spread} |", flush=True)
 
 
 if __name__ == "__main__":

@@ -335,3 +335,34 @@ fn ensembles_along_a_path_are_their_own_fits() {
         assert!(make(40).fit_path(&input, &[15.0, 6.0, 40.0]).is_err());
     }
 }
+
+/// `plan` counts a path's fit once: its specs' costs add up to the largest one's.
+#[test]
+fn plan_counts_a_path_once() {
+    let p = prepared(CFG);
+    let specs = &p.space.specs;
+    let costs = forkmap::sweep::nested_costs(&p.space, &p.panel, None);
+    let own = |si: usize| forkmap::shard::spec_cost(&specs[si], &p.panel);
+    let mut paths: std::collections::BTreeMap<u64, Vec<usize>> = Default::default();
+    for si in 0..specs.len() {
+        let m = forkmap::models::build(specs[si].choice("model")).unwrap();
+        if m.path().is_none() {
+            assert_eq!(costs[si], own(si), "{}", specs[si].label());
+        } else {
+            paths
+                .entry(forkmap::sweep::model_stream(&specs[si], m.as_ref()))
+                .or_default()
+                .push(si);
+        }
+    }
+    assert_eq!(paths.len(), 24);
+    for members in paths.values() {
+        let sum: f64 = members.iter().map(|&si| costs[si]).sum();
+        let largest = members.iter().map(|&si| own(si)).fold(0.0, f64::max);
+        assert!((sum - largest).abs() <= 1e-9 * largest, "{sum} vs {largest}");
+    }
+    // A probe holding one spec of a path pays its whole fit.
+    let one = *paths.values().next().unwrap().last().unwrap();
+    let probe = forkmap::sweep::nested_costs(&p.space, &p.panel, Some(&[one]));
+    assert_eq!(probe[one], own(one));
+}

@@ -38,7 +38,7 @@ use std::time::Instant;
 mod nest;
 mod spec;
 
-pub use nest::model_stream;
+pub use nest::{model_stream, nested_costs};
 
 /// Receives the row ids every fitted step is handed (for leak-freedom tests and audits).
 pub trait Audit: Send + Sync {

@@ -135,3 +135,37 @@ impl Sweep<'_> {
         }
     }
 }
+
+/// Each spec's fit cost in [`crate::shard::spec_cost`] units, less what it shares with the
+/// next smaller spec of its path among `specs` (all when `None`), as a sweep over them
+/// fits it: a path costs its largest fit once. For `plan`'s probe and estimate.
+pub fn nested_costs(space: &ChoiceSpace, panel: &Panel, specs: Option<&[usize]>) -> Vec<f64> {
+    let mut cost: Vec<f64> = space
+        .specs
+        .iter()
+        .map(|s| crate::shard::spec_cost(s, panel))
+        .collect();
+    let mut paths: HashMap<u64, Vec<(f64, usize)>> = HashMap::new();
+    let all: Vec<usize> = (0..space.specs.len()).collect();
+    for &si in specs.unwrap_or(&all) {
+        let s = &space.specs[si];
+        let Ok(model) = crate::models::build(s.choice("model")) else {
+            continue;
+        };
+        if let Some(param) = model.path() {
+            let value = s.choice("model").param(param).unwrap_or(0.0);
+            paths
+                .entry(model_stream(s, model.as_ref()))
+                .or_default()
+                .push((value, si));
+        }
+    }
+    for path in paths.values_mut().filter(|p| p.len() > 1) {
+        path.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let full: Vec<f64> = path.iter().map(|&(_, si)| cost[si]).collect();
+        for (j, &(_, si)) in path.iter().enumerate().skip(1) {
+            cost[si] = (full[j] - full[j - 1]).max(0.0);
+        }
+    }
+    cost
+}
