@@ -197,7 +197,7 @@ fn a_path_fitted_once_gives_each_spec_its_own_fit_bit_for_bit() {
                     && s.choice("weighting").option == "rows"
                     && s.choice("transform").option == "identity"
             })
-            .map(|r| bits(r))
+            .map(bits)
             .unwrap()
     };
     assert_ne!(id_of(3.0), id_of(20.0));
@@ -359,7 +359,10 @@ fn plan_counts_a_path_once() {
     for members in paths.values() {
         let sum: f64 = members.iter().map(|&si| costs[si]).sum();
         let largest = members.iter().map(|&si| own(si)).fold(0.0, f64::max);
-        assert!((sum - largest).abs() <= 1e-9 * largest, "{sum} vs {largest}");
+        assert!(
+            (sum - largest).abs() <= 1e-9 * largest,
+            "{sum} vs {largest}"
+        );
     }
     // A probe holding one spec of a path pays its whole fit.
     let one = *paths.values().next().unwrap().last().unwrap();

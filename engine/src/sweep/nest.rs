@@ -80,7 +80,7 @@ impl Sweep<'_> {
             .map(|&si| crate::models::cost(self.space.specs[si].choice("model"), n, p))
             .collect();
         let total = costs.last().copied().unwrap_or(0.0);
-        if group.len() == 1 || !(total > 0.0) {
+        if group.len() == 1 || total.is_nan() || total <= 0.0 {
             let mut s = vec![0.0; group.len()];
             if let Some(l) = s.last_mut() {
                 *l = 1.0;
