@@ -65,8 +65,8 @@ fn main() {
             for _ in 1..repeats {
                 f = forest_once(&case.params, &input);
             }
-            let scanned: u64 = f.trees.iter().map(|t| t.scanned()).sum();
-            println!("forest: {} trees, {scanned} row visits", f.trees.len());
+            let scanned: u64 = f.trees().iter().map(|t| t.scanned()).sum();
+            println!("forest: {} trees, {scanned} row visits", f.trees().len());
         }
         "node_floor" => {
             // The forest's split searches (made by a fit outside the collected function).

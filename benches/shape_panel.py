@@ -6,8 +6,12 @@ factors (so they are collinear, as open indicators are), 5% of cells missing at 
 The outcome depends on three indicators (one through a threshold) plus noise. Invented
 data: it exists only to time and compare sweeps at users' shapes.
 
-Usage: python shape_panel.py ROWS INDICATORS OUT_DIR [--seed S] [--quick]
+Usage: python shape_panel.py ROWS INDICATORS OUT_DIR [--seed S] [--quick] [--grid issue]
 Writes OUT_DIR/panel.csv and OUT_DIR/config.toml (--quick: forests of 100 trees only).
+--grid issue: instead, the 729-spec forest-heavy grid of issue 22 (fills mean/median/knn;
+none, NMF and PCA at k = 2, 3, 5, 8; OLS, ridge, lasso, trees of depth 3 and 5, forests of
+100 and 500 trees trying all indicators with min_leaf 1, boosting, nearest neighbours;
+three weightings).
 """
 
 import argparse
@@ -23,6 +27,7 @@ def main():
     ap.add_argument("out")
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--quick", action="store_true")
+    ap.add_argument("--grid", choices=["shape", "issue"], default="shape")
     a = ap.parse_args()
     rng = np.random.default_rng(a.seed)
     units = a.rows // 2
@@ -41,6 +46,9 @@ def main():
             cells = ["" if np.isnan(v) else f"{v:.6g}" for v in x[i]]
             fh.write(f"u{i // 2:04d},{2020 + i % 2},{y[i]:.6g}," + ",".join(cells) + "\n")
     trees = "[100]" if a.quick else "[100, 500]"
+    if a.grid == "issue":
+        (out / "config.toml").write_text(ISSUE_GRID.format(n=n, units=units, p=p))
+        return
     (out / "config.toml").write_text(f"""# Shape matrix: {n} rows ({units} units x 2 waves), {p} indicators (benches/shape-matrix).
 seed = 7
 
@@ -77,6 +85,46 @@ depth = [3]
 [importance]
 kinds = []
 """)
+
+
+ISSUE_GRID = """# Issue 22's forest-heavy grid: {n} rows ({units} units x 2 waves), {p} indicators.
+seed = 7
+
+[data]
+file = "panel.csv"
+unit = "unit"
+wave = "wave"
+outcome = "outcome"
+
+[folds]
+k = 5
+repeats = 1
+
+[choices]
+fill = ["mean", "median", "knn"]
+pool = ["all"]
+scale = ["minmax"]
+compress = ["none", "pca", "nmf"]
+model = ["ols", "ridge", "lasso", "tree", "forest", "boost", "nearest"]
+weighting = ["rows", "units", "high"]
+
+[grid.pca]
+k = [2, 3, 5, 8]
+
+[grid.nmf]
+k = [2, 3, 5, 8]
+
+[grid.tree]
+depth = [3, 5]
+
+[grid.forest]
+trees = [100, 500]
+tried = [1.0]
+min_leaf = [1]
+
+[importance]
+kinds = []
+"""
 
 
 if __name__ == "__main__":

@@ -234,7 +234,7 @@ impl FloorCase {
             .params
             .grow_forest(&self.input())
             .expect("the forest fits");
-        f.trees.iter().flat_map(|t| t.scans().to_vec()).collect()
+        f.trees().iter().flat_map(|t| t.scans().to_vec()).collect()
     }
 
     /// Passes over the rows the fused floor makes: the forest's split-search row visits

@@ -69,7 +69,7 @@ fn forest_floor(c: &mut Criterion) {
             n,
             case.x.ncols()
         ),
-        |b| b.iter(|| params.grow_forest(&input).map(|f| f.trees.len())),
+        |b| b.iter(|| params.grow_forest(&input).map(|f| f.trees().len())),
     );
     g.bench_function(
         format!(

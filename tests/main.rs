@@ -16,6 +16,7 @@ mod importance;
 mod intake_fuzz;
 mod leak;
 mod nested;
+mod nested_fits;
 mod null;
 mod numbers;
 mod pools;

@@ -204,6 +204,7 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             // Importance seconds by fill option: permuting an indicator reruns the spec's
             // preparations on the test rows, and the fill dominates that cost.
             let imp_by_fill: std::sync::Mutex<BTreeMap<String, (f64, usize)>> = Default::default();
+            let probe_costs = crate::sweep::nested_costs(&p.space, &p.panel, Some(&subset));
             let t0 = Instant::now();
             let run = || {
                 probe.run(&|r| {
@@ -218,7 +219,7 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
                             .or_default();
                         e.0 += r.seconds;
                         e.1 += 1;
-                        e.2 += crate::shard::spec_cost(&p.space.specs[r.spec], &p.panel);
+                        e.2 += probe_costs[r.spec];
                         e.3 += r.importance_seconds;
                         drop(g);
                         if let Ok(mut f) = imp_by_fill.lock() {
@@ -368,13 +369,14 @@ fn estimate_from_probe(
     // fit seconds are also summed by family for the debug log.
     let mut fit_by_family: BTreeMap<&str, f64> = BTreeMap::new();
     let mut model = 0.0;
-    for s in &p.space.specs {
+    let costs = crate::sweep::nested_costs(&p.space, &p.panel, None);
+    for (s, &cost) in p.space.specs.iter().zip(&costs) {
         let fam = s.choice(crate::decl::Dim::Model).option.as_str();
         let rate = per_family
             .get(fam)
             .filter(|v| v.2 > 0.0)
             .map_or(overall.0, |v| v.0 / v.2);
-        let fit = rate * crate::shard::spec_cost(s, &p.panel);
+        let fit = rate * cost;
         *fit_by_family.entry(fam).or_default() += fit;
         let imp = imp_by_fill
             .get(&s.choice(crate::decl::Dim::Fill).option)

@@ -4,6 +4,9 @@
 //! search, and its squared-error splits rank as scikit-learn's friedman_mse criterion
 //! does. `subsample` < 1 fits each tree on a seeded random share of the rows (stochastic
 //! gradient boosting, Friedman 2002). Hand-written: no maintained crate takes row weights.
+//! The first r rounds of a fit are the r-round model (the sweep seeds a fit without its
+//! number of rounds, `sweep::nest`), so [`Regressor::fit_path`] runs the most rounds once
+//! and hands every smaller model its first trees.
 
 use super::tree::{Candidates, Grower, Presorted, Tree, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
@@ -91,17 +94,20 @@ pub struct BoostParams {
     pub subsample: f64,
 }
 
+/// A boosted model: the first `n` trees of a grown list, which longer models of the same
+/// path share.
 pub struct Boost {
     init: f64,
     rate: f64,
-    trees: Vec<Tree>,
+    grown: Arc<Vec<Tree>>,
+    n: usize,
 }
 
 impl Predictor for Boost {
     fn predict(&self, x: ArrayView2<f64>) -> Array1<f64> {
         let mut out = vec![self.init; x.nrows()];
         let x = x.as_standard_layout();
-        for t in &self.trees {
+        for t in &self.grown[..self.n] {
             t.add_to(x.view(), self.rate, &mut out);
         }
         Array1::from(out)
@@ -109,13 +115,27 @@ impl Predictor for Boost {
     fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
         Some((
             "impurity",
-            super::ensemble_impurity(&self.trees, x_train.ncols()),
+            super::ensemble_impurity(&self.grown[..self.n], x_train.ncols()),
         ))
     }
 }
 
 impl Regressor for BoostParams {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
+        let mut models = self.fit_path(input, &[self.trees as f64])?;
+        models
+            .pop()
+            .ok_or_else(|| FitError::Invalid("boosting fitted no model".into()))
+    }
+    fn path(&self) -> Option<&'static str> {
+        Some("trees")
+    }
+    fn fit_path(
+        &self,
+        input: &FitInput,
+        values: &[f64],
+    ) -> Result<Vec<Box<dyn Predictor>>, FitError> {
+        let sizes = super::forest::path_sizes(values, self.trees)?;
         let n = input.x.nrows();
         let w: Vec<f64> = input.w.to_vec();
         let sw: f64 = w.iter().sum();
@@ -158,10 +178,17 @@ impl Regressor for BoostParams {
             f.scaled_add(self.rate, &t.predict(xs.view()));
             trees.push(t);
         }
-        Ok(Box::new(Boost {
-            init,
-            rate: self.rate,
-            trees,
-        }))
+        let grown = Arc::new(trees);
+        Ok(sizes
+            .into_iter()
+            .map(|n| {
+                Box::new(Boost {
+                    init,
+                    rate: self.rate,
+                    grown: grown.clone(),
+                    n,
+                }) as Box<dyn Predictor>
+            })
+            .collect())
     }
 }

@@ -1,14 +1,15 @@
 //! Extremely randomised trees (Geurts, Ernst & Wehenkel 2006): like the forest, but every
 //! tree sees all training rows (no bootstrap, as scikit-learn's default) and each split
 //! tries one random threshold per candidate indicator. Hand-written on the weighted CART
-//! grower of `tree/` (no maintained crate takes row weights).
+//! grower of `tree/` (no maintained crate takes row weights). Tree i draws from a stream
+//! of its own, and smaller ensembles of a path are the first trees of the largest, as the
+//! forest's (`forest.rs`).
 
-use super::forest::{tried_count, Ensemble, TREES};
+use super::forest::{path_sizes, tree_stream, tried_count, Ensemble, TREES};
 use super::tree::{Candidates, Grower, Presorted, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
 use crate::decl::{Choice, OptionDecl, ParamDecl, ParamKind};
 use crate::error::FitError;
-use rand::SeedableRng;
 use std::sync::Arc;
 
 pub const FAMILY: Family = Family {
@@ -57,12 +58,28 @@ pub struct ExtraParams {
 
 impl Regressor for ExtraParams {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
+        Ok(Box::new(self.grow(input)?))
+    }
+    fn path(&self) -> Option<&'static str> {
+        Some("trees")
+    }
+    fn fit_path(
+        &self,
+        input: &FitInput,
+        values: &[f64],
+    ) -> Result<Vec<Box<dyn Predictor>>, FitError> {
+        let sizes = path_sizes(values, self.trees)?;
+        Ok(self.grow(input)?.prefixes(&sizes))
+    }
+}
+
+impl ExtraParams {
+    fn grow(&self, input: &FitInput) -> Result<Ensemble, FitError> {
         let (n, p) = input.x.dim();
         if n == 0 || p == 0 {
             return Err(FitError::Invalid("no training rows or no columns".into()));
         }
         let m = tried_count(self.tried, p);
-        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(input.seed);
         let w: Vec<f64> = input.w.to_vec();
         let rows: Vec<usize> = (0..n).filter(|&i| w[i] > 0.0).collect();
         let params = TreeParams {
@@ -72,16 +89,19 @@ impl Regressor for ExtraParams {
         let pre = Presorted::new(input.x);
         let mut grower = Grower::new(&pre);
         let trees = (0..self.trees)
-            .map(|_| {
+            .map(|i| {
                 grower.grow(
                     input.y,
                     &w,
                     rows.clone(),
                     params,
-                    Candidates::Extra { m, rng: &mut rng },
+                    Candidates::Extra {
+                        m,
+                        rng: &mut tree_stream(input.seed, i),
+                    },
                 )
             })
             .collect();
-        Ok(Box::new(Ensemble { trees }))
+        Ok(Ensemble::new(trees))
     }
 }

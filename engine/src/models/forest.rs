@@ -5,7 +5,12 @@
 //! vary among the node's rows (drawing goes on past constant ones, as scikit-learn's
 //! splitter does; a drawn constant indicator cannot split and would only add noise to
 //! which indicators compete). Trees grow until `min_leaf` stops them. Predictions average
-//! the trees. The random stream is seeded from the fit seed.
+//! the trees.
+//!
+//! Tree i draws from a random stream of its own, seeded by the fit seed and i; the sweep
+//! seeds a forest's fit without its number of trees (`sweep::nest`), so the forest of 100
+//! trees is the first 100 trees of the forest of 500, and [`Regressor::fit_path`] grows
+//! the largest forest once and hands every smaller one its first trees.
 
 use super::tree::{Candidates, Grower, Presorted, Tree, TreeParams, MIN_LEAF};
 use super::{int_param, Family, FitInput, Predictor, Regressor};
@@ -75,9 +80,51 @@ pub struct ForestParams {
     pub min_leaf: usize,
 }
 
-/// An averaging ensemble of trees (the forest's and the extremely randomised trees').
+/// An averaging ensemble of trees (the forest's and the extremely randomised trees'): the
+/// first `n` trees of a grown list, which larger ensembles of the same path share.
 pub struct Ensemble {
-    pub trees: Vec<Tree>,
+    grown: Arc<Vec<Tree>>,
+    n: usize,
+}
+
+impl Ensemble {
+    /// The ensemble of all `trees`.
+    pub fn new(trees: Vec<Tree>) -> Ensemble {
+        let n = trees.len();
+        Ensemble {
+            grown: Arc::new(trees),
+            n,
+        }
+    }
+    /// The ensembles of the first `sizes[j]` trees of this one's (each at most its
+    /// length), sharing them.
+    pub fn prefixes(self, sizes: &[usize]) -> Vec<Box<dyn Predictor>> {
+        let grown = self.grown;
+        sizes
+            .iter()
+            .map(|&n| {
+                Box::new(Ensemble {
+                    grown: grown.clone(),
+                    n: n.min(grown.len()),
+                }) as Box<dyn Predictor>
+            })
+            .collect()
+    }
+    pub fn trees(&self) -> &[Tree] {
+        &self.grown[..self.n]
+    }
+}
+
+/// The whole-number sizes of a path's values (trees, rounds), the largest last; an error
+/// unless they ascend to `own` (the size of the regressor asked).
+pub(crate) fn path_sizes(values: &[f64], own: usize) -> Result<Vec<usize>, FitError> {
+    let sizes: Vec<usize> = values.iter().map(|&v| v as usize).collect();
+    if sizes.last() != Some(&own) || sizes.windows(2).any(|w| w[0] > w[1]) {
+        return Err(FitError::Invalid(format!(
+            "a nested fit of {own} trees was asked for {values:?}"
+        )));
+    }
+    Ok(sizes)
 }
 
 /// Indicators tried per split: `share` of `p`, rounded, at least one.
@@ -91,15 +138,15 @@ impl Predictor for Ensemble {
         // then averaged.
         let mut out = vec![0.0; x.nrows()];
         let x = x.as_standard_layout();
-        for t in &self.trees {
+        for t in self.trees() {
             t.add_to(x.view(), 1.0, &mut out);
         }
-        Array1::from(out) / self.trees.len() as f64
+        Array1::from(out) / self.n as f64
     }
     fn native(&self, x_train: ArrayView2<f64>) -> Option<(&'static str, Vec<f64>)> {
         Some((
             "impurity",
-            super::ensemble_impurity(&self.trees, x_train.ncols()),
+            super::ensemble_impurity(self.trees(), x_train.ncols()),
         ))
     }
 }
@@ -107,6 +154,17 @@ impl Predictor for Ensemble {
 impl Regressor for ForestParams {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         Ok(Box::new(self.grow_forest(input)?))
+    }
+    fn path(&self) -> Option<&'static str> {
+        Some("trees")
+    }
+    fn fit_path(
+        &self,
+        input: &FitInput,
+        values: &[f64],
+    ) -> Result<Vec<Box<dyn Predictor>>, FitError> {
+        let sizes = path_sizes(values, self.trees)?;
+        Ok(self.grow_forest(input)?.prefixes(&sizes))
     }
 }
 
@@ -118,7 +176,6 @@ impl ForestParams {
             return Err(FitError::Invalid("no training rows or no columns".into()));
         }
         let m = tried_count(self.tried, p);
-        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(input.seed);
         let params = TreeParams {
             depth: usize::MAX,
             min_leaf: self.min_leaf,
@@ -128,7 +185,8 @@ impl ForestParams {
         let mut grower = Grower::new(&pre);
         let mut counts = vec![0u32; n];
         let mut w = vec![0.0; n];
-        for _ in 0..self.trees {
+        for i in 0..self.trees {
+            let mut rng = tree_stream(input.seed, i);
             counts.iter_mut().for_each(|c| *c = 0);
             for _ in 0..n {
                 counts[rng.gen_range(0..n)] += 1;
@@ -145,6 +203,11 @@ impl ForestParams {
                 Candidates::Sample { m, rng: &mut rng },
             ));
         }
-        Ok(Ensemble { trees })
+        Ok(Ensemble::new(trees))
     }
+}
+
+/// The random stream of tree `i` of an ensemble fitted with `seed`.
+pub(crate) fn tree_stream(seed: u64, i: usize) -> rand_chacha::ChaCha8Rng {
+    rand_chacha::ChaCha8Rng::seed_from_u64(crate::streams::mix(seed, i as u64))
 }

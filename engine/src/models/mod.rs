@@ -33,6 +33,22 @@ pub struct FitInput<'a> {
 /// An unfitted model with checked hyperparameters.
 pub trait Regressor: Send + Sync {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError>;
+    /// The parameter along which this family's fits nest (the ensembles' `trees`): one
+    /// fit at its largest value serves every smaller one through [`Regressor::fit_path`],
+    /// each model the same bit for bit as its own fit. The sweep seeds such a fit without
+    /// this parameter (`sweep::nest`), so the fits of a path draw the same numbers.
+    fn path(&self) -> Option<&'static str> {
+        None
+    }
+    /// The models at `values` of the [`Regressor::path`] parameter (ascending, the last
+    /// this regressor's own), from one fit, in that order.
+    fn fit_path(
+        &self,
+        _input: &FitInput,
+        _values: &[f64],
+    ) -> Result<Vec<Box<dyn Predictor>>, FitError> {
+        Err(FitError::Invalid("this model has no nested fits".into()))
+    }
 }
 
 /// A fitted model.

@@ -35,7 +35,10 @@ use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::sync::Arc;
 use std::time::Instant;
 
+mod nest;
 mod spec;
+
+pub use nest::{model_stream, nested_costs};
 
 /// Receives the row ids every fitted step is handed (for leak-freedom tests and audits).
 pub trait Audit: Send + Sync {
@@ -589,10 +592,11 @@ impl<'a> Sweep<'a> {
                     values: w.x,
                 })
             });
-        node.specs.par_iter().for_each(|&si| {
-            let mut r = self.run_spec(si, &states);
-            r.loadings = loadings.clone();
-            emit(r)
+        self.nest_groups(&node.specs).par_iter().for_each(|g| {
+            for mut r in self.run_group(g, &states) {
+                r.loadings = loadings.clone();
+                emit(r)
+            }
         });
     }
 }
