@@ -17,6 +17,7 @@ mod intake_fuzz;
 mod leak;
 mod nested;
 mod null;
+mod null_fixed;
 mod numbers;
 mod pools;
 mod reference;

@@ -579,7 +579,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
                 space: &p.space,
                 folds: &p.folds,
                 seed: p.cfg.seed,
-                settings: n.check().map_err(Error::Space)?,
+                settings: n.check(&p.cfg.map.metric).map_err(Error::Space)?,
                 run_config: p.cfg.canonical_json(),
                 data_sha256: sha.clone(),
             },
