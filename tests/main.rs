@@ -18,6 +18,7 @@ mod leak;
 mod nested;
 mod null;
 mod null_fixed;
+mod null_shared;
 mod numbers;
 mod pools;
 mod reference;

@@ -32,6 +32,9 @@ pub struct NullInput<'a> {
     /// The run's identity: canonical config, data sha256 (the version is added here).
     pub run_config: serde_json::Value,
     pub data_sha256: String,
+    /// Fit the stages that do not read the outcome once per fold and share them across
+    /// draws (the tables are bit-identical either way; `run` sets it, tests compare).
+    pub share_stages: bool,
 }
 
 /// What a null run did.
@@ -240,6 +243,9 @@ pub fn run_null(
         );
     }
     let progress = Mutex::new(Progress::new(todo.len() * subset.len(), quiet));
+    let cache = inp
+        .share_stages
+        .then(|| std::sync::Arc::new(crate::sweep::cache::StageCache::default()));
     // Draws run side by side (each one's sweep is parallel too); each is written as soon
     // as it is done. A draw depends only on the seed and d, so the tables do not depend
     // on the order draws finish in or on the thread count.
@@ -247,7 +253,7 @@ pub fn run_null(
         use rayon::prelude::*;
         pool.install(|| {
             todo.par_iter().try_for_each(|&d| {
-                let (row, tops) = one_draw(inp, &subset, d, pool, &progress)?;
+                let (row, tops) = one_draw(inp, &subset, d, pool, &progress, cache.clone())?;
                 table::write_draw(&null_dir, &row, &tops)
             })
         })?;
@@ -284,18 +290,22 @@ struct Got {
     importance: Vec<crate::importance::ImportanceRow>,
 }
 
-/// Run draw `d`: permute, sweep the sample with native importances, summarise.
+/// Run draw `d`: permute, sweep the sample with native importances, summarise. `cache`
+/// (one per null run) shares the outcome-independent stage fits across draws.
 pub fn one_draw(
     inp: &NullInput,
     subset: &[usize],
     d: u64,
     pool: &rayon::ThreadPool,
     progress: &Mutex<Progress>,
+    cache: Option<std::sync::Arc<crate::sweep::cache::StageCache>>,
 ) -> Result<(DrawRow, Vec<TopRow>)> {
     let seed = draw_seed(inp.seed, d);
     let permuted = permute_units(inp.panel, seed)?;
     let mut sweep = Sweep::new(&permuted, inp.space, inp.folds, inp.seed, Some(subset))?;
     sweep.describe = false;
+    // Only the outcome differs between draws: stages that do not read it are shared.
+    sweep.stage_cache = cache;
     sweep.importance = Some(ImportanceSection {
         repeats: 0,
         kinds: vec!["native".into()],

@@ -582,6 +582,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
                 settings: n.check(&p.cfg.map.metric).map_err(Error::Space)?,
                 run_config: p.cfg.canonical_json(),
                 data_sha256: sha.clone(),
+                share_stages: true,
             },
             out,
             &pool,
