@@ -83,9 +83,20 @@ fn shared_stage_fits_give_bit_identical_null_draws() {
         let fresh = one_draw(&inp, &subset, d, &pool, &progress, None).unwrap();
         let shared = one_draw(&inp, &subset, d, &pool, &progress, Some(cache.clone())).unwrap();
         // Debug prints f64s so that they round-trip: equal text, equal bits.
-        assert_eq!(format!("{fresh:?}"), format!("{shared:?}"), "draw {d}");
+        let (a, b) = (format!("{fresh:?}"), format!("{shared:?}"));
+        let at = a.bytes().zip(b.bytes()).position(|(x, y)| x != y);
+        assert!(
+            a == b,
+            "draw {d} differs at byte {at:?}: {:.200}",
+            &a[at.unwrap_or(0)..]
+        );
         assert!(fresh.0.n_ok > 10, "{:?}", fresh.0);
     }
     assert!(cache.stored() > 0);
-    assert!(cache.hits() >= 2 * cache.stored(), "{} hits of {} fits", cache.hits(), cache.stored());
+    assert!(
+        cache.hits() >= 2 * cache.stored(),
+        "{} hits of {} fits",
+        cache.hits(),
+        cache.stored()
+    );
 }

@@ -416,9 +416,9 @@ impl<'a> Sweep<'a> {
                 names: self.panel.indicators.clone(),
                 y: self.panel.y.mapv(|v| root.target.forward(v)),
             });
-            root.children.par_iter().for_each(|n| {
-                self.run_node(n, &base, whole.as_ref(), emit, "", true)
-            });
+            root.children
+                .par_iter()
+                .for_each(|n| self.run_node(n, &base, whole.as_ref(), emit, "", true));
         });
     }
 
