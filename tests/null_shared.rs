@@ -100,3 +100,31 @@ fn shared_stage_fits_give_bit_identical_null_draws() {
         cache.stored()
     );
 }
+
+#[test]
+fn plan_says_the_null_estimate_is_an_upper_bound() {
+    let settings = forkmap::config::null::NullSection {
+        draws: 10,
+        specs: Some(5),
+        ..Default::default()
+    }
+    .check("rmse")
+    .unwrap();
+    let text = forkmap::null::plan::lines(&settings, 20, 4, 8.0, false);
+    assert!(
+        text.contains(
+            "10 permutation draws x 5 specs (a seeded sample of 20) x 4 fits = 200 model fits"
+        ),
+        "{text}"
+    );
+    assert!(text.contains("ranked by rmse"), "{text}");
+    // 8 s x 10 draws x 5/20 specs
+    assert!(text.contains("estimated null time: 20"), "{text}");
+    assert!(
+        text.contains(
+            "an upper bound: stages that do not read the outcome are fitted once per fold"
+        ),
+        "{text}"
+    );
+    assert!(!text.contains("permutation importances"), "{text}");
+}
