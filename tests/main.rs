@@ -18,6 +18,8 @@ mod leak;
 mod nested;
 mod nested_fits;
 mod null;
+mod null_fixed;
+mod null_shared;
 mod numbers;
 mod pools;
 mod reference;

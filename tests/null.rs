@@ -109,8 +109,19 @@ fn run_writes_the_null_tables_the_same_on_one_and_two_threads() {
             .filter(|r| r.draw == dr && r.level == "indicator")
             .collect();
         assert!(!ind.is_empty(), "draw {dr} has no indicator rows");
-        let top = ind.iter().filter(|r| r.top).count();
-        assert!((1..=2).contains(&top), "draw {dr}: {top} top indicators");
+        // One set of rows per native kind (the best spec of that kind).
+        for kind in ["coefficient", "impurity"] {
+            let of: Vec<_> = ind.iter().filter(|r| r.kind == kind).collect();
+            if of.is_empty() {
+                continue;
+            }
+            assert!(of.iter().all(|r| r.spec == of[0].spec), "draw {dr} {kind}");
+            let top = of.iter().filter(|r| r.top).count();
+            assert!(
+                (1..=2).contains(&top),
+                "draw {dr} {kind}: {top} top indicators"
+            );
+        }
         for r in &ind {
             assert_eq!(r.top, r.rank <= 2 && r.importance > 0.0, "{r:?}");
         }
@@ -250,11 +261,22 @@ fn bad_null_keys_and_values_are_refused_naming_the_key() {
     // Defaults, and [null] is not part of the run's identity.
     let text = format!("{}{SPACE}[null]\n", data());
     let c = forkmap::config::Config::from_toml(&text, Path::new("."), "t").unwrap();
-    let s = c.null.as_ref().unwrap().check().unwrap();
+    let s = c.null.as_ref().unwrap().check(&c.map.metric).unwrap();
     assert_eq!(
         (s.draws, s.specs, s.top_k, s.metric.name()),
         (100, None, 3, "mae")
     );
+    // An unset null.metric follows the report's metric ([map] metric); a set one wins.
+    for (map, null, want) in [
+        ("rmse", "", "rmse"),
+        ("unit_mae", "", "unit_mae"),
+        ("rmse", "metric = \"mae\"\n", "mae"),
+    ] {
+        let text = format!("{}{SPACE}[map]\nmetric = \"{map}\"\n[null]\n{null}", data());
+        let c = forkmap::config::Config::from_toml(&text, Path::new("."), "t").unwrap();
+        let s = c.null.as_ref().unwrap().check(&c.map.metric).unwrap();
+        assert_eq!(s.metric.name(), want, "map {map}, null {null:?}");
+    }
     let plain =
         forkmap::config::Config::from_toml(&format!("{}{SPACE}", data()), Path::new("."), "t")
             .unwrap();
@@ -393,13 +415,39 @@ fn the_report_shows_the_null_with_p_from_the_formula() {
     let tops = read_tops(&out.join(NULL_DIR), &(0..9).collect::<Vec<_>>()).unwrap();
     let names = column_str(&b, "name");
     let levels = column_str(&b, "level");
+    // One kind, the observed top spec's (review S9): the draws' tops of the other kind
+    // do not count.
+    let kinds = column_str(&b, "kind");
+    let kind = kinds[0].clone();
+    assert!(
+        ["coefficient", "impurity"].contains(&kind.as_str()),
+        "{kind}"
+    );
+    assert!(kinds.iter().all(|k| *k == kind));
     for ((n, l), c) in names.iter().zip(&levels).zip(&chance) {
         let hits = tops
             .iter()
-            .filter(|t| &t.name == n && &t.level == l && t.top)
+            .filter(|t| &t.name == n && &t.level == l && t.top && t.kind == kind)
             .count();
         assert_eq!(*c, hits as f64 / 9.0, "{l} {n}");
     }
+    // The space has ridge (coefficient) and tree (impurity) specs: the draws hold the
+    // best spec of each kind, one spec per draw and kind.
+    let mut per: std::collections::BTreeMap<(i64, String), Vec<String>> = Default::default();
+    for t in &tops {
+        per.entry((t.draw, t.kind.clone()))
+            .or_default()
+            .push(t.spec.clone());
+    }
+    for (k, specs) in &per {
+        assert!(specs.iter().all(|s| *s == specs[0]), "{k:?}: {specs:?}");
+    }
+    assert!(
+        (0..9).any(|d| per.contains_key(&(d, "coefficient".into()))
+            && per.contains_key(&(d, "impurity".into()))),
+        "no draw holds both kinds: {:?}",
+        per.keys().collect::<Vec<_>>()
+    );
 }
 
 #[test]

@@ -281,7 +281,12 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
     if let Some(n) = crate::nested::exec::plan_text(&p.cfg, &p.panel, &p.space, fits, estimate) {
         t.push_str(&n);
     }
-    if let Some(ns) = p.cfg.null.as_ref().and_then(|n| n.check().ok()) {
+    if let Some(ns) = p
+        .cfg
+        .null
+        .as_ref()
+        .and_then(|n| n.check(&p.cfg.map.metric).ok())
+    {
         t.push_str(&crate::null::plan::lines(
             &ns,
             p.space.specs.len(),

@@ -150,6 +150,16 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             n.seconds,
             a.out.join(forkmap::null::table::NULL_DIR).display()
         );
+        println!(
+            "           units never permuted (no other unit with their set of waves): {} of {}",
+            n.units_fixed, n.units
+        );
+        if n.units_fixed as f64 > forkmap::null::FIXED_WARN_SHARE * n.units as f64 {
+            println!(
+                "warning    null: {}",
+                forkmap::null::fixed_warning(n.units_fixed, n.units)
+            );
+        }
     } else if p.cfg.null.is_some() && a.shard.is_some() {
         println!("null       left to the gathered run: after `forkmap gather`, run `forkmap run CONFIG --out GATHERED` (the finished specs are not rerun; only the null runs)");
     }

@@ -374,7 +374,7 @@ impl Config {
             n.check().map_err(&err)?;
         }
         if let Some(n) = &cfg.null {
-            n.check().map_err(&err)?;
+            n.check(&cfg.map.metric).map_err(&err)?;
         }
         if cfg.output.batch_specs == 0 {
             return Err(err("output.batch_specs must be at least 1".into()));

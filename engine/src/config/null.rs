@@ -28,9 +28,10 @@ pub struct NullSection {
     /// draw's best spec is <= top_k (default 3).
     #[serde(default = "default_top_k")]
     pub top_k: usize,
-    /// Error the draws rank specs by: mae (default), rmse or unit_mae.
-    #[serde(default = "default_metric")]
-    pub metric: String,
+    /// Error the draws rank specs by: mae, rmse or unit_mae (default: `[map] metric`, the
+    /// report's metric).
+    #[serde(default)]
+    pub metric: Option<String>,
 }
 
 fn default_draws() -> usize {
@@ -39,9 +40,6 @@ fn default_draws() -> usize {
 fn default_top_k() -> usize {
     3
 }
-fn default_metric() -> String {
-    "mae".into()
-}
 
 impl Default for NullSection {
     fn default() -> Self {
@@ -49,7 +47,7 @@ impl Default for NullSection {
             draws: default_draws(),
             specs: None,
             top_k: default_top_k(),
-            metric: default_metric(),
+            metric: None,
         }
     }
 }
@@ -87,7 +85,9 @@ pub const MAX_DRAWS: usize = 100_000;
 
 impl NullSection {
     /// Check values into [`NullSettings`]; the message names the key at fault.
-    pub fn check(&self) -> Result<NullSettings, String> {
+    /// `map_metric` (`[map] metric`, the report's metric) is the metric when `metric` is
+    /// unset.
+    pub fn check(&self, map_metric: &str) -> Result<NullSettings, String> {
         use crate::error::suggest;
         if !(1..=MAX_DRAWS).contains(&self.draws) {
             return Err(format!(
@@ -110,13 +110,17 @@ impl NullSection {
                 self.top_k
             ));
         }
-        let metric = match self.metric.as_str() {
+        let (key, metric) = match &self.metric {
+            Some(m) => ("null.metric", m.as_str()),
+            None => ("map.metric (the default of null.metric)", map_metric),
+        };
+        let metric = match metric {
             "mae" => NullMetric::Mae,
             "rmse" => NullMetric::Rmse,
             "unit_mae" => NullMetric::UnitMae,
             other => {
                 return Err(format!(
-                    "null.metric = \"{other}\"{}: one of {}",
+                    "{key} = \"{other}\"{}: the null ranks by one of {}",
                     suggest(other, NULL_METRICS.iter().copied()),
                     NULL_METRICS.join(", ")
                 ))

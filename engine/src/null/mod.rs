@@ -33,32 +33,77 @@ use std::sync::Mutex;
 
 pub use crate::streams::{NULL_DRAWS as NULL_STREAM, NULL_SAMPLE as SAMPLE_STREAM};
 
+/// Units of a panel grouped for the permutation: units are exchanged only within a group
+/// of units observed in the same set of waves.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Exchange {
+    /// Rows of each unit, keyed by wave label.
+    pub unit_rows: Vec<BTreeMap<Option<String>, usize>>,
+    /// Units by their set of waves (BTreeMap: deterministic order).
+    pub groups: BTreeMap<Vec<Option<String>>, Vec<usize>>,
+}
+
+/// Above this share of units that cannot be exchanged, the run and the page warn: a rule
+/// of thumb of our own (cold review S7), not a published threshold.
+pub const FIXED_WARN_SHARE: f64 = 0.2;
+
+impl Exchange {
+    /// Group the units of `panel`; errors if a unit has two rows with one wave.
+    pub fn of(panel: &Panel) -> Result<Exchange> {
+        let mut unit_rows: Vec<BTreeMap<Option<String>, usize>> =
+            vec![BTreeMap::new(); panel.n_units()];
+        for (r, (&u, w)) in panel.row_unit.iter().zip(&panel.row_wave).enumerate() {
+            if unit_rows[u].insert(w.clone(), r).is_some() {
+                return Err(Error::Data {
+                    file: "<null>".into(),
+                    msg: format!(
+                        "unit '{}' has two rows for wave {:?}; cannot permute units",
+                        panel.units[u],
+                        w.as_deref().unwrap_or("<none>")
+                    ),
+                });
+            }
+        }
+        let mut groups: BTreeMap<Vec<Option<String>>, Vec<usize>> = BTreeMap::new();
+        for (u, rows) in unit_rows.iter().enumerate() {
+            groups
+                .entry(rows.keys().cloned().collect())
+                .or_default()
+                .push(u);
+        }
+        Ok(Exchange { unit_rows, groups })
+    }
+
+    /// Units.
+    pub fn units(&self) -> usize {
+        self.unit_rows.len()
+    }
+
+    /// Units alone in their group (no other unit has their set of waves): a permutation
+    /// never moves their outcome.
+    pub fn fixed_units(&self) -> usize {
+        self.groups.values().filter(|g| g.len() == 1).count()
+    }
+
+    /// Whether the share of fixed units is above [`FIXED_WARN_SHARE`].
+    pub fn warn(&self) -> bool {
+        self.fixed_units() as f64 > FIXED_WARN_SHARE * self.units() as f64
+    }
+}
+
+/// The warning printed (and shown on the page) when too many units cannot be exchanged.
+pub fn fixed_warning(fixed: usize, units: usize) -> String {
+    format!(
+        "{fixed} of {units} units ({:.0}%) have no other unit observed in the same set of waves, so the null never permutes their outcome: the test is conservative (it loses power, p drifts toward 1). Warned above {:.0}% of units, a rule of thumb of our own.",
+        100.0 * fixed as f64 / units.max(1) as f64,
+        100.0 * FIXED_WARN_SHARE
+    )
+}
+
 /// The outcome of `panel` permuted across units (waves of a unit move together), with the
 /// standard error, if any, moved alongside. Errors if a unit has two rows with one wave.
 pub fn permute_units(panel: &Panel, seed: u64) -> Result<Panel> {
-    // rows of each unit, keyed by wave label
-    let mut unit_rows: Vec<BTreeMap<Option<String>, usize>> =
-        vec![BTreeMap::new(); panel.n_units()];
-    for (r, (&u, w)) in panel.row_unit.iter().zip(&panel.row_wave).enumerate() {
-        if unit_rows[u].insert(w.clone(), r).is_some() {
-            return Err(Error::Data {
-                file: "<null>".into(),
-                msg: format!(
-                    "unit '{}' has two rows for wave {:?}; cannot permute units",
-                    panel.units[u],
-                    w.as_deref().unwrap_or("<none>")
-                ),
-            });
-        }
-    }
-    // units grouped by their set of waves (BTreeMap: deterministic order)
-    let mut groups: BTreeMap<Vec<Option<String>>, Vec<usize>> = BTreeMap::new();
-    for (u, rows) in unit_rows.iter().enumerate() {
-        groups
-            .entry(rows.keys().cloned().collect())
-            .or_default()
-            .push(u);
-    }
+    let Exchange { unit_rows, groups } = Exchange::of(panel)?;
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
     let mut y = panel.y.clone();
     let mut se = panel.se.clone();

@@ -34,10 +34,11 @@ pub fn lines(
     let est = sweep_seconds * d as f64 * s as f64 / space_specs.max(1) as f64;
     let _ = writeln!(
         t,
-        "        estimated null time: {} (the sweep's estimate x {d} draws x {s}/{space_specs} specs{})",
+        "        estimated null time: {} (the sweep's estimate x {d} draws x {s}/{space_specs} specs; an upper bound: \
+         stages that do not read the outcome are fitted once per fold and shared by every draw{})",
         human(est),
         if sweep_importance {
-            "; an upper bound: the sweep's estimate includes permutation importances, which the null does not compute"
+            "; and the sweep's estimate includes permutation importances, which the null does not compute"
         } else {
             ""
         }

@@ -9,7 +9,7 @@
 //! the new count (draw d depends only on the seed and d) and removes those above it.
 
 use super::table::{self, DrawRow, TopRow, DRAWS, TOPS};
-use super::{draw_seed, permute_units, sample_specs};
+use super::{draw_seed, permute_units, sample_specs, Exchange};
 use crate::config::importance::ImportanceSection;
 use crate::config::null::NullSettings;
 use crate::error::{Error, Result};
@@ -32,6 +32,9 @@ pub struct NullInput<'a> {
     /// The run's identity: canonical config, data sha256 (the version is added here).
     pub run_config: serde_json::Value,
     pub data_sha256: String,
+    /// Fit the stages that do not read the outcome once per fold and share them across
+    /// draws (the tables are bit-identical either way; `run` sets it, tests compare).
+    pub share_stages: bool,
 }
 
 /// What a null run did.
@@ -44,7 +47,16 @@ pub struct NullSummary {
     pub seconds: f64,
     /// Why the null restarted, when it did (names the key).
     pub restarted: Option<String>,
+    /// Units, and of them those alone in their exchangeable group (never permuted).
+    pub units: usize,
+    pub units_fixed: usize,
 }
+
+/// What every draw keeps as observed (cold review S7).
+pub const HELD_FIXED: &str = "held fixed in every draw: the indicators (x) and their gaps, the folds, each unit's set of waves, the weights that do not read the outcome (rows, units), and the outcome's values within each wave (so per-wave means and common trends between x and the outcome through the wave survive). Weights derived from the outcome or its standard error (which moves with it) are refitted on the permuted outcome, in-fold. The null is: no within-wave, between-unit association between the indicators and the outcome";
+
+/// Version of the null's table layout (a null written under another restarts).
+pub const LAYOUT: u32 = 2;
 
 /// The null's identity (every setting but `draws`, and the run's identity).
 pub fn identity(inp: &NullInput) -> serde_json::Value {
@@ -55,6 +67,8 @@ pub fn identity(inp: &NullInput) -> serde_json::Value {
         "specs": inp.settings.specs,
         "top_k": inp.settings.top_k,
         "metric": inp.settings.metric.name(),
+        // 2: `tops` holds the best spec of each native kind (`spec` column).
+        "layout": LAYOUT,
     })
 }
 
@@ -63,7 +77,8 @@ fn differs(old: &serde_json::Value, new: &serde_json::Value) -> Option<String> {
     for (key, what) in [
         ("specs", "null.specs"),
         ("top_k", "null.top_k"),
-        ("metric", "null.metric"),
+        ("metric", "null.metric (or map.metric, its default)"),
+        ("layout", "null table layout"),
         ("version", "forkmap version"),
         ("data_sha256", "data file (sha256)"),
         ("config", "run config"),
@@ -161,6 +176,7 @@ fn open(
 fn write_manifest(
     null_dir: &Path,
     inp: &NullInput,
+    ex: &Exchange,
     subset: &[usize],
     status: &str,
     done: usize,
@@ -175,7 +191,11 @@ fn write_manifest(
         "specs_in_space": inp.space.specs.len(),
         "spec_ids": subset.iter().map(|&i| inp.space.specs[i].id.as_str()).collect::<Vec<_>>(),
         "permutation": "the outcome (and its standard error) is permuted across units; a unit's waves move together; units are exchanged only with units observed in the same set of waves",
-        "top": "an indicator (group) is top in a draw when its native-importance rank in the draw's best spec (lowest error among the specs with native importances) is <= top_k and its importance is > 0",
+        "held_fixed": HELD_FIXED,
+        "units": ex.units(),
+        "exchange_groups": ex.groups.len(),
+        "units_fixed": ex.fixed_units(),
+        "top": "for each native importance kind (coefficient, impurity), the draw's best spec of that kind (lowest error among the specs whose native importance is of that kind) gives one set of tops rows; an indicator (group) is top when its rank there is <= top_k and its importance is > 0. The report uses the kind of the observed top spec only",
         "p_value": "p = (1 + #{draws at least as extreme as observed}) / (1 + D) (the +1 correction counts the observed data as one permutation)",
         "seconds_this_invocation": seconds,
         "tables": [format!("{}/{DRAWS}", table::NULL_DIR), format!("{}/{TOPS}", table::NULL_DIR)],
@@ -201,10 +221,11 @@ pub fn run_null(
     let ident = identity(inp);
     let (complete, restarted) = open(&null_dir, &ident, draws)?;
     let subset = sample(inp);
+    let ex = Exchange::of(inp.panel)?;
     if let (Some(why), false) = (&restarted, quiet) {
         eprintln!("forkmap: null: {why}: its earlier draws are discarded and the null restarts (the sweep's results are kept)");
     }
-    write_manifest(&null_dir, inp, &subset, "running", complete.len(), 0.0)?;
+    write_manifest(&null_dir, inp, &ex, &subset, "running", complete.len(), 0.0)?;
     let todo: Vec<u64> = (0..draws)
         .filter(|d| complete.binary_search(d).is_err())
         .collect();
@@ -222,6 +243,9 @@ pub fn run_null(
         );
     }
     let progress = Mutex::new(Progress::new(todo.len() * subset.len(), quiet));
+    let cache = inp
+        .share_stages
+        .then(|| std::sync::Arc::new(crate::sweep::cache::StageCache::default()));
     // Draws run side by side (each one's sweep is parallel too); each is written as soon
     // as it is done. A draw depends only on the seed and d, so the tables do not depend
     // on the order draws finish in or on the thread count.
@@ -229,7 +253,7 @@ pub fn run_null(
         use rayon::prelude::*;
         pool.install(|| {
             todo.par_iter().try_for_each(|&d| {
-                let (row, tops) = one_draw(inp, &subset, d, pool, &progress)?;
+                let (row, tops) = one_draw(inp, &subset, d, pool, &progress, cache.clone())?;
                 table::write_draw(&null_dir, &row, &tops)
             })
         })?;
@@ -238,13 +262,23 @@ pub fn run_null(
         p.finish();
     }
     let seconds = t0.elapsed().as_secs_f64();
-    write_manifest(&null_dir, inp, &subset, "complete", draws as usize, seconds)?;
+    write_manifest(
+        &null_dir,
+        inp,
+        &ex,
+        &subset,
+        "complete",
+        draws as usize,
+        seconds,
+    )?;
     Ok(NullSummary {
         draws: draws as usize,
         ran: todo.len(),
         specs_per_draw: subset.len(),
         seconds,
         restarted,
+        units: ex.units(),
+        units_fixed: ex.fixed_units(),
     })
 }
 
@@ -256,18 +290,22 @@ struct Got {
     importance: Vec<crate::importance::ImportanceRow>,
 }
 
-/// Run draw `d`: permute, sweep the sample with native importances, summarise.
+/// Run draw `d`: permute, sweep the sample with native importances, summarise. `cache`
+/// (one per null run) shares the outcome-independent stage fits across draws.
 pub fn one_draw(
     inp: &NullInput,
     subset: &[usize],
     d: u64,
     pool: &rayon::ThreadPool,
     progress: &Mutex<Progress>,
+    cache: Option<std::sync::Arc<crate::sweep::cache::StageCache>>,
 ) -> Result<(DrawRow, Vec<TopRow>)> {
     let seed = draw_seed(inp.seed, d);
     let permuted = permute_units(inp.panel, seed)?;
     let mut sweep = Sweep::new(&permuted, inp.space, inp.folds, inp.seed, Some(subset))?;
     sweep.describe = false;
+    // Only the outcome differs between draws: stages that do not read it are shared.
+    sweep.stage_cache = cache;
     sweep.importance = Some(ImportanceSection {
         repeats: 0,
         kinds: vec!["native".into()],
@@ -330,7 +368,6 @@ fn summarise_draw(
     };
     // Lowest error, lowest spec index on ties (`got` is sorted by spec).
     let best = argmin(ok.iter().copied());
-    let top_spec = argmin(ok.iter().copied().filter(|g| !g.importance.is_empty()));
     let best_skill = got
         .iter()
         .map(|g| g.skill)
@@ -338,22 +375,36 @@ fn summarise_draw(
         .fold(f64::NAN, f64::max);
     let id = |g: &Got| inp.space.specs[g.spec].id.clone();
     let k = inp.settings.top_k;
-    let tops = top_spec
-        .map(|g| {
-            g.importance
-                .iter()
-                .map(|r| TopRow {
-                    draw: d as i64,
-                    level: r.level.to_string(),
-                    kind: r.kind.to_string(),
-                    name: r.name.to_string(),
-                    importance: r.importance,
-                    rank: r.rank as i64,
-                    top: r.rank <= k && r.importance > 0.0,
-                })
-                .collect()
-        })
-        .unwrap_or_default();
+    // One set of rows per native kind: the best spec among those holding that kind (the
+    // report keeps the observed top spec's kind, so a draw's top is never of another kind).
+    let mut kinds: Vec<&str> = ok
+        .iter()
+        .flat_map(|g| g.importance.iter().map(|r| r.kind))
+        .collect();
+    kinds.sort_unstable();
+    kinds.dedup();
+    let mut tops = Vec::new();
+    for kind in kinds {
+        let holds = |g: &&Got| g.importance.iter().any(|r| r.kind == kind);
+        if let Some(g) = argmin(ok.iter().copied().filter(holds)) {
+            let spec = id(g);
+            tops.extend(
+                g.importance
+                    .iter()
+                    .filter(|r| r.kind == kind)
+                    .map(|r| TopRow {
+                        draw: d as i64,
+                        spec: spec.clone(),
+                        level: r.level.to_string(),
+                        kind: r.kind.to_string(),
+                        name: r.name.to_string(),
+                        importance: r.importance,
+                        rank: r.rank as i64,
+                        top: r.rank <= k && r.importance > 0.0,
+                    }),
+            );
+        }
+    }
     let row = DrawRow {
         draw: d as i64,
         seed: format!("{seed:016x}"),
@@ -368,7 +419,6 @@ fn summarise_draw(
         specs: n_specs as i64,
         n_ok: ok.len() as i64,
         best_spec: best.map(id),
-        top_spec: top_spec.map(id),
     };
     (row, tops)
 }

@@ -2,8 +2,9 @@
 //! written atomically (temporary file, fsync, rename):
 //!
 //! * `draws/draw-NNNNNN.parquet`: one row per draw (what the draw's sweep says).
-//! * `tops/draw-NNNNNN.parquet`: one row per indicator (and codebook group) of the draw:
-//!   its native-importance rank in the draw's best spec and whether it is top-k.
+//! * `tops/draw-NNNNNN.parquet`: per native importance kind (`coefficient`, `impurity`),
+//!   one row per indicator (and codebook group): its rank in the draw's best spec of that
+//!   kind and whether it is top-k.
 //!
 //! The `tops` file of a draw is written before its `draws` file, so a draw is complete
 //! exactly when its `draws` file exists.
@@ -45,15 +46,15 @@ pub struct DrawRow {
     pub n_ok: i64,
     /// Spec id of the draw's best spec (lowest error, lowest id on ties).
     pub best_spec: Option<String>,
-    /// Spec id whose native importances give the draw's `tops` rows: the best spec
-    /// among those with native importances.
-    pub top_spec: Option<String>,
 }
 
 /// One row of `null/tops`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TopRow {
     pub draw: i64,
+    /// Spec id whose native importances give the row: the draw's best spec (lowest error,
+    /// lowest index on ties) among the specs whose native importance is of `kind`.
+    pub spec: String,
     /// `indicator` or `group`.
     pub level: String,
     /// Native importance kind of the spec: `coefficient` or `impurity`.
@@ -84,6 +85,7 @@ pub fn write_draw(null_dir: &Path, row: &DrawRow, tops: &[TopRow]) -> Result<()>
     let name = format!("draw-{:06}", row.draw);
     Cols::default()
         .i("draw", tops.iter().map(|t| t.draw))
+        .s("spec", tops.iter().map(|t| &t.spec))
         .s("level", tops.iter().map(|t| &t.level))
         .s("kind", tops.iter().map(|t| &t.kind))
         .s("name", tops.iter().map(|t| &t.name))
@@ -108,7 +110,6 @@ pub fn write_draw(null_dir: &Path, row: &DrawRow, tops: &[TopRow]) -> Result<()>
         .i("specs", r.iter().map(|t| t.specs))
         .i("n_ok", r.iter().map(|t| t.n_ok))
         .os("best_spec", r.iter().map(|t| t.best_spec.clone()))
-        .os("top_spec", r.iter().map(|t| t.top_spec.clone()))
         .write(&null_dir.join(DRAWS), &name)?;
     Ok(())
 }
@@ -183,7 +184,6 @@ pub fn read_draws(null_dir: &Path) -> Result<Vec<DrawRow>> {
             let specs = col::<Int64Array>(b, &path, "specs")?;
             let n_ok = col::<Int64Array>(b, &path, "n_ok")?;
             let best = col::<StringArray>(b, &path, "best_spec")?;
-            let top = col::<StringArray>(b, &path, "top_spec")?;
             let os = |a: &StringArray, i: usize| (!a.is_null(i)).then(|| a.value(i).to_string());
             for i in 0..b.num_rows() {
                 out.push(DrawRow {
@@ -199,7 +199,6 @@ pub fn read_draws(null_dir: &Path) -> Result<Vec<DrawRow>> {
                     specs: specs.value(i),
                     n_ok: n_ok.value(i),
                     best_spec: os(best, i),
-                    top_spec: os(top, i),
                 });
             }
             Ok(())
@@ -217,6 +216,7 @@ pub fn read_tops(null_dir: &Path, draws: &[u64]) -> Result<Vec<TopRow>> {
         }
         each_batch(&path, |b| {
             let draw = col::<Int64Array>(b, &path, "draw")?;
+            let spec = col::<StringArray>(b, &path, "spec")?;
             let level = col::<StringArray>(b, &path, "level")?;
             let kind = col::<StringArray>(b, &path, "kind")?;
             let name = col::<StringArray>(b, &path, "name")?;
@@ -226,6 +226,7 @@ pub fn read_tops(null_dir: &Path, draws: &[u64]) -> Result<Vec<TopRow>> {
             for i in 0..b.num_rows() {
                 out.push(TopRow {
                     draw: draw.value(i),
+                    spec: spec.value(i).to_string(),
                     level: level.value(i).to_string(),
                     kind: kind.value(i).to_string(),
                     name: name.value(i).to_string(),

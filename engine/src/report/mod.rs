@@ -80,7 +80,7 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
         h.insert(h.len().saturating_sub(1), nested::headline(&n));
         built.report.nested = Some(n);
     }
-    built.report.null = null::analyse(set, &t)?;
+    built.report.null = null::analyse(set, &t, &built.report.meta.metric)?;
     if let Some(n) = &built.report.null {
         // before the closing cautions sentence
         let h = &mut built.report.headline;

@@ -8,9 +8,11 @@
 //!   extreme" meaning a null error <= the observed one (ties count), and `D` the complete
 //!   draws. The +1 correction counts the observed data as one of the permutations, so p is
 //!   never 0 and its smallest value is 1/(1 + D).
-//! * Indicators: an indicator (group) is "top" when its native-importance rank in the best
-//!   spec (lowest error among the sample's specs holding native importances) is <= top_k
-//!   and its importance > 0; the same rule in the observed run and in every draw. Its
+//! * Indicators: the observed top spec is the best of the sample's specs holding native
+//!   importances; its kind (`coefficient` or `impurity`) is then fixed, and each draw's top
+//!   spec is the draw's best spec of that kind (review S9: kinds are never mixed). An
+//!   indicator (group) is "top" when its rank there is <= top_k and its importance > 0,
+//!   the same rule in the observed run and in every draw. Its
 //!   chance rate is the share of draws where it is top (about top_k names are top in each
 //!   draw, so the rates average about top_k / names). No per-indicator p-value is given:
 //!   one for the names that came out top would be selected after the fact (under the
@@ -47,7 +49,14 @@ pub struct NullReport {
     /// The observed spec whose native importances decide "top" (None: no sample spec
     /// holds native importances).
     pub top_spec: Option<String>,
+    /// Its native importance kind: every draw's top is the draw's best spec of this kind.
+    pub top_kind: Option<String>,
+    /// Draws that hold a spec of that kind (the others count as "not top" for every name).
+    pub draws_with_kind: usize,
     pub indicators: Vec<NullIndicator>,
+    /// Units, and of them those never permuted (alone in their set of waves).
+    pub units: usize,
+    pub units_fixed: usize,
     /// Notes (an incomplete null, specs missing from the observed run).
     pub notes: Vec<String>,
 }
@@ -67,7 +76,7 @@ pub struct NullIndicator {
 const NATIVE: [&str; 2] = ["coefficient", "impurity"];
 
 /// The null of a whole-space run read as `set` (its tables `t`), when it has one.
-pub fn analyse(set: &RunSet, t: &RunTables) -> Result<Option<NullReport>> {
+pub fn analyse(set: &RunSet, t: &RunTables, report_metric: &str) -> Result<Option<NullReport>> {
     // The null lives in a whole-space run directory (a shard never runs it).
     let Some(dir) = set.dirs.iter().find(|d| d.shard.is_none()) else {
         return Ok(None);
@@ -108,10 +117,23 @@ pub fn analyse(set: &RunSet, t: &RunTables) -> Result<Option<NullReport>> {
         null_median: draws.iter().map(|d| d.median_error).collect(),
         ..Default::default()
     };
+    n.units = m["units"].as_u64().unwrap_or(0) as usize;
+    n.units_fixed = m["units_fixed"].as_u64().unwrap_or(0) as usize;
+    if n.units_fixed as f64 > crate::null::FIXED_WARN_SHARE * n.units as f64 {
+        n.notes.push(format!(
+            "Warning: permutation null: {}",
+            crate::null::fixed_warning(n.units_fixed, n.units)
+        ));
+    }
     if n.draws < asked {
         n.notes.push(format!(
             "The null is incomplete: {} of {asked} draws (rerun the same `forkmap run` to finish it); the p-values use the draws present.",
             n.draws
+        ));
+    }
+    if metric != report_metric {
+        n.notes.push(format!(
+            "The null ranks specs by {metric} (null.metric), the report by {report_metric}: the null's statistics and its top spec are those of {metric}."
         ));
     }
     // Observed: the sample's ok specs in the run, by spec index of `t`.
@@ -178,12 +200,29 @@ pub fn analyse(set: &RunSet, t: &RunTables) -> Result<Option<NullReport>> {
                 );
             }
         }
+        n.top_kind = Some(kind);
     }
+    // Chance: only the draws' tops of the observed top's kind (each draw's best spec
+    // among the specs of that kind), so every draw's top is of the same kind.
     let mut chance: BTreeMap<(String, String), usize> = BTreeMap::new();
-    for r in &tops {
+    let mut with_kind: Vec<i64> = Vec::new();
+    for r in tops.iter().filter(|r| Some(&r.kind) == n.top_kind.as_ref()) {
+        with_kind.push(r.draw);
         let e = chance.entry((r.level.clone(), r.name.clone())).or_default();
         if r.top {
             *e += 1;
+        }
+    }
+    with_kind.sort_unstable();
+    with_kind.dedup();
+    n.draws_with_kind = with_kind.len();
+    if let Some(kind) = &n.top_kind {
+        if n.draws_with_kind < n.draws {
+            n.notes.push(format!(
+                "Null tops: {} of {} draws have no ok spec with {kind} importances; they count as draws where no name is top.",
+                n.draws - n.draws_with_kind,
+                n.draws
+            ));
         }
     }
     let mut keys: Vec<(String, String)> = observed.keys().chain(chance.keys()).cloned().collect();
@@ -291,6 +330,10 @@ pub fn write_tables(n: &NullReport, dir: &Path) -> Result<Vec<PathBuf>> {
     let i = Cols::default()
         .s("level", ind.iter().map(|r| r.level.as_str()))
         .s("name", ind.iter().map(|r| r.name.as_str()))
+        .s(
+            "kind",
+            ind.iter().map(|_| n.top_kind.as_deref().unwrap_or("")),
+        )
         .i(
             "observed_rank",
             ind.iter().map(|r| r.observed_rank.map_or(-1, i64::from)),

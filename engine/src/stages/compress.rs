@@ -167,6 +167,9 @@ pub struct NmfFitted {
 }
 
 impl Stage for Nmf {
+    fn reads_outcome(&self) -> bool {
+        false
+    }
     fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
         let (n, p) = input.x.dim();
         if self.k > p || self.k > n {
@@ -235,6 +238,9 @@ pub struct PcaFitted {
 }
 
 impl Stage for Identity {
+    fn reads_outcome(&self) -> bool {
+        false
+    }
     fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
         Ok(Arc::new(IdentityFitted {
             names: input.names.to_vec(),
@@ -329,6 +335,9 @@ impl Pca {
 }
 
 impl Stage for Pca {
+    fn reads_outcome(&self) -> bool {
+        false
+    }
     fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
         Ok(Arc::new(self.fit_pca(input.x, input.names)?))
     }

@@ -35,6 +35,13 @@ pub struct StageInput<'a> {
 /// An unfitted stage option with checked parameters.
 pub trait Stage: Send + Sync {
     fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError>;
+    /// Whether the fit reads the outcome (`StageInput::y`). A stage that does not may be
+    /// fitted once per fold and shared by sweeps that differ only in the outcome (the
+    /// permutation null's draws). The default, `true`, never shares: a stage says `false`
+    /// only when its fit reads `x`, `rows` and `names` alone.
+    fn reads_outcome(&self) -> bool {
+        true
+    }
 }
 
 /// A fitted stage: a pure transform of rows.

@@ -111,6 +111,10 @@ fn top_k(scores: &[f64], k: usize) -> Vec<usize> {
 }
 
 impl Stage for Pool {
+    /// A fixed pool reads names only; `screen` scores columns against the outcome.
+    fn reads_outcome(&self) -> bool {
+        matches!(self, Pool::Screen(_))
+    }
     fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
         let columns: Vec<usize> = match self {
             Pool::Fixed(members) => {

@@ -58,6 +58,9 @@ struct Affine {
 }
 
 impl Stage for Scale {
+    fn reads_outcome(&self) -> bool {
+        false
+    }
     fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
         let n = input.x.nrows();
         if n == 0 {

@@ -35,6 +35,7 @@ use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::sync::Arc;
 use std::time::Instant;
 
+pub mod cache;
 mod nest;
 mod spec;
 
@@ -215,6 +216,9 @@ pub struct Sweep<'a> {
     /// it (default [`crate::importance::DRAWS_BUDGET`]; 0 shares nothing). The results
     /// are the same whatever the budget; it only saves work.
     pub draws_budget: usize,
+    /// Fits of stages that do not read the outcome, shared with other sweeps of the same
+    /// indicators, folds and space (the null's draws); `None` (default) shares nothing.
+    pub stage_cache: Option<Arc<cache::StageCache>>,
     roots: Vec<TargetNode>,
     models: Vec<Arc<dyn Regressor>>,
     ctx: Vec<FoldCtx>,
@@ -331,6 +335,7 @@ impl<'a> Sweep<'a> {
             describe: true,
             draws_budget: crate::importance::DRAWS_BUDGET,
             importance: None,
+            stage_cache: None,
             roots,
             models,
             ctx,
@@ -421,7 +426,7 @@ impl<'a> Sweep<'a> {
             });
             root.children
                 .par_iter()
-                .for_each(|n| self.run_node(n, &base, whole.as_ref(), emit));
+                .for_each(|n| self.run_node(n, &base, whole.as_ref(), emit, "", true));
         });
     }
 
@@ -472,14 +477,22 @@ impl<'a> Sweep<'a> {
         })
     }
 
+    /// Run `node` and everything below it. `path` names the node's parent in the tree
+    /// (the stage cache's key) and `shared` says whether every stage above reads the
+    /// indicators only (then this node's fit may come from [`Sweep::stage_cache`]).
     fn run_node(
         &self,
         node: &Node,
         parent: &[FoldState],
         whole: Option<&Whole>,
         emit: &(dyn Fn(SpecResult) + Sync),
+        path: &str,
+        shared: bool,
     ) {
         let step = Dim::STAGES[node.level];
+        let path = format!("{path}\u{1f}{}", node.label);
+        let shared = shared && !node.stage.reads_outcome();
+        let cache = self.stage_cache.as_deref().filter(|_| shared);
         let permutes = self
             .importance
             .as_ref()
@@ -499,18 +512,35 @@ impl<'a> Sweep<'a> {
                     rows: &p.train_rows,
                     names: &p.names,
                 };
-                let t0 = std::time::Instant::now();
-                let fitted = self
-                    .fit_stage(step, fi, node.stage.as_ref(), &input)
-                    .map_err(|e| (fi, e))?;
-                let (train, test) = guarded(|| {
-                    Ok((
-                        fitted.apply_rows(p.train.view(), Some(&p.train_rows)),
-                        fitted.apply_rows(p.test.view(), Some(&p.test_rows)),
-                    ))
-                })
-                .map_err(|e| (fi, e))?;
-                self.add_stage_time(t0);
+                let (fitted, train, test) = match cache.and_then(|c| c.get(&path, fi)) {
+                    Some(hit) => (hit.fitted.clone(), hit.train.clone(), hit.test.clone()),
+                    None => {
+                        let t0 = std::time::Instant::now();
+                        let fitted = self
+                            .fit_stage(step, fi, node.stage.as_ref(), &input)
+                            .map_err(|e| (fi, e))?;
+                        let (train, test) = guarded(|| {
+                            Ok((
+                                fitted.apply_rows(p.train.view(), Some(&p.train_rows)),
+                                fitted.apply_rows(p.test.view(), Some(&p.test_rows)),
+                            ))
+                        })
+                        .map_err(|e| (fi, e))?;
+                        self.add_stage_time(t0);
+                        if let Some(c) = cache {
+                            c.put(
+                                &path,
+                                fi,
+                                cache::Entry {
+                                    fitted: fitted.clone(),
+                                    train: train.clone(),
+                                    test: test.clone(),
+                                },
+                            );
+                        }
+                        (fitted, train, test)
+                    }
+                };
                 let fold = &self.folds.folds[fi];
                 let mut notes = p.notes.clone();
                 notes.extend(fitted.notes().into_iter().map(|n| {
@@ -579,7 +609,7 @@ impl<'a> Sweep<'a> {
         self.add_stage_time(t0);
         node.children
             .par_iter()
-            .for_each(|c| self.run_node(c, &states, next.as_ref(), emit));
+            .for_each(|c| self.run_node(c, &states, next.as_ref(), emit, &path, shared));
         let loadings = next
             .filter(|_| node.level + 1 == Dim::STAGES.len())
             .map(|w| {

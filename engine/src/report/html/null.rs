@@ -2,6 +2,22 @@
 
 use super::*;
 
+/// Units never permuted, and the warning when too many (a rule of thumb of our own).
+fn fixed_text(n: &crate::report::null::NullReport) -> String {
+    let count = format!(
+        "Units never permuted (no other unit observed in the same set of waves): {} of {}.",
+        n.units_fixed, n.units
+    );
+    if n.units_fixed as f64 > crate::null::FIXED_WARN_SHARE * n.units as f64 {
+        format!(
+            "{count} Warning: {}",
+            crate::null::fixed_warning(n.units_fixed, n.units)
+        )
+    } else {
+        count
+    }
+}
+
 pub(super) fn tables(r: &Report) -> Vec<Table> {
     let Some(n) = &r.null else {
         return Vec::new();
@@ -22,12 +38,16 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         format!(
             "Each of the {} draws permutes the outcome across units (a unit's waves move together; units are exchanged \
              only with units observed in the same waves) and reruns {sample}; the observed statistics use the same specs \
-             and the {} error. p = (1 + number of draws at least as good as observed) / (1 + {}): the +1 correction \
+             and the {} error. Held fixed in every draw: the indicators and their gaps, the folds, each unit's set of \
+             waves, the weights that do not read the outcome, and the outcome's values within each wave (so per-wave \
+             means and trends shared through the wave survive); weights derived from the outcome are refitted on the \
+             permuted one. The null tested is therefore no within-wave, between-unit association. {} p = (1 + number of draws at least as good as observed) / (1 + {}): the +1 correction \
              counts the observed data as one permutation, so the smallest possible p is {}. A small p says the best \
              (or median) error is lower than the outcome-shuffled data give by searching the same specs; it says \
              nothing about which spec or indicator matters.{}",
             n.draws,
             n.metric,
+            fixed_text(n),
             n.draws,
             num(1.0 / (1.0 + n.draws as f64)),
             if n.draws < n.draws_asked {
@@ -73,17 +93,18 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         "null_indicators.parquet",
         format!(
             "An indicator (group) is top when its native-importance rank in the best spec (lowest {} among the null's specs \
-             holding native importances{}) is at most {} and its importance is above 0, in the observed run and in each \
-             draw alike. Chance = share of the {} draws where it is top. About top_k names are top in every draw, so \
+             holding native importances{}) is at most {} and its importance is above 0. That spec's kind is then fixed: in \
+             each draw the top comes from the draw's best spec of the same kind, so kinds are never mixed. Chance = share \
+             of the {} draws where it is top (a draw without an ok spec of that kind counts as not top). About top_k names are top in every draw, so \
              the chance rates average about top_k / (number of names): a rate for a name picked because it came out top \
              is not a p-value for it (no test here survives that selection). These rates stand in for the report's conclusions under the null: \
              the null keeps only each draw's best spec's native importances, so the support of a conclusion over the \
              good set is not recomputed per draw.",
             n.metric,
-            n.top_spec
-                .as_ref()
-                .map(|s| format!("; observed: spec {s}"))
-                .unwrap_or_default(),
+            match (&n.top_spec, &n.top_kind) {
+                (Some(s), Some(k)) => format!("; observed: spec {s}, {k} importance"),
+                _ => String::new(),
+            },
             n.top_k,
             n.draws
         ),

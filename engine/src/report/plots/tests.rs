@@ -195,6 +195,7 @@ pub(crate) fn sample(n_specs: usize) -> Report {
             top_spec: Some("abc".into()),
             indicators: vec![],
             notes: vec![],
+            ..Default::default()
         }),
     }
 }

@@ -312,6 +312,9 @@ pub fn nan_euclidean(a: ArrayView1<f64>, b: ArrayView1<f64>) -> Option<f64> {
 }
 
 impl Stage for Fill {
+    fn reads_outcome(&self) -> bool {
+        false
+    }
     fn fit(&self, input: &StageInput) -> Result<Arc<dyn Fitted>, FitError> {
         let n = input.x.nrows().max(1) as f64;
         let mut keep = Vec::new();
