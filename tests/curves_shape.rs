@@ -206,7 +206,13 @@ fn pipeline_jump_line_absent_and_duplicates() {
         "{:?}",
         t.interval
     );
-    assert!(t.groups.is_some());
+    let (g, _) = t.groups.as_ref().expect("the detailed tree has subgroups");
+    assert_eq!(t.cluster_shapes.len(), g.k);
+    // One cluster here (every unit's curve is the same step): its shape is the member's.
+    if g.k == 1 {
+        assert_eq!(t.cluster_shapes[0].kind, Kind::Jump);
+        assert_eq!(t.cluster_shapes[0].breakpoint, t.shape.breakpoint);
+    }
     assert_eq!(of(ols).shape.kind, Kind::Line, "{:?}", of(ols).shape);
     assert!(of(ols).shape.breakpoint.is_nan() && of(ols).interval.draws == 0);
     let c = of(core);

@@ -59,6 +59,8 @@ pub struct SpecCurve {
     pub same_as: Option<usize>,
     /// Subgroups of units (only with ICE kept) and each cluster's own hinge.
     pub groups: Option<(super::Subgroups, Vec<Option<super::Hinge>>)>,
+    /// Each subgroup's own shape, chosen like the member's (empty without subgroups).
+    pub cluster_shapes: Vec<Shape>,
 }
 
 /// The whole pass.
@@ -179,6 +181,9 @@ pub fn compute(
                 };
                 let groups = (keep && holds)
                     .then(|| unit_groups(&m, &panel.row_unit, panel.n_units(), grid, s.seed));
+                let cluster_shapes = groups.as_ref().map_or(Vec::new(), |(g, _)| {
+                    cluster_shapes(&m, &panel.row_unit, &g.labels, g.k, grid, tol)
+                });
                 out.push(SpecCurve {
                     spec: si,
                     indicator: c,
@@ -190,6 +195,7 @@ pub fn compute(
                     interval,
                     same_as: None,
                     groups,
+                    cluster_shapes,
                 });
             }
             Ok(out)
@@ -281,4 +287,27 @@ pub fn unit_groups(
         })
         .collect();
     (sg, hinges)
+}
+
+/// Each cluster's shape: [`choose`] on the mean curve of its units' rows (`labels` per
+/// unit, clusters 0..k; an empty cluster is flat).
+pub fn cluster_shapes(
+    m: &Array2<f64>,
+    row_unit: &[usize],
+    labels: &[usize],
+    k: usize,
+    grid: &[f64],
+    tol: f64,
+) -> Vec<Shape> {
+    (0..k)
+        .map(|c| {
+            let rows: Vec<usize> = (0..row_unit.len())
+                .filter(|&r| labels.get(row_unit[r]) == Some(&c))
+                .collect();
+            if rows.is_empty() {
+                return Shape::none(Kind::Flat);
+            }
+            choose(grid, &pd(&m.select(ndarray::Axis(0), &rows)), tol)
+        })
+        .collect()
 }

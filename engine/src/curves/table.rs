@@ -11,8 +11,9 @@
 //!   pd_lo, pd_hi, level (the band over the distinct curves of the members holding it).
 //! - `signs`: indicator, members, holding, distinct, rises, falls, flat, turns (shares of
 //!   the distinct curves of the members holding the indicator).
-//! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_breakpoint,
-//!   cluster_slope_left, cluster_slope_right, distance, bound, departs.
+//! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_shape,
+//!   cluster_breakpoint, cluster_jump, cluster_slope_left, cluster_slope_right, distance,
+//!   bound, departs (each cluster's shape chosen like a member's).
 //! - `observed`: indicator, unit, wave (nullable), value (NaN when missing): the chosen
 //!   indicators' observed values.
 //! - `curves.json`: the settings and the members' rule (written last, read by the report).
@@ -180,11 +181,16 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         Vec::new(),
     );
     let mut dep = Vec::new();
+    let mut shapes: (Vec<String>, Vec<f64>) = Default::default();
     for sc in cs {
-        let Some((g, hs)) = &sc.groups else { continue };
+        let Some((g, _)) = &sc.groups else { continue };
         for (u, name) in panel.units.iter().enumerate() {
             let k = g.labels[u];
-            let hk = hs.get(k).copied().flatten();
+            let hk = sc.cluster_shapes.get(k);
+            shapes
+                .0
+                .push(hk.map_or("flat", |x| x.kind.name()).to_string());
+            shapes.1.push(hk.map_or(nan, |x| x.jump));
             t.0.push(ids[sc.spec].clone());
             t.1.push(ind(sc.indicator));
             t.2.push(name.clone());
@@ -206,7 +212,9 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .i("cluster", t.3)
         .i("k", t.4)
         .f("silhouette", f.0)
+        .s("cluster_shape", shapes.0)
         .f("cluster_breakpoint", f.1)
+        .f("cluster_jump", shapes.1)
         .f("cluster_slope_left", f.2)
         .f("cluster_slope_right", f.3)
         .f("distance", f.4)

@@ -18,6 +18,8 @@ pub const CURVES_DIR: &str = "curves";
 pub struct ShapeCluster {
     pub cluster: usize,
     pub units: Vec<String>,
+    /// The cluster's own shape (line, hinge, jump, flat) and its breakpoint (NaN without).
+    pub shape: String,
     pub breakpoint: f64,
     pub slope_left: f64,
     pub slope_right: f64,
@@ -302,6 +304,7 @@ fn read_clusters(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicato
             f("bound")?,
         );
         let dep = col::<BooleanArray>(b, "departs", &p)?;
+        let cshape = col::<StringArray>(b, "cluster_shape", &p)?;
         for r in 0..b.num_rows() {
             if id.value(r) != best {
                 continue;
@@ -322,6 +325,7 @@ fn read_clusters(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicato
             }
             let sc = &mut s.clusters[c];
             sc.units.push(unit.value(r).to_string());
+            sc.shape = cshape.value(r).to_string();
             (sc.breakpoint, sc.slope_left, sc.slope_right) =
                 (cbp.value(r), csl.value(r), csr.value(r));
             if dep.value(r) {

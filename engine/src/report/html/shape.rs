@@ -28,9 +28,11 @@ pub(super) fn section(report: &Report, h: &mut String) {
          tolerance across the grid and no reversal against it is larger than the tolerance; else it turns. \
          Shape: a straight line, a continuous hinge (two slopes meeting at a breakpoint) and a jump (two separate \
          lines split between neighbouring grid points) are fitted by least squares; the hinge or the jump is kept \
-         only when it has the lowest BIC on the grid points (the breakpoint counted as a parameter, common \
-         practice) and departs from the line by more than the flat tolerance somewhere (our own rule); else the \
-         curve has no breakpoint. The range given with a breakpoint is a {:.0}% unit-composition range: the \
+         only when its BIC on the grid points (the breakpoint counted as a parameter, common practice) is below \
+         the line's by more than 6 (strong evidence on the scale of Kass and Raftery 1995) and its two segments \
+         differ by more than the flat tolerance somewhere right of the breakpoint (our own rule); of the two, \
+         the lower BIC wins. Otherwise the curve has no breakpoint. A jump lies between two grid points: it is \
+         placed midway and known only to that gap. The range given with a breakpoint is a {:.0}% unit-composition range: the \
          curve is recomputed from {} bootstrap resamples of units with the fitted model held fixed and its shape chosen \
          again, and the range covers the resamples that keep the same shape (their share is given). It says how \
          much the bend depends on which units are in the data, not how sure the threshold is: the model is not \
@@ -101,7 +103,7 @@ pub(super) fn section(report: &Report, h: &mut String) {
             "Subgroups of units (best spec)",
             "clusters.parquet",
             format!(
-                "k = {} (mean silhouette {}); each cluster's own breakpoint is fitted to the mean curve of its units' rows.",
+                "k = {} (mean silhouette {}); each cluster's own shape and breakpoint are chosen on the mean curve of its units' rows, as for a member (no breakpoint for a line or a flat curve).",
                 s.k.max(1),
                 num(s.silhouette)
             ),
@@ -109,6 +111,7 @@ pub(super) fn section(report: &Report, h: &mut String) {
         .cols(&[
             ("cluster", true),
             ("units", true),
+            ("shape", false),
             ("breakpoint", true),
             ("slope left", true),
             ("slope right", true),
@@ -128,6 +131,7 @@ pub(super) fn section(report: &Report, h: &mut String) {
             t.push(vec![
                 c.cluster.to_string(),
                 c.units.len().to_string(),
+                escape(&c.shape),
                 num(c.breakpoint),
                 num(c.slope_left),
                 num(c.slope_right),
@@ -217,6 +221,12 @@ fn best_text(s: &crate::report::shape::ShapeIndicator, level: f64) -> String {
             escape(&s.shape)
         )
     };
+    // The grid points either side of a jump.
+    let gap = s
+        .grid
+        .windows(2)
+        .find(|w| w[0] < s.breakpoint && s.breakpoint < w[1])
+        .map_or((f64::NAN, f64::NAN), |w| (w[0], w[1]));
     match s.shape.as_str() {
         "absent" => "The best spec's pool does not hold the indicator: it has no curve, shape or breakpoint for it."
             .to_string(),
@@ -237,9 +247,11 @@ fn best_text(s: &crate::report::shape::ShapeIndicator, level: f64) -> String {
             range()
         ),
         _ => format!(
-            "The best spec's curve {dir}; it jumps by {} at {} (midway between the grid points on either side; \
-             slope {} left of it, {} right of it). {}.",
+            "The best spec's curve {dir}; it jumps by {} between the grid points {} and {} (placed at {}; slope \
+             {} left of it, {} right of it). {}.",
             num(s.jump),
+            num(gap.0),
+            num(gap.1),
             num(s.breakpoint),
             num(s.slope_left),
             num(s.slope_right),
