@@ -259,3 +259,48 @@ fn the_composition_range_reselects_the_shape() {
     assert!(c.lo <= s.breakpoint && s.breakpoint <= c.hi, "{c:?} {s:?}");
     let _ = (ice, fit_all);
 }
+
+/// The sign claims: over the distinct curves of the members holding the indicator, with
+/// the counts in words; none for an indicator no member holds; marked, with no
+/// `support_good`, when the curves' members come from another good-set rule.
+#[test]
+fn sign_claims_count_holding_distinct_curves_and_mark_another_rule() {
+    use forkmap::report::conclusions::signs;
+    use forkmap::report::shape::{Shape, ShapeIndicator};
+    let held = ShapeIndicator {
+        name: "a".into(),
+        members: 20,
+        holding: 12,
+        distinct: 6,
+        falls: 1.0,
+        ..Default::default()
+    };
+    let none = ShapeIndicator {
+        name: "b".into(),
+        members: 20,
+        ..Default::default()
+    };
+    let sh = Shape {
+        rule: "ratio: mae <= (1 + 0.05) x best".into(),
+        good: "ratio".into(),
+        members: 20,
+        indicators: vec![held, none],
+        ..Default::default()
+    };
+    let c = signs(&sh, None);
+    assert_eq!(c.len(), 1, "no claim for an indicator no member holds");
+    let st = &c[0].statement;
+    assert!(
+        st.contains("a falls overall in 100% of 6 distinct curves"),
+        "{st}"
+    );
+    assert!(st.contains("12 of 20 members"), "{st}");
+    assert_eq!((c[0].support_good, c[0].n_good), (1.0, 6));
+    let m = signs(&sh, Some("margin"));
+    assert!(
+        m[0].statement.contains("not this report's margin good set"),
+        "{}",
+        m[0].statement
+    );
+    assert!(m[0].support_good.is_nan() && m[0].n_good == 0);
+}

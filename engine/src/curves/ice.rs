@@ -177,14 +177,18 @@ pub fn band(grid: &[f64], curves: &[Vec<f64>], q_lo: f64, q_hi: f64, tol: f64) -
         b.lo.push(q(&v, q_lo));
         b.hi.push(q(&v, q_hi));
     }
-    let n = curves.len().max(1) as f64;
+    // Counts first, then shares (so a share of all curves is exactly 1).
     for c in curves {
         match direction(grid, c, tol) {
-            Direction::Rises => b.rises += 1.0 / n,
-            Direction::Falls => b.falls += 1.0 / n,
-            Direction::Flat | Direction::Absent => b.flat += 1.0 / n,
-            Direction::Turns => b.turns += 1.0 / n,
+            Direction::Rises => b.rises += 1.0,
+            Direction::Falls => b.falls += 1.0,
+            Direction::Flat | Direction::Absent => b.flat += 1.0,
+            Direction::Turns => b.turns += 1.0,
         }
+    }
+    let n = curves.len().max(1) as f64;
+    for v in [&mut b.rises, &mut b.falls, &mut b.flat, &mut b.turns] {
+        *v /= n;
     }
     b
 }

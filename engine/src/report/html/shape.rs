@@ -228,7 +228,8 @@ fn best_text(s: &crate::report::shape::ShapeIndicator, level: f64) -> String {
         .find(|w| w[0] < s.breakpoint && s.breakpoint < w[1])
         .map_or((f64::NAN, f64::NAN), |w| (w[0], w[1]));
     match s.shape.as_str() {
-        "absent" => "The best spec's pool does not hold the indicator: it has no curve, shape or breakpoint for it."
+        "absent" => "The best spec's pool does not hold the indicator: its curve cannot move (it is drawn flat), so no \
+         shape, breakpoint or subgroups are given for it."
             .to_string(),
         "flat" | "" => {
             "The best spec's curve is flat (its range is within the flat tolerance): no shape or breakpoint."
