@@ -107,7 +107,7 @@ pub fn fit_line(x: &[f64], y: &[f64]) -> Option<(f64, f64, f64)> {
     let mx = x.iter().sum::<f64>() / nf;
     let my = y.iter().sum::<f64>() / nf;
     let sxx: f64 = x.iter().map(|v| (v - mx) * (v - mx)).sum();
-    if !(sxx > 0.0) {
+    if sxx.is_nan() || sxx <= 0.0 {
         return None;
     }
     let sxy: f64 = x.iter().zip(y).map(|(a, b)| (a - mx) * (b - my)).sum();

@@ -131,7 +131,7 @@ pub fn direction(grid: &[f64], curve: &[f64], tol: f64) -> Direction {
         return Direction::Flat;
     }
     let d = overall_change(grid, curve);
-    if !(d.abs() > tol) {
+    if d.is_nan() || d.abs() <= tol {
         return Direction::Turns;
     }
     if largest_reversal(curve, d > 0.0) > tol {
