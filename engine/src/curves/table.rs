@@ -17,6 +17,8 @@
 //! - `observed`: indicator, unit, wave (nullable), value (NaN when missing): the chosen
 //!   indicators' observed values.
 //! - `curves.json`: the settings and the members' rule (written last, read by the report).
+//!
+//! Undefined numbers (no breakpoint, no fit, no member holding the indicator) are null.
 
 use super::compute::Output;
 use crate::error::{Error, Result};
@@ -90,21 +92,21 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
             cs.iter().map(|c| c.direction.name().to_string()),
         )
         .s("shape", cs.iter().map(|c| c.shape.kind.name().to_string()))
-        .f("breakpoint", f(|c| c.shape.breakpoint))
-        .f("jump", f(|c| c.shape.jump))
-        .f("composition_lo", f(|c| c.interval.lo))
-        .f("composition_hi", f(|c| c.interval.hi))
+        .of("breakpoint", f(|c| c.shape.breakpoint))
+        .of("jump", f(|c| c.shape.jump))
+        .of("composition_lo", f(|c| c.interval.lo))
+        .of("composition_hi", f(|c| c.interval.hi))
         .i(
             "composition_draws",
             cs.iter().map(|c| c.interval.draws as i64),
         )
-        .f("composition_kept", f(|c| c.interval.kept))
-        .f("slope_left", f(|c| c.shape.slope_left))
-        .f("slope_right", f(|c| c.shape.slope_right))
-        .f("sse", f(|c| c.shape.sse))
-        .f("bic_line", f(|c| c.shape.bic[0]))
-        .f("bic_hinge", f(|c| c.shape.bic[1]))
-        .f("bic_jump", f(|c| c.shape.bic[2]))
+        .of("composition_kept", f(|c| c.interval.kept))
+        .of("slope_left", f(|c| c.shape.slope_left))
+        .of("slope_right", f(|c| c.shape.slope_right))
+        .of("sse", f(|c| c.shape.sse))
+        .of("bic_line", f(|c| c.shape.bic[0]))
+        .of("bic_hinge", f(|c| c.shape.bic[1]))
+        .of("bic_jump", f(|c| c.shape.bic[2]))
         .os(
             "same_as",
             cs.iter().map(|c| c.same_as.map(|i| ids[i].clone())),
@@ -136,9 +138,9 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .i("members", t.3)
         .i("holding", counts.0)
         .i("distinct", counts.1)
-        .f("pd_median", bb.0)
-        .f("pd_lo", bb.1)
-        .f("pd_hi", bb.2)
+        .of("pd_median", bb.0)
+        .of("pd_lo", bb.1)
+        .of("pd_hi", bb.2)
         .f("level", vec![level; n])
         .write(dir, "bands")?;
     let bs = &o.bands;
@@ -213,10 +215,10 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .i("k", t.4)
         .f("silhouette", f.0)
         .s("cluster_shape", shapes.0)
-        .f("cluster_breakpoint", f.1)
-        .f("cluster_jump", shapes.1)
-        .f("cluster_slope_left", f.2)
-        .f("cluster_slope_right", f.3)
+        .of("cluster_breakpoint", f.1)
+        .of("cluster_jump", shapes.1)
+        .of("cluster_slope_left", f.2)
+        .of("cluster_slope_right", f.3)
         .f("distance", f.4)
         .f("bound", f.5)
         .b("departs", dep)

@@ -160,6 +160,15 @@ pub fn read(set: &RunSet) -> Result<Option<Shape>> {
     }))
 }
 
+/// A number of a nullable column: NaN for null (undefined).
+fn fv(a: &Float64Array, r: usize) -> f64 {
+    if a.is_null(r) {
+        f64::NAN
+    } else {
+        a.value(r)
+    }
+}
+
 fn batches(dir: &Path, name: &str) -> Result<(std::path::PathBuf, Vec<arrow_array::RecordBatch>)> {
     let p = dir.join(format!("{name}.parquet"));
     let b = read_batches(&p)?;
@@ -179,9 +188,9 @@ fn read_bands(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<(
         for r in 0..b.num_rows() {
             if let Some(s) = by.get_mut(ind.value(r)) {
                 s.grid.push(g.value(r));
-                s.median.push(me.value(r));
-                s.lo.push(lo.value(r));
-                s.hi.push(hi.value(r));
+                s.median.push(fv(me, r));
+                s.lo.push(fv(lo, r));
+                s.hi.push(fv(hi, r));
             }
         }
     }
@@ -256,20 +265,20 @@ fn read_breakpoints(
                 continue;
             };
             // Duplicate fits (same_as set) and absent members (NaN) are not counted.
-            if bp.value(r).is_finite() && same.is_null(r) {
-                all.entry(s.name.clone()).or_default().push(bp.value(r));
+            if fv(bp, r).is_finite() && same.is_null(r) {
+                all.entry(s.name.clone()).or_default().push(fv(bp, r));
             }
             if id.value(r) == best {
                 s.direction = dirn.value(r).to_string();
                 s.shape = shape.value(r).to_string();
-                s.breakpoint = bp.value(r);
-                s.jump = jump.value(r);
-                s.composition_lo = lo.value(r);
-                s.composition_hi = hi.value(r);
+                s.breakpoint = fv(bp, r);
+                s.jump = fv(jump, r);
+                s.composition_lo = fv(lo, r);
+                s.composition_hi = fv(hi, r);
                 s.composition_draws = draws.value(r).max(0) as usize;
-                s.composition_kept = kept.value(r);
-                s.slope_left = sl.value(r);
-                s.slope_right = sr.value(r);
+                s.composition_kept = fv(kept, r);
+                s.slope_left = fv(sl, r);
+                s.slope_right = fv(sr, r);
             }
         }
     }
@@ -326,8 +335,7 @@ fn read_clusters(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicato
             let sc = &mut s.clusters[c];
             sc.units.push(unit.value(r).to_string());
             sc.shape = cshape.value(r).to_string();
-            (sc.breakpoint, sc.slope_left, sc.slope_right) =
-                (cbp.value(r), csl.value(r), csr.value(r));
+            (sc.breakpoint, sc.slope_left, sc.slope_right) = (fv(cbp, r), fv(csl, r), fv(csr, r));
             if dep.value(r) {
                 s.departing.push((unit.value(r).to_string(), dist.value(r)));
             }
