@@ -1,5 +1,5 @@
-//! Two-segment continuous hinge fitted by least squares, and a unit bootstrap of its
-//! breakpoint.
+//! Two-segment continuous hinge fitted by least squares, and the unit-composition range of
+//! a breakpoint (units resampled, model held fixed, the shape chosen again per resample).
 //!
 //! Model: y = a + b x + c max(0, x - t). For a fixed breakpoint t this is ordinary least
 //! squares in (a, b, c); t is searched over `SEARCH` evenly spaced candidates between the
