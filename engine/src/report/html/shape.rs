@@ -231,7 +231,8 @@ fn best_text(s: &crate::report::shape::ShapeIndicator, level: f64) -> String {
         "absent" => "The best spec's pool does not hold the indicator: its curve cannot move (it is drawn flat), so no \
          shape, breakpoint or subgroups are given for it."
             .to_string(),
-        "flat" | "" => {
+        "" => "The best spec is not among the specs drawn: no best curve.".to_string(),
+        "flat" => {
             "The best spec's curve is flat (its range is within the flat tolerance): no shape or breakpoint."
                 .to_string()
         }
