@@ -8,8 +8,8 @@ use crate::common::normals;
 use forkmap::config::Config;
 use forkmap::curves::compute::{compute, unit_groups, Settings};
 use forkmap::curves::{
-    bootstrap_breakpoint, centred, direction, fit_hinge, ice, pd, quantile_grid, silhouette,
-    subgroups, Direction,
+    bootstrap_breakpoint, centred, choose, direction, fit_hinge, ice, pd, quantile_grid,
+    silhouette, subgroups, Direction, Kind,
 };
 use forkmap::folds::{Fold, FoldPlan};
 use forkmap::panel::Panel;
@@ -18,7 +18,7 @@ use forkmap::sweep::{FittedSpec, Sweep};
 use ndarray::{Array1, Array2};
 use std::path::{Path, PathBuf};
 
-fn panel_of(y: Vec<f64>, cols: &[Vec<f64>]) -> Panel {
+pub(crate) fn panel_of(y: Vec<f64>, cols: &[Vec<f64>]) -> Panel {
     let n = y.len();
     let mut x = Array2::zeros((n, cols.len()));
     for (j, c) in cols.iter().enumerate() {
@@ -36,7 +36,7 @@ fn panel_of(y: Vec<f64>, cols: &[Vec<f64>]) -> Panel {
     .unwrap()
 }
 
-fn prepared(panel: Panel, choices: &str) -> forkmap::run::Prepared {
+pub(crate) fn prepared(panel: Panel, choices: &str) -> forkmap::run::Prepared {
     let text = format!("seed = 5\n[data]\nfile = \"unused.csv\"\nunit = \"u\"\noutcome = \"y\"\n[folds]\nk = 5\n{choices}");
     let cfg = Config::from_toml(&text, Path::new("."), "<test>").unwrap();
     let space = ChoiceSpace::build(&cfg, &panel).unwrap();
@@ -51,7 +51,7 @@ fn prepared(panel: Panel, choices: &str) -> forkmap::run::Prepared {
 }
 
 /// Fit spec `si` on all rows (one fold holding every row for training).
-fn fit_all(p: &forkmap::run::Prepared, si: usize) -> FittedSpec {
+pub(crate) fn fit_all(p: &forkmap::run::Prepared, si: usize) -> FittedSpec {
     let n = p.panel.n_rows();
     let plan = FoldPlan {
         folds: vec![Fold {
@@ -155,7 +155,7 @@ fn ols_partial_dependence_is_the_raw_slope() {
         for r in 1..n {
             assert!((c[[r, 5]] - c[[0, 5]]).abs() < 1e-8);
         }
-        assert_eq!(direction(&curve, 0.01), Direction::Rises);
+        assert_eq!(direction(&grid, &curve, 0.01), Direction::Rises);
     }
 }
 
@@ -230,12 +230,16 @@ fn bootstrap_interval_covers_the_breakpoint_and_is_seeded() {
             m[[r, j]] = 2.0 + 0.1 * g + 0.8 * (g - 5.0f64).max(0.0) + 0.2 * z[r * 16 + j];
         }
     }
-    let a = bootstrap_breakpoint(&grid, &m, &row_unit, nu, 100, 7, 0.9);
-    let b = bootstrap_breakpoint(&grid, &m, &row_unit, nu, 100, 7, 0.9);
+    let pd0 = pd(&m);
+    let shape = choose(&grid, &pd0, 0.05);
+    assert_eq!(shape.kind, Kind::Hinge, "{shape:?}");
+    let a = bootstrap_breakpoint(&grid, &m, &row_unit, nu, 100, 7, 0.9, 0.05, Kind::Hinge);
+    let b = bootstrap_breakpoint(&grid, &m, &row_unit, nu, 100, 7, 0.9, 0.05, Kind::Hinge);
     assert_eq!(a, b);
-    assert_eq!(a.2, 100);
-    assert!(a.0 <= 5.0 && 5.0 <= a.1, "{a:?}");
-    assert!(a.1 - a.0 < 2.0, "{a:?}");
+    assert_eq!(a.draws, 100);
+    assert!(a.kept > 0.9, "{a:?}");
+    assert!(a.lo <= 5.0 && 5.0 <= a.hi, "{a:?}");
+    assert!(a.hi - a.lo < 2.0, "{a:?}");
 }
 
 /// Silhouette on a worked example from its definition (Rousseeuw 1987: s = (b - a) /
@@ -350,15 +354,15 @@ fn compute_is_deterministic_across_threads() {
     for (ca, cb) in a.curves.iter().zip(&b.curves) {
         assert_eq!(ca.spec, cb.spec);
         assert_eq!(ca.pd, cb.pd);
-        assert_eq!(ca.hinge, cb.hinge);
-        assert_eq!(ca.interval, cb.interval);
+        assert_eq!(format!("{:?}", ca.shape), format!("{:?}", cb.shape));
+        assert_eq!(format!("{:?}", ca.interval), format!("{:?}", cb.interval));
         assert_eq!(ca.ice, cb.ice);
         assert_eq!(
             ca.groups.as_ref().map(|g| &g.0.labels),
             cb.groups.as_ref().map(|g| &g.0.labels)
         );
     }
-    let band0 = &a.bands[0].2;
+    let band0 = &a.bands[0].band;
     assert!((band0.rises - 1.0).abs() < 1e-12, "{band0:?}");
     assert!(a.curves.iter().filter(|c| c.ice.is_some()).count() == 2);
 }

@@ -2,10 +2,13 @@
 //! (tests/reference/shape.json, written by tests/reference/make_reference.py):
 //! scikit-learn's `silhouette_score` (Euclidean) and `KMeans` (n_init = 20) on fixed small
 //! datasets, and the hinge breakpoint against a brute-force numpy least-squares fit
-//! (`numpy.linalg.lstsq` at each of the same 200 candidate breakpoints).
+//! (`numpy.linalg.lstsq` at each of the same 200 candidate breakpoints), and the chosen
+//! shape (line, hinge, jump, flat) against the same rule computed with `numpy.linalg.lstsq`
+//! on each model's own design matrix (the jump as [1, x, 1[x>t], (x-t)+], not as two
+//! separate lines).
 
 use crate::common::{cases, close, f64s, matrix, reference};
-use forkmap::curves::{fit_hinge, kmeans, silhouette};
+use forkmap::curves::{choose, fit_hinge, kmeans, silhouette};
 
 fn labels(v: &serde_json::Value) -> Vec<usize> {
     v.as_array()
@@ -86,5 +89,40 @@ fn hinge_matches_a_brute_force_numpy_fit() {
             &what("slope right"),
         );
         close(h.sse, c["sse"].as_f64().unwrap(), 1e-8, &what("sse"));
+    }
+}
+
+#[test]
+fn shape_choice_matches_numpy_lstsq() {
+    let r = reference("shape.json");
+    for c in cases(&r["choose"], 6, "choose") {
+        let (x, y) = (f64s(&c["x"]), f64s(&c["y"]));
+        let name = c["name"].as_str().unwrap();
+        let s = choose(&x, &y, c["tol"].as_f64().unwrap());
+        assert_eq!(s.kind.name(), c["kind"].as_str().unwrap(), "{name}: {s:?}");
+        if s.kind.name() == "flat" {
+            assert!(s.breakpoint.is_nan() && s.slope_left.is_nan(), "{name}");
+            continue;
+        }
+        let what = |v: &str| format!("choose {name}: {v}");
+        let opt = |k: &str| c[k].as_f64().unwrap_or(f64::NAN);
+        if s.kind.bends() {
+            close(s.breakpoint, opt("breakpoint"), 1e-8, &what("breakpoint"));
+            close(s.jump, opt("jump"), 1e-7, &what("jump"));
+        } else {
+            assert!(s.breakpoint.is_nan() && c["breakpoint"].is_null(), "{name}");
+        }
+        close(s.slope_left, opt("slope_left"), 1e-7, &what("slope left"));
+        close(
+            s.slope_right,
+            opt("slope_right"),
+            1e-7,
+            &what("slope right"),
+        );
+        close(s.sse, opt("sse"), 1e-8, &what("sse"));
+        let bic = f64s(&c["bic"]);
+        for (k, w) in ["line", "hinge", "jump"].iter().enumerate() {
+            close(s.bic[k], bic[k], 1e-7, &what(&format!("bic {w}")));
+        }
     }
 }

@@ -114,7 +114,7 @@ fn run_draws_curves_by_default_and_the_report_shows_them() {
     .panel
     .n_rows();
     let want = format!(
-        "2 indicators x 8 grid points x {rows} rows = {} predictions, 1 fit on all rows, 100 bootstrap hinge fits",
+        "2 indicators x 8 grid points x {rows} rows = {} predictions, 1 fit on all rows, at most 100 bootstrap shape choices",
         2 * 8 * rows
     );
     assert!(out.contains(&want), "plan: {out}\nwanted: {want}");

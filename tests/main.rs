@@ -7,6 +7,7 @@ mod common;
 mod curves;
 mod curves_reference;
 mod curves_run;
+mod curves_shape;
 mod declare;
 mod determinism;
 mod end_to_end;

@@ -137,5 +137,36 @@ if os.path.exists(nested_settings) and os.path.exists(summary):
     check("duckdb: nested naive_all_error is the best of all specs", abs(got["naive_all_error"] - best_all) <= 1e-12 * best_all, f"{got['naive_all_error']} vs {best_all}")
     check("nested optimism = nested - naive", abs(got["optimism"] - (got["nested_error"] - got["naive_error"])) < 1e-12)
 
+# The curves (RUN_DIR/curves/): a breakpoint (null otherwise) only for a hinge or jump; absent members are
+# exactly the specs whose importance rows say the indicator is out of their pool; the
+# signs' counts and shares are over the distinct curves of the holding members.
+bp_path = os.path.join(run, "curves", "breakpoints.parquet")
+if os.path.exists(bp_path):
+    bad = con.execute(
+        f"""select count(*) from '{bp_path}' where (shape in ('hinge', 'jump')) = (breakpoint is null)
+            or (shape in ('hinge', 'jump')) <> (composition_draws > 0)
+            or (shape = 'absent') <> (direction = 'absent')"""
+    ).fetchone()[0]
+    check("duckdb: curves breakpoints only for a hinge or jump; absent shape iff absent direction", bad == 0, f"{bad} rows")
+    imp_path = os.path.join(run, "importance", "*.parquet")
+    mism = con.execute(
+        f"""select count(*) from '{bp_path}' b join
+            (select distinct spec_id, indicator, in_pool from '{imp_path}' where level = 'indicator') i
+            using (spec_id, indicator) where (b.direction = 'absent') = i.in_pool"""
+    ).fetchone()[0]
+    check("duckdb: curves absent iff the importance table has the indicator out of the pool", mism == 0, f"{mism} rows")
+    sg_path = os.path.join(run, "curves", "signs.parquet")
+    got = con.execute(
+        f"""select count(*) from '{sg_path}' s join
+            (select indicator, count(*) as members, count(*) filter (where direction <> 'absent') as holding,
+                    count(*) filter (where direction <> 'absent' and same_as is null) as distinct_,
+                    count(*) filter (where direction = 'rises' and same_as is null) as rises
+             from '{bp_path}' group by indicator) b using (indicator)
+            where s.members <> b.members or s.holding <> b.holding or s."distinct" <> b.distinct_
+               or abs(s.rises - b.rises / greatest(b.distinct_, 1)) > 1e-12
+               or (s."distinct" > 0 and abs(s.rises + s.falls + s.flat + s.turns - 1) > 1e-12)"""
+    ).fetchone()[0]
+    check("duckdb: curves signs count the distinct curves of the holding members", got == 0, f"{got} indicators")
+
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)

@@ -415,5 +415,74 @@ for t_true, noise, n in [(6.3, 0.0, 20), (2.5, 0.05, 12), (0.7, 0.3, 30), (4.0, 
         if best is None or sse < best[0]:
             best = (sse, float(t), float(z[1]), float(z[1] + z[2]))
     hinge_cases.append({"x": x.tolist(), "y": y.tolist(), "sse": best[0], "breakpoint": best[1], "slope_left": best[2], "slope_right": best[3]})
-dump("shape.json", {"silhouette": sil_cases, "kmeans": km_cases, "hinge": hinge_cases})
+
+# The curve's shape (engine/src/curves/bend.rs), computed here with numpy.linalg.lstsq on
+# each model's own design matrix: the line [1, x]; the continuous hinge [1, x, (x-t)+] at
+# the 200 candidates of the hinge above and at each gap's meeting point of the jump's two
+# lines; the jump [1, x, 1[x>t], (x-t)+] at each gap's midpoint (at least two points each
+# side). BIC = m ln(max(SSE, m (tol/100)^2) / m) + p ln m with p = 2, 4, 5; a hinge or jump
+# is kept when its BIC is below the line's by more than 6 and its right segment departs
+# from the left one carried on by more than tol at some grid point right of t.
+def lstsq_sse(a, y):
+    z, *_ = np.linalg.lstsq(a, y, rcond=None)
+    return z, float(((y - a @ z) ** 2).sum())
+
+
+def choose_shape(x, y, tol):
+    m = len(x)
+    if y.max() - y.min() <= tol:
+        return {"kind": "flat"}
+    one = np.ones(m)
+    floor = m * max(tol / 100, 1e-12 * max(1.0, np.abs(y).max())) ** 2
+    bic = lambda sse, p: m * np.log(max(sse, floor) / m) + p * np.log(m)
+    zl, sl = lstsq_sse(np.column_stack([one, x]), y)
+    out = {"kind": "line", "breakpoint": None, "slope_left": zl[1], "slope_right": zl[1], "jump": None, "sse": sl}
+    b = [bic(sl, 2), None, None]
+    cands = list(np.linspace(x[1], x[-2], 200))
+    for i in range(1, m - 2):
+        l, _ = lstsq_sse(np.column_stack([one[: i + 1], x[: i + 1]]), y[: i + 1])
+        r, _ = lstsq_sse(np.column_stack([one[i + 1 :], x[i + 1 :]]), y[i + 1 :])
+        if l[1] != r[1]:
+            t = (r[0] - l[0]) / (l[1] - r[1])
+            if x[i] <= t <= x[i + 1]:
+                cands.append(t)
+    h = None
+    for t in cands:
+        z, sse = lstsq_sse(np.column_stack([one, x, np.maximum(0, x - t)]), y)
+        if h is None or sse < h[0] - 1e-12 * max(h[0], 1e-300):
+            h = (sse, t, z[1], z[1] + z[2])
+    j = None
+    for i in range(1, m - 2):
+        t = 0.5 * (x[i] + x[i + 1])
+        z, sse = lstsq_sse(np.column_stack([one, x, (x > t) * 1.0, np.maximum(0, x - t)]), y)
+        if j is None or sse < j[0]:
+            j = (sse, t, z[1], z[1] + z[3], z[2])
+    b[1], b[2] = bic(h[0], 4), bic(j[0], 5)
+    best = b[0] - 6
+    dev_h = max(abs((h[3] - h[2]) * (v - h[1])) for v in x if v > h[1])
+    if b[1] < best and dev_h > tol:
+        best = b[1]
+        out.update(kind="hinge", breakpoint=h[1], slope_left=h[2], slope_right=h[3], jump=0.0, sse=h[0])
+    dev_j = max(abs(j[4] + (j[3] - j[2]) * (v - j[1])) for v in x if v > j[1])
+    if b[2] < best and dev_j > tol:
+        out.update(kind="jump", breakpoint=j[1], slope_left=j[2], slope_right=j[3], jump=j[4], sse=j[0])
+    out["bic"] = b
+    return {k: (float(v) if isinstance(v, (float, np.floating)) else v) for k, v in out.items()} | {"bic": [float(v) for v in b]}
+
+
+rng = np.random.default_rng(1919)
+shape_cases = []
+xs = np.sort(rng.uniform(0, 10, 20))
+for name, y, tol in [
+    ("step", 1.0 + 3.0 * (xs > 6.2) + rng.normal(0, 0.1, 20), 0.05),
+    ("step on a slope", 0.3 * xs + 2.0 * (xs > 2.9) + rng.normal(0, 0.05, 20), 0.05),
+    ("hinge", 1.0 + 0.2 * xs + 1.5 * np.maximum(0, xs - 6.3) + rng.normal(0, 0.05, 20), 0.05),
+    ("line", 3.0 - 0.8 * xs + rng.normal(0, 0.02, 20), 0.05),
+    ("small bend", 1.0 + 0.2 * xs + 0.01 * np.maximum(0, xs - 6.3), 0.05),
+    ("flat", 2.0 + rng.normal(0, 0.01, 20), 0.05),
+]:
+    c = choose_shape(xs, y, tol)
+    c.update(name=name, x=xs.tolist(), y=y.tolist(), tol=tol)
+    shape_cases.append(c)
+dump("shape.json", {"silhouette": sil_cases, "kmeans": km_cases, "hinge": hinge_cases, "choose": shape_cases})
 print(f"reference values written to {out}")

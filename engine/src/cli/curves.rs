@@ -134,14 +134,18 @@ pub fn print_summary(d: &pass::Drawn) {
         d.rule,
         d.indicators.len()
     );
-    for (name, (_, _, b)) in d.indicators.iter().zip(&d.output.bands) {
+    for (name, ib) in d.indicators.iter().zip(&d.output.bands) {
+        let b = &ib.band;
         println!(
-            "  {:<22} rises {:>5.1}%  falls {:>5.1}%  flat {:>5.1}%  turns {:>5.1}%",
+            "  {:<22} rises {:>5.1}%  falls {:>5.1}%  flat {:>5.1}%  turns {:>5.1}%  of {} distinct curves ({} of {} members hold it)",
             name,
             100.0 * b.rises,
             100.0 * b.falls,
             100.0 * b.flat,
-            100.0 * b.turns
+            100.0 * b.turns,
+            ib.distinct,
+            ib.holding,
+            ib.members
         );
     }
     println!("curves     {} ({:.1} s)", d.dir.display(), d.seconds);

@@ -3,7 +3,11 @@
 //! subgroups as in the sibling modules. Specs are processed in parallel (rayon) and
 //! gathered in input order, so results do not depend on the thread count.
 
-use super::{band, bootstrap_breakpoint, centred, direction, fit_hinge, ice, pd, quantile_grid};
+use super::bend::{choose, Kind, Shape};
+use super::hinge::Composition;
+use super::{
+    band, bootstrap_breakpoint, centred, direction, fit_hinge, ice, pd, quantile_grid, Direction,
+};
 use crate::error::{Error, Result};
 use crate::folds::{Fold, FoldPlan};
 use crate::run::Prepared;
@@ -45,20 +49,56 @@ pub struct SpecCurve {
     /// ICE (rows x grid); kept only for specs asked for in detail.
     pub ice: Option<Array2<f64>>,
     pub pd: Vec<f64>,
-    pub direction: &'static str,
-    pub hinge: Option<super::Hinge>,
-    /// Breakpoint interval (lo, hi, draws that fitted).
-    pub interval: (f64, f64, usize),
+    pub direction: Direction,
+    /// The chosen shape (line, hinge, jump, flat; absent when the pool lacks the indicator).
+    pub shape: Shape,
+    /// Unit-composition interval of the breakpoint (model held fixed; none without one).
+    pub interval: Composition,
+    /// The first earlier member (spec index) holding the indicator whose PD is the same
+    /// curve (equal within 1e-12 relative at every grid point), if any: a duplicate fit.
+    pub same_as: Option<usize>,
     /// Subgroups of units (only with ICE kept) and each cluster's own hinge.
     pub groups: Option<(super::Subgroups, Vec<Option<super::Hinge>>)>,
+    /// Each subgroup's own shape, chosen like the member's (empty without subgroups).
+    pub cluster_shapes: Vec<Shape>,
 }
 
 /// The whole pass.
 pub struct Output {
     pub tol: f64,
     pub curves: Vec<SpecCurve>,
-    /// Band per indicator over all specs.
-    pub bands: Vec<(usize, Vec<f64>, super::Band)>,
+    /// Band per indicator over the distinct curves of the members holding it.
+    pub bands: Vec<IndicatorBand>,
+}
+
+/// One indicator's band and counts.
+pub struct IndicatorBand {
+    pub indicator: usize,
+    pub grid: Vec<f64>,
+    pub band: super::Band,
+    /// Members (all), those whose pool holds the indicator, and the distinct curves among
+    /// the latter (the band and the shares are over these).
+    pub members: usize,
+    pub holding: usize,
+    pub distinct: usize,
+}
+
+/// Whether spec `si`'s pool holds panel column `c` (a screening pool chooses its columns
+/// when fitted, so it counts as holding every indicator).
+pub fn pool_holds(p: &Prepared, si: usize, c: usize) -> bool {
+    p.space.specs[si]
+        .choice("pool")
+        .members
+        .as_deref()
+        .is_none_or(|m| m.contains(&c))
+}
+
+/// Two PD curves are the same fit's when equal within 1e-12 relative at every point.
+fn same_curve(a: &[f64], b: &[f64]) -> bool {
+    a.len() == b.len()
+        && a.iter()
+            .zip(b)
+            .all(|(x, y)| (x - y).abs() <= 1e-12 * x.abs().max(y.abs()).max(1.0))
 }
 
 fn sd(v: &[f64]) -> f64 {
@@ -113,28 +153,49 @@ pub fn compute(
                 let grid = &grids[k];
                 let m = ice(&fitted, panel.x.view(), &all, c, grid);
                 let curve = pd(&m);
-                let hinge = fit_hinge(grid, &curve);
-                let interval = bootstrap_breakpoint(
-                    grid,
-                    &m,
-                    &panel.row_unit,
-                    panel.n_units(),
-                    s.resamples,
-                    s.seed,
-                    s.level,
-                );
-                let groups =
-                    keep.then(|| unit_groups(&m, &panel.row_unit, panel.n_units(), grid, s.seed));
+                let holds = pool_holds(p, si, c);
+                let dirn = if holds {
+                    direction(grid, &curve, tol)
+                } else {
+                    Direction::Absent
+                };
+                let shape = if holds {
+                    choose(grid, &curve, tol)
+                } else {
+                    Shape::none(Kind::Absent)
+                };
+                let interval = if shape.kind.bends() {
+                    bootstrap_breakpoint(
+                        grid,
+                        &m,
+                        &panel.row_unit,
+                        panel.n_units(),
+                        s.resamples,
+                        s.seed,
+                        s.level,
+                        tol,
+                        shape.kind,
+                    )
+                } else {
+                    Composition::none()
+                };
+                let groups = (keep && holds)
+                    .then(|| unit_groups(&m, &panel.row_unit, panel.n_units(), grid, s.seed));
+                let cluster_shapes = groups.as_ref().map_or(Vec::new(), |(g, _)| {
+                    cluster_shapes(&m, &panel.row_unit, &g.labels, g.k, grid, tol)
+                });
                 out.push(SpecCurve {
                     spec: si,
                     indicator: c,
                     grid: grid.clone(),
-                    direction: direction(&curve, tol).name(),
+                    direction: dirn,
                     ice: keep.then_some(m),
                     pd: curve,
-                    hinge,
+                    shape,
                     interval,
+                    same_as: None,
                     groups,
+                    cluster_shapes,
                 });
             }
             Ok(out)
@@ -144,17 +205,46 @@ pub fn compute(
     for r in per_spec {
         curves.extend(r?);
     }
+    // Duplicate fits: a holding member whose PD equals an earlier holding member's.
+    for i in 0..curves.len() {
+        if curves[i].direction == Direction::Absent {
+            continue;
+        }
+        let (earlier, rest) = curves.split_at_mut(i);
+        let me = &mut rest[0];
+        me.same_as = earlier
+            .iter()
+            .find(|o| {
+                o.indicator == me.indicator
+                    && o.direction != Direction::Absent
+                    && o.same_as.is_none()
+                    && same_curve(&o.pd, &me.pd)
+            })
+            .map(|o| o.spec);
+    }
     let a = (1.0 - s.level) / 2.0;
     let bands = indicators
         .iter()
         .enumerate()
         .map(|(k, &c)| {
-            let pds: Vec<Vec<f64>> = curves
+            let of: Vec<&SpecCurve> = curves.iter().filter(|sc| sc.indicator == c).collect();
+            let holding = of
                 .iter()
-                .filter(|sc| sc.indicator == c)
+                .filter(|sc| sc.direction != Direction::Absent)
+                .count();
+            let pds: Vec<Vec<f64>> = of
+                .iter()
+                .filter(|sc| sc.direction != Direction::Absent && sc.same_as.is_none())
                 .map(|sc| sc.pd.clone())
                 .collect();
-            (c, grids[k].clone(), band(&pds, a, 1.0 - a, tol))
+            IndicatorBand {
+                indicator: c,
+                grid: grids[k].clone(),
+                band: band(&grids[k], &pds, a, 1.0 - a, tol),
+                members: of.len(),
+                holding,
+                distinct: pds.len(),
+            }
         })
         .collect();
     Ok(Output { tol, curves, bands })
@@ -197,4 +287,27 @@ pub fn unit_groups(
         })
         .collect();
     (sg, hinges)
+}
+
+/// Each cluster's shape: [`choose`] on the mean curve of its units' rows (`labels` per
+/// unit, clusters 0..k; an empty cluster is flat).
+pub fn cluster_shapes(
+    m: &Array2<f64>,
+    row_unit: &[usize],
+    labels: &[usize],
+    k: usize,
+    grid: &[f64],
+    tol: f64,
+) -> Vec<Shape> {
+    (0..k)
+        .map(|c| {
+            let rows: Vec<usize> = (0..row_unit.len())
+                .filter(|&r| labels.get(row_unit[r]) == Some(&c))
+                .collect();
+            if rows.is_empty() {
+                return Shape::none(Kind::Flat);
+            }
+            choose(grid, &pd(&m.select(ndarray::Axis(0), &rows)), tol)
+        })
+        .collect()
 }

@@ -1,5 +1,5 @@
-//! Two-segment continuous hinge fitted by least squares, and a unit bootstrap of its
-//! breakpoint.
+//! Two-segment continuous hinge fitted by least squares, and the unit-composition range of
+//! a breakpoint (units resampled, model held fixed, the shape chosen again per resample).
 //!
 //! Model: y = a + b x + c max(0, x - t). For a fixed breakpoint t this is ordinary least
 //! squares in (a, b, c); t is searched over `SEARCH` evenly spaced candidates between the
@@ -94,10 +94,38 @@ pub fn fit_hinge(x: &[f64], y: &[f64]) -> Option<Hinge> {
 
 use crate::streams::CURVE_BOOTSTRAP as STREAM;
 
-/// Percentile interval (`level`, e.g. 0.9) of the hinge breakpoint over `b` unit
-/// resamples: each draw takes `n_units` units with replacement (ChaCha8 seeded with
-/// `mix(seed, STREAM)`), its PD is the mean of the drawn units' ICE rows (a unit drawn
-/// twice counts twice), and the hinge is refitted. Returns (lo, hi, draws that fitted).
+/// The unit-composition interval of a breakpoint: the model is held fixed, the units
+/// whose ICE rows make up the PD are resampled. `draws` resamples were run; `kept` is the
+/// share of them whose PD re-selects the same shape (hinge or jump, [`super::bend::choose`]);
+/// `lo`, `hi` are the percentile interval of those resamples' breakpoints (NaN when none
+/// keeps it).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Composition {
+    pub lo: f64,
+    pub hi: f64,
+    pub draws: usize,
+    pub kept: f64,
+}
+
+impl Composition {
+    /// No resampling (a curve without a breakpoint).
+    pub fn none() -> Composition {
+        Composition {
+            lo: f64::NAN,
+            hi: f64::NAN,
+            draws: 0,
+            kept: f64::NAN,
+        }
+    }
+}
+
+/// Unit-composition interval (`level`, e.g. 0.9) of the breakpoint of a curve of shape
+/// `kind` over `b` unit resamples: each draw takes `n_units` units with replacement
+/// (ChaCha8 seeded with `mix(seed, STREAM)`), its PD is the mean of the drawn units' ICE
+/// rows (a unit drawn twice counts twice), and the shape is chosen again with flat
+/// tolerance `tol`. The fitted model is not refitted: the interval says which units drive
+/// the shape of this model's curve, not how sure the threshold is.
+#[allow(clippy::too_many_arguments)]
 pub fn bootstrap_breakpoint(
     grid: &[f64],
     ice: &Array2<f64>,
@@ -106,7 +134,9 @@ pub fn bootstrap_breakpoint(
     b: usize,
     seed: u64,
     level: f64,
-) -> (f64, f64, usize) {
+    tol: f64,
+    kind: super::bend::Kind,
+) -> Composition {
     let m = grid.len();
     let mut sums = vec![vec![0.0; m]; n_units];
     let mut counts = vec![0.0; n_units];
@@ -118,6 +148,7 @@ pub fn bootstrap_breakpoint(
     }
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(mix(seed, STREAM));
     let mut bps = Vec::with_capacity(b);
+    let mut draws = 0;
     for _ in 0..b {
         let mut s = vec![0.0; m];
         let mut c = 0.0;
@@ -131,13 +162,24 @@ pub fn bootstrap_breakpoint(
         if c == 0.0 {
             continue;
         }
+        draws += 1;
         let curve: Vec<f64> = s.iter().map(|v| v / c).collect();
-        if let Some(h) = fit_hinge(grid, &curve) {
-            bps.push(h.breakpoint);
+        let sh = super::bend::choose(grid, &curve, tol);
+        if sh.kind == kind {
+            bps.push(sh.breakpoint);
         }
     }
     bps.sort_by(f64::total_cmp);
     let a = (1.0 - level) / 2.0;
     let q = crate::report::stats::quantile_sorted;
-    (q(&bps, a), q(&bps, 1.0 - a), bps.len())
+    Composition {
+        lo: q(&bps, a),
+        hi: q(&bps, 1.0 - a),
+        draws,
+        kept: if draws == 0 {
+            f64::NAN
+        } else {
+            bps.len() as f64 / draws as f64
+        },
+    }
 }

@@ -61,16 +61,22 @@ pub fn centred(ice: &Array2<f64>) -> Array2<f64> {
     c
 }
 
-/// Direction of a curve. Flatness rule: the curve's range (max - min) is at most `tol`
-/// (callers pass a share of the outcome's standard deviation). Otherwise it rises when its
-/// last value exceeds its first by more than `tol`, falls when it is below by more than
-/// `tol`, and else `turns` (it moves but ends where it began, within `tol`).
+/// Direction of a curve on its grid. **flat**: the curve's range (max - min) is at most
+/// `tol` (callers pass a share of the outcome's standard deviation). Otherwise the overall
+/// change is the least-squares slope of the curve over the grid points times the grid's
+/// span (the fitted line's rise from the first grid point to the last: a summary of every
+/// point, not of the two extreme ones). **rises** / **falls** when that change is above
+/// `tol` / below `-tol` and the largest reversal against it (the largest drop after an
+/// earlier higher value for a rising curve, the largest rise after an earlier lower value
+/// for a falling one) is at most `tol`; else **turns**. **absent** is set by the caller
+/// for a spec whose pool does not hold the indicator.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Direction {
     Rises,
     Falls,
     Flat,
     Turns,
+    Absent,
 }
 
 impl Direction {
@@ -80,30 +86,67 @@ impl Direction {
             Direction::Falls => "falls",
             Direction::Flat => "flat",
             Direction::Turns => "turns",
+            Direction::Absent => "absent",
         }
     }
 }
 
-pub fn direction(curve: &[f64], tol: f64) -> Direction {
-    let (Some(&a), Some(&b)) = (curve.first(), curve.last()) else {
-        return Direction::Flat;
-    };
-    let hi = curve.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    let lo = curve.iter().copied().fold(f64::INFINITY, f64::min);
-    if hi - lo <= tol {
-        Direction::Flat
-    } else if b - a > tol {
-        Direction::Rises
-    } else if a - b > tol {
-        Direction::Falls
-    } else {
-        Direction::Turns
+/// The overall change of `curve` over `grid`: least-squares slope times the grid's span
+/// (NaN when it cannot be fitted).
+pub fn overall_change(grid: &[f64], curve: &[f64]) -> f64 {
+    match (
+        super::bend::fit_line(grid, curve),
+        grid.first(),
+        grid.last(),
+    ) {
+        (Some((_, b, _)), Some(a), Some(z)) => b * (z - a),
+        _ => f64::NAN,
     }
 }
 
-/// Band of PD curves over a set of specs (all on the same grid): per grid point the
-/// median and the `lo`/`hi` quantiles (numpy linear), and the shares of curves by
-/// direction.
+/// The largest reversal of `curve` against direction `up` (see [`Direction`]).
+pub fn largest_reversal(curve: &[f64], up: bool) -> f64 {
+    let mut ext = f64::NAN;
+    let mut worst = 0.0f64;
+    for &v in curve {
+        if ext.is_nan() {
+            ext = v;
+            continue;
+        }
+        if up {
+            ext = ext.max(v);
+            worst = worst.max(ext - v);
+        } else {
+            ext = ext.min(v);
+            worst = worst.max(v - ext);
+        }
+    }
+    worst
+}
+
+pub fn direction(grid: &[f64], curve: &[f64], tol: f64) -> Direction {
+    let hi = curve.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let lo = curve.iter().copied().fold(f64::INFINITY, f64::min);
+    if curve.is_empty() || hi - lo <= tol {
+        return Direction::Flat;
+    }
+    let d = overall_change(grid, curve);
+    if d.is_nan() || d.abs() <= tol {
+        return Direction::Turns;
+    }
+    if largest_reversal(curve, d > 0.0) > tol {
+        Direction::Turns
+    } else if d > 0.0 {
+        Direction::Rises
+    } else {
+        Direction::Falls
+    }
+}
+
+/// Band of PD curves over a set of specs (all on `grid`): per grid point the median and
+/// the `lo`/`hi` quantiles (numpy linear), and the shares of curves by direction. Callers
+/// pass the curves to count (absent members and duplicate fits left out); with none, the
+/// band is NaN and the shares 0.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Band {
     pub median: Vec<f64>,
@@ -115,8 +158,8 @@ pub struct Band {
     pub turns: f64,
 }
 
-pub fn band(curves: &[Vec<f64>], q_lo: f64, q_hi: f64, tol: f64) -> Band {
-    let m = curves.first().map_or(0, Vec::len);
+pub fn band(grid: &[f64], curves: &[Vec<f64>], q_lo: f64, q_hi: f64, tol: f64) -> Band {
+    let m = grid.len();
     let mut b = Band {
         median: Vec::with_capacity(m),
         lo: Vec::with_capacity(m),
@@ -127,21 +170,25 @@ pub fn band(curves: &[Vec<f64>], q_lo: f64, q_hi: f64, tol: f64) -> Band {
         turns: 0.0,
     };
     for j in 0..m {
-        let mut v: Vec<f64> = curves.iter().map(|c| c[j]).collect();
+        let mut v: Vec<f64> = curves.iter().filter_map(|c| c.get(j).copied()).collect();
         v.sort_by(f64::total_cmp);
         let q = crate::report::stats::quantile_sorted;
         b.median.push(q(&v, 0.5));
         b.lo.push(q(&v, q_lo));
         b.hi.push(q(&v, q_hi));
     }
-    let n = curves.len().max(1) as f64;
+    // Counts first, then shares (so a share of all curves is exactly 1).
     for c in curves {
-        match direction(c, tol) {
-            Direction::Rises => b.rises += 1.0 / n,
-            Direction::Falls => b.falls += 1.0 / n,
-            Direction::Flat => b.flat += 1.0 / n,
-            Direction::Turns => b.turns += 1.0 / n,
+        match direction(grid, c, tol) {
+            Direction::Rises => b.rises += 1.0,
+            Direction::Falls => b.falls += 1.0,
+            Direction::Flat | Direction::Absent => b.flat += 1.0,
+            Direction::Turns => b.turns += 1.0,
         }
+    }
+    let n = curves.len().max(1) as f64;
+    for v in [&mut b.rises, &mut b.falls, &mut b.flat, &mut b.turns] {
+        *v /= n;
     }
     b
 }

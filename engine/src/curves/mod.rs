@@ -1,6 +1,7 @@
 //! Curves through the whole pipeline: individual conditional expectation (ICE) curves of a
 //! spec fitted on all rows, their mean (partial dependence, PD), centred ICE, the band of
-//! PD over a set of specs, a two-segment hinge with a unit-bootstrap interval for its
+//! PD over a set of specs, the curve's shape (flat, line, continuous hinge or jump, chosen
+//! by BIC: a breakpoint only when the data say so) with a unit-composition interval for its
 //! breakpoint, and subgroups of units from k-means on the centred curves.
 //!
 //! Everything here is a pure function of its inputs (and a stated seed): the results do
@@ -10,6 +11,7 @@
 //! missing gets the grid value like every other row: the curve sets the value, so the row
 //! is complete for that indicator (its other gaps are filled by the spec's own fill).
 
+pub mod bend;
 pub mod cluster;
 pub mod compute;
 pub mod hinge;
@@ -19,6 +21,7 @@ pub mod select;
 pub mod table;
 
 pub use crate::config::curves::{CurvesChecked, CurvesSection, Members};
+pub use bend::{choose, Kind, Shape};
 pub use cluster::{kmeans, silhouette, subgroups, Subgroups};
-pub use hinge::{bootstrap_breakpoint, fit_hinge, Hinge};
+pub use hinge::{bootstrap_breakpoint, fit_hinge, Composition, Hinge};
 pub use ice::{band, centred, direction, ice, pd, quantile_grid, Band, Direction};

@@ -175,11 +175,11 @@ pub fn cost(p: &Prepared, members: super::Members, top_k: usize, grid: usize, b:
     let specs = p.space.specs.len();
     match members {
         super::Members::Best => format!(
-            "curves: the best spec x {k} indicators x {grid} grid points x {rows} rows = {per} predictions, 1 fit on all rows, {} bootstrap hinge fits",
+            "curves: the best spec x {k} indicators x {grid} grid points x {rows} rows = {per} predictions, 1 fit on all rows, at most {} bootstrap shape choices (line, hinge, jump; only for curves with a breakpoint)",
             k * b
         ),
         super::Members::Good => format!(
-            "curves: per good-set member {k} indicators x {grid} grid points x {rows} rows = {per} predictions, 1 fit on all rows, {} bootstrap hinge fits; the good set's size is known after the sweep (at most {specs} specs: {} predictions)",
+            "curves: per good-set member {k} indicators x {grid} grid points x {rows} rows = {per} predictions, 1 fit on all rows, at most {} bootstrap shape choices (line, hinge, jump; only for curves with a breakpoint); the good set's size is known after the sweep (at most {specs} specs: {} predictions)",
             k * b,
             per * specs
         ),

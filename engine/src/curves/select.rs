@@ -21,8 +21,9 @@ pub fn best_and_good(t: &RunTables, metric: &str, eps: f64) -> Option<(String, V
     Some((t.spec_ids[best].clone(), good))
 }
 
-/// The `k` indicators with the largest mean importance over the specs holding it (those
-/// listed in `among` when any of them holds the kind), in the
+/// The `k` indicators with the largest mean importance over the specs holding the kind
+/// (those listed in `among` when any of them holds the kind; a spec without a finite
+/// importance for an indicator, e.g. one whose pool lacks it, counts as 0), in the
 /// report's primary indicator-level kind (permutation, else the kind most specs hold; ties
 /// by name); `None` when the run
 /// has no indicator-level importance.

@@ -4,15 +4,21 @@
 //! - `ice`: spec_id, indicator, unit, wave (nullable), grid_index, grid_value, prediction,
 //!   centred (the detailed specs only).
 //! - `pd`: spec_id, indicator, grid_index, grid_value, pd.
-//! - `breakpoints`: spec_id, indicator, direction, breakpoint, breakpoint_lo,
-//!   breakpoint_hi, draws, slope_left, slope_right, sse, flat_tolerance.
-//! - `bands`: indicator, grid_index, grid_value, members, pd_median, pd_lo, pd_hi, level.
-//! - `signs`: indicator, members, rises, falls, flat, turns (shares of member specs).
-//! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_breakpoint,
-//!   cluster_slope_left, cluster_slope_right, distance, bound, departs.
+//! - `breakpoints`: spec_id, indicator, direction, shape, breakpoint, jump,
+//!   composition_lo, composition_hi, composition_draws, composition_kept, slope_left,
+//!   slope_right, sse, bic_line, bic_hinge, bic_jump, same_as (nullable), flat_tolerance.
+//! - `bands`: indicator, grid_index, grid_value, members, holding, distinct, pd_median,
+//!   pd_lo, pd_hi, level (the band over the distinct curves of the members holding it).
+//! - `signs`: indicator, members, holding, distinct, rises, falls, flat, turns (shares of
+//!   the distinct curves of the members holding the indicator).
+//! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_shape,
+//!   cluster_breakpoint, cluster_jump, cluster_slope_left, cluster_slope_right, distance,
+//!   bound, departs (each cluster's shape chosen like a member's).
 //! - `observed`: indicator, unit, wave (nullable), value (NaN when missing): the chosen
 //!   indicators' observed values.
 //! - `curves.json`: the settings and the members' rule (written last, read by the report).
+//!
+//! Undefined numbers (no breakpoint, no fit, no member holding the indicator) are null.
 
 use super::compute::Output;
 use crate::error::{Error, Result};
@@ -76,37 +82,52 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .f("pd", t.4)
         .write(dir, "pd")?;
     // breakpoints
-    let nan = f64::NAN;
-    let h = |sc: &super::compute::SpecCurve, f: fn(&super::Hinge) -> f64| {
-        sc.hinge.as_ref().map_or(nan, f)
-    };
     let cs = &o.curves;
+    let f = |g: fn(&super::compute::SpecCurve) -> f64| cs.iter().map(g).collect::<Vec<f64>>();
     Cols::default()
         .s("spec_id", cs.iter().map(|c| ids[c.spec].clone()))
         .s("indicator", cs.iter().map(|c| ind(c.indicator)))
-        .s("direction", cs.iter().map(|c| c.direction.to_string()))
-        .f("breakpoint", cs.iter().map(|c| h(c, |x| x.breakpoint)))
-        .f("breakpoint_lo", cs.iter().map(|c| c.interval.0))
-        .f("breakpoint_hi", cs.iter().map(|c| c.interval.1))
-        .i("draws", cs.iter().map(|c| c.interval.2 as i64))
-        .f("slope_left", cs.iter().map(|c| h(c, |x| x.slope_left)))
-        .f("slope_right", cs.iter().map(|c| h(c, |x| x.slope_right)))
-        .f("sse", cs.iter().map(|c| h(c, |x| x.sse)))
+        .s(
+            "direction",
+            cs.iter().map(|c| c.direction.name().to_string()),
+        )
+        .s("shape", cs.iter().map(|c| c.shape.kind.name().to_string()))
+        .of("breakpoint", f(|c| c.shape.breakpoint))
+        .of("jump", f(|c| c.shape.jump))
+        .of("composition_lo", f(|c| c.interval.lo))
+        .of("composition_hi", f(|c| c.interval.hi))
+        .i(
+            "composition_draws",
+            cs.iter().map(|c| c.interval.draws as i64),
+        )
+        .of("composition_kept", f(|c| c.interval.kept))
+        .of("slope_left", f(|c| c.shape.slope_left))
+        .of("slope_right", f(|c| c.shape.slope_right))
+        .of("sse", f(|c| c.shape.sse))
+        .of("bic_line", f(|c| c.shape.bic[0]))
+        .of("bic_hinge", f(|c| c.shape.bic[1]))
+        .of("bic_jump", f(|c| c.shape.bic[2]))
+        .os(
+            "same_as",
+            cs.iter().map(|c| c.same_as.map(|i| ids[i].clone())),
+        )
         .f("flat_tolerance", vec![o.tol; cs.len()])
         .write(dir, "breakpoints")?;
     // bands and signs
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    let mut counts = (Vec::new(), Vec::new());
     let mut bb = (Vec::new(), Vec::new(), Vec::new());
-    for (c, grid, b) in &o.bands {
-        let members = cs.iter().filter(|s| s.indicator == *c).count() as i64;
-        for (j, &g) in grid.iter().enumerate() {
-            t.0.push(ind(*c));
+    for ib in &o.bands {
+        for (j, &g) in ib.grid.iter().enumerate() {
+            t.0.push(ind(ib.indicator));
             t.1.push(j as i64);
             t.2.push(g);
-            t.3.push(members);
-            bb.0.push(b.median[j]);
-            bb.1.push(b.lo[j]);
-            bb.2.push(b.hi[j]);
+            t.3.push(ib.members as i64);
+            counts.0.push(ib.holding as i64);
+            counts.1.push(ib.distinct as i64);
+            bb.0.push(ib.band.median[j]);
+            bb.1.push(ib.band.lo[j]);
+            bb.2.push(ib.band.hi[j]);
         }
     }
     let n = t.0.len();
@@ -115,30 +136,30 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .i("grid_index", t.1)
         .f("grid_value", t.2)
         .i("members", t.3)
-        .f("pd_median", bb.0)
-        .f("pd_lo", bb.1)
-        .f("pd_hi", bb.2)
+        .i("holding", counts.0)
+        .i("distinct", counts.1)
+        .of("pd_median", bb.0)
+        .of("pd_lo", bb.1)
+        .of("pd_hi", bb.2)
         .f("level", vec![level; n])
         .write(dir, "bands")?;
     let bs = &o.bands;
     Cols::default()
-        .s("indicator", bs.iter().map(|b| ind(b.0)))
-        .i(
-            "members",
-            bs.iter()
-                .map(|b| cs.iter().filter(|s| s.indicator == b.0).count() as i64),
-        )
-        .f("rises", bs.iter().map(|b| b.2.rises))
-        .f("falls", bs.iter().map(|b| b.2.falls))
-        .f("flat", bs.iter().map(|b| b.2.flat))
-        .f("turns", bs.iter().map(|b| b.2.turns))
+        .s("indicator", bs.iter().map(|b| ind(b.indicator)))
+        .i("members", bs.iter().map(|b| b.members as i64))
+        .i("holding", bs.iter().map(|b| b.holding as i64))
+        .i("distinct", bs.iter().map(|b| b.distinct as i64))
+        .f("rises", bs.iter().map(|b| b.band.rises))
+        .f("falls", bs.iter().map(|b| b.band.falls))
+        .f("flat", bs.iter().map(|b| b.band.flat))
+        .f("turns", bs.iter().map(|b| b.band.turns))
         .write(dir, "signs")?;
     // observed values of the chosen indicators (the report's rug)
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
     for b in &o.bands {
         for r in 0..panel.n_rows() {
-            let v = panel.x[[r, b.0]];
-            t.0.push(ind(b.0));
+            let v = panel.x[[r, b.indicator]];
+            t.0.push(ind(b.indicator));
             t.1.push(panel.units[panel.row_unit[r]].clone());
             t.2.push(panel.row_wave[r].clone());
             t.3.push(v);
@@ -151,6 +172,7 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .f("value", t.3)
         .write(dir, "observed")?;
     // clusters
+    let nan = f64::NAN;
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());
     let mut f = (
         Vec::new(),
@@ -161,11 +183,16 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         Vec::new(),
     );
     let mut dep = Vec::new();
+    let mut shapes: (Vec<String>, Vec<f64>) = Default::default();
     for sc in cs {
-        let Some((g, hs)) = &sc.groups else { continue };
+        let Some((g, _)) = &sc.groups else { continue };
         for (u, name) in panel.units.iter().enumerate() {
             let k = g.labels[u];
-            let hk = hs.get(k).copied().flatten();
+            let hk = sc.cluster_shapes.get(k);
+            shapes
+                .0
+                .push(hk.map_or("flat", |x| x.kind.name()).to_string());
+            shapes.1.push(hk.map_or(nan, |x| x.jump));
             t.0.push(ids[sc.spec].clone());
             t.1.push(ind(sc.indicator));
             t.2.push(name.clone());
@@ -187,9 +214,11 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .i("cluster", t.3)
         .i("k", t.4)
         .f("silhouette", f.0)
-        .f("cluster_breakpoint", f.1)
-        .f("cluster_slope_left", f.2)
-        .f("cluster_slope_right", f.3)
+        .s("cluster_shape", shapes.0)
+        .of("cluster_breakpoint", f.1)
+        .of("cluster_jump", shapes.1)
+        .of("cluster_slope_left", f.2)
+        .of("cluster_slope_right", f.3)
         .f("distance", f.4)
         .f("bound", f.5)
         .b("departs", dep)

@@ -46,20 +46,33 @@ impl Statement {
 }
 
 /// The sign claims of the curves (RUN_DIR/curves/): per indicator, the direction most
-/// members' partial dependence takes, with every direction's share.
-pub fn signs(shape: &super::shape::Shape) -> Vec<Conclusion> {
+/// distinct member curves take (over the members whose pool holds the indicator, a
+/// duplicate fit counted once), with every direction's share. No claim for an indicator
+/// no member holds. When the curves' members come from another good-set rule than the
+/// report's (`report_good` is then this report's rule), the statement says so and its
+/// `support_good` is NaN: the share is not over this report's good set.
+pub fn signs(shape: &super::shape::Shape, report_good: Option<&str>) -> Vec<Conclusion> {
     shape
         .indicators
         .iter()
+        .filter(|s| s.distinct > 0)
         .map(|s| {
             let (dir, share) = super::shape::dominant(s);
             let p = |v: f64| format!("{:.0}%", 100.0 * v);
+            let mark = report_good.map_or(String::new(), |g| {
+                format!(
+                    " [members from the {} good set, not this report's {g} good set]",
+                    shape.good
+                )
+            });
             Conclusion {
                 source: "curves".into(),
                 statement: format!(
-                    "the partial dependence on {} {dir} across {} of {} members ({}): rises {}, falls {}, flat {}, turns {}",
+                    "the partial dependence on {} {dir} in {} of {} distinct curves ({} of {} members ({}) hold it; duplicate fits counted once): rises overall {}, falls overall {}, flat {}, turns {}{mark}",
                     s.name,
                     p(share),
+                    s.distinct,
+                    s.holding,
                     s.members,
                     shape.rule,
                     p(s.rises),
@@ -71,8 +84,8 @@ pub fn signs(shape: &super::shape::Shape) -> Vec<Conclusion> {
                 kind: "partial dependence".into(),
                 support_all: f64::NAN,
                 n_all: 0,
-                support_good: share,
-                n_good: s.members,
+                support_good: if report_good.is_some() { f64::NAN } else { share },
+                n_good: if report_good.is_some() { 0 } else { s.distinct },
                 pivot_dimension: String::new(),
                 pivot_choice: String::new(),
                 support_without: f64::NAN,

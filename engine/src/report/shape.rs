@@ -6,7 +6,7 @@
 use super::data::{col, read_batches};
 use crate::error::{Error, Result};
 use crate::results::RunSet;
-use arrow_array::{BooleanArray, Float64Array, Int64Array, StringArray};
+use arrow_array::{Array, BooleanArray, Float64Array, Int64Array, StringArray};
 use std::collections::BTreeMap;
 use std::path::Path;
 
@@ -18,6 +18,8 @@ pub use crate::schema::CURVES_DIR;
 pub struct ShapeCluster {
     pub cluster: usize,
     pub units: Vec<String>,
+    /// The cluster's own shape (line, hinge, jump, flat) and its breakpoint (NaN without).
+    pub shape: String,
     pub breakpoint: f64,
     pub slope_left: f64,
     pub slope_right: f64,
@@ -34,22 +36,32 @@ pub struct ShapeIndicator {
     pub hi: Vec<f64>,
     /// The best spec's PD (empty when the best spec is not among the members).
     pub best_pd: Vec<f64>,
+    /// Members (all), those whose pool holds the indicator, and the distinct curves among
+    /// them (duplicate fits counted once): the band and the shares are over `distinct`.
     pub members: usize,
+    pub holding: usize,
+    pub distinct: usize,
     pub rises: f64,
     pub falls: f64,
     pub flat: f64,
     pub turns: f64,
-    /// The best spec's direction, breakpoint with its interval (and the draws that
-    /// fitted), and slopes.
+    /// The best spec's direction and shape (line, hinge, jump, flat, absent), its
+    /// breakpoint and jump (NaN without one), the unit-composition interval (model held
+    /// fixed: resamples run, share re-selecting the shape) and slopes.
     pub direction: String,
+    pub shape: String,
     pub breakpoint: f64,
-    pub breakpoint_lo: f64,
-    pub breakpoint_hi: f64,
-    pub draws: usize,
+    pub jump: f64,
+    pub composition_lo: f64,
+    pub composition_hi: f64,
+    pub composition_draws: usize,
+    pub composition_kept: f64,
     pub slope_left: f64,
     pub slope_right: f64,
-    /// Median of the members' breakpoints (over members with a hinge).
+    /// Median of the breakpoints of the distinct holding curves that have one, and how
+    /// many have one.
     pub members_breakpoint: f64,
+    pub members_bending: usize,
     /// Subgroups of units for the best spec: k, mean silhouette, clusters.
     pub k: usize,
     pub silhouette: f64,
@@ -148,6 +160,15 @@ pub fn read(set: &RunSet) -> Result<Option<Shape>> {
     }))
 }
 
+/// A number of a nullable column: NaN for null (undefined).
+fn fv(a: &Float64Array, r: usize) -> f64 {
+    if a.is_null(r) {
+        f64::NAN
+    } else {
+        a.value(r)
+    }
+}
+
 fn batches(dir: &Path, name: &str) -> Result<(std::path::PathBuf, Vec<arrow_array::RecordBatch>)> {
     let p = dir.join(format!("{name}.parquet"));
     let b = read_batches(&p)?;
@@ -167,9 +188,9 @@ fn read_bands(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<(
         for r in 0..b.num_rows() {
             if let Some(s) = by.get_mut(ind.value(r)) {
                 s.grid.push(g.value(r));
-                s.median.push(me.value(r));
-                s.lo.push(lo.value(r));
-                s.hi.push(hi.value(r));
+                s.median.push(fv(me, r));
+                s.lo.push(fv(lo, r));
+                s.hi.push(fv(hi, r));
             }
         }
     }
@@ -181,11 +202,15 @@ fn read_signs(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<(
     for b in &bs {
         let ind = col::<StringArray>(b, "indicator", &p)?;
         let n = col::<Int64Array>(b, "members", &p)?;
+        let nh = col::<Int64Array>(b, "holding", &p)?;
+        let nd = col::<Int64Array>(b, "distinct", &p)?;
         let f = |c: &str| col::<Float64Array>(b, c, &p);
         let (ri, fa, fl, tu) = (f("rises")?, f("falls")?, f("flat")?, f("turns")?);
         for r in 0..b.num_rows() {
             if let Some(s) = by.get_mut(ind.value(r)) {
                 s.members = n.value(r).max(0) as usize;
+                s.holding = nh.value(r).max(0) as usize;
+                s.distinct = nd.value(r).max(0) as usize;
                 (s.rises, s.falls, s.flat, s.turns) =
                     (ri.value(r), fa.value(r), fl.value(r), tu.value(r));
             }
@@ -222,37 +247,49 @@ fn read_breakpoints(
         let id = col::<StringArray>(b, "spec_id", &p)?;
         let ind = col::<StringArray>(b, "indicator", &p)?;
         let dirn = col::<StringArray>(b, "direction", &p)?;
+        let shape = col::<StringArray>(b, "shape", &p)?;
+        let same = col::<StringArray>(b, "same_as", &p)?;
         let f = |c: &str| col::<Float64Array>(b, c, &p);
-        let (bp, lo, hi, sl, sr) = (
+        let (bp, jump, lo, hi, kept, sl, sr) = (
             f("breakpoint")?,
-            f("breakpoint_lo")?,
-            f("breakpoint_hi")?,
+            f("jump")?,
+            f("composition_lo")?,
+            f("composition_hi")?,
+            f("composition_kept")?,
             f("slope_left")?,
             f("slope_right")?,
         );
-        let draws = col::<Int64Array>(b, "draws", &p)?;
+        let draws = col::<Int64Array>(b, "composition_draws", &p)?;
         for r in 0..b.num_rows() {
             let Some(s) = by.get_mut(ind.value(r)) else {
                 continue;
             };
-            if bp.value(r).is_finite() {
-                all.entry(s.name.clone()).or_default().push(bp.value(r));
+            // Duplicate fits (same_as set) and absent members (NaN) are not counted.
+            if fv(bp, r).is_finite() && same.is_null(r) {
+                all.entry(s.name.clone()).or_default().push(fv(bp, r));
             }
             if id.value(r) == best {
                 s.direction = dirn.value(r).to_string();
-                s.breakpoint = bp.value(r);
-                s.breakpoint_lo = lo.value(r);
-                s.breakpoint_hi = hi.value(r);
-                s.draws = draws.value(r).max(0) as usize;
-                s.slope_left = sl.value(r);
-                s.slope_right = sr.value(r);
+                s.shape = shape.value(r).to_string();
+                s.breakpoint = fv(bp, r);
+                s.jump = fv(jump, r);
+                s.composition_lo = fv(lo, r);
+                s.composition_hi = fv(hi, r);
+                s.composition_draws = draws.value(r).max(0) as usize;
+                s.composition_kept = fv(kept, r);
+                s.slope_left = fv(sl, r);
+                s.slope_right = fv(sr, r);
             }
         }
+    }
+    for (_, s) in by.iter_mut() {
+        s.members_breakpoint = f64::NAN;
     }
     for (n, mut v) in all {
         if let Some(s) = by.get_mut(&n) {
             v.sort_by(f64::total_cmp);
             s.members_breakpoint = super::stats::quantile_sorted(&v, 0.5);
+            s.members_bending = v.len();
         }
     }
     Ok(())
@@ -276,6 +313,7 @@ fn read_clusters(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicato
             f("bound")?,
         );
         let dep = col::<BooleanArray>(b, "departs", &p)?;
+        let cshape = col::<StringArray>(b, "cluster_shape", &p)?;
         for r in 0..b.num_rows() {
             if id.value(r) != best {
                 continue;
@@ -296,8 +334,8 @@ fn read_clusters(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicato
             }
             let sc = &mut s.clusters[c];
             sc.units.push(unit.value(r).to_string());
-            (sc.breakpoint, sc.slope_left, sc.slope_right) =
-                (cbp.value(r), csl.value(r), csr.value(r));
+            sc.shape = cshape.value(r).to_string();
+            (sc.breakpoint, sc.slope_left, sc.slope_right) = (fv(cbp, r), fv(csl, r), fv(csr, r));
             if dep.value(r) {
                 s.departing.push((unit.value(r).to_string(), dist.value(r)));
             }
@@ -322,10 +360,15 @@ fn read_observed(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Resul
     Ok(())
 }
 
-/// The direction most members' curves take, with its share.
+/// The direction most distinct member curves take (over the members holding the
+/// indicator), as a verb phrase, with its share.
 pub fn dominant(s: &ShapeIndicator) -> (&'static str, f64) {
-    let mut best = ("rises", s.rises);
-    for (n, v) in [("falls", s.falls), ("is flat", s.flat), ("turns", s.turns)] {
+    let mut best = ("rises overall", s.rises);
+    for (n, v) in [
+        ("falls overall", s.falls),
+        ("is flat", s.flat),
+        ("turns", s.turns),
+    ] {
         if v > best.1 {
             best = (n, v);
         }
@@ -338,8 +381,12 @@ pub fn dominant(s: &ShapeIndicator) -> (&'static str, f64) {
 pub fn attach(set: &RunSet, r: &mut super::model::Report) {
     match read(set) {
         Ok(Some(s)) => {
-            r.conclusions.extend(super::conclusions::signs(&s));
-            if !s.good.is_empty() && s.good != r.meta.good && s.rule.starts_with(&s.good) {
+            let other = !s.good.is_empty() && s.good != r.meta.good && s.rule.starts_with(&s.good);
+            r.conclusions.extend(super::conclusions::signs(
+                &s,
+                other.then_some(&*r.meta.good),
+            ));
+            if other {
                 r.meta.notes.push(format!(
                     "The curves were drawn for the good set by the {} rule; this report's good set uses the {} rule (draw them again with `forkmap curves` to match).",
                     s.good, r.meta.good

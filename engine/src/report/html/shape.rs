@@ -20,15 +20,26 @@ pub(super) fn section(report: &Report, h: &mut String) {
          Each member is fitted on all rows; for every row the indicator is set to each point of a grid of its \
          {} observed quantiles and the prediction is made through the whole pipeline (pool, fill, scale, \
          compression, model, back-transform): these are the individual curves (ICE), their mean the partial \
-         dependence. A curve is flat when its range is within {} x the outcome's sd ({}); otherwise it rises or \
-         falls when its end differs from its start beyond that, else it turns. The breakpoint is that of a hinge, the best fit of a \
-         continuous two-segment line by least squares (searched over the inner grid), with a {:.0}% percentile \
-         interval from {} bootstrap resamples of units (the fit is not redone per resample: the interval is \
-         about which units drive the shape). Subgroups: k-means on each unit's mean centred curve, k = 2 to 4 by \
+         dependence. A member whose pool does not hold the indicator is <em>absent</em> for it, and a member \
+         whose curve equals an earlier member's (a duplicate fit: scaling does not change a tree) is counted \
+         once: the band and the shares are over the distinct curves of the members that hold it. A curve is \
+         flat when its range is within {} x the outcome's sd ({}); otherwise it rises or falls overall by the \
+         least-squares trend of the curve over the grid, when that trend changes by more than the flat \
+         tolerance across the grid and no reversal against it is larger than the tolerance; else it turns. \
+         Shape: a straight line, a continuous hinge (two slopes meeting at a breakpoint) and a jump (two separate \
+         lines split between neighbouring grid points) are fitted by least squares; the hinge or the jump is kept \
+         only when its BIC on the grid points (the breakpoint counted as a parameter, common practice) is below \
+         the line's by more than 6 (strong evidence on the scale of Kass and Raftery 1995) and its two segments \
+         differ by more than the flat tolerance somewhere right of the breakpoint (our own rule); of the two, \
+         the lower BIC wins. Otherwise the curve has no breakpoint. A jump lies between two grid points: it is \
+         placed midway and known only to that gap. The range given with a breakpoint is a {:.0}% unit-composition range: the \
+         curve is recomputed from {} bootstrap resamples of units with the fitted model held fixed and its shape chosen \
+         again, and the range covers the resamples that keep the same shape (their share is given). It says how \
+         much the bend depends on which units are in the data, not how sure the threshold is: the model is not \
+         refitted. Subgroups: k-means on each unit's mean centred curve, k = 2 to 4 by \
          the largest mean silhouette, kept only if it reaches 0.5 (a rule of common practice), else one group; a \
          unit departs when its distance from the mean centred curve exceeds the median + 3 x 1.4826 x MAD of \
-         the distances. A continuous hinge fitted to a curve with a jump (trees, forests and boosting give steps) \
-         starts its ramp before the jump: read the breakpoint beside the plot. The tables are in \
+         the distances. The tables are in \
          <code>curves/</code> beside the run's tables.</p>",
         sh.members,
         escape(&sh.rule),
@@ -79,42 +90,20 @@ pub(super) fn section(report: &Report, h: &mut String) {
                 escape(&p.file)
             );
         }
-        let best = if s.direction == "flat" {
-            "The best spec's curve is flat (its range is within the flat tolerance, or its pool does not hold \
-             the indicator): no breakpoint is given for it"
-                .to_string()
-        } else {
-            format!(
-                "The best spec's curve {}; its hinge breakpoint is {} ({:.0}% interval over unit resamples with \
-                 the model held fixed: {} to {}, {} resamples fitted; it says which units drive the bend, not how \
-                 sure the threshold is), slope {} left of it and {} right of it",
-                escape(&s.direction),
-                num(s.breakpoint),
-                100.0 * sh.level,
-                num(s.breakpoint_lo),
-                num(s.breakpoint_hi),
-                s.draws,
-                num(s.slope_left),
-                num(s.slope_right),
-            )
-        };
-        let _ = writeln!(
-            h,
-            "<p>Over {} members the curve rises in {}, falls in {}, is flat in {} and turns in {}. {best}; the \
-             members' median breakpoint is {}.</p>",
-            s.members,
-            share(s.rises),
-            share(s.falls),
-            share(s.flat),
-            share(s.turns),
-            num(s.members_breakpoint)
-        );
+        let _ = writeln!(h, "<p>{}</p>", shares_text(s));
+        let _ = writeln!(h, "<p>{}</p>", best_text(s, sh.level));
+        if s.direction == "absent" {
+            h.push_str(
+                "<p class=\"empty\">No subgroups: the best spec's pool does not hold this indicator.</p>\n",
+            );
+            continue;
+        }
         let mut t = Table::new(
             "shape_clusters",
             "Subgroups of units (best spec)",
             "clusters.parquet",
             format!(
-                "k = {} (mean silhouette {}); each cluster's own breakpoint is fitted to the mean curve of its units' rows.",
+                "k = {} (mean silhouette {}); each cluster's own shape and breakpoint are chosen on the mean curve of its units' rows, as for a member (no breakpoint for a line or a flat curve).",
                 s.k.max(1),
                 num(s.silhouette)
             ),
@@ -122,6 +111,7 @@ pub(super) fn section(report: &Report, h: &mut String) {
         .cols(&[
             ("cluster", true),
             ("units", true),
+            ("shape", false),
             ("breakpoint", true),
             ("slope left", true),
             ("slope right", true),
@@ -141,6 +131,7 @@ pub(super) fn section(report: &Report, h: &mut String) {
             t.push(vec![
                 c.cluster.to_string(),
                 c.units.len().to_string(),
+                escape(&c.shape),
                 num(c.breakpoint),
                 num(c.slope_left),
                 num(c.slope_right),
@@ -176,4 +167,97 @@ pub(super) fn section(report: &Report, h: &mut String) {
         }
     }
     h.push_str("</section>\n");
+}
+
+/// The shares sentence of one indicator: over the distinct curves of the members holding it.
+fn shares_text(s: &crate::report::shape::ShapeIndicator) -> String {
+    if s.distinct == 0 {
+        return format!(
+            "No member's pool holds {} ({} members): no band, shares or breakpoints.",
+            escape(&s.name),
+            s.members
+        );
+    }
+    let med = if s.members_bending == 0 {
+        "None of the distinct curves has a breakpoint.".to_string()
+    } else {
+        format!(
+            "{} of the {} distinct curves have a breakpoint; their median is {}.",
+            s.members_bending,
+            s.distinct,
+            num(s.members_breakpoint)
+        )
+    };
+    format!(
+        "{} of {} members hold the indicator ({} distinct curves; a duplicate fit is counted once). Of these \
+         curves {} rise overall, {} fall overall, {} are flat and {} turn. {med}",
+        s.holding,
+        s.members,
+        s.distinct,
+        share(s.rises),
+        share(s.falls),
+        share(s.flat),
+        share(s.turns),
+    )
+}
+
+/// The best spec's shape in words: no breakpoint for an absent, flat or straight curve.
+fn best_text(s: &crate::report::shape::ShapeIndicator, level: f64) -> String {
+    let dir = match s.direction.as_str() {
+        "rises" => "rises overall",
+        "falls" => "falls overall",
+        "turns" => "turns (it moves against its overall trend by more than the flat tolerance)",
+        d => d,
+    };
+    let range = || {
+        format!(
+            "The {:.0}% unit-composition range of the breakpoint (model held fixed) is {} to {}; {} of {} unit \
+             resamples keep the {}. It says which units drive the bend, not how sure the threshold is",
+            100.0 * level,
+            num(s.composition_lo),
+            num(s.composition_hi),
+            share(s.composition_kept),
+            s.composition_draws,
+            escape(&s.shape)
+        )
+    };
+    // The grid points either side of a jump.
+    let gap = s
+        .grid
+        .windows(2)
+        .find(|w| w[0] < s.breakpoint && s.breakpoint < w[1])
+        .map_or((f64::NAN, f64::NAN), |w| (w[0], w[1]));
+    match s.shape.as_str() {
+        "absent" => "The best spec's pool does not hold the indicator: its curve cannot move (it is drawn flat), so no \
+         shape, breakpoint or subgroups are given for it."
+            .to_string(),
+        "" => "The best spec is not among the specs drawn: no best curve.".to_string(),
+        "flat" => {
+            "The best spec's curve is flat (its range is within the flat tolerance): no shape or breakpoint."
+                .to_string()
+        }
+        "line" => format!(
+            "The best spec's curve {dir}; a straight line describes it best (slope {}): no breakpoint.",
+            num(s.slope_left)
+        ),
+        "hinge" => format!(
+            "The best spec's curve {dir}; it bends at {} (a continuous hinge: slope {} left of it, {} right of \
+             it). {}.",
+            num(s.breakpoint),
+            num(s.slope_left),
+            num(s.slope_right),
+            range()
+        ),
+        _ => format!(
+            "The best spec's curve {dir}; it jumps by {} between the grid points {} and {} (placed at {}; slope \
+             {} left of it, {} right of it). {}.",
+            num(s.jump),
+            num(gap.0),
+            num(gap.1),
+            num(s.breakpoint),
+            num(s.slope_left),
+            num(s.slope_right),
+            range()
+        ),
+    }
 }

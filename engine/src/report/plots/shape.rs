@@ -1,8 +1,9 @@
 //! `shape-INDICATOR.svg`: the shape of one indicator's association over the curves'
 //! members (RUN_DIR/curves/): the band of partial dependence (median and quantiles across
-//! members per grid point), the best spec's partial dependence, its hinge breakpoint with
-//! the unit-bootstrap interval, and a rug of the observed values; beside it the shares of
-//! members whose curve rises, falls, is flat or turns.
+//! distinct curves of the members holding the indicator per grid point), the best spec's
+//! partial dependence, its breakpoint (hinge or jump, when it has one) with the
+//! unit-composition range, and a rug of the observed values; beside it the shares of those
+//! curves that rise, fall, are flat or turn.
 
 use super::*;
 use crate::report::shape::{Shape, ShapeIndicator};
@@ -22,7 +23,7 @@ pub fn shape_plots(report: &Report) -> Result<Vec<Plot>> {
     };
     sh.indicators
         .iter()
-        .filter(|s| !s.grid.is_empty())
+        .filter(|s| !s.grid.is_empty() && s.distinct > 0)
         .map(|s| one(sh, s))
         .collect()
 }
@@ -36,15 +37,16 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
     let title = format!("The shape of the association: {}", s.name);
     let caption = format!(
         "Partial dependence of the prediction on {} (outcome units) over a grid of {} observed quantiles of the \
-         indicator, each spec fitted on all rows. Shaded band: the {:.0}% range of the {} members' curves ({}) per \
+         indicator, each spec fitted on all rows. Shaded band: the {:.0}% range of the {} distinct curves of the members ({}) per \
          grid point; dashed line: their median; dark line: the best spec's curve. Orange line and shading: the best \
-         spec's hinge breakpoint and its {:.0}% interval over {} unit-bootstrap resamples. Ticks below the axis: \
-         observed values. Right: share of members whose curve rises, falls, is flat (range within {} of the \
-         outcome's sd) or turns. An association in the model, not a causal effect.",
+         spec's breakpoint (only when a hinge or jump beats a straight line) and its {:.0}% unit-composition range \
+         over {} unit resamples with the model held fixed (not how sure the threshold is). Ticks below the axis: \
+         observed values. Right: share of the distinct curves that rise or fall overall, are flat (range within \
+         {} of the outcome's sd) or turn. An association in the model, not a causal effect.",
         s.name,
         s.grid.len(),
         100.0 * sh.level,
-        s.members,
+        s.distinct,
         sh.rule,
         100.0 * sh.level,
         sh.resamples,
@@ -96,12 +98,11 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
                 &font_at(11.0, &INK, HPos::Left, VPos::Center),
             )?;
             // Breakpoint interval (behind the curves).
-            // A flat best curve has no breakpoint worth drawing (its hinge is picked from
-            // numerical ties).
-            let bends = s.direction != "flat";
+            // Only a hinge or a jump has a breakpoint (flat, absent and straight curves none).
+            let bends = s.shape == "hinge" || s.shape == "jump";
             let finite = |v: f64| bends && v.is_finite();
-            if finite(s.breakpoint_lo) && finite(s.breakpoint_hi) {
-                let (a, b) = (px(s.breakpoint_lo).max(x0), px(s.breakpoint_hi).min(x1));
+            if finite(s.composition_lo) && finite(s.composition_hi) {
+                let (a, b) = (px(s.composition_lo).max(x0), px(s.composition_hi).min(x1));
                 if b >= a {
                     rect(root, a, y0, b.max(a + 1), y1, &mix(&BG, &GOOD, 0.25))?;
                 }
@@ -173,7 +174,7 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
             let head = bold_at(11.5, HPos::Left, VPos::Center);
             text(
                 root,
-                &format!("direction over {} members", s.members),
+                &format!("direction of {} distinct curves", s.distinct),
                 bx0,
                 y0 + 6,
                 &head,
@@ -199,16 +200,16 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
             // Best spec's hinge in words.
             let small = font_at(11.0, &INK, HPos::Left, VPos::Center);
             let lines = [
-                format!("best spec: {}", s.direction),
+                format!("best spec: {}, {}", s.direction, s.shape),
                 if bends {
                     format!(
                         "breakpoint {} [{}, {}]",
                         num(s.breakpoint),
-                        num(s.breakpoint_lo),
-                        num(s.breakpoint_hi)
+                        num(s.composition_lo),
+                        num(s.composition_hi)
                     )
                 } else {
-                    "breakpoint: none (flat)".to_string()
+                    "breakpoint: none".to_string()
                 },
                 if bends {
                     format!(
@@ -219,8 +220,13 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
                 } else {
                     String::new()
                 },
-                format!("members' median breakpoint {}", num(s.members_breakpoint)),
-                if s.k > 1 {
+                format!(
+                    "{} of {} members hold it; {} distinct",
+                    s.holding, s.members, s.distinct
+                ),
+                if s.shape == "absent" {
+                    "subgroups: none (not in the best spec's pool)".to_string()
+                } else if s.k > 1 {
                     format!("subgroups: {} (silhouette {})", s.k, num(s.silhouette))
                 } else {
                     "subgroups: one (no k reaches silhouette 0.5)".to_string()
