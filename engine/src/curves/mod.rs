@@ -1,7 +1,8 @@
 //! Curves through the whole pipeline: individual conditional expectation (ICE) curves of a
 //! spec fitted on all rows, their mean (partial dependence, PD), centred ICE, the band of
 //! PD over a set of specs, a two-segment hinge with a unit-bootstrap interval for its
-//! breakpoint, and subgroups of units from k-means on the centred curves.
+//! breakpoint, and subgroups of units from k-means on the centred curves (their number by
+//! the gap statistic).
 //!
 //! Everything here is a pure function of its inputs (and a stated seed): the results do
 //! not depend on the thread count. [`ice`] predicts through the fitted chain (pool, fill,
@@ -12,6 +13,7 @@
 
 pub mod cluster;
 pub mod compute;
+pub mod gap;
 pub mod hinge;
 pub mod ice;
 pub mod pass;
@@ -20,5 +22,6 @@ pub mod table;
 
 pub use crate::config::curves::{CurvesChecked, CurvesSection, Members};
 pub use cluster::{kmeans, silhouette, subgroups, Subgroups};
+pub use gap::{choose_k, GapChoice, GapPoint};
 pub use hinge::{bootstrap_breakpoint, fit_hinge, Hinge};
 pub use ice::{band, centred, direction, ice, pd, quantile_grid, Band, Direction};

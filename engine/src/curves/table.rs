@@ -8,8 +8,10 @@
 //!   breakpoint_hi, draws, slope_left, slope_right, sse, flat_tolerance.
 //! - `bands`: indicator, grid_index, grid_value, members, pd_median, pd_lo, pd_hi, level.
 //! - `signs`: indicator, members, rises, falls, flat, turns (shares of member specs).
-//! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_breakpoint,
-//!   cluster_slope_left, cluster_slope_right, distance, bound, departs.
+//! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, gap, gap_se, gap_next,
+//!   gap_next_se, cluster_breakpoint, cluster_slope_left, cluster_slope_right, distance,
+//!   bound, departs (gap* are Gap(k), s(k), Gap(k+1), s(k+1) of the chosen k; NaN when the
+//!   units' curves do not differ).
 //! - `observed`: indicator, unit, wave (nullable), value (NaN when missing): the chosen
 //!   indicators' observed values.
 //! - `curves.json`: the settings and the members' rule (written last, read by the report).
@@ -161,6 +163,7 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         Vec::new(),
     );
     let mut dep = Vec::new();
+    let mut gp: [Vec<f64>; 4] = Default::default();
     for sc in cs {
         let Some((g, hs)) = &sc.groups else { continue };
         for (u, name) in panel.units.iter().enumerate() {
@@ -172,6 +175,11 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
             t.3.push(k as i64);
             t.4.push(g.k as i64);
             f.0.push(g.silhouette);
+            let (at, next) = (g.gap.at(g.k), g.gap.at(g.k + 1));
+            gp[0].push(at.map_or(nan, |p| p.gap));
+            gp[1].push(at.map_or(nan, |p| p.se));
+            gp[2].push(next.map_or(nan, |p| p.gap));
+            gp[3].push(next.map_or(nan, |p| p.se));
             f.1.push(hk.map_or(nan, |x| x.breakpoint));
             f.2.push(hk.map_or(nan, |x| x.slope_left));
             f.3.push(hk.map_or(nan, |x| x.slope_right));
@@ -187,6 +195,10 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .i("cluster", t.3)
         .i("k", t.4)
         .f("silhouette", f.0)
+        .f("gap", std::mem::take(&mut gp[0]))
+        .f("gap_se", std::mem::take(&mut gp[1]))
+        .f("gap_next", std::mem::take(&mut gp[2]))
+        .f("gap_next_se", std::mem::take(&mut gp[3]))
         .f("cluster_breakpoint", f.1)
         .f("cluster_slope_left", f.2)
         .f("cluster_slope_right", f.3)
