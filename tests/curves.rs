@@ -264,7 +264,7 @@ fn hinge_row(g: f64, t: f64) -> f64 {
 }
 
 /// Two planted subgroups (units whose curve bends at 3, and at 7) are separated by the
-/// clustering (k = 2, labels match the plant), each cluster's own breakpoint is near its
+/// clustering (k = 2 by the gap statistic, labels match the plant), each cluster's own breakpoint is near its
 /// plant (within one grid spacing), and no unit departs.
 #[test]
 fn planted_subgroups_are_separated() {
@@ -280,7 +280,7 @@ fn planted_subgroups_are_separated() {
     }
     let row_unit: Vec<usize> = (0..nu).collect();
     let (sg, hs) = unit_groups(&m, &row_unit, nu, &grid, 1);
-    assert_eq!(sg.k, 2, "{:?}", sg.tried);
+    assert_eq!(sg.k, 2, "{:?}", sg.gap.points);
     assert!(sg.silhouette >= 0.5);
     for u in 0..nu {
         assert_eq!(sg.labels[u] == sg.labels[0], u % 2 == 0, "unit {u}");

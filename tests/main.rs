@@ -5,6 +5,7 @@
 mod bad_input;
 mod common;
 mod curves;
+mod curves_groups;
 mod curves_reference;
 mod curves_run;
 mod curves_shape;

@@ -36,3 +36,9 @@ pub const NULL_DRAWS: u64 = 0x4e75_6c6c_4472_6177;
 pub const NULL_SAMPLE: u64 = 0x4e75_6c6c_5370_6563;
 /// The curves' unit bootstrap of a breakpoint.
 pub const CURVE_BOOTSTRAP: u64 = 0x4355_5256_4553_4254;
+/// The curves' k-means starts: start `s` for k clusters draws from
+/// `mix(mix(seed, CURVE_KMEANS), k << 16 | s)`.
+pub const CURVE_KMEANS: u64 = 0x4355_5256_4b4d_4e53;
+/// The gap statistic's reference draws (uniform over the principal-component box of the
+/// unit curves): draw `b` is seeded by `mix(mix(seed, CURVE_GAP_REFERENCE), b)`.
+pub const CURVE_GAP_REFERENCE: u64 = 0x4355_5256_4741_5052;

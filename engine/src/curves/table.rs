@@ -13,7 +13,9 @@
 //!   the distinct curves of the members holding the indicator).
 //! - `clusters`: spec_id, indicator, unit, cluster, k, silhouette, cluster_shape,
 //!   cluster_breakpoint, cluster_jump, cluster_slope_left, cluster_slope_right, distance,
-//!   bound, departs (each cluster's shape chosen like a member's).
+//!   bound, departs, gap, gap_se, gap_next, gap_next_se (each cluster's shape chosen like a
+//!   member's; gap* are Gap(k), s(k), Gap(k+1), s(k+1) of the chosen k by the gap statistic,
+//!   null when the units' curves do not differ; silhouette null for one group).
 //! - `observed`: indicator, unit, wave (nullable), value (NaN when missing): the chosen
 //!   indicators' observed values.
 //! - `curves.json`: the settings and the members' rule (written last, read by the report).
@@ -184,6 +186,7 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
     );
     let mut dep = Vec::new();
     let mut shapes: (Vec<String>, Vec<f64>) = Default::default();
+    let mut gp: [Vec<f64>; 4] = Default::default();
     for sc in cs {
         let Some((g, _)) = &sc.groups else { continue };
         for (u, name) in panel.units.iter().enumerate() {
@@ -199,6 +202,11 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
             t.3.push(k as i64);
             t.4.push(g.k as i64);
             f.0.push(g.silhouette);
+            let (at, next) = (g.gap.at(g.k), g.gap.at(g.k + 1));
+            gp[0].push(at.map_or(nan, |p| p.gap));
+            gp[1].push(at.map_or(nan, |p| p.se));
+            gp[2].push(next.map_or(nan, |p| p.gap));
+            gp[3].push(next.map_or(nan, |p| p.se));
             f.1.push(hk.map_or(nan, |x| x.breakpoint));
             f.2.push(hk.map_or(nan, |x| x.slope_left));
             f.3.push(hk.map_or(nan, |x| x.slope_right));
@@ -213,7 +221,7 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .s("unit", t.2)
         .i("cluster", t.3)
         .i("k", t.4)
-        .f("silhouette", f.0)
+        .of("silhouette", f.0)
         .s("cluster_shape", shapes.0)
         .of("cluster_breakpoint", f.1)
         .of("cluster_jump", shapes.1)
@@ -222,6 +230,10 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         .f("distance", f.4)
         .f("bound", f.5)
         .b("departs", dep)
+        .of("gap", std::mem::take(&mut gp[0]))
+        .of("gap_se", std::mem::take(&mut gp[1]))
+        .of("gap_next", std::mem::take(&mut gp[2]))
+        .of("gap_next_se", std::mem::take(&mut gp[3]))
         .write(dir, "clusters")?;
     Ok(())
 }

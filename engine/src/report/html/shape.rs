@@ -36,8 +36,9 @@ pub(super) fn section(report: &Report, h: &mut String) {
          curve is recomputed from {} bootstrap resamples of units with the fitted model held fixed and its shape chosen \
          again, and the range covers the resamples that keep the same shape (their share is given). It says how \
          much the bend depends on which units are in the data, not how sure the threshold is: the model is not \
-         refitted. Subgroups: k-means on each unit's mean centred curve, k = 2 to 4 by \
-         the largest mean silhouette, kept only if it reaches 0.5 (a rule of common practice), else one group; a \
+         refitted. Subgroups: k-means on each unit's mean centred curve; their number by \
+         the gap statistic (Tibshirani, Walther and Hastie 2001) against curves drawn with no group structure, so \
+         units whose curves differ only by degree stay one group; a \
          unit departs when its distance from the mean centred curve exceeds the median + 3 x 1.4826 x MAD of \
          the distances. The tables are in \
          <code>curves/</code> beside the run's tables.</p>",
@@ -103,7 +104,7 @@ pub(super) fn section(report: &Report, h: &mut String) {
             "Subgroups of units (best spec)",
             "clusters.parquet",
             format!(
-                "k = {} (mean silhouette {}); each cluster's own shape and breakpoint are chosen on the mean curve of its units' rows, as for a member (no breakpoint for a line or a flat curve).",
+                "k = {} by the gap statistic (mean silhouette {}, a description); each cluster's own shape and breakpoint are chosen on the mean curve of its units' rows, as for a member (no breakpoint for a line or a flat curve).",
                 s.k.max(1),
                 num(s.silhouette)
             ),

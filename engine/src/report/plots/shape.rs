@@ -229,7 +229,7 @@ fn one(sh: &Shape, s: &ShapeIndicator) -> Result<Plot> {
                 } else if s.k > 1 {
                     format!("subgroups: {} (silhouette {})", s.k, num(s.silhouette))
                 } else {
-                    "subgroups: one (no k reaches silhouette 0.5)".to_string()
+                    "subgroups: one (gap statistic)".to_string()
                 },
                 format!("departing units: {}", s.departing.len()),
             ];
