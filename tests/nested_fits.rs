@@ -213,7 +213,11 @@ fn the_model_stream_leaves_out_the_trees_only() {
     };
     let without = |si: usize, param: &str| {
         let mut c = specs[si].clone();
-        for ch in c.choices.iter_mut().filter(|c| c.dim == "model") {
+        for ch in c
+            .choices
+            .iter_mut()
+            .filter(|c| c.dim == forkmap::decl::Dim::Model)
+        {
             ch.params.retain(|(n, _)| *n != param);
         }
         c.choices

@@ -87,7 +87,7 @@ pub struct IndicatorBand {
 /// when fitted, so it counts as holding every indicator).
 pub fn pool_holds(p: &Prepared, si: usize, c: usize) -> bool {
     p.space.specs[si]
-        .choice("pool")
+        .choice(crate::decl::Dim::Pool)
         .members
         .as_deref()
         .is_none_or(|m| m.contains(&c))

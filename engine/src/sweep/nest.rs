@@ -25,7 +25,7 @@ pub fn model_stream(spec: &Spec, model: &dyn Regressor) -> u64 {
                 .iter()
                 .map(|c| {
                     let mut c = c.clone();
-                    if c.dim == "model" {
+                    if c.dim == crate::decl::Dim::Model {
                         c.params.retain(|(n, _)| *n != param);
                     }
                     c
@@ -68,7 +68,11 @@ impl Sweep<'_> {
     fn path_value(&self, si: usize) -> f64 {
         self.models[si]
             .path()
-            .and_then(|p| self.space.specs[si].choice(crate::decl::Dim::Model).param(p))
+            .and_then(|p| {
+                self.space.specs[si]
+                    .choice(crate::decl::Dim::Model)
+                    .param(p)
+            })
             .unwrap_or(0.0)
     }
 
@@ -77,7 +81,9 @@ impl Sweep<'_> {
     pub(super) fn path_shares(&self, group: &[usize], n: f64, p: f64) -> Vec<f64> {
         let costs: Vec<f64> = group
             .iter()
-            .map(|&si| crate::models::cost(self.space.specs[si].choice(crate::decl::Dim::Model), n, p))
+            .map(|&si| {
+                crate::models::cost(self.space.specs[si].choice(crate::decl::Dim::Model), n, p)
+            })
             .collect();
         let total = costs.last().copied().unwrap_or(0.0);
         if group.len() == 1 || total.is_nan() || total <= 0.0 {
@@ -153,7 +159,10 @@ pub fn nested_costs(space: &ChoiceSpace, panel: &Panel, specs: Option<&[usize]>)
             continue;
         };
         if let Some(param) = model.path() {
-            let value = s.choice(crate::decl::Dim::Model).param(param).unwrap_or(0.0);
+            let value = s
+                .choice(crate::decl::Dim::Model)
+                .param(param)
+                .unwrap_or(0.0);
             paths
                 .entry(model_stream(s, model.as_ref()))
                 .or_default()
