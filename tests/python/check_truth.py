@@ -142,8 +142,8 @@ def measure(run, truth, codebook):
                 ok=rel <= THRESHOLD_TOL,
                 value=rel,
                 detail=(
-                    f"best spec {best_id}: {bp_shape} of {ind} at {bp:.1f} (size {bp_jump:.2f}; planted {th['jump']:g} "
-                    f"on the outcome's scale, not the spec's), planted at {planted:g}; "
+                    f"best spec {best_id}: {bp_shape} of {ind} at {bp:.1f} (size {bp_jump:.2f} on the curve; the planted jump is {th['jump']:g} "
+                    f"on the outcome), planted at {planted:g}; "
                     f"off by {abs(bp - planted):.1f} = {rel:.1%} of the observed range "
                     f"{lo:.0f}..{hi:.0f} (bar {THRESHOLD_TOL:.0%})" + band_note
                 ),
