@@ -9,6 +9,7 @@
 """
 
 import json
+from xml.sax.saxutils import escape
 import os
 import statistics
 import sys
@@ -138,8 +139,11 @@ def svg(units, series, n_seeds):
     for x, n in zip(xs, units):
         p.append(f'<text x="{x:.1f}" y="{top + ph + 18}" text-anchor="middle">{n}</text>')
     p.append(f'<text x="{left + pw / 2:.1f}" y="{h - 10}" text-anchor="middle">units (districts; axis spaced by doubling)</text>')
+    p.append(f'<text x="{left + pw + 20}" y="{top + 10 + len(series) * 20 + 10}" font-size="10" fill="#555">lines are offset by a pixel or two</text>')
+    p.append(f'<text x="{left + pw + 20}" y="{top + 10 + len(series) * 20 + 24}" font-size="10" fill="#555">so that equal rates stay visible</text>')
     p.append(f'<text x="14" y="{top + ph / 2:.1f}" text-anchor="middle" transform="rotate(-90 14 {top + ph / 2:.1f})">share of {n_seeds} seeds recovered</text>')
     for i, (label, rates) in enumerate(series):
+        label = escape(label)
         c = COLOURS[i % len(COLOURS)]
         off = (i - len(series) / 2) * 1.5  # small vertical offsets keep equal lines visible
         pts = " ".join(f"{x:.1f},{y(r) + off:.1f}" for x, r in zip(xs, rates))
