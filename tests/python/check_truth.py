@@ -288,7 +288,8 @@ def main(argv):
     if "--codebook" in argv:
         cb = argv[argv.index("--codebook") + 1]
     truth = json.load(open(truth_path))
-    results = measure(run, truth, read_codebook(cb))
+    codebook = read_codebook(cb)
+    results = measure(run, truth, codebook)
 
     # Asserted on the demo: what holds there. The rest is measured and reported (SHORT).
     # The reasons are the measured ones; DEVELOPERS.md ("The truth check") explains them.
@@ -309,13 +310,39 @@ def main(argv):
             tag = "ok   " if r["weak_ok"] else "FAIL "
             failed += not r["weak_ok"]
             print(f"{tag} {r['name']} (weaker form, asserted): {r['weak']}")
+    bad = self_test(run, truth, codebook)
     short = [r["name"] for r in results if r["name"] not in asserted and not r["ok"]]
     met = sum(1 for r in results if r["ok"])
     print(
-        f"check_truth: {met} of {len(results)} criteria met, {failed} asserted checks failed, "
+        f"check_truth: {met} of {len(results)} criteria met, {failed} asserted checks failed, {bad} self-tests failed, "
         f"{len(short)} short of the issue's bar (reported, not asserted): {', '.join(short) or 'none'}"
     )
-    return 1 if failed else 0
+    return 1 if failed or bad else 0
+
+
+def self_test(run, truth, codebook):
+    """The checks can fail: on the same run, a truth with the driver and non-driver groups
+    swapped must fail the driver-group criterion and the weaker noise form, and a threshold
+    planted 50% higher must fail the threshold criterion. Returns the number of checks that
+    did not fail as they should."""
+    swapped = dict(truth)
+    swapped["driver_groups"] = list(truth["non_driver_groups"])
+    swapped["non_driver_groups"] = list(truth["driver_groups"])
+    moved = json.loads(json.dumps(truth))
+    moved["threshold"]["value"] = 1.5 * float(truth["threshold"]["value"])
+    got = {r["name"]: r for r in measure(run, swapped, codebook)}
+    got_moved = {r["name"]: r for r in measure(run, moved, codebook)}
+    cases = [
+        ("driver groups swapped: driver criterion fails", not got["driver groups top-3"]["ok"]),
+        ("driver groups swapped: weaker noise form fails",
+         not got["no noise indicator in supported conclusions"]["weak_ok"]),
+        ("threshold planted 50% higher: threshold criterion fails", not got_moved["threshold located"]["ok"]),
+    ]
+    bad = 0
+    for name, fine in cases:
+        print(f"{'ok   ' if fine else 'FAIL '} self-test: {name}")
+        bad += not fine
+    return bad
 
 
 if __name__ == "__main__":
