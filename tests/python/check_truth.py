@@ -70,7 +70,7 @@ def measure(run, truth, codebook):
         con,
         f"""select spec_id, indicator, rank from '{imp}'
             where level = 'group' and kind = 'permutation' and spec_id in ({ids})""",
-    )
+    ) if good_ids else []
     tops = {}
     for sid, g, rank in rows:
         tops.setdefault(sid, set())
