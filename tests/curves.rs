@@ -159,6 +159,58 @@ fn ols_partial_dependence_is_the_raw_slope() {
     }
 }
 
+/// Through a compression that loses information (PCA keeping 1 of 2 standardised
+/// columns), the raw-scale PD slope is gamma x v0 / sd0: gamma the least-squares slope of y
+/// on the first component's score, v0 the component's weight on x0 (for two standardised
+/// columns with correlation r > 0 the first component is (1, 1) / sqrt 2, by hand), sd0
+/// the population sd of x0. Differs from the full OLS slope, so a skipped compression fails.
+#[test]
+fn ols_partial_dependence_through_one_component() {
+    let n = 150;
+    let z = normals(3 * n, 12);
+    let x0: Vec<f64> = (0..n).map(|i| 10.0 + 4.0 * z[i]).collect();
+    let x1: Vec<f64> = (0..n).map(|i| 0.6 * z[i] + 0.8 * z[n + i]).collect();
+    let y: Vec<f64> = (0..n)
+        .map(|i| 1.0 + 0.7 * x0[i] - 2.0 * x1[i] + 0.5 * z[2 * n + i])
+        .collect();
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+    let sd = |v: &[f64]| {
+        let m = mean(v);
+        (v.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / v.len() as f64).sqrt()
+    };
+    let (m0, s0, m1, s1) = (mean(&x0), sd(&x0), mean(&x1), sd(&x1));
+    let r: f64 = (0..n)
+        .map(|i| (x0[i] - m0) / s0 * (x1[i] - m1) / s1)
+        .sum::<f64>()
+        / n as f64;
+    assert!(r > 0.3, "the columns are positively correlated: {r}");
+    let h = std::f64::consts::FRAC_1_SQRT_2;
+    let t: Vec<f64> = (0..n)
+        .map(|i| h * (x0[i] - m0) / s0 + h * (x1[i] - m1) / s1)
+        .collect();
+    let (mt, my) = (mean(&t), mean(&y));
+    let gamma = (0..n).map(|i| (t[i] - mt) * (y[i] - my)).sum::<f64>()
+        / (0..n).map(|i| (t[i] - mt) * (t[i] - mt)).sum::<f64>();
+    let want = gamma * h / s0;
+    let p = prepared(
+        panel_of(y, &[x0.clone(), x1]),
+        "[choices]\nscale = [\"standardise\"]\ncompress = [\"pca\"]\nmodel = [\"ols\"]\n[grid.pca]\nk = [1]\n",
+    );
+    assert_eq!(p.space.specs.len(), 1);
+    let grid = quantile_grid(p.panel.x.column(0), 12);
+    let rows: Vec<usize> = (0..n).collect();
+    let curve = pd(&ice(&fit_all(&p, 0), p.panel.x.view(), &rows, 0, &grid));
+    for j in 1..grid.len() {
+        let slope = (curve[j] - curve[0]) / (grid[j] - grid[0]);
+        assert!(
+            (slope - want).abs() < 1e-8 * want.abs().max(1.0),
+            "PD slope {slope} vs one-component slope {want}"
+        );
+    }
+    // Not the full OLS slope (about 0.7 here): the compression is applied.
+    assert!((want - 0.7).abs() > 0.1, "{want}");
+}
+
 /// A depth-1 tree on an outcome that jumps at x0 = 0.345 (between observed 0.34 and 0.35):
 /// every ICE curve is a step function with two levels, low below the split and high above.
 #[test]

@@ -190,7 +190,7 @@ fn run_draws_curves_by_default_and_the_report_shows_them() {
     for words in [
         "hinge",
         "least squares",
-        "silhouette",
+        "gap statistic",
         "bootstrap",
         "not a causal effect",
     ] {

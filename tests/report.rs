@@ -240,7 +240,9 @@ fn run_writes_the_report_and_map_rewrites_it_identically() {
         }
     }
     assert!(ratio.value(0), "the best spec is always good");
-    // The claims: true by construction (every name is within the top 1000): support 1;
+    // The claims: "in the top 1000" holds exactly where the name's importance is above 0
+    // (a zero or negative importance is never top, whatever its rank): its support is the
+    // share of specs with a positive importance, read from the importance table;
     // a pair and its reverse: supports sum to 1 (the two never tie here: no pool, and
     // neither importance is exactly 0 in any spec; tied ranks would hold neither way).
     let c = &read(&rep.join("conclusions.parquet"))[0];
@@ -256,7 +258,44 @@ fn run_writes_the_report_and_map_rewrites_it_identically() {
         .filter(|&i| src.value(i) == "claim")
         .collect();
     assert_eq!(claims.len(), 3);
-    assert_eq!((sa.value(claims[0]), sg.value(claims[0])), (1.0, 1.0));
+    let kind = st
+        .value(claims[0])
+        .rsplit_once('(')
+        .and_then(|(_, k)| k.strip_suffix(" importance)"))
+        .unwrap_or_else(|| panic!("kind of {}", st.value(claims[0])))
+        .to_string();
+    let mut positive: HashMap<String, bool> = HashMap::new();
+    for p in std::fs::read_dir(run.join("importance")).unwrap() {
+        for b in read(&p.unwrap().path()) {
+            let (id, name, level, k, v) = (
+                col::<StringArray>(&b, "spec_id"),
+                col::<StringArray>(&b, "indicator"),
+                col::<StringArray>(&b, "level"),
+                col::<StringArray>(&b, "kind"),
+                col::<Float64Array>(&b, "importance"),
+            );
+            for i in 0..b.num_rows() {
+                if name.value(i) == "inc_unemployment"
+                    && level.value(i) == "indicator"
+                    && k.value(i) == kind
+                {
+                    positive.insert(id.value(i).to_string(), v.value(i) > 0.0);
+                }
+            }
+        }
+    }
+    assert_eq!(positive.len(), 12, "{kind}");
+    let want = positive.values().filter(|&&p| p).count() as f64 / 12.0;
+    close(
+        sa.value(claims[0]),
+        want,
+        1e-12,
+        "in-top support = share positive",
+    );
+    assert!(
+        want < 1.0,
+        "the check needs a spec where the importance is not positive"
+    );
     close(
         sa.value(claims[1]) + sa.value(claims[2]),
         1.0,

@@ -14,7 +14,7 @@ use super::settings::ClaimSpec;
 pub enum Statement {
     /// Name a ranks above (better than) name b.
     Above { a: usize, b: usize },
-    /// Name g has rank <= k.
+    /// Name g is top k ([`KindTable::is_top`]: rank <= k with importance above 0).
     InTop { g: usize, k: usize },
 }
 
@@ -22,7 +22,7 @@ impl Statement {
     pub fn holds(&self, kt: &KindTable, row: usize) -> bool {
         match *self {
             Statement::Above { a, b } => kt.rank(row, a) < kt.rank(row, b),
-            Statement::InTop { g, k } => kt.rank(row, g) as usize <= k,
+            Statement::InTop { g, k } => kt.is_top(row, g, k),
         }
     }
 
@@ -59,6 +59,18 @@ pub fn signs(shape: &super::shape::Shape, report_good: Option<&str>) -> Vec<Conc
         .map(|s| {
             let (dir, share) = super::shape::dominant(s);
             let p = |v: f64| format!("{:.0}%", 100.0 * v);
+            // A share tied with another direction is no majority: say so rather than name
+            // the first of the tied directions.
+            let tied = [s.rises, s.falls, s.flat, s.turns]
+                .iter()
+                .filter(|&&v| v == share)
+                .count()
+                > 1;
+            let dir = if tied {
+                "has no single direction (a tie) across".to_string()
+            } else {
+                format!("{dir} in {} of", p(share))
+            };
             let mark = report_good.map_or(String::new(), |g| {
                 format!(
                     " [members from the {} good set, not this report's {g} good set]",
@@ -68,9 +80,8 @@ pub fn signs(shape: &super::shape::Shape, report_good: Option<&str>) -> Vec<Conc
             Conclusion {
                 source: "curves".into(),
                 statement: format!(
-                    "the partial dependence on {} {dir} in {} of {} distinct curves ({} of {} members ({}) hold it; duplicate fits counted once): rises overall {}, falls overall {}, flat {}, turns {}{mark}",
+                    "the partial dependence on {} {dir} {} distinct curves ({} of {} members ({}) hold it; duplicate fits counted once): rises overall {}, falls overall {}, flat {}, turns {}{mark}",
                     s.name,
-                    p(share),
                     s.distinct,
                     s.holding,
                     s.members,
@@ -283,6 +294,33 @@ mod tests {
         assert_eq!((c.pivot_choice.as_str(), c.support_without), ("x", 0.0));
         let top = Statement::InTop { g: 1, k: 2 };
         assert!((support(&top, &t, &[0, 1, 2]) - 2.0 / 3.0).abs() < 1e-12);
+    }
+
+    /// A zero importance is never top k (cold review 2, M1): ranks share ties, so in a spec
+    /// whose importances are all 0 every name has rank 1, and a sparse spec's zeros tie just
+    /// below its non-zero names; an out-of-pool name is never top either.
+    #[test]
+    fn zero_importances_and_out_of_pool_names_are_never_top() {
+        let t = KindTable {
+            level: "indicator".into(),
+            kind: "coefficient".into(),
+            names: vec!["a".into(), "b".into(), "c".into()],
+            specs: vec![0, 1, 2],
+            // spec 0: all zero (every rank 1); spec 1: only a non-zero (b and c tie at 2);
+            // spec 2: a and c non-zero, b out of the pool.
+            values: vec![0.0, 0.0, 0.0, 2.0, 0.0, 0.0, 3.0, 0.0, 1.0],
+            ranks: vec![1, 1, 1, 1, 2, 2, 1, 3, 2],
+            in_pool: vec![true, true, true, true, true, true, true, false, true],
+        };
+        let b_top = Statement::InTop { g: 1, k: 3 };
+        assert_eq!(support(&b_top, &t, &[0, 1, 2]), 0.0);
+        let a_top = Statement::InTop { g: 0, k: 1 };
+        assert!((support(&a_top, &t, &[0, 1, 2]) - 2.0 / 3.0).abs() < 1e-12);
+        let c_top = Statement::InTop { g: 2, k: 2 };
+        assert!((support(&c_top, &t, &[0, 1, 2]) - 1.0 / 3.0).abs() < 1e-12);
+        let (sums, _) = crate::report::distribution::summarise(&t, &[true, true, true], 3);
+        let share: Vec<f64> = sums.iter().map(|s| s.share_top_k).collect();
+        assert_eq!(share, vec![2.0 / 3.0, 0.0, 1.0 / 3.0]);
     }
 
     #[test]

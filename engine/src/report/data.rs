@@ -66,6 +66,14 @@ impl KindTable {
     pub fn in_pool(&self, i: usize, j: usize) -> bool {
         self.in_pool[i * self.names.len() + j]
     }
+    /// Whether name j is "top k" in the i-th holding spec: rank at most k, importance above
+    /// 0 and in the spec's pool. Ranks share ties, so without the value test the exact zeros
+    /// of a sparse model (or every name of an all-zero spec, all ranked 1) would count as
+    /// top; the null's tops use the same rule. Every section that counts "top k" calls this.
+    pub fn is_top(&self, i: usize, j: usize, k: usize) -> bool {
+        let at = i * self.names.len() + j;
+        self.ranks[at] as usize <= k && self.values[at] > 0.0 && self.in_pool[at]
+    }
     pub fn row_values(&self, i: usize) -> &[f64] {
         let m = self.names.len();
         &self.values[i * m..(i + 1) * m]

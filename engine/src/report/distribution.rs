@@ -31,11 +31,11 @@ pub fn summarise(
             .collect();
         let ranks: Vec<u32> = rows.iter().map(|&i| kt.rank(i, j)).collect();
         let rf: Vec<f64> = ranks.iter().map(|&r| f64::from(r)).collect();
-        let top = |rs: &mut dyn Iterator<Item = u32>, n: usize| {
+        let top = |is: &mut dyn Iterator<Item = usize>, n: usize| {
             if n == 0 {
                 f64::NAN
             } else {
-                rs.filter(|&r| r as usize <= top_k).count() as f64 / n as f64
+                is.filter(|&i| kt.is_top(i, j, top_k)).count() as f64 / n as f64
             }
         };
         let all = kt.specs.len();
@@ -48,8 +48,8 @@ pub fn summarise(
             median_rank: median(&rf),
             best_rank: ranks.iter().copied().min().unwrap_or(0),
             worst_rank: ranks.iter().copied().max().unwrap_or(0),
-            share_top_k: top(&mut ranks.iter().copied(), ranks.len()),
-            share_top_k_all: top(&mut (0..all).map(|i| kt.rank(i, j)), all),
+            share_top_k: top(&mut rows.iter().copied(), rows.len()),
+            share_top_k_all: top(&mut (0..all), all),
         });
         let mut hist: std::collections::BTreeMap<u32, usize> = Default::default();
         for r in ranks {

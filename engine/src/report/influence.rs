@@ -116,9 +116,10 @@ pub fn rank_influence(
             .map(|i| f64::from(kt.rank(i, j)))
             .collect();
         for (d, dim) in dims.iter().enumerate() {
-            let mut groups: Vec<Vec<f64>> = vec![Vec::new(); dim.choices.len()];
+            // (rank, top k) of each holding spec, by the option it took.
+            let mut groups: Vec<Vec<(f64, bool)>> = vec![Vec::new(); dim.choices.len()];
             for (i, &s) in kt.specs.iter().enumerate() {
-                groups[choices[s][d]].push(ranks[i]);
+                groups[choices[s][d]].push((ranks[i], kt.is_top(i, j, top_k)));
             }
             for (c, g) in groups.iter().enumerate() {
                 if g.is_empty() {
@@ -131,9 +132,8 @@ pub fn rank_influence(
                     dimension: dim.dimension.clone(),
                     choice: dim.choices[c].clone(),
                     n: g.len(),
-                    median_rank: median(g),
-                    share_top_k: g.iter().filter(|&&r| r <= top_k as f64).count() as f64
-                        / g.len() as f64,
+                    median_rank: median(&g.iter().map(|x| x.0).collect::<Vec<f64>>()),
+                    share_top_k: g.iter().filter(|x| x.1).count() as f64 / g.len() as f64,
                 });
             }
         }

@@ -224,9 +224,28 @@ pub fn headline(n: &NestedReport) -> String {
         String::new()
     };
     if n.naive_error.is_finite() {
+        // The gap against its own noise: the fold s.e. treats the outer folds as
+        // independent (they share training units), so it understates; a gap within two of
+        // them is not told apart from none by one outer partition.
+        let gap = if n.fold_se.is_finite() && n.optimism.abs() < 2.0 * n.fold_se {
+            format!(
+                "The nested error and the naive best differ by {:+.2} {m}, within two fold-to-fold standard errors, so one outer partition cannot tell the optimism of choosing the best from none (more outer partitions would)",
+                n.optimism
+            )
+        } else if n.optimism >= 0.0 {
+            format!(
+                "Choosing the best spec is optimistic by about {:.2} {m}",
+                n.optimism
+            )
+        } else {
+            format!(
+                "The nested error is below the naive best by {:.2} {m} (no optimism shown)",
+                -n.optimism
+            )
+        };
         format!(
-            "Choosing the best spec is optimistic by about {:.4} {m}: {best_of}, but repeating the choice{among} inside {} outer folds and scoring it on units the choice never saw gives {:.4}{se}, which {beats} the training-median baseline ({:.4}).",
-            n.optimism, n.outer_folds, n.nested_error, n.baseline_error
+            "{gap}: {best_of}, and repeating the choice{among} inside {} outer folds and scoring it on units the choice never saw gives {:.4}{se}, which {beats} the training-median baseline ({:.4}).",
+            n.outer_folds, n.nested_error, n.baseline_error
         )
     } else {
         format!(
@@ -333,9 +352,28 @@ mod tests {
             .chosen
             .iter()
             .any(|c| c.dimension == "model" && c.choice == "m-b"));
+        // Outer errors 1, 2, 3: fold s.e. = 1 / sqrt(3) = 0.577, so a gap of 0.3 is within
+        // two of them: no optimism claimed.
+        assert!(
+            (n.fold_se - 1.0 / 3f64.sqrt()).abs() < 1e-12,
+            "{}",
+            n.fold_se
+        );
         let h = headline(&n);
         assert!(
-            h.contains("optimistic by about 0.3000 mae") && h.contains("beats"),
+            h.contains("differ by +0.30 mae, within two fold-to-fold standard errors")
+                && !h.contains("optimistic by")
+                && h.contains("beats"),
+            "{h}"
+        );
+        let mut far = n.clone();
+        far.fold_se = 0.1;
+        let h = headline(&far);
+        assert!(h.contains("optimistic by about 0.30 mae"), "{h}");
+        far.optimism = -0.3;
+        let h = headline(&far);
+        assert!(
+            h.contains("below the naive best by 0.30 mae") && !h.contains("optimistic by"),
             "{h}"
         );
         // The section's plot and page tables.

@@ -322,8 +322,8 @@ fn read_clusters(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicato
                 continue;
             };
             s.k = k.value(r).max(0) as usize;
-            s.silhouette = sil.value(r);
-            s.bound = bound.value(r);
+            s.silhouette = fv(sil, r);
+            s.bound = fv(bound, r);
             let c = cl.value(r).max(0) as usize;
             while s.clusters.len() <= c {
                 let i = s.clusters.len();

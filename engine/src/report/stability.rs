@@ -53,7 +53,7 @@ pub fn stability(kt: &KindTable, sets: &[(usize, Vec<bool>)], top_k: usize) -> V
                 }
                 n += 1;
                 for (j, c) in cnt.iter_mut().enumerate() {
-                    if kt.rank(i, j) as usize <= top_k {
+                    if kt.is_top(i, j, top_k) {
                         *c += 1;
                     }
                 }
@@ -69,7 +69,7 @@ pub fn stability(kt: &KindTable, sets: &[(usize, Vec<bool>)], top_k: usize) -> V
                 })
                 .collect();
             let in_best = (0..m)
-                .map(|j| row_of.get(best).map(|&i| kt.rank(i, j) as usize <= top_k))
+                .map(|j| row_of.get(best).map(|&i| kt.is_top(i, j, top_k)))
                 .collect();
             (shares, in_best)
         })

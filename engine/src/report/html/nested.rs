@@ -13,17 +13,22 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         "Nested estimate of choosing the best",
         "nested_summary.parquet",
         format!(
-            "The naive best is the report's best spec, chosen and scored on the same folds. The nested estimate repeats the \
-             choice among {} specs inside each of {} outer folds (inner folds on the outer training units only), refits the \
-             chosen spec on the outer training units and scores it on the held-out units, pooled over all outer test rows. \
-             The baseline predicts each outer test row by its outer training median. Optimism = nested - naive.",
-            n.specs_swept, n.outer_folds
+            "The naive best is the lowest error, in the run's own folds, of the {} specs the outer folds chose among: chosen and \
+             scored on the same folds (the best of all {} specs beside it). The nested estimate repeats the choice among those \
+             specs inside each of {} outer folds (inner folds on the outer training units only), refits the chosen spec on the \
+             outer training units and scores it on the held-out units, pooled over all outer test rows; its fold s.e. is the \
+             standard deviation of the outer folds' errors over the square root of their number, which treats the folds as \
+             independent and so understates the uncertainty. The baseline predicts each outer test row by its outer training \
+             median. Optimism = nested - naive.",
+            n.specs_swept, n.specs_total, n.outer_folds
         ),
     )
     .cols(&[
         ("metric", false),
         ("naive best", true),
+        ("best of all specs", true),
         ("nested", true),
+        ("fold s.e.", true),
         ("baseline", true),
         ("optimism", true),
         ("outer folds", true),
@@ -32,7 +37,9 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
     t.push(vec![
         n.metric.clone(),
         num(n.naive_error),
+        num(n.naive_all_error),
         num(n.nested_error),
+        num(n.fold_se),
         num(n.baseline_error),
         num(n.optimism),
         n.outer_folds.to_string(),

@@ -296,7 +296,9 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         "importance_spread.parquet",
         format!(
             "Per name and kind over the good set ({}): importance spread over the members whose pool holds the \
-             name (min and max are the empirical range; members that left it out are counted apart), ranks, and the share of members (and of all ok specs) ranking it in the top {k}. Shown here by \
+             name (min and max are the empirical range; members that left it out are counted apart), ranks, and the share of members (and of all ok specs) ranking it in the top {k} (top k everywhere on this page: rank at most {k} with an importance above 0, \
+             so the tied zeros of a sparse model are never top). Shares count specs: specs whose fits are identical (a scaling \
+             before a tree family changes nothing) count as separate members, unlike the curves below, which count a duplicate fit once. Shown here by \
              level, kind and median rank; names no good member's pool holds (n = 0) come last.",
             r.meta.good
         ),

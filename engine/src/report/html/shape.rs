@@ -29,16 +29,20 @@ pub(super) fn section(report: &Report, h: &mut String) {
          Shape: a straight line, a continuous hinge (two slopes meeting at a breakpoint) and a jump (two separate \
          lines split between neighbouring grid points) are fitted by least squares; the hinge or the jump is kept \
          only when its BIC on the grid points (the breakpoint counted as a parameter, common practice) is below \
-         the line's by more than 6 (strong evidence on the scale of Kass and Raftery 1995) and its two segments \
+         the line's by more than 6 (a threshold of ours: the grid points are a fitted curve, not noisy data, so this \
+         is a tuning margin, not a measure of evidence) and its two segments \
          differ by more than the flat tolerance somewhere right of the breakpoint (our own rule); of the two, \
-         the lower BIC wins. Otherwise the curve has no breakpoint. A jump lies between two grid points: it is \
+         the lower BIC wins. Otherwise the curve has no breakpoint. Tree families (trees, forests, boosting) give \
+         step-shaped curves by construction, so a jump in their curve marks a split point of the model; it points to \
+         a threshold in the data only where smooth families bend at the same place. A jump lies between two grid points: it is \
          placed midway and known only to that gap. The range given with a breakpoint is a {:.0}% unit-composition range: the \
          curve is recomputed from {} bootstrap resamples of units with the fitted model held fixed and its shape chosen \
          again, and the range covers the resamples that keep the same shape (their share is given). It says how \
          much the bend depends on which units are in the data, not how sure the threshold is: the model is not \
          refitted. Subgroups: k-means on each unit's mean centred curve; their number by \
          the gap statistic (Tibshirani, Walther and Hastie 2001) against curves drawn with no group structure, so \
-         units whose curves differ only by degree stay one group; a \
+         units whose curves differ only by degree usually stay one group, though a group whose curves spread \
+         widely in amplitude can come out split in two (subgroups of one shape may be one group); a \
          unit departs when its distance from the mean centred curve exceeds the median + 3 x 1.4826 x MAD of \
          the distances. The tables are in \
          <code>curves/</code> beside the run's tables.</p>",
@@ -104,9 +108,19 @@ pub(super) fn section(report: &Report, h: &mut String) {
             "Subgroups of units (best spec)",
             "clusters.parquet",
             format!(
-                "k = {} by the gap statistic (mean silhouette {}, a description); each cluster's own shape and breakpoint are chosen on the mean curve of its units' rows, as for a member (no breakpoint for a line or a flat curve).",
-                s.k.max(1),
-                num(s.silhouette)
+                "{} Each cluster's own shape and breakpoint are chosen on the mean curve of its units' rows, as for a member (no breakpoint for a line or a flat curve).",
+                if s.k > 1 {
+                    format!(
+                        "k = {} by the gap statistic (mean silhouette {}, a description).",
+                        s.k,
+                        num(s.silhouette)
+                    )
+                } else {
+                    "One group: the best spec's curves show no subgroup structure by the gap statistic. That is a statement \
+                     about this model's curves: a model that does not capture an interaction cannot show the subgroups it \
+                     would make."
+                        .to_string()
+                }
             ),
         )
         .cols(&[

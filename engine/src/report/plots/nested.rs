@@ -34,10 +34,11 @@ pub(super) fn nested(report: &Report) -> Result<Option<Plot>> {
         return Ok(None);
     }
     let caption = format!(
-        "{m} in outcome units. Naive best: the report's best spec, chosen and scored on the same folds{}. Nested: the choice \
+        "{m} in outcome units. Naive best: the lowest {m} of the {} specs the outer folds chose among, in the run's own folds (chosen and scored on the same folds){}. Nested: the choice \
          among {} specs repeated inside each of {} outer folds, the chosen spec refitted on the outer training units and \
          scored on the held-out units (ticks: each outer fold's own {m}). Baseline: each outer test row predicted by its \
          outer training median. Optimism of choosing the best = nested - naive = {}.",
+        n.specs_swept,
         if n.naive_error.is_finite() {
             ""
         } else {
