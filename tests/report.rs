@@ -292,6 +292,18 @@ fn run_writes_the_report_and_map_rewrites_it_identically() {
         1e-12,
         "in-top support = share positive",
     );
+    // Over the good set (the default ratio rule, as curve.parquet marks it).
+    let good_ids: Vec<String> = (0..b.num_rows())
+        .filter(|&i| ratio.value(i))
+        .map(|i| id.value(i).to_string())
+        .collect();
+    let good_pos = good_ids.iter().filter(|g| positive[g.as_str()]).count();
+    close(
+        sg.value(claims[0]),
+        good_pos as f64 / good_ids.len() as f64,
+        1e-12,
+        "in-top support over the good set",
+    );
     assert!(
         want < 1.0,
         "the check needs a spec where the importance is not positive"
