@@ -6,17 +6,9 @@ use std::sync::Mutex;
 
 /// Every random stream the engine has: fold shuffles with repeats, forests, extremely
 /// randomised trees, subsampled boosting; plus the stages that share work across specs.
-const CFG: &str = r#"
-seed = 11
-[data]
-file = "toy-panel/panel.csv"
-unit = "district"
-wave = "wave"
-outcome = "hardship_pct"
-outcome_kind = "percent"
-ignore = ["region"]
-codebook = "toy-panel/codebook.csv"
-[folds]
+const CFG: &str = toy_config!(
+    "11",
+    r#"[folds]
 k = 4
 repeats = 2
 [choices]
@@ -38,7 +30,8 @@ subsample = [0.7]
 k = [3]
 [grid.pls]
 k = [2]
-"#;
+"#
+);
 
 /// Everything a spec's result holds, as bits: status, message, notes, every metric,
 /// every prediction and every importance row.

@@ -51,17 +51,9 @@ k = [3]
 
 /// Every option of every dimension, one grid point each, on the toy panel with an invented
 /// standard-error column (for `invvar`).
-const EVERY_OPTION: &str = r#"
-seed = 3
-[data]
-file = "toy-panel/panel.csv"
-unit = "district"
-wave = "wave"
-outcome = "hardship_pct"
-outcome_kind = "percent"
-ignore = ["region"]
-codebook = "toy-panel/codebook.csv"
-[folds]
+const EVERY_OPTION: &str = toy_config!(
+    "3",
+    r#"[folds]
 k = 4
 repeats = 2
 [choices]
@@ -112,7 +104,8 @@ subsample = [0.8]
 model = "ols"
 pool = "all"
 compress = "none"
-"#;
+"#
+);
 
 struct Setup {
     panel: Panel,

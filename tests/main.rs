@@ -3,6 +3,7 @@
 //! `FORKMAP_REFERENCE_DIR` when the test command has regenerated them.
 
 mod bad_input;
+#[macro_use]
 mod common;
 mod curves;
 mod curves_groups;

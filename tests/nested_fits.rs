@@ -15,17 +15,9 @@ use std::sync::{Arc, Mutex};
 /// Paths of three, two and two sizes, under two compressions, two weightings and a
 /// smeared back-transform (each spec of a group has its own), with native and
 /// permutation importances.
-const CFG: &str = r#"
-seed = 23
-[data]
-file = "toy-panel/panel.csv"
-unit = "district"
-wave = "wave"
-outcome = "hardship_pct"
-outcome_kind = "percent"
-ignore = ["region"]
-codebook = "toy-panel/codebook.csv"
-[folds]
+const CFG: &str = toy_config!(
+    "23",
+    r#"[folds]
 k = 4
 repeats = 1
 [choices]
@@ -52,7 +44,8 @@ subsample = [0.7]
 [importance]
 repeats = 1
 kinds = ["native", "permutation"]
-"#;
+"#
+);
 
 #[derive(Default)]
 struct Fits(AtomicUsize);

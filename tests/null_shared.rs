@@ -9,17 +9,9 @@ use forkmap::progress::Progress;
 use forkmap::sweep::cache::StageCache;
 use std::sync::{Arc, Mutex};
 
-const CONFIG: &str = r#"
-seed = 7
-[data]
-file = "toy-panel/panel.csv"
-unit = "district"
-wave = "wave"
-outcome = "hardship_pct"
-outcome_kind = "percent"
-ignore = ["region"]
-codebook = "toy-panel/codebook.csv"
-[folds]
+const CONFIG: &str = toy_config!(
+    "7",
+    r#"[folds]
 k = 4
 [choices]
 transform = ["identity", "logit"]
@@ -43,7 +35,8 @@ k = [3]
 k = [2]
 [grid.ridge]
 alpha = [10]
-"#;
+"#
+);
 
 #[test]
 fn shared_stage_fits_give_bit_identical_null_draws() {

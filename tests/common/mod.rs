@@ -159,3 +159,19 @@ pub fn files_in(dir: &Path, keep: impl Fn(&str) -> bool) -> usize {
         })
         .unwrap_or(0)
 }
+
+/// A config on the committed toy panel as a `&'static str`: `seed = SEED`, the panel's
+/// `[data]` section (paths relative to the repository root, as `prepared` reads them), then
+/// `rest` (the sections a test varies). One place for the data section the tests share.
+macro_rules! toy_config {
+    ($seed:literal, $rest:literal) => {
+        concat!(
+            "seed = ",
+            $seed,
+            "\n[data]\nfile = \"toy-panel/panel.csv\"\nunit = \"district\"\nwave = \"wave\"\n",
+            "outcome = \"hardship_pct\"\noutcome_kind = \"percent\"\nignore = [\"region\"]\n",
+            "codebook = \"toy-panel/codebook.csv\"\n",
+            $rest
+        )
+    };
+}
