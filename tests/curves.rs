@@ -47,6 +47,7 @@ pub(crate) fn prepared(panel: Panel, choices: &str) -> forkmap::run::Prepared {
         space,
         folds,
         data_path: PathBuf::new(),
+        codebook_sha256: None,
     }
 }
 

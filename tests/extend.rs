@@ -511,6 +511,60 @@ fn extensions_that_change_old_results_are_refused_naming_the_difference() {
 
 /// A gathered run extends like any finished run (its lineage keeps where the shards were),
 /// and `forkmap map` reads the extended run.
+/// The codebook is part of the run's identity by content, not by path: a codebook edited in
+/// place (two indicators moved to another group, same file name) makes the run's group
+/// importances stale, so both an extension and a resume are refused naming it, and
+/// nothing is written (cold review 3, M1).
+#[test]
+fn a_codebook_edited_in_place_is_refused() {
+    let tmp = tempfile::tempdir().unwrap();
+    let cb = tmp.path().join("codebook.csv");
+    std::fs::copy(root().join("toy-panel/codebook.csv"), &cb).unwrap();
+    let local = |t: &str| t.replace("{root}/toy-panel/codebook.csv", &cb.display().to_string());
+    let base = Knobs::default();
+    let small = write_config(tmp.path(), "small.toml", &local(SMALL), &base);
+    let big = write_config(tmp.path(), "big.toml", &local(BIG), &base);
+    let out = tmp.path().join("run");
+    ok(&run(&small, &out, &[]), "small run");
+    let before = snapshot(&out);
+    let text = std::fs::read_to_string(&cb).unwrap();
+    let moved = text
+        .replace("inc_unemployment,income,", "inc_unemployment,housing,")
+        .replace("inc_benefit_claims,income,", "inc_benefit_claims,prices,");
+    assert_ne!(moved, text);
+    std::fs::write(&cb, moved).unwrap();
+    let e = run(&big, &out, &["--extend"]);
+    assert!(
+        !e.status.success(),
+        "an extension with an edited codebook ran"
+    );
+    assert!(stderr(&e).contains("codebook differs"), "{}", stderr(&e));
+    let r = run(&small, &out, &[]);
+    assert!(!r.status.success(), "a resume with an edited codebook ran");
+    assert!(stderr(&r).contains("codebook"), "{}", stderr(&r));
+    assert_eq!(
+        snapshot(&out),
+        before,
+        "a refusal changed the run directory"
+    );
+}
+
+/// An extension with `--no-curves` leaves no curves of the smaller run behind (they would
+/// describe its best spec and good set; cold review 3, S2).
+#[test]
+fn an_extension_without_curves_drops_the_old_ones() {
+    let tmp = tempfile::tempdir().unwrap();
+    let base = Knobs::default();
+    let small = write_config(tmp.path(), "small.toml", SMALL, &base);
+    let big = write_config(tmp.path(), "big.toml", BIG, &base);
+    let out = tmp.path().join("run");
+    ok(&run(&small, &out, &[]), "small run");
+    assert!(out.join("curves").is_dir(), "the small run drew curves");
+    ok(&run(&big, &out, &["--extend", "--no-curves"]), "extension");
+    assert!(!out.join("curves").exists(), "stale curves kept");
+    assert!(out.join("report/index.html").is_file());
+}
+
 #[test]
 fn a_gathered_run_is_extended() {
     let tmp = tempfile::tempdir().unwrap();

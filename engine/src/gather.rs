@@ -152,7 +152,12 @@ fn write_gathered(
         };
         let p = prepare(&cfg_path)?;
         let sha = sha256_file(&p.data_path)?;
-        crate::resume::same_run(set.manifest(), &p.cfg.canonical_json(), &sha).map_err(|what| {
+        crate::resume::same_run(
+            set.manifest(),
+            &p.cfg.canonical_json(),
+            &sha,
+            p.codebook_sha256.as_deref(),
+        ).map_err(|what| {
             Error::Config {
                 file: cfg_path.display().to_string(),
                 msg: format!("its {what} differs from the shards' run: cannot finish their importance pass with it"),

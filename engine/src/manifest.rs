@@ -115,6 +115,9 @@ pub struct Manifest {
     pub config: Value,
     pub data_file: String,
     pub data_sha256: String,
+    /// sha256 of the codebook file (none without a codebook).
+    #[serde(default)]
+    pub codebook_sha256: Option<String>,
     pub seed: u64,
     pub threads: usize,
     pub started: String,
@@ -223,6 +226,7 @@ mod tests {
             config: serde_json::json!({"seed": 3}),
             data_file: "d.csv".into(),
             data_sha256: "ab".into(),
+            codebook_sha256: None,
             seed: 3,
             threads: 2,
             started: "then".into(),

@@ -154,6 +154,7 @@ pub fn same_run(
     manifest: &crate::manifest::Manifest,
     config: &serde_json::Value,
     sha: &str,
+    codebook_sha: Option<&str>,
 ) -> std::result::Result<(), String> {
     if manifest.version != env!("CARGO_PKG_VERSION") {
         return Err(format!(
@@ -164,6 +165,9 @@ pub fn same_run(
     }
     if manifest.data_sha256 != sha {
         return Err("data file (sha256)".into());
+    }
+    if manifest.codebook_sha256.as_deref() != codebook_sha {
+        return Err("codebook file (sha256)".into());
     }
     if &manifest.config != config {
         return Err("config".into());

@@ -426,6 +426,27 @@ impl RunTables {
         self.units.len()
     }
 
+    /// Each spec's fit class: the index of the first spec whose per-unit errors (sums of
+    /// absolute and squared errors, and counts) are bit for bit its own. Specs of one class
+    /// are, for the report's purposes, one fit counted several times (a scaling before a
+    /// tree family changes nothing); the good sets report how many distinct fits they hold.
+    pub fn fit_classes(&self) -> Vec<usize> {
+        let nu = self.n_units();
+        let mut first: HashMap<Vec<u64>, usize> = HashMap::new();
+        (0..self.n_specs())
+            .map(|s| {
+                let r = s * nu..(s + 1) * nu;
+                let key: Vec<u64> = self.unit_abs[r.clone()]
+                    .iter()
+                    .chain(&self.unit_sq[r.clone()])
+                    .chain(&self.unit_n[r])
+                    .map(|v| v.to_bits())
+                    .collect();
+                *first.entry(key).or_insert(s)
+            })
+            .collect()
+    }
+
     /// Keep the specs where `keep` is true (importances are read after this).
     fn retain(self, keep: &[bool]) -> RunTables {
         let nu = self.units.len();

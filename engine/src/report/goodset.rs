@@ -56,13 +56,26 @@ pub fn paired(e: &Errors, best: usize, level: f64) -> Vec<bool> {
 }
 
 /// Size and rule of one good set.
-pub fn summary(definition: &str, rule: String, threshold: f64, members: &[bool]) -> GoodSet {
+pub fn summary(
+    definition: &str,
+    rule: String,
+    threshold: f64,
+    members: &[bool],
+    classes: &[usize],
+) -> GoodSet {
     let size = members.iter().filter(|m| **m).count();
+    let distinct: std::collections::BTreeSet<usize> = members
+        .iter()
+        .zip(classes)
+        .filter(|(m, _)| **m)
+        .map(|(_, c)| *c)
+        .collect();
     GoodSet {
         definition: definition.into(),
         rule,
         threshold,
         size,
+        distinct_fits: distinct.len(),
         share_of_ok: size as f64 / members.len().max(1) as f64,
     }
 }

@@ -34,7 +34,17 @@ pub fn headline(r: &Report, primary: &[(String, String)]) -> Vec<String> {
     let sizes: Vec<String> = r
         .good_sets
         .iter()
-        .map(|g| format!("{} by the {} rule ({})", g.size, g.definition, g.rule))
+        .map(|g| {
+            let distinct = if g.distinct_fits < g.size {
+                format!(", {} distinct fits", g.distinct_fits)
+            } else {
+                String::new()
+            };
+            format!(
+                "{} by the {} rule{distinct} ({})",
+                g.size, g.definition, g.rule
+            )
+        })
         .collect();
     out.push(format!("Good specs: {}.", sizes.join("; ")));
     out.push(format!(

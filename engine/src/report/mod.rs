@@ -206,6 +206,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
         goodset::paired(&e, best, s.level),
     ];
     let mname = &s.metric;
+    let classes = t.fit_classes();
     r.good_sets = vec![
         goodset::summary(
             "ratio",
@@ -216,6 +217,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
             ),
             best_err * (1.0 + s.ratio_eps),
             &good[0],
+            &classes,
         ),
         goodset::summary(
             "margin",
@@ -230,6 +232,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
             ),
             best_err + margin,
             &good[1],
+            &classes,
         ),
         goodset::summary(
             "paired",
@@ -243,6 +246,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
             ),
             f64::NAN,
             &good[2],
+            &classes,
         ),
     ];
     let gi = GOOD_DEFINITIONS

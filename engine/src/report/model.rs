@@ -180,6 +180,8 @@ pub struct GoodSet {
     /// Error threshold (NaN for `paired`, which has none).
     pub threshold: f64,
     pub size: usize,
+    /// Distinct fits among the members ([`super::data::RunTables::fit_classes`]).
+    pub distinct_fits: usize,
     pub share_of_ok: f64,
 }
 

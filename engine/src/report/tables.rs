@@ -129,6 +129,7 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
             .s("rule", v.iter().map(|x| &x.rule))
             .f("threshold", v.iter().map(|x| x.threshold))
             .i("size", v.iter().map(|x| x.size as i64))
+            .i("distinct_fits", v.iter().map(|x| x.distinct_fits as i64))
             .f("share_of_ok", v.iter().map(|x| x.share_of_ok))
             .write(dir, "good_sets")?,
     );

@@ -157,6 +157,16 @@ pub fn check(
             manifest.data_file
         ));
     }
+    if manifest.codebook_sha256 != p.codebook_sha256 {
+        return Err(format!(
+            "codebook differs (sha256 of {} is not that of the run's codebook): group importances depend on it",
+            p.cfg
+                .data
+                .codebook
+                .as_deref()
+                .map_or("(none)".to_string(), |c| p.cfg.resolve(c).display().to_string())
+        ));
+    }
     let new = p.cfg.canonical_json();
     let old = &manifest.config;
     let identity = |c: &Value| -> Value {

@@ -25,6 +25,10 @@ pub struct Prepared {
     pub space: ChoiceSpace,
     pub folds: FoldPlan,
     pub data_path: PathBuf,
+    /// sha256 of the codebook file, when the config names one: part of the run's identity
+    /// (a regrouped codebook changes every group importance), compared on resume, extend
+    /// and gather like the data file's.
+    pub codebook_sha256: Option<String>,
 }
 
 /// Read and check a config file and everything it names.
@@ -38,12 +42,17 @@ pub fn prepare_config(cfg: Config) -> Result<Prepared> {
     let space = ChoiceSpace::build(&cfg, &panel)?;
     let folds = FoldPlan::new(&panel, &cfg.folds, cfg.seed)?;
     let data_path = cfg.resolve(&cfg.data.file);
+    let codebook_sha256 = match &cfg.data.codebook {
+        Some(c) => Some(sha256_file(&cfg.resolve(c))?),
+        None => None,
+    };
     Ok(Prepared {
         cfg,
         panel,
         space,
         folds,
         data_path,
+        codebook_sha256,
     })
 }
 
@@ -156,7 +165,13 @@ fn open_out(
                 )
             });
         let same = typed.as_ref().map_err(Clone::clone).and_then(|m| {
-            crate::resume::same_run(m, &p.cfg.canonical_json(), sha).and_then(|()| {
+            crate::resume::same_run(
+                m,
+                &p.cfg.canonical_json(),
+                sha,
+                p.codebook_sha256.as_deref(),
+            )
+            .and_then(|()| {
                 let want = shard.map(|s| s.to_string());
                 if want == m.shard {
                     Ok(())
@@ -274,6 +289,7 @@ fn manifest(
         config: p.cfg.canonical_json(),
         data_file: p.data_path.display().to_string(),
         data_sha256: sha.into(),
+        codebook_sha256: p.codebook_sha256.clone(),
         seed: p.cfg.seed,
         threads,
         started: started.into(),
@@ -426,10 +442,14 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
             manifest,
             extension: Some(ext),
         } => {
-            // The old report describes a smaller run: it is rewritten at the end.
-            let report = out.join(crate::report::REPORT_DIR);
-            if report.is_dir() {
-                std::fs::remove_dir_all(&report).map_err(|e| Error::io(&report, e))?;
+            // The old report and curves describe a smaller run (its best spec and good
+            // set): both go now; the report is rewritten at the end, the curves too
+            // unless `--no-curves` (then there are none rather than stale ones).
+            for dir in [crate::schema::REPORT_DIR, crate::schema::CURVES_DIR] {
+                let d = out.join(dir);
+                if d.is_dir() {
+                    std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
+                }
             }
             lineage = Some(ext.lineage.clone());
             extension = Some(ext);

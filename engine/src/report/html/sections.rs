@@ -23,6 +23,7 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         ("rule", false),
         ("threshold", true),
         ("size", true),
+        ("distinct fits", true),
         ("share of ok specs", true),
     ]);
     for g in &r.good_sets {
@@ -31,6 +32,7 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             g.rule.clone(),
             num(g.threshold),
             g.size.to_string(),
+            g.distinct_fits.to_string(),
             share(g.share_of_ok),
         ]);
     }
