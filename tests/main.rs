@@ -4,6 +4,7 @@
 
 mod bad_input;
 mod common;
+mod costs;
 mod curves;
 mod curves_groups;
 mod curves_reference;

@@ -67,12 +67,13 @@ fn shared_stage_fits_give_bit_identical_null_draws() {
     };
     let subset = forkmap::null::run::sample(&inp);
     // The sample holds specs whose stages read the outcome, and specs whose do not.
-    let has = |dim: &str, opt: &str| {
+    let has = |dim: forkmap::decl::Dim, opt: &str| {
         subset
             .iter()
             .any(|&i| p.space.specs[i].choice(dim).option == opt)
     };
-    assert!(has("compress", "pls") && has("pool", "screen") && has("compress", "pca"));
+    use forkmap::decl::Dim;
+    assert!(has(Dim::Compress, "pls") && has(Dim::Pool, "screen") && has(Dim::Compress, "pca"));
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(2)
         .build()
