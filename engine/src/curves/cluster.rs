@@ -107,9 +107,9 @@ fn lloyd(x: ArrayView2<f64>, mut c: Array2<f64>) -> (Vec<usize>, f64) {
             cnt[l] += 1;
             sum.row_mut(l).zip_mut_with(&x.row(i), |s, v| *s += v);
         }
-        for j in 0..k {
-            if cnt[j] > 0 {
-                let m = cnt[j] as f64;
+        for (j, &cj) in cnt.iter().enumerate() {
+            if cj > 0 {
+                let m = cj as f64;
                 c.row_mut(j).zip_mut_with(&sum.row(j), |cj, s| *cj = s / m);
             }
         }
