@@ -5,6 +5,7 @@
 mod bad_input;
 #[macro_use]
 mod common;
+mod costs;
 mod curves;
 mod curves_groups;
 mod curves_reference;

@@ -131,7 +131,7 @@ pub struct Excludes {
 /// entry of the dimension's `OPTIONS` table. `B` is the dimension's builder: a stage
 /// builder for pool, fill, scale and compress, a [`crate::transform`] pair for the
 /// transform, a weight function for the weighting (the model dimension's entry is
-/// `models::Family`, which adds a cost function). Adding an option is one entry in its
+/// `models::Family`, whose builder returns a `models::Regressor` with its own cost). Adding an option is one entry in its
 /// dimension's table plus the code it builds; nothing else dispatches on its name.
 #[derive(Debug, Clone, Copy)]
 pub struct Registered<B: 'static> {

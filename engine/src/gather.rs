@@ -130,10 +130,11 @@ fn write_gathered(
         // A finished whole-space run keeps its own permutation pass.
         let mut k = 0;
         for d in &set.dirs {
-            for f in crate::results::second_pass_parts(&d.path.join("importance")) {
+            for f in crate::results::second_pass_parts(&d.path.join(crate::schema::IMPORTANCE)) {
                 copy_synced(
                     &f,
-                    &tmp.join("importance").join(format!("part-i{k:05}.parquet")),
+                    &tmp.join(crate::schema::IMPORTANCE)
+                        .join(format!("part-i{k:05}.parquet")),
                 )?;
                 k += 1;
             }

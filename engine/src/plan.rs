@@ -334,7 +334,7 @@ struct Probe {
 }
 
 /// The run-time estimate from a probe, by a per-family cost model: each family's fit
-/// seconds per cost unit (see `Family::cost`) measured on the probed specs, applied to the
+/// seconds per cost unit (see `Regressor::cost`) measured on the probed specs, applied to the
 /// cost of every spec of the space, plus the mean importance seconds of the probed specs
 /// with the same fill (importances permute every indicator whatever the model, and rerun
 /// the preparations); a family or fill the probe missed takes the probe's overall rate.

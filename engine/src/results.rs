@@ -303,13 +303,13 @@ impl RunSet {
                 out.push(f);
             }
         }
-        if table == "importance" {
+        if table == crate::schema::IMPORTANCE {
             // The deferred permutation pass of finished runs (`part-iNNNNN`).
             for d in &self.dirs {
                 if !d.manifest.complete() || d.manifest.importance_pending() {
                     continue;
                 }
-                out.extend(second_pass_parts(&d.path.join("importance")));
+                out.extend(second_pass_parts(&d.path.join(crate::schema::IMPORTANCE)));
             }
         }
         out

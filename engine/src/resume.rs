@@ -5,6 +5,7 @@
 //! crash between renames) are removed, and only the remaining specs run.
 
 use crate::error::{Error, Result};
+use crate::schema::specs;
 use crate::sink::TABLES;
 use arrow_array::{Array, Float64Array, StringArray};
 use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
@@ -50,7 +51,7 @@ pub fn scan(out: &Path) -> Result<Done> {
 /// Read what a run directory holds without changing it: the done specs and the names of
 /// the complete specs parts.
 pub fn read_done(out: &Path) -> Result<(Done, HashSet<String>)> {
-    let specs_dir = out.join("specs");
+    let specs_dir = out.join(crate::schema::SPECS);
     let mut done = Done::default();
     let mut complete: HashSet<String> = HashSet::new();
     if specs_dir.is_dir() {
@@ -77,7 +78,8 @@ pub fn read_done(out: &Path) -> Result<(Done, HashSet<String>)> {
                         .cloned()
                         .ok_or_else(|| out_err(&path, format!("part lacks column {n}")))
                 };
-                let (ids, status, skill) = (col("spec_id")?, col("status")?, col("skill")?);
+                let (ids, status, skill) =
+                    (col(specs::SPEC_ID)?, col(specs::STATUS)?, col("skill")?);
                 let ids = ids
                     .as_any()
                     .downcast_ref::<StringArray>()
@@ -90,7 +92,7 @@ pub fn read_done(out: &Path) -> Result<(Done, HashSet<String>)> {
                     .as_any()
                     .downcast_ref::<Float64Array>()
                     .ok_or_else(|| out_err(&path, "skill is not a number".into()))?;
-                if let Some(n) = batch.column_by_name("notes") {
+                if let Some(n) = batch.column_by_name(specs::NOTES) {
                     done.noted += n.len() - n.null_count();
                 }
                 for i in 0..batch.num_rows() {

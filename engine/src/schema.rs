@@ -15,7 +15,57 @@
 /// The run's manifest (written last, atomically: its presence marks a finished run).
 pub const MANIFEST: &str = "manifest.json";
 /// The sweep's tables, one folder of Parquet parts each.
-pub const TABLES: &[&str] = &["specs", "predictions", "loadings", "importance"];
+pub const SPECS: &str = "specs";
+pub const PREDICTIONS: &str = "predictions";
+pub const LOADINGS: &str = "loadings";
+pub const IMPORTANCE: &str = "importance";
+pub const TABLES: &[&str] = &[SPECS, PREDICTIONS, LOADINGS, IMPORTANCE];
+
+/// Fixed columns of the specs table ([`SPECS`]), in table order. Between `SPEC_LABEL` and
+/// `STATUS` come one column per dimension (named as the dimension) and one per declared
+/// parameter (`{option}_{parameter}`); between `NOTES` and `N_PREDICTIONS` the metric
+/// columns (`metrics::METRIC_COLUMNS`).
+pub mod specs {
+    pub const SPEC_ID: &str = "spec_id";
+    pub const SPEC_LABEL: &str = "spec_label";
+    pub const STATUS: &str = "status";
+    pub const MESSAGE: &str = "message";
+    pub const NOTES: &str = "notes";
+    pub const N_PREDICTIONS: &str = "n_predictions";
+    pub const SECONDS: &str = "seconds";
+    pub const IMPORTANCE_SECONDS: &str = "importance_seconds";
+}
+
+/// Columns of the predictions table ([`PREDICTIONS`]), in table order.
+pub mod predictions {
+    pub const SPEC_ID: &str = "spec_id";
+    pub const UNIT: &str = "unit";
+    pub const WAVE: &str = "wave";
+    pub const OBSERVED: &str = "observed";
+    pub const PREDICTED: &str = "predicted";
+    pub const FOLD: &str = "fold";
+    pub const REPEAT: &str = "repeat";
+}
+
+/// Columns of the loadings table ([`LOADINGS`]), in table order.
+pub mod loadings {
+    pub const SPEC_ID: &str = "spec_id";
+    pub const COMPONENT: &str = "component";
+    pub const INDICATOR: &str = "indicator";
+    pub const LOADING: &str = "loading";
+}
+
+/// Columns of the importance table ([`IMPORTANCE`]), in table order.
+pub mod importance {
+    pub const SPEC_ID: &str = "spec_id";
+    pub const INDICATOR: &str = "indicator";
+    pub const LEVEL: &str = "level";
+    pub const KIND: &str = "kind";
+    pub const IMPORTANCE: &str = "importance";
+    pub const SPREAD: &str = "spread";
+    pub const RANK: &str = "rank";
+    pub const IN_POOL: &str = "in_pool";
+}
 
 /// The permutation null's folder (its own manifest and tables).
 pub const NULL_DIR: &str = "null";
@@ -53,5 +103,53 @@ mod tests {
         all.sort_unstable();
         all.dedup();
         assert_eq!(all.len(), n);
+    }
+
+    /// No table names a column twice.
+    #[test]
+    fn column_names_are_distinct_within_each_table() {
+        let tables: [&[&str]; 4] = [
+            &[
+                specs::SPEC_ID,
+                specs::SPEC_LABEL,
+                specs::STATUS,
+                specs::MESSAGE,
+                specs::NOTES,
+                specs::N_PREDICTIONS,
+                specs::SECONDS,
+                specs::IMPORTANCE_SECONDS,
+            ],
+            &[
+                predictions::SPEC_ID,
+                predictions::UNIT,
+                predictions::WAVE,
+                predictions::OBSERVED,
+                predictions::PREDICTED,
+                predictions::FOLD,
+                predictions::REPEAT,
+            ],
+            &[
+                loadings::SPEC_ID,
+                loadings::COMPONENT,
+                loadings::INDICATOR,
+                loadings::LOADING,
+            ],
+            &[
+                importance::SPEC_ID,
+                importance::INDICATOR,
+                importance::LEVEL,
+                importance::KIND,
+                importance::IMPORTANCE,
+                importance::SPREAD,
+                importance::RANK,
+                importance::IN_POOL,
+            ],
+        ];
+        for t in tables {
+            let mut v = t.to_vec();
+            v.sort_unstable();
+            v.dedup();
+            assert_eq!(v.len(), t.len(), "{t:?}");
+        }
     }
 }

@@ -2,8 +2,8 @@
 //! machines (or N tasks of a Slurm job array) each run one part and `gather` joins the parts into
 //! exactly the run one machine would have made.
 //!
-//! Each spec gets an expected cost from its model family's cost function (see
-//! [`crate::models::Family::cost`]) at the spec's input width (pool size, or the number of
+//! Each spec gets an expected cost from its model's checked parameters (see
+//! [`crate::models::Regressor::cost`]) at the spec's input width (pool size, or the number of
 //! components), plus a share of its stages. Specs are then dealt longest first to the
 //! least-loaded shard (ties: the lower shard number; equal costs: spec id order), the
 //! classic LPT rule (Graham 1969), whose makespan is at most 4/3 of the optimum. The split

@@ -8,6 +8,7 @@
 
 use crate::error::{Error, Result};
 use crate::panel::Panel;
+use crate::schema as sc;
 use crate::space::{ChoiceSpace, DIMENSIONS};
 use crate::sweep::SpecResult;
 use arrow_array::{
@@ -178,7 +179,7 @@ impl<'a> ParquetSink<'a> {
         if self.importance_only {
             let name = format!("part-i{:05}.parquet", self.next_part);
             let importance = self.importance_batch()?;
-            write_parquet_atomic(&self.dir.join("importance"), &name, &importance)?;
+            write_parquet_atomic(&self.dir.join(sc::IMPORTANCE), &name, &importance)?;
             self.written_specs += self.buffer.len();
             self.buffer.clear();
             self.next_part += 1;
@@ -186,13 +187,13 @@ impl<'a> ParquetSink<'a> {
         }
         let name = format!("part-{:05}.parquet", self.next_part);
         let preds = self.predictions_batch()?;
-        write_parquet_atomic(&self.dir.join("predictions"), &name, &preds)?;
+        write_parquet_atomic(&self.dir.join(sc::PREDICTIONS), &name, &preds)?;
         let loadings = self.loadings_batch()?;
-        write_parquet_atomic(&self.dir.join("loadings"), &name, &loadings)?;
+        write_parquet_atomic(&self.dir.join(sc::LOADINGS), &name, &loadings)?;
         let importance = self.importance_batch()?;
-        write_parquet_atomic(&self.dir.join("importance"), &name, &importance)?;
+        write_parquet_atomic(&self.dir.join(sc::IMPORTANCE), &name, &importance)?;
         let specs = self.specs_batch()?;
-        write_parquet_atomic(&self.dir.join("specs"), &name, &specs)?;
+        write_parquet_atomic(&self.dir.join(sc::SPECS), &name, &specs)?;
         self.written_specs += self.buffer.len();
         self.buffer.clear();
         self.next_part += 1;
@@ -210,8 +211,8 @@ impl<'a> ParquetSink<'a> {
         let rs = &self.buffer;
         let specs = &self.space.specs;
         let mut fields = vec![
-            Field::new("spec_id", DataType::Utf8, false),
-            Field::new("spec_label", DataType::Utf8, false),
+            Field::new(sc::specs::SPEC_ID, DataType::Utf8, false),
+            Field::new(sc::specs::SPEC_LABEL, DataType::Utf8, false),
         ];
         let mut cols: Vec<ArrayRef> = vec![
             Arc::new(StringArray::from_iter_values(
@@ -241,15 +242,15 @@ impl<'a> ParquetSink<'a> {
                     .and_then(|c| c.param(param))
             }))));
         }
-        fields.push(Field::new("status", DataType::Utf8, false));
+        fields.push(Field::new(sc::specs::STATUS, DataType::Utf8, false));
         cols.push(Arc::new(StringArray::from_iter_values(
             rs.iter().map(|r| r.status.name()),
         )));
-        fields.push(Field::new("message", DataType::Utf8, true));
+        fields.push(Field::new(sc::specs::MESSAGE, DataType::Utf8, true));
         cols.push(Arc::new(StringArray::from_iter(
             rs.iter().map(|r| r.message.as_deref()),
         )));
-        fields.push(Field::new("notes", DataType::Utf8, true));
+        fields.push(Field::new(sc::specs::NOTES, DataType::Utf8, true));
         cols.push(Arc::new(StringArray::from_iter(
             rs.iter()
                 .map(|r| (!r.notes.is_empty()).then(|| r.notes.join("; "))),
@@ -265,15 +266,19 @@ impl<'a> ParquetSink<'a> {
                     .filter(|v| v.is_finite())
             }))));
         }
-        fields.push(Field::new("n_predictions", DataType::Int64, false));
+        fields.push(Field::new(sc::specs::N_PREDICTIONS, DataType::Int64, false));
         cols.push(Arc::new(Int64Array::from_iter_values(
             rs.iter().map(|r| r.predictions.len() as i64),
         )));
-        fields.push(Field::new("seconds", DataType::Float64, false));
+        fields.push(Field::new(sc::specs::SECONDS, DataType::Float64, false));
         cols.push(Arc::new(Float64Array::from_iter_values(
             rs.iter().map(|r| r.seconds),
         )));
-        fields.push(Field::new("importance_seconds", DataType::Float64, false));
+        fields.push(Field::new(
+            sc::specs::IMPORTANCE_SECONDS,
+            DataType::Float64,
+            false,
+        ));
         cols.push(Arc::new(Float64Array::from_iter_values(
             rs.iter().map(|r| r.importance_seconds),
         )));
@@ -308,14 +313,14 @@ impl<'a> ParquetSink<'a> {
             }
         }
         let schema = Schema::new(vec![
-            Field::new("spec_id", DataType::Utf8, false),
-            Field::new("indicator", DataType::Utf8, false),
-            Field::new("level", DataType::Utf8, false),
-            Field::new("kind", DataType::Utf8, false),
-            Field::new("importance", DataType::Float64, false),
-            Field::new("spread", DataType::Float64, false),
-            Field::new("rank", DataType::Int32, false),
-            Field::new("in_pool", DataType::Boolean, false),
+            Field::new(sc::importance::SPEC_ID, DataType::Utf8, false),
+            Field::new(sc::importance::INDICATOR, DataType::Utf8, false),
+            Field::new(sc::importance::LEVEL, DataType::Utf8, false),
+            Field::new(sc::importance::KIND, DataType::Utf8, false),
+            Field::new(sc::importance::IMPORTANCE, DataType::Float64, false),
+            Field::new(sc::importance::SPREAD, DataType::Float64, false),
+            Field::new(sc::importance::RANK, DataType::Int32, false),
+            Field::new(sc::importance::IN_POOL, DataType::Boolean, false),
         ]);
         let cols: Vec<ArrayRef> = vec![
             Arc::new(StringArray::from(id)),
@@ -345,10 +350,10 @@ impl<'a> ParquetSink<'a> {
             }
         }
         let schema = Schema::new(vec![
-            Field::new("spec_id", DataType::Utf8, false),
-            Field::new("component", DataType::Utf8, false),
-            Field::new("indicator", DataType::Utf8, false),
-            Field::new("loading", DataType::Float64, false),
+            Field::new(sc::loadings::SPEC_ID, DataType::Utf8, false),
+            Field::new(sc::loadings::COMPONENT, DataType::Utf8, false),
+            Field::new(sc::loadings::INDICATOR, DataType::Utf8, false),
+            Field::new(sc::loadings::LOADING, DataType::Float64, false),
         ]);
         let cols: Vec<ArrayRef> = vec![
             Arc::new(StringArray::from(id)),
@@ -385,13 +390,13 @@ impl<'a> ParquetSink<'a> {
             }
         }
         let schema = Schema::new(vec![
-            Field::new("spec_id", DataType::Utf8, false),
-            Field::new("unit", DataType::Utf8, false),
-            Field::new("wave", DataType::Utf8, true),
-            Field::new("observed", DataType::Float64, false),
-            Field::new("predicted", DataType::Float64, false),
-            Field::new("fold", DataType::Int32, false),
-            Field::new("repeat", DataType::Int32, false),
+            Field::new(sc::predictions::SPEC_ID, DataType::Utf8, false),
+            Field::new(sc::predictions::UNIT, DataType::Utf8, false),
+            Field::new(sc::predictions::WAVE, DataType::Utf8, true),
+            Field::new(sc::predictions::OBSERVED, DataType::Float64, false),
+            Field::new(sc::predictions::PREDICTED, DataType::Float64, false),
+            Field::new(sc::predictions::FOLD, DataType::Int32, false),
+            Field::new(sc::predictions::REPEAT, DataType::Int32, false),
         ]);
         let cols: Vec<ArrayRef> = vec![
             Arc::new(StringArray::from(id)),

@@ -397,11 +397,33 @@ sil_cases.append({"x": xc.tolist(), "labels": (rng.permutation(15) % 2).tolist()
 for c in sil_cases:
     c["silhouette"] = float(silhouette_score(np.array(c["x"]), np.array(c["labels"]), metric="euclidean"))
 
+# KMeans as the curves' k-means runs it: k-means++ starts, Lloyd, the best of 50 starts
+# (n_init=50); tol=0, so each start runs until no label changes (as ours does).
+def sk_kmeans(x, k):
+    return KMeans(n_clusters=k, n_init=50, random_state=0, algorithm="lloyd", tol=0.0).fit(x)
+
+
 km_cases = []
 for k, centres in [(2, [[0, 0, 0], [4, 4, 4]]), (3, [[0, 0], [5, 0], [0, 5]]), (4, [[0, 0], [6, 0], [0, 6], [6, 6]])]:
     x = np.vstack([rng.normal(c, 0.5, (7 + i, len(c))) for i, c in enumerate(centres)])
-    km = KMeans(n_clusters=k, n_init=20, random_state=0).fit(x)
+    km = sk_kmeans(x, k)
     km_cases.append({"x": x.tolist(), "k": k, "labels": km.labels_.tolist(), "inertia": float(km.inertia_)})
+
+# Data without well-separated groups (uniform; overlapping blobs; curve-like rows with a
+# continuous spread of amplitudes), where k-means has local optima: only the inertia of
+# the best of 50 starts is compared, for k = 2..5.
+rng_km = np.random.default_rng(2007)
+grid = np.linspace(0, 1, 12)
+km_hard = []
+for name, x in [
+    ("uniform 3-D", rng_km.uniform(0, 1, (50, 3))),
+    ("overlapping blobs 5-D", np.vstack([rng_km.normal(c, 1.0, (20, 5)) for c in (0.0, 1.0, 2.0)])),
+    (
+        "curves with spread amplitudes",
+        np.outer(rng_km.uniform(0.5, 2.0, 40), np.sin(2 * np.pi * grid)) + rng_km.normal(0, 0.2, (40, 12)),
+    ),
+]:
+    km_hard.append({"name": name, "x": x.tolist(), "inertia": {str(k): float(sk_kmeans(x, k).inertia_) for k in range(2, 6)}})
 
 hinge_cases = []
 for t_true, noise, n in [(6.3, 0.0, 20), (2.5, 0.05, 12), (0.7, 0.3, 30), (4.0, 0.0, 8)]:
@@ -484,5 +506,55 @@ for name, y, tol in [
     c = choose_shape(xs, y, tol)
     c.update(name=name, x=xs.tolist(), y=y.tolist(), tol=tol)
     shape_cases.append(c)
-dump("shape.json", {"silhouette": sil_cases, "kmeans": km_cases, "hinge": hinge_cases, "choose": shape_cases})
+dump(
+    "shape.json",
+    {"silhouette": sil_cases, "kmeans": km_cases, "kmeans_any": km_hard, "hinge": hinge_cases, "choose": shape_cases},
+)
+
+# The gap statistic (Tibshirani, Walther & Hastie 2001, JRSS B 63(2), 411-423; the
+# formulas recalled from memory): for fixed data sets and fixed reference data sets drawn
+# here uniformly over the box of the data's principal-component scores (numpy SVD; the
+# paper's second reference), W(k) = KMeans inertia (n_init=50; W(1) the total sum of
+# squares), Gap(k) = mean_b log W*_b(k) - log W(k), s(k) = sd_b(log W*_b(k)) (divisor B)
+# x sqrt(1 + 1/B), and the chosen k = the smallest k with Gap(k) >= Gap(k+1) - s(k+1) for
+# k < K (K = min(5, n - 1); none: K - 1). forkmap is given the same reference data sets.
+def log_w(x, k):
+    tot = float(((x - x.mean(axis=0)) ** 2).sum())
+    w = tot if k == 1 else float(sk_kmeans(x, k).inertia_)
+    return np.log(max(w, 1e-16 * tot))
+
+
+rng_gap = np.random.default_rng(2001)
+gap_cases = []
+for name, x in [
+    ("three groups", np.vstack([rng_gap.normal(3.0 * np.eye(6)[j], 0.3, (12, 6)) for j in range(3)])),
+    ("no groups", rng_gap.uniform(0, 1, (30, 4))),
+    ("two close groups", np.vstack([rng_gap.normal(c, 0.8, (20, 5)) for c in (0.0, 1.6)])),
+]:
+    n = x.shape[0]
+    kmax = min(5, n - 1)
+    xc = x - x.mean(axis=0)
+    scores = xc @ np.linalg.svd(xc, full_matrices=False)[2].T
+    lo, hi = scores.min(axis=0), scores.max(axis=0)
+    refs = [lo + (hi - lo) * rng_gap.uniform(0, 1, scores.shape) for _ in range(20)]
+    own = np.array([log_w(x, k) for k in range(1, kmax + 1)])
+    ref = np.array([[log_w(z, k) for k in range(1, kmax + 1)] for z in refs])
+    b = len(refs)
+    gap = ref.mean(axis=0) - own
+    se = ref.std(axis=0) * np.sqrt(1 + 1 / b)
+    chosen = next((k for k in range(1, kmax) if gap[k - 1] >= gap[k] - se[k]), kmax - 1)
+    gap_cases.append(
+        {
+            "name": name,
+            "x": x.tolist(),
+            "reference": [z.tolist() for z in refs],
+            "box_widths": sorted((hi - lo).tolist()),
+            "log_w": own.tolist(),
+            "reference_log_w": ref.tolist(),
+            "gap": gap.tolist(),
+            "se": se.tolist(),
+            "k": int(chosen),
+        }
+    )
+dump("gap.json", {"cases": gap_cases})
 print(f"reference values written to {out}")

@@ -81,24 +81,24 @@ fn pc_scores(x: ArrayView2<f64>) -> Option<Array2<f64>> {
     Some(xc.dot(&vecs))
 }
 
-/// Choose the number of subgroups of the rows of `x` (one curve per unit) by the gap
-/// statistic, as stated in the module doc.
-pub fn choose_k(x: ArrayView2<f64>, seed: u64) -> GapChoice {
-    let n = x.nrows();
-    let one = GapChoice {
-        k: 1,
-        labels: vec![0; n],
-        points: Vec::new(),
-    };
-    let kmax = (KMAX + 1).min(n.saturating_sub(1));
+/// Whether the rows of `x` admit no gap decision (too few units for k = 2 against k = 3,
+/// or curves that do not differ): then they form one group.
+fn one_group(x: ArrayView2<f64>) -> bool {
+    let kmax = (KMAX + 1).min(x.nrows().saturating_sub(1));
     let w1 = total_ss(x);
     let own: f64 = x.iter().map(|v| v * v).sum();
-    if kmax < 2 || !w1.is_finite() || w1 <= TINY * own {
-        return one;
+    kmax < 2 || !w1.is_finite() || w1 <= TINY * own
+}
+
+/// The [`REFERENCE_DRAWS`] reference data sets of no cluster structure for the rows of
+/// `x` (as stated in the module doc; in principal-component coordinates), or `None` when
+/// the rows form one group without a decision.
+pub fn reference_sets(x: ArrayView2<f64>, seed: u64) -> Option<Vec<Array2<f64>>> {
+    if one_group(x) {
+        return None;
     }
-    let Some(scores) = pc_scores(x) else {
-        return one;
-    };
+    let n = x.nrows();
+    let scores = pc_scores(x)?;
     let g = scores.ncols();
     let lo: Vec<f64> = (0..g)
         .map(|j| {
@@ -118,6 +118,51 @@ pub fn choose_k(x: ArrayView2<f64>, seed: u64) -> GapChoice {
                 .fold(f64::NEG_INFINITY, f64::max)
         })
         .collect();
+    let base = mix(seed, CURVE_GAP_REFERENCE);
+    Some(
+        (0..REFERENCE_DRAWS)
+            .map(|b| {
+                let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(mix(base, b as u64));
+                let mut z = Array2::<f64>::zeros((n, g));
+                for i in 0..n {
+                    for j in 0..g {
+                        z[[i, j]] = lo[j] + (hi[j] - lo[j]) * rng.gen::<f64>();
+                    }
+                }
+                z
+            })
+            .collect(),
+    )
+}
+
+/// Choose the number of subgroups of the rows of `x` (one curve per unit) by the gap
+/// statistic, as stated in the module doc.
+pub fn choose_k(x: ArrayView2<f64>, seed: u64) -> GapChoice {
+    match reference_sets(x, seed) {
+        Some(refs) => choose_k_given(x, seed, &refs),
+        None => GapChoice {
+            k: 1,
+            labels: vec![0; x.nrows()],
+            points: Vec::new(),
+        },
+    }
+}
+
+/// The gap decision for the rows of `x` against the given reference data sets (B =
+/// `reference.len()`, each clustered by [`kmeans`] seeded by its position `b` as in
+/// [`choose_k`]); [`choose_k`] is this with [`reference_sets`]. Public so that the
+/// decision can be checked against an outside computation on the same reference draws.
+pub fn choose_k_given(x: ArrayView2<f64>, seed: u64, reference: &[Array2<f64>]) -> GapChoice {
+    let n = x.nrows();
+    if one_group(x) || reference.is_empty() {
+        return GapChoice {
+            k: 1,
+            labels: vec![0; n],
+            points: Vec::new(),
+        };
+    }
+    let kmax = (KMAX + 1).min(n.saturating_sub(1));
+    let w1 = total_ss(x);
     let floor = |w: f64, w1: f64| w.max(TINY * w1).ln();
     let mut labels: Vec<Vec<usize>> = vec![vec![0; n]];
     let mut log_w = vec![w1.ln()];
@@ -127,16 +172,10 @@ pub fn choose_k(x: ArrayView2<f64>, seed: u64) -> GapChoice {
         log_w.push(floor(w, w1));
     }
     let base = mix(seed, CURVE_GAP_REFERENCE);
-    let reference: Vec<Vec<f64>> = (0..REFERENCE_DRAWS)
-        .into_par_iter()
-        .map(|b| {
-            let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(mix(base, b as u64));
-            let mut z = Array2::<f64>::zeros((n, g));
-            for i in 0..n {
-                for j in 0..g {
-                    z[[i, j]] = lo[j] + (hi[j] - lo[j]) * rng.gen::<f64>();
-                }
-            }
+    let reference: Vec<Vec<f64>> = reference
+        .par_iter()
+        .enumerate()
+        .map(|(b, z)| {
             let z1 = total_ss(z.view());
             let mut v = vec![floor(z1, z1)];
             for k in 2..=kmax {
@@ -145,7 +184,22 @@ pub fn choose_k(x: ArrayView2<f64>, seed: u64) -> GapChoice {
             v
         })
         .collect();
-    let bf = REFERENCE_DRAWS as f64;
+    let (points, k) = gap_points(&log_w, &reference);
+    GapChoice {
+        k,
+        labels: labels.swap_remove(k - 1),
+        points,
+    }
+}
+
+/// The statistic and the rule alone, from log W(k) of the data (`log_w[k - 1]`, k = 1 to
+/// K) and of each reference data set (`reference[b][k - 1]`): Gap(k), s(k) for k = 1..K and
+/// the chosen k (smallest k < K with Gap(k) >= Gap(k + 1) - s(k + 1); none: K - 1, at
+/// least 1 and at most [`KMAX`]). Public so that the arithmetic can be checked on given
+/// sums of squares, apart from k-means' search.
+pub fn gap_points(log_w: &[f64], reference: &[Vec<f64>]) -> (Vec<GapPoint>, usize) {
+    let kmax = log_w.len();
+    let bf = reference.len() as f64;
     let points: Vec<GapPoint> = (1..=kmax)
         .map(|k| {
             let l: Vec<f64> = reference.iter().map(|v| v[k - 1]).collect();
@@ -163,9 +217,5 @@ pub fn choose_k(x: ArrayView2<f64>, seed: u64) -> GapChoice {
     let k = (1..kmax)
         .find(|&k| points[k - 1].gap >= points[k].gap - points[k].se)
         .unwrap_or(last);
-    GapChoice {
-        k,
-        labels: labels.swap_remove(k - 1),
-        points,
-    }
+    (points, k)
 }

@@ -25,6 +25,6 @@ pub mod table;
 pub use crate::config::curves::{CurvesChecked, CurvesSection, Members};
 pub use bend::{choose, Kind, Shape};
 pub use cluster::{kmeans, silhouette, subgroups, Subgroups};
-pub use gap::{choose_k, GapChoice, GapPoint};
+pub use gap::{choose_k, choose_k_given, gap_points, reference_sets, GapChoice, GapPoint};
 pub use hinge::{bootstrap_breakpoint, fit_hinge, Composition, Hinge};
 pub use ice::{band, centred, direction, ice, pd, quantile_grid, Band, Direction};

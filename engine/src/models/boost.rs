@@ -64,16 +64,6 @@ pub const FAMILY: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    // Per round: every indicator scanned at each level, plus a fixed part (residuals,
-    // root lists, the prediction pass) worth about 6 indicators (fitted to the demo's
-    // boosting seconds at 4, 8 and 90 columns).
-    cost: |c, n, p| {
-        c.param("trees").unwrap_or(100.0)
-            * c.param("subsample").unwrap_or(1.0)
-            * n
-            * (6.0 + p)
-            * c.param("depth").unwrap_or(3.0)
-    },
     build: |c: &Choice| {
         Ok(Arc::new(BoostParams {
             trees: int_param(c, "trees")?,
@@ -126,6 +116,12 @@ impl Regressor for BoostParams {
         models
             .pop()
             .ok_or_else(|| FitError::Invalid("boosting fitted no model".into()))
+    }
+    // Per round: every indicator scanned at each level, plus a fixed part (residuals,
+    // root lists, the prediction pass) worth about 6 indicators (fitted to the demo's
+    // boosting seconds at 4, 8 and 90 columns).
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        self.trees as f64 * self.subsample * n * (6.0 + p) * self.depth as f64
     }
     fn path(&self) -> Option<&'static str> {
         Some("trees")

@@ -41,7 +41,6 @@ pub const LASSO: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    cost: |_c, n, p| 100.0 * n * p,
     build: |c: &Choice| {
         Ok(Arc::new(ElasticParams {
             alpha: c.param("alpha").ok_or("lasso needs alpha")?,
@@ -70,7 +69,6 @@ pub const ELASTIC: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    cost: |_c, n, p| 100.0 * n * p,
     build: |c: &Choice| {
         Ok(Arc::new(ElasticParams {
             alpha: c.param("alpha").ok_or("elastic needs alpha")?,
@@ -269,6 +267,9 @@ fn support_solution(
 }
 
 impl Regressor for ElasticParams {
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        100.0 * n * p
+    }
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         Ok(Box::new(self.fit_linear(input.x, input.y, input.w)?))
     }

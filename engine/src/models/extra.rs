@@ -33,13 +33,6 @@ pub const FAMILY: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    cost: |c, n, p| {
-        c.param("trees").unwrap_or(200.0)
-            * (c.param("tried").unwrap_or(1.0) * p).max(1.0)
-            * n
-            * n.log2().max(1.0)
-            * 0.5
-    },
     build: |c: &Choice| {
         Ok(Arc::new(ExtraParams {
             trees: int_param(c, "trees")?,
@@ -59,6 +52,9 @@ pub struct ExtraParams {
 impl Regressor for ExtraParams {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         Ok(Box::new(self.grow(input)?))
+    }
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        self.trees as f64 * (self.tried * p).max(1.0) * n * n.log2().max(1.0) * 0.5
     }
     fn path(&self) -> Option<&'static str> {
         Some("trees")

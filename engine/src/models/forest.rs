@@ -52,17 +52,6 @@ pub const FAMILY: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    // Per tree: the split search over the tried indicators, keeping every indicator's
-    // order through the splits, and a fixed part (bootstrap, root lists, leaves) worth
-    // about 14 indicators (fitted to the demo's forest seconds at 4, 8 and 90 columns;
-    // the divisor puts it on boosting's scale, measured the same way).
-    cost: |c, n, p| {
-        c.param("trees").unwrap_or(200.0)
-            * (14.0 + p * (0.5 + c.param("tried").unwrap_or(0.33)))
-            * n
-            * n.log2().max(1.0)
-            / 3.3
-    },
     build: |c: &Choice| {
         Ok(Arc::new(ForestParams {
             trees: int_param(c, "trees")?,
@@ -154,6 +143,13 @@ impl Predictor for Ensemble {
 impl Regressor for ForestParams {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         Ok(Box::new(self.grow_forest(input)?))
+    }
+    // Per tree: the split search over the tried indicators, keeping every indicator's
+    // order through the splits, and a fixed part (bootstrap, root lists, leaves) worth
+    // about 14 indicators (fitted to the demo's forest seconds at 4, 8 and 90 columns;
+    // the divisor puts it on boosting's scale, measured the same way).
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        self.trees as f64 * (14.0 + p * (0.5 + self.tried)) * n * n.log2().max(1.0) / 3.3
     }
     fn path(&self) -> Option<&'static str> {
         Some("trees")

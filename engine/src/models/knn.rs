@@ -24,7 +24,6 @@ pub const FAMILY: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    cost: |_c, n, p| n * n * p,
     build: |c: &Choice| {
         Ok(Arc::new(KnnParams {
             k: int_param(c, "k")?,
@@ -77,6 +76,9 @@ impl Predictor for Knn {
 }
 
 impl Regressor for KnnParams {
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        n * n * p
+    }
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         if input.x.nrows() < self.k {
             return Err(FitError::Invalid(format!(

@@ -24,7 +24,6 @@ pub const OLS: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    cost: |_c, n, p| n * p * p + p * p * p,
     build: |_| Ok(Arc::new(Ols)),
 };
 
@@ -45,7 +44,6 @@ pub const RIDGE: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    cost: |_c, n, p| n * p * p + p * p * p,
     build: |c: &Choice| {
         let alpha = c.param("alpha").ok_or("ridge needs alpha")?;
         Ok(Arc::new(Ridge { alpha }))
@@ -157,6 +155,9 @@ impl Ols {
 }
 
 impl Regressor for Ols {
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        n * p * p + p * p * p
+    }
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         Ok(Box::new(self.fit_linear(input.x, input.y, input.w)?))
     }
@@ -186,6 +187,9 @@ impl Ridge {
 }
 
 impl Regressor for Ridge {
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        n * p * p + p * p * p
+    }
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         Ok(Box::new(self.fit_linear(input.x, input.y, input.w)?))
     }

@@ -33,6 +33,11 @@ pub struct FitInput<'a> {
 /// An unfitted model with checked hyperparameters.
 pub trait Regressor: Send + Sync {
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError>;
+    /// Relative cost of one fit on `n` rows and `p` input columns (both at least 1), in
+    /// arbitrary units (roughly the passes over the data the algorithm makes), from these
+    /// checked parameters (so a default lives only in its `ParamDecl`). Used to balance
+    /// shards and, calibrated by `plan`'s probe, to estimate run time. Only ratios matter.
+    fn cost(&self, n: f64, p: f64) -> f64;
     /// The parameter along which this family's fits nest (the ensembles' `trees`): one
     /// fit at its largest value serves every smaller one through [`Regressor::fit_path`],
     /// each model the same bit for bit as its own fit. The sweep seeds such a fit without
@@ -86,10 +91,6 @@ pub fn ensemble_impurity(trees: &[tree::Tree], p: usize) -> Vec<f64> {
 /// A registered family.
 pub struct Family {
     pub decl: OptionDecl,
-    /// Relative cost of one fit on `n` rows and `p` input columns, in arbitrary units
-    /// (roughly the passes over the data the algorithm makes). Used to balance shards and,
-    /// calibrated by `plan`'s probe, to estimate run time. Only ratios matter.
-    pub cost: fn(&Choice, f64, f64) -> f64,
     pub build: fn(&Choice) -> Result<Arc<dyn Regressor>, String>,
 }
 
@@ -116,12 +117,12 @@ pub fn registry() -> &'static [Family] {
     })
 }
 
-/// Relative cost of one fit of a model choice on `n` rows and `p` columns.
+/// Relative cost of one fit of a model choice on `n` rows and `p` columns: the
+/// [`Regressor::cost`] of its checked parameters. A choice the family refuses (never one
+/// of a built space, which checks every grid point) costs `n p`.
 pub fn cost(choice: &Choice, n: f64, p: f64) -> f64 {
-    registry()
-        .iter()
-        .find(|f| f.decl.name == choice.option)
-        .map(|f| (f.cost)(choice, n.max(1.0), p.max(1.0)))
+    build(choice)
+        .map(|m| m.cost(n.max(1.0), p.max(1.0)))
         .unwrap_or(n * p)
 }
 

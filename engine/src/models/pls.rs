@@ -28,7 +28,6 @@ pub const FAMILY: Family = Family {
         weighted: false,
         excludes: &[],
     },
-    cost: |c, n, p| c.param("k").unwrap_or(2.0) * 4.0 * n * p,
     build: |c: &Choice| {
         Ok(Arc::new(PlsParams {
             k: int_param(c, "k")?,
@@ -88,6 +87,9 @@ impl Predictor for PlsFit {
 }
 
 impl Regressor for PlsParams {
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        self.k as f64 * 4.0 * n * p
+    }
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         if input.w.iter().any(|w| (w - input.w[0]).abs() > 1e-12) {
             return Err(FitError::Invalid("pls takes no row weights".into()));

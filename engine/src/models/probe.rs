@@ -32,7 +32,6 @@ pub const FAMILY: Family = Family {
             why: "a test of declared exclusions",
         }],
     },
-    cost: |_c, n, _p| n,
     build: |c| {
         Ok(Arc::new(Probe {
             shift: c.param("shift").ok_or("probe needs shift")?,
@@ -54,6 +53,9 @@ impl Regressor for Probe {
         }
         let m = input.y.dot(&input.w) / w;
         Ok(Box::new(Fitted(m + self.shift)))
+    }
+    fn cost(&self, n: f64, _p: f64) -> f64 {
+        n
     }
 }
 

@@ -5,6 +5,7 @@
 
 use crate::error::{Error, Result};
 use crate::results::RunSet;
+use crate::schema::{importance, predictions, specs};
 use crate::space::DIMENSIONS;
 use arrow_array::{Array, BooleanArray, Float64Array, Int32Array, RecordBatch, StringArray};
 use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
@@ -147,11 +148,11 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
     }
     let mut rows: Vec<Row> = Vec::new();
     let mut param_cols: Vec<String> = Vec::new();
-    for path in set.table_files("specs") {
+    for path in set.table_files(crate::schema::SPECS) {
         let here = dir_no(&path);
         for b in read_batches(&path)? {
-            let ids = col::<StringArray>(&b, "spec_id", &path)?;
-            let status = col::<StringArray>(&b, "status", &path)?;
+            let ids = col::<StringArray>(&b, specs::SPEC_ID, &path)?;
+            let status = col::<StringArray>(&b, specs::STATUS, &path)?;
             let dims: Vec<&StringArray> = DIMENSIONS
                 .iter()
                 .map(|d| col::<StringArray>(&b, d, &path))
@@ -164,7 +165,10 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                 .position(|n| n == DIMENSIONS[DIMENSIONS.len() - 1])
                 .map(|p| p + 1)
                 .unwrap_or(0);
-            let end = names.iter().position(|n| n == "status").unwrap_or(start);
+            let end = names
+                .iter()
+                .position(|n| n == specs::STATUS)
+                .unwrap_or(start);
             for n in &names[start..end.max(start)] {
                 if !param_cols.contains(n) {
                     param_cols.push(n.clone());
@@ -271,14 +275,14 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
     // The panel's rows (unit, wave) that have predictions, each counted once.
     let mut wave_index: HashMap<String, usize> = HashMap::new();
     let mut panel_rows: std::collections::HashSet<(usize, usize)> = Default::default();
-    for path in set.table_files("predictions") {
+    for path in set.table_files(crate::schema::PREDICTIONS) {
         let here = dir_no(&path);
         for b in read_batches(&path)? {
-            let ids = col::<StringArray>(&b, "spec_id", &path)?;
-            let unit = col::<StringArray>(&b, "unit", &path)?;
-            let wave = col::<StringArray>(&b, "wave", &path)?;
-            let obs = col::<Float64Array>(&b, "observed", &path)?;
-            let pred = col::<Float64Array>(&b, "predicted", &path)?;
+            let ids = col::<StringArray>(&b, predictions::SPEC_ID, &path)?;
+            let unit = col::<StringArray>(&b, predictions::UNIT, &path)?;
+            let wave = col::<StringArray>(&b, predictions::WAVE, &path)?;
+            let obs = col::<Float64Array>(&b, predictions::OBSERVED, &path)?;
+            let pred = col::<Float64Array>(&b, predictions::PREDICTED, &path)?;
             for i in 0..b.num_rows() {
                 let Some(&s) = index.get(ids.value(i)) else {
                     continue;
@@ -344,16 +348,16 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
         .collect();
     type Cell = (usize, String, f64, u32, bool);
     let mut by_kind: BTreeMap<(String, String), Vec<Cell>> = BTreeMap::new();
-    for path in set.table_files("importance") {
+    for path in set.table_files(crate::schema::IMPORTANCE) {
         let here = dir_no(&path);
         for b in read_batches(&path)? {
-            let ids = col::<StringArray>(&b, "spec_id", &path)?;
-            let name = col::<StringArray>(&b, "indicator", &path)?;
-            let level = col::<StringArray>(&b, "level", &path)?;
-            let kind = col::<StringArray>(&b, "kind", &path)?;
-            let imp = col::<Float64Array>(&b, "importance", &path)?;
-            let rank = col::<Int32Array>(&b, "rank", &path)?;
-            let in_pool = col::<BooleanArray>(&b, "in_pool", &path)?;
+            let ids = col::<StringArray>(&b, importance::SPEC_ID, &path)?;
+            let name = col::<StringArray>(&b, importance::INDICATOR, &path)?;
+            let level = col::<StringArray>(&b, importance::LEVEL, &path)?;
+            let kind = col::<StringArray>(&b, importance::KIND, &path)?;
+            let imp = col::<Float64Array>(&b, importance::IMPORTANCE, &path)?;
+            let rank = col::<Int32Array>(&b, importance::RANK, &path)?;
+            let in_pool = col::<BooleanArray>(&b, importance::IN_POOL, &path)?;
             for i in 0..b.num_rows() {
                 let Some(&s) = index.get(ids.value(i)) else {
                     continue;

@@ -67,7 +67,6 @@ pub const FAMILY: Family = Family {
         weighted: true,
         excludes: &[],
     },
-    cost: |c, n, p| p * n * c.param("depth").unwrap_or(8.0).min(n.log2().max(1.0)),
     build: |c: &Choice| {
         Ok(Arc::new(TreeParams {
             depth: int_param(c, "depth")?,
@@ -126,6 +125,9 @@ pub fn grow_presorted<R: Rng>(
 }
 
 impl Regressor for TreeParams {
+    fn cost(&self, n: f64, p: f64) -> f64 {
+        p * n * (self.depth as f64).min(n.log2().max(1.0))
+    }
     fn fit(&self, input: &FitInput) -> Result<Box<dyn Predictor>, FitError> {
         let n = input.x.nrows();
         if n == 0 {
