@@ -101,7 +101,7 @@ fn odd_columns_are_guessed_named_and_ignored() {
     ignored.sort();
     assert_eq!(
         ignored,
-        ["const", "dup_a", "empty", "label", "note", "stray"]
+        ["const", "dup_a", "empty", "label", "note", "se_share", "stray"]
     );
     let warned = s.warnings.join("\n");
     for col in ["const", "dup_a", "empty", "stray", "sparse"] {
@@ -117,7 +117,14 @@ fn odd_columns_are_guessed_named_and_ignored() {
     );
     let mut ind = s.indicators.clone();
     ind.sort();
-    assert_eq!(ind, ["a", "b", "c", "se_share", "sparse"]);
+    assert_eq!(ind, ["a", "b", "c", "sparse"]);
+    // A column named like the outcome's standard error is set aside (as an indicator it
+    // would carry the outcome into every spec), with a pointer to `standard_error`.
+    assert!(
+        warned.contains("`se_share`: named like a standard error")
+            && warned.contains("standard_error = \"se_share\""),
+        "{warned}"
+    );
     forkmap::starter::write_new(&out, &s.text).unwrap();
     let p = prepares(&out);
     assert_eq!(p.panel.n_units(), 40);
@@ -232,4 +239,43 @@ fn no_unit_found_is_refused_with_a_hint() {
         .unwrap_err()
         .to_string();
     assert!(err.contains("--unit"), "{err}");
+}
+
+/// A value the intake refuses (above 1e150) is the user's to fix: sketch names it and does
+/// not call it an internal error (cold review 3, S4).
+#[test]
+fn sketch_names_a_refused_value_as_the_data_s_fault() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = dir.path().join("huge.csv");
+    let mut t = String::from("place,rate,x,z\n");
+    for u in 0..30 {
+        let x = if u == 7 {
+            "1e200".to_string()
+        } else {
+            format!("{}", u % 7)
+        };
+        let _ = writeln!(
+            t,
+            "p{u},{},{x},{}",
+            0.1 + 0.01 * u as f64,
+            (u * 5 % 11) as f64
+        );
+    }
+    std::fs::write(&data, t).unwrap();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_forkmap"))
+        .args([
+            "sketch".as_ref(),
+            data.as_os_str(),
+            "--outcome".as_ref(),
+            "rate".as_ref(),
+        ])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(!o.status.success(), "{err}");
+    assert!(
+        err.contains("refuses") && err.contains("1e150") && !err.contains("internal"),
+        "{err}"
+    );
+    assert!(!dir.path().join("huge.forkmap.toml").exists());
 }

@@ -50,7 +50,7 @@ def read_codebook(path):
         return {r["indicator"]: r["group"] for r in csv.DictReader(f)}
 
 
-def measure(run, truth, codebook):
+def measure(run, truth, codebook, null_alpha=NULL_ALPHA):
     """Every criterion on one run: a list of dicts with name, ok (the issue's criterion),
     value (the measured number), detail (a sentence) and, where an asserted weaker form
     exists, weak_ok / weak (its sentence)."""
@@ -225,7 +225,7 @@ def measure(run, truth, codebook):
         out.append(
             dict(
                 name="best beats the null",
-                ok=p <= NULL_ALPHA,
+                ok=p <= null_alpha,
                 value=p,
                 detail=(
                     f"best {report['metric']} of the null's {n_specs} sampled specs {obs_v:.3f}: "
@@ -322,21 +322,33 @@ def main(argv):
 
 def self_test(run, truth, codebook):
     """The checks can fail: on the same run, a truth with the driver and non-driver groups
-    swapped must fail the driver-group criterion and the weaker noise form, and a threshold
-    planted 50% higher must fail the threshold criterion. Returns the number of checks that
+    swapped (wholly, or prices for access) must fail the driver-group criterion, the full
+    swap the weaker noise form too, a threshold planted 50% higher the threshold criterion,
+    and a null bar of 0 (no permutation p is below 1 / (1 + D)) the null criterion. Returns the number of checks that
     did not fail as they should."""
     swapped = dict(truth)
     swapped["driver_groups"] = list(truth["non_driver_groups"])
     swapped["non_driver_groups"] = list(truth["driver_groups"])
     moved = json.loads(json.dumps(truth))
     moved["threshold"]["value"] = 1.5 * float(truth["threshold"]["value"])
+    # One driver group traded for one non-driver (prices for access): a partial swap the
+    # run's good specs do not all satisfy (prices is top-3 in some of them), unlike the full
+    # swap, which two non-driver groups cannot pass by construction.
+    partial = dict(truth)
+    partial["driver_groups"] = [g for g in truth["driver_groups"] if g != "prices"] + ["access"]
+    partial["non_driver_groups"] = [g for g in truth["non_driver_groups"] if g != "access"] + ["prices"]
     got = {r["name"]: r for r in measure(run, swapped, codebook)}
     got_moved = {r["name"]: r for r in measure(run, moved, codebook)}
+    got_partial = {r["name"]: r for r in measure(run, partial, codebook)}
+    # A null bar of 0 must fail: a permutation p is never below 1 / (1 + D).
+    got_strict = {r["name"]: r for r in measure(run, truth, codebook, null_alpha=0.0)}
     cases = [
         ("driver groups swapped: driver criterion fails", not got["driver groups top-3"]["ok"]),
         ("driver groups swapped: weaker noise form fails",
          not got["no noise indicator in supported conclusions"]["weak_ok"]),
         ("threshold planted 50% higher: threshold criterion fails", not got_moved["threshold located"]["ok"]),
+        ("prices traded for access: driver criterion fails", not got_partial["driver groups top-3"]["ok"]),
+        ("null bar of 0 (below any permutation p): null criterion fails", not got_strict["best beats the null"]["ok"]),
     ]
     bad = 0
     for name, fine in cases:

@@ -391,6 +391,20 @@ pub fn sketch(
             }
             continue;
         }
+        if looks_like_standard_error(&c.name, &cols[outcome_j].name) {
+            ignore(
+                j,
+                format!(
+                    "named like a standard error of the outcome: as an indicator it would carry the outcome into every \
+                     spec (a survey share's standard error is a function of the share); to weight rows by it, set \
+                     `standard_error = \"{}\"` under [data] and add `invvar` to the weightings",
+                    c.name
+                ),
+                true,
+                &mut warnings,
+            );
+            continue;
+        }
         if distinct_numbers(c) < 2 {
             ignore(
                 j,
@@ -611,11 +625,19 @@ pub fn sketch(
         let cfg = Config::from_toml(text, base, &config_path.display().to_string())?;
         crate::run::prepare_config(cfg)
     };
-    let prepared = check(&draft).map_err(|e| {
-        data_err(
+    let prepared = check(&draft).map_err(|e| match e {
+        // Something in the data that the intake refuses (a value out of range, ...): the
+        // user's to fix, named by the intake's own message.
+        Error::Data { .. } => data_err(
+            data,
+            format!(
+                "the data holds something forkmap refuses, so no starter config was written: {e}"
+            ),
+        ),
+        e => data_err(
             data,
             format!("internal: the starter config does not pass plan ({e}); please report this"),
-        )
+        ),
     })?;
     let report = crate::plan::plan(&prepared, probe.unwrap_or(1), probe.is_some());
     let specs = report.specs;
@@ -666,4 +688,54 @@ pub fn write_new(path: &Path, text: &str) -> Result<()> {
         return Err(Error::io(path, e));
     }
     Ok(())
+}
+
+/// Whether a column's name says it is a standard error (or margin of error) of the
+/// outcome: `se`, `stderr`, `std_error`, `moe` as a whole word of the name (split at `_`,
+/// `-`, `.` and spaces, any case), or the outcome's name with such a word. A heuristic on
+/// names only; the warning says what was done and how to undo it.
+fn looks_like_standard_error(name: &str, outcome: &str) -> bool {
+    const WORDS: &[&str] = &["se", "stderr", "std_err", "std_error", "stderror", "moe"];
+    let lower = name.to_lowercase();
+    let words: Vec<&str> = lower
+        .split(|c: char| c == '_' || c == '-' || c == '.' || c.is_whitespace())
+        .filter(|w| !w.is_empty())
+        .collect();
+    let joined = words.join("_");
+    WORDS.iter().any(|w| {
+        joined == *w
+            || joined.starts_with(&format!("{w}_"))
+            || joined.ends_with(&format!("_{w}"))
+            || joined.contains(&format!("_{w}_"))
+    }) || lower == format!("{}_se", outcome.to_lowercase())
+}
+
+#[cfg(test)]
+mod tests {
+    /// Names that say "standard error" as a word, and names that merely contain the letters.
+    #[test]
+    fn standard_error_names() {
+        use super::looks_like_standard_error as se;
+        for yes in [
+            "se_share",
+            "share_se",
+            "SE",
+            "rate stderr",
+            "moe_rate",
+            "rate-moe",
+            "std_error",
+        ] {
+            assert!(se(yes, "share"), "{yes}");
+        }
+        for no in [
+            "sector",
+            "base",
+            "response",
+            "case_rate",
+            "sequence",
+            "house_sales",
+        ] {
+            assert!(!se(no, "share"), "{no}");
+        }
+    }
 }
