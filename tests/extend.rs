@@ -1,10 +1,10 @@
 //! `forkmap run BIGGER --out RUN --extend`: a finished run extended with a config that keeps
 //! every spec of it runs only the new specs; the old parts stay byte for byte; the result
-//! equals a fresh run of the larger config, table for table (read back by column name:
-//! the specs table's parameter columns of an old part are those of the old space, so a
-//! column the extension adds is null there, as in the fresh run); the manifest records the
-//! lineage; anything that would change an old spec's results is refused naming it, with
-//! nothing written; a kill mid-extension resumes.
+//! equals a fresh run of the larger config, table for table (every specs part, old and new,
+//! has every declared parameter column, so the parts share one schema); the manifest
+//! records the lineage; anything that would change an old spec's results (data, codebook,
+//! folds, seed, importance settings, a removed option) is refused naming it, with nothing
+//! written; a kill mid-extension resumes.
 
 use crate::common::root;
 use crate::end_to_end::read_table;

@@ -74,6 +74,8 @@ pub fn sha256_file(path: &Path) -> Result<String> {
 /// What a run did.
 #[derive(Debug, Clone)]
 pub struct RunSummary {
+    /// Specs of the run directory written so far (a resumed or extended run counts its
+    /// earlier specs too, as `ok` and `failures` do).
     pub specs: usize,
     pub ok: usize,
     pub failures: BTreeMap<&'static str, usize>,
@@ -609,7 +611,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
     };
     Ok(RunSummary {
         null,
-        specs: sink.written_specs,
+        specs: written,
         ok,
         failures,
         noted: sink.noted,
