@@ -76,6 +76,26 @@ pub fn warnings(p: &Prepared) -> Vec<String> {
 /// Build the plan; `probe` times a few fits to estimate the run time with `threads`.
 pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
     let mut t = String::new();
+    describe_inputs(p, &mut t);
+    let (specs, fits) = describe_counts(p, &mut t);
+    let estimate = if probe {
+        timing_probe(p, threads, &mut t)
+    } else {
+        f64::NAN
+    };
+    describe_derived(p, fits, estimate, &mut t);
+    let warnings = describe_warnings(p, &mut t);
+    PlanReport {
+        text: t,
+        specs,
+        fits,
+        estimate_seconds: estimate,
+        warnings,
+    }
+}
+
+/// The config, the data and each dimension's options, then the exclusions.
+fn describe_inputs(p: &Prepared, t: &mut String) {
     let _ = writeln!(t, "config  {}", p.cfg.source);
     let _ = writeln!(
         t,
@@ -112,6 +132,10 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             let _ = writeln!(t, "  - {r}");
         }
     }
+}
+
+/// Spec, fold and fit counts, the importance and curves work: (specs, model fits).
+fn describe_counts(p: &Prepared, t: &mut String) -> (usize, usize) {
     let specs = p.space.specs.len();
     let fits = specs * p.folds.n_fits_per_spec();
     match p.space.sampled_from {
@@ -166,11 +190,14 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             crate::curves::pass::cost(p, c.members, c.top_k, c.grid, c.resamples)
         );
     }
+    (specs, fits)
+}
+
+/// The stage tree's size and the timing probe: a seeded ~2% of the specs through the real
+/// sweep, scaled up by the cost model; the estimated seconds (NaN when the probe cannot run).
+fn timing_probe(p: &Prepared, threads: usize, t: &mut String) -> f64 {
     let mut estimate = f64::NAN;
-    if let (true, Ok(sweep)) = (
-        probe,
-        Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None),
-    ) {
+    if let Ok(sweep) = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None) {
         let _ = writeln!(
             t,
             "stage tree ({}): {} distinct preparations, each fitted once per fold",
@@ -278,6 +305,12 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             human(estimate)
         );
     }
+    estimate
+}
+
+/// The nested estimate's and the null's cost lines.
+fn describe_derived(p: &Prepared, fits: usize, estimate: f64, t: &mut String) {
+    let imp = &p.cfg.importance;
     if let Some(n) = crate::nested::exec::plan_text(&p.cfg, &p.panel, &p.space, fits, estimate) {
         t.push_str(&n);
     }
@@ -295,6 +328,10 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             imp.wants("permutation") || imp.wants("group"),
         ));
     }
+}
+
+/// Design warnings (and models that take no row weights); returns the warnings.
+fn describe_warnings(p: &Prepared, t: &mut String) -> Vec<String> {
     let mut no_weights = Vec::new();
     let mi = Dim::Model.index();
     for o in options_of(Dim::Model) {
@@ -312,13 +349,7 @@ pub fn plan(p: &Prepared, threads: usize, probe: bool) -> PlanReport {
             let _ = writeln!(t, "  - model `{n}` takes no row weights: it runs with weighting `rows` only (its other combinations are excluded automatically)");
         }
     }
-    PlanReport {
-        text: t,
-        specs,
-        fits,
-        estimate_seconds: estimate,
-        warnings: w,
-    }
+    w
 }
 
 /// What the timing probe measured beside the per-spec seconds.
