@@ -414,31 +414,44 @@ pub fn extend_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSumm
     run_inner(p, out, opts, true)
 }
 
-fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Result<RunSummary> {
+/// The sweep of the specs `subset` (all when `None`) with the importances of its first
+/// pass: with `importance.within`, the permutation kinds wait for a second pass over the
+/// specs near the best, so the first computes the native kind only.
+fn first_pass_sweep<'a>(p: &'a Prepared, subset: Option<&[usize]>) -> Result<Sweep<'a>> {
     let imp = &p.cfg.importance;
-    let mut sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, None)?;
-    // With `importance.within`, the permutation kinds wait for a second pass over the
-    // specs near the best; the first pass computes the native kind only.
+    let mut sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, subset)?;
     sweep.importance = Some(if imp.deferred() {
         imp.only(&["native"])
     } else {
         imp.clone()
     });
-    let sha = sha256_file(&p.data_path)?;
-    if let Some(sh) = opts.shard {
-        crate::shard::check(&p.space, sh)?;
-    }
-    let start = open_out(p, out, &sha, opts.restart, opts.shard, extend)?;
-    let t0 = std::time::Instant::now();
-    let mut lineage: Option<Vec<crate::manifest::Lineage>> = None;
-    let mut extension = None;
-    let (created, done, started, resumes) = match start {
-        Start::Fresh { created } => (
+    Ok(sweep)
+}
+
+/// Where a run starts: whether this invocation created the folder, the specs already done,
+/// when the run first started, how often it was resumed, its lineage and, for an
+/// extension, what the extension adds.
+struct Begun {
+    created: bool,
+    done: crate::resume::Done,
+    started: String,
+    resumes: u64,
+    lineage: Option<Vec<crate::manifest::Lineage>>,
+    extension: Option<Box<extend::Extension>>,
+}
+
+/// Turn the output folder's state into a [`Begun`]; an extension first removes the
+/// smaller run's report and curves.
+fn begin(start: Start, out: &Path) -> Result<Begun> {
+    Ok(match start {
+        Start::Fresh { created } => Begun {
             created,
-            crate::resume::Done::default(),
-            chrono::Utc::now().to_rfc3339(),
-            0u64,
-        ),
+            done: crate::resume::Done::default(),
+            started: chrono::Utc::now().to_rfc3339(),
+            resumes: 0,
+            lineage: None,
+            extension: None,
+        },
         Start::Resume {
             done,
             manifest,
@@ -453,19 +466,47 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
                     std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
                 }
             }
-            lineage = Some(ext.lineage.clone());
-            extension = Some(ext);
-            (false, done, manifest.started.clone(), 0u64)
+            Begun {
+                created: false,
+                done,
+                started: manifest.started.clone(),
+                resumes: 0,
+                lineage: Some(ext.lineage.clone()),
+                extension: Some(ext),
+            }
         }
         Start::Resume {
             done,
             manifest,
             extension: None,
-        } => {
-            lineage = manifest.lineage.clone();
-            (false, done, manifest.started.clone(), manifest.resumes + 1)
-        }
-    };
+        } => Begun {
+            created: false,
+            done,
+            started: manifest.started.clone(),
+            resumes: manifest.resumes + 1,
+            lineage: manifest.lineage.clone(),
+            extension: None,
+        },
+    })
+}
+
+fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Result<RunSummary> {
+    let imp = &p.cfg.importance;
+    let mut sweep = first_pass_sweep(p, None)?;
+    let sha = sha256_file(&p.data_path)?;
+    if let Some(sh) = opts.shard {
+        crate::shard::check(&p.space, sh)?;
+    }
+    let start = open_out(p, out, &sha, opts.restart, opts.shard, extend)?;
+    let t0 = std::time::Instant::now();
+    let Begun {
+        created,
+        done,
+        started,
+        resumes,
+        lineage,
+        extension,
+    } = begin(start, out)?;
     let mine: Vec<usize> = match opts.shard {
         Some(sh) => crate::shard::assign(&p.space, &p.panel, sh),
         None => (0..p.space.specs.len()).collect(),
@@ -476,12 +517,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
         .filter(|&i| !done.ids.contains(&p.space.specs[i].id))
         .collect();
     if todo.len() < p.space.specs.len() {
-        sweep = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&todo))?;
-        sweep.importance = Some(if imp.deferred() {
-            imp.only(&["native"])
-        } else {
-            imp.clone()
-        });
+        sweep = first_pass_sweep(p, Some(&todo))?;
         if let (false, Some(ext)) = (opts.quiet, &extension) {
             eprintln!(
                 "forkmap: extending: {} specs kept, {} new to run",
