@@ -120,6 +120,39 @@ pub fn makeup(
 mod tests {
     use super::*;
 
+    /// Fit classes: specs whose per-unit errors are bit for bit another's are one fit;
+    /// a good set counts its distinct fits (by hand: specs 0 and 2 equal, 1 and 3 differ
+    /// from them and from each other in one unit's squared error).
+    #[test]
+    fn good_sets_count_distinct_fits() {
+        let t = crate::report::data::RunTables {
+            spec_ids: (0..4).map(|i| format!("s{i}")).collect(),
+            units: vec!["a".into(), "b".into()],
+            unit_abs: vec![1.0, 2.0, 1.0, 2.0, 1.0, 2.0, 1.0, 2.0],
+            unit_sq: vec![1.0, 4.0, 1.0, 4.5, 1.0, 4.0, 1.5, 4.0],
+            unit_n: vec![1.0; 8],
+            ..Default::default()
+        };
+        let classes = t.fit_classes();
+        assert_eq!(classes, vec![0, 1, 0, 3]);
+        let g = summary(
+            "ratio",
+            String::new(),
+            1.0,
+            &[true, false, true, true],
+            &classes,
+        );
+        assert_eq!((g.size, g.distinct_fits), (3, 2));
+        let g = summary(
+            "ratio",
+            String::new(),
+            1.0,
+            &[true, true, false, true],
+            &classes,
+        );
+        assert_eq!((g.size, g.distinct_fits), (3, 3));
+    }
+
     /// A hand-made error table: 5 specs, 4 resamples (rows are specs).
     fn table() -> Errors {
         Errors {
