@@ -26,8 +26,8 @@
 //! importance settings, version; see `forkmap::extend`); only the new specs run, the old
 //! parts stay as they are, the manifest's `lineage` records the extension, and the report
 //! is rewritten. Anything else is refused naming what differs, with nothing written.
-//! printed as a warning, and `forkmap map RUN_DIR` writes the report later. With a
-//! `[nested]` section the nested estimate of choosing the best runs after the sweep,
+//!
+//! With a `[nested]` section the nested estimate of choosing the best runs after the sweep,
 //! before the report, into RUN_DIR/nested/ (one table per outer fold; a rerun skips the
 //! folds done; a shard skips it: run the whole space for it).
 
