@@ -177,3 +177,67 @@ fn an_unbalanced_panel_warns_in_the_run_and_on_the_page() {
     assert!(text.contains(": 12 of 64"), "{text}");
     assert!(!text.contains("warning    null"), "{text}");
 }
+
+/// The toy panel with every unit's waves relabelled to waves of its own, so no unit shares
+/// its set of waves with another and the null can permute nothing.
+fn every_unit_alone(dir: &Path) -> std::path::PathBuf {
+    let text = std::fs::read_to_string(root().join("toy-panel/panel.csv")).unwrap();
+    let mut lines = text.lines();
+    let mut out = format!("{}\n", lines.next().unwrap());
+    for l in lines {
+        let mut r: Vec<String> = l.split(',').map(str::to_string).collect();
+        r[2] = format!("{}-{}", r[2], r[0]);
+        out.push_str(&r.join(","));
+        out.push('\n');
+    }
+    let path = dir.join("alone.csv");
+    std::fs::write(&path, out).unwrap();
+    path
+}
+
+/// numpy's default ("linear", Hyndman and Fan type 7) quantile of sorted values, written
+/// out here independently of the engine's.
+fn type7(sorted: &[f64], q: f64) -> f64 {
+    let h = (sorted.len() - 1) as f64 * q;
+    let (lo, hi) = (h.floor() as usize, h.ceil() as usize);
+    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
+}
+
+/// When no unit can be exchanged, every null draw is the observed panel: each draw must
+/// reproduce the observed sweep's best, quartiles and best spec exactly. This ties the
+/// null's own pipeline (permutation, shared stage fits, native importances only, its
+/// summary) to the sweep that produced the run's `specs` table.
+#[test]
+fn a_null_that_permutes_nothing_reproduces_the_observed_sweep() {
+    use arrow_array::{Array, Float64Array, StringArray};
+    use forkmap::null::table::{read_draws, NULL_DIR};
+    let tmp = tempfile::tempdir().unwrap();
+    let panel = every_unit_alone(tmp.path());
+    let (text, out) = run(tmp.path(), &panel, "alone");
+    assert!(text.contains(": 64 of 64"), "{text}");
+    let mut observed: Vec<(f64, String)> = Vec::new();
+    for b in crate::end_to_end::read_table(&out.join("specs")) {
+        let ids = b.column_by_name("spec_id").unwrap();
+        let ids = ids.as_any().downcast_ref::<StringArray>().unwrap();
+        let mae = b.column_by_name("mae").unwrap();
+        let mae = mae.as_any().downcast_ref::<Float64Array>().unwrap();
+        for i in 0..mae.len() {
+            observed.push((mae.value(i), ids.value(i).to_string()));
+        }
+    }
+    assert_eq!(observed.len(), 3, "ridge x 2 alphas and one tree");
+    assert!(observed.iter().all(|o| o.0.is_finite()));
+    observed.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    let sorted: Vec<f64> = observed.iter().map(|o| o.0).collect();
+    let draws = read_draws(&out.join(NULL_DIR)).unwrap();
+    assert_eq!(draws.len(), 4);
+    for d in &draws {
+        assert_eq!(d.metric, "mae");
+        assert_eq!(d.n_ok, 3);
+        assert_eq!(d.best_error, sorted[0], "draw {}", d.draw);
+        assert_eq!(d.q1_error, type7(&sorted, 0.25), "draw {}", d.draw);
+        assert_eq!(d.median_error, type7(&sorted, 0.5), "draw {}", d.draw);
+        assert_eq!(d.q3_error, type7(&sorted, 0.75), "draw {}", d.draw);
+        assert_eq!(d.best_spec.as_deref(), Some(observed[0].1.as_str()));
+    }
+}
