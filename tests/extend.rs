@@ -11,7 +11,7 @@ use crate::end_to_end::read_table;
 use arrow_array::{Array, BooleanArray, Float64Array, Int32Array, Int64Array, StringArray};
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output, Stdio};
+use std::process::Output;
 use std::time::Instant;
 
 /// The small config: one pool, two compressions, two models.
@@ -112,20 +112,7 @@ fn write_config(dir: &Path, name: &str, template: &str, k: &Knobs) -> PathBuf {
     path
 }
 
-fn forkmap(args: &[&std::ffi::OsStr]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_forkmap"))
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn run(cfg: &Path, out: &Path, extra: &[&str]) -> Output {
-    let mut a: Vec<&std::ffi::OsStr> = vec!["run".as_ref(), cfg.as_os_str(), "--out".as_ref()];
-    a.push(out.as_os_str());
-    a.extend(["--quiet", "--threads", "2"].map(std::ffi::OsStr::new));
-    a.extend(extra.iter().map(std::ffi::OsStr::new));
-    forkmap(&a)
-}
+use crate::common::{forkmap, run_cli as run};
 
 fn ok(o: &Output, what: &str) {
     assert!(
@@ -630,16 +617,7 @@ fn a_killed_extension_resumes() {
         ok(&run(&small, &out, &["--no-map"]), "small run");
         let old_parts = specs_parts(&out);
         let target = old_parts + wait_parts;
-        let mut child = Command::new(env!("CARGO_BIN_EXE_forkmap"))
-            .arg("run")
-            .arg(&big)
-            .arg("--out")
-            .arg(&out)
-            .args(["--quiet", "--threads", "2", "--extend", "--no-map"])
-            .stdout(Stdio::null())
-            .stderr(Stdio::null())
-            .spawn()
-            .unwrap();
+        let mut child = crate::common::spawn_run(&big, &out, &["--extend", "--no-map"]);
         let t0 = Instant::now();
         while specs_parts(&out) < target
             && child.try_wait().unwrap().is_none()

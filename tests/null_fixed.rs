@@ -7,7 +7,6 @@ use forkmap::null::{fixed_warning, permute_units, Exchange, FIXED_WARN_SHARE};
 use forkmap::panel::Panel;
 use ndarray::{Array1, Array2};
 use std::path::Path;
-use std::process::Command;
 
 /// Unit u observed in the waves given by the bits of `masks[u]` (three waves).
 fn panel(masks: &[u8]) -> Panel {
@@ -119,14 +118,7 @@ fn run(dir: &Path, panel: &Path, name: &str) -> (String, std::path::PathBuf) {
     )
     .unwrap();
     let out = dir.join(name);
-    let o = Command::new(env!("CARGO_BIN_EXE_forkmap"))
-        .arg("run")
-        .arg(&cfg)
-        .arg("--out")
-        .arg(&out)
-        .args(["--threads", "2", "--quiet"])
-        .output()
-        .unwrap();
+    let o = crate::common::run_cli(&cfg, &out, &[]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     (String::from_utf8_lossy(&o.stdout).to_string(), out)
 }

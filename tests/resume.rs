@@ -5,7 +5,6 @@ use crate::common::root;
 use crate::end_to_end::read_table;
 use arrow_array::{Array, BooleanArray, Float64Array, Int32Array, StringArray};
 use std::path::Path;
-use std::process::{Command, Stdio};
 use std::time::Instant;
 
 fn config(dir: &Path, seed: u64) -> std::path::PathBuf {
@@ -48,17 +47,7 @@ batch_specs = 2
     path
 }
 
-fn run(cfg: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_forkmap"))
-        .arg("run")
-        .arg(cfg)
-        .arg("--out")
-        .arg(out)
-        .args(["--quiet", "--threads", "2"])
-        .args(extra)
-        .output()
-        .unwrap()
-}
+use crate::common::run_cli as run;
 
 /// Every table, as sorted rows of text and bit patterns (seconds columns left out).
 pub fn fingerprint(out: &Path) -> Vec<Vec<String>> {
@@ -133,16 +122,7 @@ fn kill_at_random_instants_then_resume_equals_an_uninterrupted_run() {
         let target = (next() * 0.8 * n_parts as f64) as usize;
         let extra = std::time::Duration::from_micros((next() * 20_000.0) as u64);
         let out = tmp.path().join(format!("killed-{k}"));
-        let mut child = Command::new(env!("CARGO_BIN_EXE_forkmap"))
-            .arg("run")
-            .arg(&cfg)
-            .arg("--out")
-            .arg(&out)
-            .args(["--quiet", "--threads", "2"])
-            .stdout(Stdio::null())
-            .stderr(Stdio::null())
-            .spawn()
-            .unwrap();
+        let mut child = crate::common::spawn_run(&cfg, &out, &[]);
         let t0 = Instant::now();
         let parts = |d: &Path| crate::common::files_in(&d.join("specs"), |n| !n.starts_with('.'));
         while parts(&out) < target

@@ -5,7 +5,7 @@
 use crate::common::root;
 use crate::resume::fingerprint;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Output;
 
 fn config(dir: &Path, seed: u64) -> PathBuf {
     let text = format!(
@@ -49,24 +49,7 @@ batch_specs = 3
     path
 }
 
-fn forkmap(args: &[&std::ffi::OsStr]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_forkmap"))
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn run(cfg: &Path, out: &Path, extra: &[&str]) -> Output {
-    let mut a: Vec<&std::ffi::OsStr> = vec!["run".as_ref(), cfg.as_os_str(), "--out".as_ref()];
-    a.push(out.as_os_str());
-    a.extend(
-        ["--quiet", "--threads", "2"]
-            .iter()
-            .map(std::ffi::OsStr::new),
-    );
-    a.extend(extra.iter().map(std::ffi::OsStr::new));
-    forkmap(&a)
-}
+use crate::common::{forkmap, run_cli as run};
 
 fn ok(o: &Output) -> String {
     assert!(

@@ -175,3 +175,35 @@ macro_rules! toy_config {
         )
     };
 }
+
+/// `forkmap ARGS...` with the built binary; its output.
+pub fn forkmap<S: AsRef<std::ffi::OsStr>>(args: &[S]) -> std::process::Output {
+    std::process::Command::new(env!("CARGO_BIN_EXE_forkmap"))
+        .args(args)
+        .output()
+        .expect("the forkmap binary starts")
+}
+
+/// The arguments of `forkmap run CFG --out OUT --quiet --threads 2 EXTRA...`.
+fn run_args(cfg: &Path, out: &Path, extra: &[&str]) -> Vec<std::ffi::OsString> {
+    let mut a: Vec<std::ffi::OsString> = vec!["run".into(), cfg.into(), "--out".into()];
+    a.push(out.into());
+    a.extend(["--quiet", "--threads", "2"].map(Into::into));
+    a.extend(extra.iter().map(Into::into));
+    a
+}
+
+/// `forkmap run CFG --out OUT --quiet --threads 2 EXTRA...`; its output.
+pub fn run_cli(cfg: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
+    forkmap(&run_args(cfg, out, extra))
+}
+
+/// The same run started in the background with its output discarded (to be killed).
+pub fn spawn_run(cfg: &Path, out: &Path, extra: &[&str]) -> std::process::Child {
+    std::process::Command::new(env!("CARGO_BIN_EXE_forkmap"))
+        .args(run_args(cfg, out, extra))
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .expect("the forkmap binary starts")
+}
