@@ -269,14 +269,20 @@ def measure(run, truth, codebook, null_alpha=NULL_ALPHA):
     noise = noise_inds | noise_groups
     conc = _path(run, "report", "conclusions.parquet")
     named, claimed = [], []
+    # How near the bar the noise came: the largest good-set support of any conclusion (of
+    # those the report states at all) that names it, and how many do.
+    near, mentioned = 0.0, 0
     for src, stmt, level, sg in _q(con, f"select source, statement, level, support_good from '{conc}'"):
-        if sg is None or sg != sg or sg < SUPPORTED:
-            continue
         words = re.findall(r"[A-Za-z0-9_]+", stmt)
         # Indicator names anywhere in the statement; a group name only in a group-level
         # statement (a word such as "noise" could otherwise match the statement's prose).
         hit = [w for w in words if w in noise_inds or (level == "group" and w in noise_groups)]
         if not hit:
+            continue
+        mentioned += 1
+        if sg is not None and sg == sg:
+            near = max(near, sg)
+        if sg is None or sg != sg or sg < SUPPORTED:
             continue
         named.append(f"{stmt.split(':')[0][:90]} [{sg:.0%}]")
         # The weaker form: a noise name stated as important (in a top k, or ranking above
@@ -286,15 +292,39 @@ def measure(run, truth, codebook, null_alpha=NULL_ALPHA):
         first = (m_top or m_above).group(2) if (m_top or m_above) else None
         if first in noise:
             claimed.append(f"{stmt[:90]} [{sg:.0%}]")
+    # And how near the top the noise ranks: each noise indicator's median relative rank over
+    # the good specs whose pool holds it (its rank by importance among the pool's indicators
+    # / the pool's size; indicator level, permutation kind; 1/p is the top, 1 the bottom),
+    # the best of them. (The table's own rank is over every indicator of the panel, an
+    # indicator outside the pool counted at importance 0, so it is recomputed in the pool.)
+    best_rank = None
+    if good_ids and noise_inds:
+        names = ",".join("'" + n.replace("'", "''") + "'" for n in sorted(noise_inds))
+        r = _q(
+            con,
+            f"""with p as (select spec_id, indicator,
+                    rank() over (partition by spec_id order by importance desc) as rank,
+                    count(*) over (partition by spec_id) as pool from '{imp}'
+                    where level = 'indicator' and kind = 'permutation' and in_pool
+                    and spec_id in ({ids}))
+                select min(m) from (select indicator, median(rank / pool) as m from p
+                    where indicator in ({names}) group by indicator)""",
+        )
+        best_rank = r[0][0] if r and r[0][0] is not None else None
     out.append(
         dict(
             name="no noise indicator in supported conclusions",
             basis=basis,
             ok=not named,
             value=len(named),
+            max_support=near,
+            mentioned=mentioned,
+            best_rank=best_rank,
             detail=(
                 f"[{basis}] {len(named)} supported conclusions (support over the good set >= {SUPPORTED:.0%}) name "
                 f"{what}" + (": " + "; ".join(named) if named else "")
+                + f"; conclusions naming one at any support: {mentioned}, the largest support {near:.0%}"
+                + ("" if best_rank is None else f"; the best median good-spec rank of one (permutation), as a share of its pool: {best_rank:.0%} (top = 1/pool size)")
             ),
             weak_ok=not claimed,
             weak=(
