@@ -173,7 +173,9 @@ def summarise(out, units, seeds):
 
 
 def svg(units, series, n_seeds):
-    w, h, left, right, top, bottom = 720, 380, 60, 300, 30, 50
+    # The legend's width follows its longest label (about 6.2 px a character at 11 px).
+    right = max(300, 60 + int(6.2 * max(len(label) for label, _ in series)))
+    w, h, left, top, bottom = 420 + right, 380, 60, 30, 50
     pw, ph = w - left - right, h - top - bottom
     xs = [left + pw * i / max(len(units) - 1, 1) for i in range(len(units))]
 
