@@ -7,6 +7,10 @@ importance/, curves/ and the report's report.json), with DuckDB, as a meta-analy
 The truth side reads truth.json and the panel's codebook (default: codebook.csv beside
 truth.json) for which indicators belong to the non-driver groups.
 
+The noise criterion uses the truth's `noise_indicators` (pure noise, from `toy-panel
+--noise N`) when it lists any, and otherwise (the committed demo) the non-driver groups as
+a stand-in; the printed line says which.
+
 Each criterion is printed with its measured value. `measure()` returns them as data, so
 toy-panel/recovery applies the very same criteria to panels of other sizes.
 
@@ -90,6 +94,7 @@ def measure(run, truth, codebook, null_alpha=NULL_ALPHA):
             name="driver groups top-3",
             ok=n_good > 0 and share >= DRIVER_SHARE,
             value=share,
+            per_group=per_group,
             detail=(
                 f"{passing} of {n_good} good specs ({good_def} rule, the report's own good set) "
                 f"have only planted driver groups ranked 1-3 (group level, permutation): "
@@ -236,20 +241,48 @@ def measure(run, truth, codebook, null_alpha=NULL_ALPHA):
     else:
         out.append(dict(name="best beats the null", ok=False, value=None, detail="no null in the run"))
 
-    # 5. No pure-noise indicator among the supported conclusions. The toy panel has no
-    # indicator of pure noise: every one is built from latent factors correlated with
-    # prosperity. The nearest are the indicators of the truth's non-driver groups (their
-    # factors do not enter the outcome's formula); those, and the groups, are the "noise".
-    noise_groups = set(truth["non_driver_groups"])
-    noise = {i for i, g in codebook.items() if g in noise_groups} | noise_groups
+    # 5. No pure-noise indicator among the supported conclusions. A panel made with
+    # `toy-panel --noise N` lists its pure-noise indicators (independent draws) and their
+    # codebook group in truth.json; those are the noise. The committed demo panel has none
+    # (every indicator is built from latent factors correlated with prosperity), so there the
+    # criterion falls back to a stand-in: the truth's non-driver groups (their factors do not
+    # enter the outcome's formula) and their indicators.
+    pure = list(truth.get("noise_indicators") or [])
+    if pure:
+        basis = "pure noise"
+        noise_groups = {truth["noise_group"]} if truth.get("noise_group") else set()
+        noise_inds = set(pure)
+        what = (
+            f"a pure-noise indicator ({len(pure)} in the truth's noise_indicators)"
+            + (f" or their group {sorted(noise_groups)[0]}" if noise_groups else "")
+        )
+        short_what = "a pure-noise indicator or group"
+    else:
+        basis = "stand-in: non-driver groups"
+        noise_groups = set(truth["non_driver_groups"])
+        noise_inds = {i for i, g in codebook.items() if g in noise_groups}
+        what = (
+            f"an indicator or group of the non-driver groups {sorted(noise_groups)} (the panel has no "
+            "pure-noise indicator; these stand in for them)"
+        )
+        short_what = "a non-driver"
+    noise = noise_inds | noise_groups
     conc = _path(run, "report", "conclusions.parquet")
     named, claimed = [], []
+    # How near the bar the noise came: the largest good-set support of any conclusion (of
+    # those the report states at all) that names it, and how many do.
+    near, mentioned = 0.0, 0
     for src, stmt, level, sg in _q(con, f"select source, statement, level, support_good from '{conc}'"):
-        if sg is None or sg != sg or sg < SUPPORTED:
-            continue
         words = re.findall(r"[A-Za-z0-9_]+", stmt)
-        hit = [w for w in words if w in noise]
+        # Indicator names anywhere in the statement; a group name only in a group-level
+        # statement (a word such as "noise" could otherwise match the statement's prose).
+        hit = [w for w in words if w in noise_inds or (level == "group" and w in noise_groups)]
         if not hit:
+            continue
+        mentioned += 1
+        if sg is not None and sg == sg:
+            near = max(near, sg)
+        if sg is None or sg != sg or sg < SUPPORTED:
             continue
         named.append(f"{stmt.split(':')[0][:90]} [{sg:.0%}]")
         # The weaker form: a noise name stated as important (in a top k, or ranking above
@@ -259,19 +292,43 @@ def measure(run, truth, codebook, null_alpha=NULL_ALPHA):
         first = (m_top or m_above).group(2) if (m_top or m_above) else None
         if first in noise:
             claimed.append(f"{stmt[:90]} [{sg:.0%}]")
+    # And how near the top the noise ranks: each noise indicator's median relative rank over
+    # the good specs whose pool holds it (its rank by importance among the pool's indicators
+    # / the pool's size; indicator level, permutation kind; 1/p is the top, 1 the bottom),
+    # the best of them. (The table's own rank is over every indicator of the panel, an
+    # indicator outside the pool counted at importance 0, so it is recomputed in the pool.)
+    best_rank = None
+    if good_ids and noise_inds:
+        names = ",".join("'" + n.replace("'", "''") + "'" for n in sorted(noise_inds))
+        r = _q(
+            con,
+            f"""with p as (select spec_id, indicator,
+                    rank() over (partition by spec_id order by importance desc) as rank,
+                    count(*) over (partition by spec_id) as pool from '{imp}'
+                    where level = 'indicator' and kind = 'permutation' and in_pool
+                    and spec_id in ({ids}))
+                select min(m) from (select indicator, median(rank / pool) as m from p
+                    where indicator in ({names}) group by indicator)""",
+        )
+        best_rank = r[0][0] if r and r[0][0] is not None else None
     out.append(
         dict(
             name="no noise indicator in supported conclusions",
+            basis=basis,
             ok=not named,
             value=len(named),
+            max_support=near,
+            mentioned=mentioned,
+            best_rank=best_rank,
             detail=(
-                f"{len(named)} supported conclusions (support over the good set >= {SUPPORTED:.0%}) name an "
-                f"indicator or group of the non-driver groups {sorted(noise_groups)}"
-                + (": " + "; ".join(named) if named else "")
+                f"[{basis}] {len(named)} supported conclusions (support over the good set >= {SUPPORTED:.0%}) name "
+                f"{what}" + (": " + "; ".join(named) if named else "")
+                + f"; conclusions naming one at any support: {mentioned}, the largest support {near:.0%}"
+                + ("" if best_rank is None else f"; the best median good-spec rank of one (permutation), as a share of its pool: {best_rank:.0%} (top = 1/pool size)")
             ),
             weak_ok=not claimed,
             weak=(
-                f"{len(claimed)} supported conclusions state a non-driver as important (in a top k, or ranking above another)"
+                f"[{basis}] {len(claimed)} supported conclusions state {short_what} as important (in a top k, or ranking above another)"
                 + (": " + "; ".join(claimed) if claimed else "")
             ),
         )
@@ -322,33 +379,59 @@ def main(argv):
 
 def self_test(run, truth, codebook):
     """The checks can fail: on the same run, a truth with the driver and non-driver groups
-    swapped (wholly, or prices for access) must fail the driver-group criterion, the full
+    swapped (wholly, or the most frequent top-3 driver group for access) must fail the driver-group criterion, the full
     swap the weaker noise form too, a threshold planted 50% higher the threshold criterion,
-    and a null bar of 0 (no permutation p is below 1 / (1 + D)) the null criterion. Returns the number of checks that
-    did not fail as they should."""
-    swapped = dict(truth)
+    a null bar of 0 (no permutation p is below 1 / (1 + D)) the null criterion, and a
+    planted driver relabelled as pure noise (the indicator inc_median_income, or the group
+    income as the noise group) the pure-noise criterion in both forms. Returns the number of
+    checks that did not fail as they should."""
+    # The swap tests the stand-in form of the noise criterion, so it drops the pure-noise
+    # lists of a panel that has them.
+    swapped = {k: v for k, v in truth.items() if k not in ("noise_indicators", "noise_group")}
     swapped["driver_groups"] = list(truth["non_driver_groups"])
     swapped["non_driver_groups"] = list(truth["driver_groups"])
     moved = json.loads(json.dumps(truth))
     moved["threshold"]["value"] = 1.5 * float(truth["threshold"]["value"])
-    # One driver group traded for one non-driver (prices for access): a partial swap the
-    # run's good specs do not all satisfy (prices is top-3 in some of them), unlike the full
-    # swap, which two non-driver groups cannot pass by construction.
+    # One driver group traded for one non-driver (the driver group most often in a good
+    # spec's top 3, for access): a partial swap the run's good specs do not all satisfy,
+    # unlike the full swap, which two non-driver groups cannot pass by construction. (The
+    # most frequent one, not a fixed one: on some panels a driver group such as prices is in
+    # no good spec's top 3, and trading it would change nothing.)
+    per_group = {r["name"]: r for r in measure(run, truth, codebook)}["driver groups top-3"]["per_group"]
+    top = max(truth["driver_groups"], key=lambda g: (per_group.get(g, 0.0), g))
     partial = dict(truth)
-    partial["driver_groups"] = [g for g in truth["driver_groups"] if g != "prices"] + ["access"]
-    partial["non_driver_groups"] = [g for g in truth["non_driver_groups"] if g != "access"] + ["prices"]
+    partial["driver_groups"] = [g for g in truth["driver_groups"] if g != top] + ["access"]
+    partial["non_driver_groups"] = [g for g in truth["non_driver_groups"] if g != "access"] + [top]
     got = {r["name"]: r for r in measure(run, swapped, codebook)}
     got_moved = {r["name"]: r for r in measure(run, moved, codebook)}
     got_partial = {r["name"]: r for r in measure(run, partial, codebook)}
     # A null bar of 0 must fail: a permutation p is never below 1 / (1 + D).
     got_strict = {r["name"]: r for r in measure(run, truth, codebook, null_alpha=0.0)}
+    # The pure-noise form (whether or not the panel has noise indicators): a truth that
+    # relabels the strongest planted driver indicator as pure noise, or a driver group as
+    # the noise group, must fail both noise forms (the driver is stated in a top k).
+    relabelled = json.loads(json.dumps(truth))
+    relabelled["noise_indicators"] = list(truth.get("noise_indicators") or []) + ["inc_median_income"]
+    group_relabelled = json.loads(json.dumps(truth))
+    group_relabelled["noise_indicators"] = list(truth.get("noise_indicators") or []) or ["no_such_indicator"]
+    group_relabelled["noise_group"] = "income"
+    noise_key = "no noise indicator in supported conclusions"
+    got_rel = {r["name"]: r for r in measure(run, relabelled, codebook)}[noise_key]
+    got_grp = {r["name"]: r for r in measure(run, group_relabelled, codebook)}[noise_key]
     cases = [
         ("driver groups swapped: driver criterion fails", not got["driver groups top-3"]["ok"]),
         ("driver groups swapped: weaker noise form fails",
          not got["no noise indicator in supported conclusions"]["weak_ok"]),
         ("threshold planted 50% higher: threshold criterion fails", not got_moved["threshold located"]["ok"]),
-        ("prices traded for access: driver criterion fails", not got_partial["driver groups top-3"]["ok"]),
+        (f"{top} (the driver group most often top-3) traded for access: driver criterion fails",
+         not got_partial["driver groups top-3"]["ok"]),
         ("null bar of 0 (below any permutation p): null criterion fails", not got_strict["best beats the null"]["ok"]),
+        ("inc_median_income relabelled as pure noise: pure-noise criterion fails",
+         got_rel["basis"] == "pure noise" and not got_rel["ok"]),
+        ("inc_median_income relabelled as pure noise: its weaker form fails",
+         got_rel["basis"] == "pure noise" and not got_rel["weak_ok"]),
+        ("group income relabelled as the noise group: pure-noise criterion and weaker form fail",
+         got_grp["basis"] == "pure noise" and not got_grp["ok"] and not got_grp["weak_ok"]),
     ]
     bad = 0
     for name, fine in cases:

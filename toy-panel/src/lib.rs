@@ -8,6 +8,9 @@
 //! to `truth.json`): a few true driver indicators, a threshold on one indicator, an
 //! interaction, a subgroup of districts whose threshold differs, a handful of very
 //! high-outcome districts, and missing cells that are more common in poorer districts.
+//! On request ([`generate_with_noise`]) it adds indicators of pure noise, listed in
+//! `truth.json`, so that "no pure-noise indicator is claimed" can be checked; the committed
+//! demo has none.
 //!
 //! The random stream is a hand-written xoshiro256** seeded by SplitMix64, so the output
 //! depends on nothing but this file and the seed.
@@ -164,7 +167,58 @@ pub fn generate(seed: u64) -> ToyPanel {
 /// indicators, drivers, threshold and subgroup rule; one high-outcome district in 16 (at
 /// least 2). With 64 it is [`generate`].
 pub fn generate_with(seed: u64, units: usize) -> ToyPanel {
+    generate_with_noise(seed, units, 0)
+}
+
+/// Most pure-noise indicators [`generate_with_noise`] adds.
+pub const MAX_NOISE: usize = 500;
+/// The codebook group of the pure-noise indicators.
+pub const NOISE_GROUP: &str = "noise";
+/// Probability that a pure-noise cell is blank: the mean of the other indicators' rate
+/// (0.04 + 0.08 x the mean of 1/(1+exp(2 x prosperity)), which is 1/2 for a symmetric
+/// prosperity), but constant, so the gaps are independent of everything.
+const NOISE_GAP: f64 = 0.08;
+
+/// Name of pure-noise indicator `k` (0-based) of `n`.
+fn noise_name(k: usize, n: usize) -> String {
+    let width = n.to_string().len().max(2);
+    format!("noi_{:0width$}", k + 1)
+}
+
+/// The columns of `n` pure-noise indicators over `rows` rows: `cols[k][r]` is row r's cell
+/// (None = blank). Indicator k has its own random stream (seeded from `seed` and k, never
+/// from the panel's stream), so the rest of the panel is the same whatever `n` is, and
+/// indicator k is the same whatever `n` is. Each value is an iid normal draw (a centre and
+/// spread drawn once per indicator, scaled as the other indicators are), and each cell is
+/// blank with probability [`NOISE_GAP`] by a draw of the same stream: independent of the
+/// districts, their factors, the outcome and the other gaps.
+fn noise_columns(seed: u64, n: usize, rows: usize) -> Vec<Vec<Option<f64>>> {
+    (0..n)
+        .map(|k| {
+            let salt = 0x6E6F_6973_6500_0000_u64 ^ (k as u64).wrapping_mul(0xD134_2543_DE82_EF95);
+            let mut rng = Rng::new(seed.rotate_left(17) ^ salt);
+            // Centre at least 3.75 spreads above 0, so the clamp at 0 the other
+            // indicators get (a count cannot be negative) practically never bites.
+            let centre = 30.0 + 70.0 * rng.uniform();
+            let spread = 2.0 + 6.0 * rng.uniform();
+            (0..rows)
+                .map(|_| {
+                    let v = centre + spread * rng.normal();
+                    let blank = rng.uniform() < NOISE_GAP;
+                    (!blank).then_some(v.max(0.0))
+                })
+                .collect()
+        })
+        .collect()
+}
+
+/// [`generate_with`] plus `noise` pure-noise indicators (at most [`MAX_NOISE`]; more are
+/// cut to it): columns `noi_01`.. after the 90 others, in their own codebook group
+/// [`NOISE_GROUP`], listed in truth.json as `noise_indicators`. With `noise` = 0 it is
+/// [`generate_with`], byte for byte; any `noise` leaves every other cell as it is.
+pub fn generate_with_noise(seed: u64, units: usize, noise: usize) -> ToyPanel {
     let units = units.max(8);
+    let noise = noise.min(MAX_NOISE);
     let mut rng = Rng::new(seed);
     let names = district_names(&mut rng, units);
 
@@ -249,8 +303,16 @@ pub fn generate_with(seed: u64, units: usize) -> ToyPanel {
             header.push_str(key);
         }
     }
+    let noise_names: Vec<String> = (0..noise).map(|k| noise_name(k, noise)).collect();
+    for name in &noise_names {
+        header.push(',');
+        header.push_str(name);
+    }
     header.push('\n');
     let mut csv = header;
+    let n_rows: usize = waves_of.iter().map(Vec::len).sum();
+    let noise_cols = noise_columns(seed, noise, n_rows);
+    let mut row = 0usize;
     let regions = ["North Vale", "East Shore", "South Plain", "West Ridge"];
 
     for (i, name) in names.iter().enumerate() {
@@ -328,6 +390,15 @@ pub fn generate_with(seed: u64, units: usize) -> ToyPanel {
                     let _ = write!(line, ",{v:.3}");
                 }
             }
+            for col in &noise_cols {
+                match col[row] {
+                    Some(v) => {
+                        let _ = write!(line, ",{v:.3}");
+                    }
+                    None => line.push(','),
+                }
+            }
+            row += 1;
             line.push('\n');
             csv.push_str(&line);
         }
@@ -340,7 +411,14 @@ pub fn generate_with(seed: u64, units: usize) -> ToyPanel {
         }
     }
 
-    let truth = serde_json::json!({
+    for name in &noise_names {
+        let _ = writeln!(
+            codebook,
+            "{name},{NOISE_GROUP},\"Invented pure-noise indicator (independent draws)\",\"index\""
+        );
+    }
+
+    let mut truth = serde_json::json!({
         "invented": true,
         "description": "Known truth of forkmap's invented demo panel. The outcome hardship_pct is generated from the indicator values below plus noise; every name and number is made up.",
         "seed": seed,
@@ -369,6 +447,22 @@ pub fn generate_with(seed: u64, units: usize) -> ToyPanel {
         "high_outcome_units": extreme.iter().map(|&i| names[i].clone()).collect::<Vec<_>>(),
         "missingness": "cells blank with probability 0.04 + 0.08/(1+exp(2*prosperity)): more often in poorer districts; half as often for the two strongest drivers"
     });
+    if noise > 0 {
+        if let Some(t) = truth.as_object_mut() {
+            if let Some(labels) = t.get_mut("group_labels").and_then(|v| v.as_object_mut()) {
+                labels.insert(
+                    NOISE_GROUP.into(),
+                    "Pure noise (independent of everything)".into(),
+                );
+            }
+            t.insert("noise_group".into(), NOISE_GROUP.into());
+            t.insert("noise_indicators".into(), noise_names.clone().into());
+            t.insert(
+                "noise_description".into(),
+                format!("pure noise: each value an independent normal draw (own random stream, independent of the districts, their factors, the outcome and the other indicators); each cell blank with probability {NOISE_GAP}, independently of everything").into(),
+            );
+        }
+    }
     let truth_json = serde_json::to_string_pretty(&truth).unwrap_or_default() + "\n";
     ToyPanel {
         panel_csv: csv,
