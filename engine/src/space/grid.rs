@@ -3,12 +3,7 @@
 
 use super::*;
 
-fn parse_param(
-    cfg: &Config,
-    key: &str,
-    decl: &ParamDecl,
-    v: &toml::Value,
-) -> Result<f64> {
+fn parse_param(cfg: &Config, key: &str, decl: &ParamDecl, v: &toml::Value) -> Result<f64> {
     let x = match v {
         toml::Value::Integer(i) => *i as f64,
         toml::Value::Float(f) => *f,
