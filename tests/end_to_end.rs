@@ -130,6 +130,19 @@ fn quick_config_runs_end_to_end() {
     assert_eq!(manifest["specs"], n_specs);
     let sha = forkmap::run::sha256_file(&root().join("toy-panel/panel.csv")).unwrap();
     assert_eq!(manifest["data_sha256"], sha.as_str());
+    // The derived tables (null, nested, curves, report) hold the columns schema.rs names.
+    let checked = crate::contract::written_columns_match_schema(&out);
+    for t in [
+        "report/curve",
+        "report/null_summary",
+        "report/nested_summary",
+        "curves/breakpoints",
+        "null/draws",
+        "null/tops",
+        "nested/fold",
+    ] {
+        assert!(checked.contains(&t), "{t} not written: {checked:?}");
+    }
     // No temporary files left behind.
     for t in ["specs", "predictions"] {
         for e in std::fs::read_dir(out.join(t)).unwrap() {

@@ -5,6 +5,7 @@
 mod bad_input;
 #[macro_use]
 mod common;
+mod contract;
 mod costs;
 mod curves;
 mod curves_groups;

@@ -34,6 +34,18 @@ pub mod specs {
     pub const N_PREDICTIONS: &str = "n_predictions";
     pub const SECONDS: &str = "seconds";
     pub const IMPORTANCE_SECONDS: &str = "importance_seconds";
+    /// The fixed columns, in table order (dimension, parameter and metric columns lie
+    /// between them, as above).
+    pub const COLUMNS: &[&str] = &[
+        SPEC_ID,
+        SPEC_LABEL,
+        STATUS,
+        MESSAGE,
+        NOTES,
+        N_PREDICTIONS,
+        SECONDS,
+        IMPORTANCE_SECONDS,
+    ];
 }
 
 /// Columns of the predictions table ([`PREDICTIONS`]), in table order.
@@ -45,6 +57,8 @@ pub mod predictions {
     pub const PREDICTED: &str = "predicted";
     pub const FOLD: &str = "fold";
     pub const REPEAT: &str = "repeat";
+    /// Every column, in table order.
+    pub const COLUMNS: &[&str] = &[SPEC_ID, UNIT, WAVE, OBSERVED, PREDICTED, FOLD, REPEAT];
 }
 
 /// Columns of the loadings table ([`LOADINGS`]), in table order.
@@ -53,6 +67,8 @@ pub mod loadings {
     pub const COMPONENT: &str = "component";
     pub const INDICATOR: &str = "indicator";
     pub const LOADING: &str = "loading";
+    /// Every column, in table order.
+    pub const COLUMNS: &[&str] = &[SPEC_ID, COMPONENT, INDICATOR, LOADING];
 }
 
 /// Columns of the importance table ([`IMPORTANCE`]), in table order.
@@ -65,6 +81,10 @@ pub mod importance {
     pub const SPREAD: &str = "spread";
     pub const RANK: &str = "rank";
     pub const IN_POOL: &str = "in_pool";
+    /// Every column, in table order.
+    pub const COLUMNS: &[&str] = &[
+        SPEC_ID, INDICATOR, LEVEL, KIND, IMPORTANCE, SPREAD, RANK, IN_POOL,
+    ];
 }
 
 /// The permutation null's folder (its own manifest and tables).
@@ -90,6 +110,52 @@ pub const CURVES_META: &str = "curves.json";
 /// The report's marker inside [`REPORT_DIR`] (what it read and with which settings).
 pub const REPORT_MARKER: &str = "report.json";
 
+// The derived tables' columns (schema/*.rs), one module per table, each with its `COLUMNS`.
+pub mod curves;
+pub mod nested;
+pub mod null;
+pub mod report;
+
+/// Every derived table's fixed columns, by its place in the run directory: `DIR/NAME` is
+/// the file `DIR/NAME.parquet`, except `null/draws` and `null/tops` (folders of one part per
+/// draw) and `nested/fold` (the files `nested/fold-OOO.parquet`). `report/curve` and
+/// `nested/fold` also hold columns named at run time (see their modules).
+pub const DERIVED_COLUMNS: &[(&str, &[&str])] = &[
+    ("report/curve", report::curve::COLUMNS),
+    ("report/error_by_choice", report::error_by_choice::COLUMNS),
+    ("report/error_by_param", report::error_by_param::COLUMNS),
+    ("report/error_shares", report::error_shares::COLUMNS),
+    ("report/rank_by_choice", report::rank_by_choice::COLUMNS),
+    ("report/rank_shares", report::rank_shares::COLUMNS),
+    ("report/good_sets", report::good_sets::COLUMNS),
+    ("report/good_makeup", report::good_makeup::COLUMNS),
+    (
+        "report/importance_spread",
+        report::importance_spread::COLUMNS,
+    ),
+    ("report/rank_counts", report::rank_counts::COLUMNS),
+    ("report/agreement", report::agreement::COLUMNS),
+    ("report/conclusions", report::conclusions::COLUMNS),
+    ("report/stability", report::stability::COLUMNS),
+    ("report/best_frequency", report::best_frequency::COLUMNS),
+    ("report/resamples", report::resamples::COLUMNS),
+    ("report/null_summary", report::null_summary::COLUMNS),
+    ("report/null_indicators", report::null_indicators::COLUMNS),
+    ("report/nested_summary", report::nested_summary::COLUMNS),
+    ("report/nested_choices", report::nested_choices::COLUMNS),
+    ("report/nested_folds", report::nested_folds::COLUMNS),
+    ("curves/ice", curves::ice::COLUMNS),
+    ("curves/pd", curves::pd::COLUMNS),
+    ("curves/breakpoints", curves::breakpoints::COLUMNS),
+    ("curves/bands", curves::bands::COLUMNS),
+    ("curves/signs", curves::signs::COLUMNS),
+    ("curves/observed", curves::observed::COLUMNS),
+    ("curves/clusters", curves::clusters::COLUMNS),
+    ("null/tops", null::tops::COLUMNS),
+    ("null/draws", null::draws::COLUMNS),
+    ("nested/fold", nested::fold::COLUMNS),
+];
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -108,48 +174,17 @@ mod tests {
     /// No table names a column twice.
     #[test]
     fn column_names_are_distinct_within_each_table() {
-        let tables: [&[&str]; 4] = [
-            &[
-                specs::SPEC_ID,
-                specs::SPEC_LABEL,
-                specs::STATUS,
-                specs::MESSAGE,
-                specs::NOTES,
-                specs::N_PREDICTIONS,
-                specs::SECONDS,
-                specs::IMPORTANCE_SECONDS,
-            ],
-            &[
-                predictions::SPEC_ID,
-                predictions::UNIT,
-                predictions::WAVE,
-                predictions::OBSERVED,
-                predictions::PREDICTED,
-                predictions::FOLD,
-                predictions::REPEAT,
-            ],
-            &[
-                loadings::SPEC_ID,
-                loadings::COMPONENT,
-                loadings::INDICATOR,
-                loadings::LOADING,
-            ],
-            &[
-                importance::SPEC_ID,
-                importance::INDICATOR,
-                importance::LEVEL,
-                importance::KIND,
-                importance::IMPORTANCE,
-                importance::SPREAD,
-                importance::RANK,
-                importance::IN_POOL,
-            ],
+        let sweep: [(&str, &[&str]); 4] = [
+            ("specs", specs::COLUMNS),
+            ("predictions", predictions::COLUMNS),
+            ("loadings", loadings::COLUMNS),
+            ("importance", importance::COLUMNS),
         ];
-        for t in tables {
+        for (name, t) in sweep.iter().chain(DERIVED_COLUMNS) {
             let mut v = t.to_vec();
             v.sort_unstable();
             v.dedup();
-            assert_eq!(v.len(), t.len(), "{t:?}");
+            assert_eq!(v.len(), t.len(), "{name}: {t:?}");
         }
     }
 }

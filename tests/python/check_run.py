@@ -9,6 +9,26 @@ import json
 import os
 import sys
 
+# The columns this script reads, by table (RUN_DIR/TABLE/*.parquet or RUN_DIR/TABLE.parquet):
+# the meta-analyst's own list, kept here apart from the engine. `--names` prints it as JSON
+# (a Rust test, tests/contract.rs, compares it with engine/src/schema.rs); a run checked
+# below must hold every column listed for each table it has.
+CONTRACT = {
+    "specs": ["spec_id", "transform", "fill", "pool", "scale", "compress", "model", "weighting",
+              "status", "notes", "mae", "rmse", "r2", "baseline_mae", "skill", "top_quartile_mae",
+              "unit_mae", "spearman", "seconds"],
+    "predictions": ["spec_id", "unit", "wave", "observed", "predicted", "fold", "repeat"],
+    "loadings": ["spec_id", "component", "indicator", "loading"],
+    "importance": ["spec_id", "indicator", "level", "kind", "importance", "spread", "rank", "in_pool"],
+    "report/nested_summary": ["naive_error", "naive_all_error", "nested_error", "optimism"],
+    "curves/breakpoints": ["spec_id", "indicator", "shape", "breakpoint", "composition_draws",
+                           "direction", "same_as"],
+    "curves/signs": ["indicator", "members", "holding", "distinct", "rises", "falls", "flat", "turns"],
+}
+if sys.argv[1:] == ["--names"]:
+    print(json.dumps(CONTRACT, indent=1))
+    sys.exit(0)
+
 import duckdb
 import pyarrow.dataset as ds
 import pyarrow.parquet as pq
@@ -167,6 +187,18 @@ if os.path.exists(bp_path):
                or (s."distinct" > 0 and abs(s.rises + s.falls + s.flat + s.turns - 1) > 1e-12)"""
     ).fetchone()[0]
     check("duckdb: curves signs count the distinct curves of the holding members", got == 0, f"{got} indicators")
+
+# Every table the run holds has the columns this script reads.
+for table, cols in CONTRACT.items():
+    folder = os.path.join(run, table)
+    if os.path.isdir(folder):
+        names = ds.dataset(folder, format="parquet").schema.names
+    elif os.path.exists(folder + ".parquet"):
+        names = pq.read_schema(folder + ".parquet").names
+    else:
+        continue
+    missing = [c for c in cols if c not in names]
+    check(f"pyarrow: {table} has the contract's columns", not missing, f"missing {missing}")
 
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)

@@ -25,6 +25,7 @@
 use super::compute::Output;
 use crate::error::{Error, Result};
 use crate::panel::Panel;
+use crate::schema::curves as columns;
 use crate::sink::Cols;
 use std::path::{Path, PathBuf};
 
@@ -56,14 +57,14 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         }
     }
     Cols::default()
-        .s("spec_id", sid)
-        .s("indicator", si)
-        .s("unit", un)
-        .os("wave", wv)
-        .i("grid_index", gi)
-        .f("grid_value", gv)
-        .f("prediction", pr)
-        .f("centred", ce)
+        .s(columns::ice::SPEC_ID, sid)
+        .s(columns::ice::INDICATOR, si)
+        .s(columns::ice::UNIT, un)
+        .os(columns::ice::WAVE, wv)
+        .i(columns::ice::GRID_INDEX, gi)
+        .f(columns::ice::GRID_VALUE, gv)
+        .f(columns::ice::PREDICTION, pr)
+        .f(columns::ice::CENTRED, ce)
         .write(dir, "ice")?;
     // pd
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());
@@ -77,43 +78,58 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         }
     }
     Cols::default()
-        .s("spec_id", t.0)
-        .s("indicator", t.1)
-        .i("grid_index", t.2)
-        .f("grid_value", t.3)
-        .f("pd", t.4)
+        .s(columns::pd::SPEC_ID, t.0)
+        .s(columns::pd::INDICATOR, t.1)
+        .i(columns::pd::GRID_INDEX, t.2)
+        .f(columns::pd::GRID_VALUE, t.3)
+        .f(columns::pd::PD, t.4)
         .write(dir, "pd")?;
     // breakpoints
     let cs = &o.curves;
     let f = |g: fn(&super::compute::SpecCurve) -> f64| cs.iter().map(g).collect::<Vec<f64>>();
     Cols::default()
-        .s("spec_id", cs.iter().map(|c| ids[c.spec].clone()))
-        .s("indicator", cs.iter().map(|c| ind(c.indicator)))
         .s(
-            "direction",
+            columns::breakpoints::SPEC_ID,
+            cs.iter().map(|c| ids[c.spec].clone()),
+        )
+        .s(
+            columns::breakpoints::INDICATOR,
+            cs.iter().map(|c| ind(c.indicator)),
+        )
+        .s(
+            columns::breakpoints::DIRECTION,
             cs.iter().map(|c| c.direction.name().to_string()),
         )
-        .s("shape", cs.iter().map(|c| c.shape.kind.name().to_string()))
-        .of("breakpoint", f(|c| c.shape.breakpoint))
-        .of("jump", f(|c| c.shape.jump))
-        .of("composition_lo", f(|c| c.interval.lo))
-        .of("composition_hi", f(|c| c.interval.hi))
+        .s(
+            columns::breakpoints::SHAPE,
+            cs.iter().map(|c| c.shape.kind.name().to_string()),
+        )
+        .of(columns::breakpoints::BREAKPOINT, f(|c| c.shape.breakpoint))
+        .of(columns::breakpoints::JUMP, f(|c| c.shape.jump))
+        .of(columns::breakpoints::COMPOSITION_LO, f(|c| c.interval.lo))
+        .of(columns::breakpoints::COMPOSITION_HI, f(|c| c.interval.hi))
         .i(
-            "composition_draws",
+            columns::breakpoints::COMPOSITION_DRAWS,
             cs.iter().map(|c| c.interval.draws as i64),
         )
-        .of("composition_kept", f(|c| c.interval.kept))
-        .of("slope_left", f(|c| c.shape.slope_left))
-        .of("slope_right", f(|c| c.shape.slope_right))
-        .of("sse", f(|c| c.shape.sse))
-        .of("bic_line", f(|c| c.shape.bic[0]))
-        .of("bic_hinge", f(|c| c.shape.bic[1]))
-        .of("bic_jump", f(|c| c.shape.bic[2]))
+        .of(
+            columns::breakpoints::COMPOSITION_KEPT,
+            f(|c| c.interval.kept),
+        )
+        .of(columns::breakpoints::SLOPE_LEFT, f(|c| c.shape.slope_left))
+        .of(
+            columns::breakpoints::SLOPE_RIGHT,
+            f(|c| c.shape.slope_right),
+        )
+        .of(columns::breakpoints::SSE, f(|c| c.shape.sse))
+        .of(columns::breakpoints::BIC_LINE, f(|c| c.shape.bic[0]))
+        .of(columns::breakpoints::BIC_HINGE, f(|c| c.shape.bic[1]))
+        .of(columns::breakpoints::BIC_JUMP, f(|c| c.shape.bic[2]))
         .os(
-            "same_as",
+            columns::breakpoints::SAME_AS,
             cs.iter().map(|c| c.same_as.map(|i| ids[i].clone())),
         )
-        .f("flat_tolerance", vec![o.tol; cs.len()])
+        .f(columns::breakpoints::FLAT_TOLERANCE, vec![o.tol; cs.len()])
         .write(dir, "breakpoints")?;
     // bands and signs
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
@@ -134,27 +150,33 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
     }
     let n = t.0.len();
     Cols::default()
-        .s("indicator", t.0)
-        .i("grid_index", t.1)
-        .f("grid_value", t.2)
-        .i("members", t.3)
-        .i("holding", counts.0)
-        .i("distinct", counts.1)
-        .of("pd_median", bb.0)
-        .of("pd_lo", bb.1)
-        .of("pd_hi", bb.2)
-        .f("level", vec![level; n])
+        .s(columns::bands::INDICATOR, t.0)
+        .i(columns::bands::GRID_INDEX, t.1)
+        .f(columns::bands::GRID_VALUE, t.2)
+        .i(columns::bands::MEMBERS, t.3)
+        .i(columns::bands::HOLDING, counts.0)
+        .i(columns::bands::DISTINCT, counts.1)
+        .of(columns::bands::PD_MEDIAN, bb.0)
+        .of(columns::bands::PD_LO, bb.1)
+        .of(columns::bands::PD_HI, bb.2)
+        .f(columns::bands::LEVEL, vec![level; n])
         .write(dir, "bands")?;
     let bs = &o.bands;
     Cols::default()
-        .s("indicator", bs.iter().map(|b| ind(b.indicator)))
-        .i("members", bs.iter().map(|b| b.members as i64))
-        .i("holding", bs.iter().map(|b| b.holding as i64))
-        .i("distinct", bs.iter().map(|b| b.distinct as i64))
-        .f("rises", bs.iter().map(|b| b.band.rises))
-        .f("falls", bs.iter().map(|b| b.band.falls))
-        .f("flat", bs.iter().map(|b| b.band.flat))
-        .f("turns", bs.iter().map(|b| b.band.turns))
+        .s(
+            columns::signs::INDICATOR,
+            bs.iter().map(|b| ind(b.indicator)),
+        )
+        .i(columns::signs::MEMBERS, bs.iter().map(|b| b.members as i64))
+        .i(columns::signs::HOLDING, bs.iter().map(|b| b.holding as i64))
+        .i(
+            columns::signs::DISTINCT,
+            bs.iter().map(|b| b.distinct as i64),
+        )
+        .f(columns::signs::RISES, bs.iter().map(|b| b.band.rises))
+        .f(columns::signs::FALLS, bs.iter().map(|b| b.band.falls))
+        .f(columns::signs::FLAT, bs.iter().map(|b| b.band.flat))
+        .f(columns::signs::TURNS, bs.iter().map(|b| b.band.turns))
         .write(dir, "signs")?;
     // observed values of the chosen indicators (the report's rug)
     let mut t = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
@@ -168,10 +190,10 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         }
     }
     Cols::default()
-        .s("indicator", t.0)
-        .s("unit", t.1)
-        .os("wave", t.2)
-        .f("value", t.3)
+        .s(columns::observed::INDICATOR, t.0)
+        .s(columns::observed::UNIT, t.1)
+        .os(columns::observed::WAVE, t.2)
+        .f(columns::observed::VALUE, t.3)
         .write(dir, "observed")?;
     // clusters
     let nan = f64::NAN;
@@ -216,24 +238,24 @@ fn write_tables(o: &Output, panel: &Panel, ids: &[String], level: f64, dir: &Pat
         }
     }
     Cols::default()
-        .s("spec_id", t.0)
-        .s("indicator", t.1)
-        .s("unit", t.2)
-        .i("cluster", t.3)
-        .i("k", t.4)
-        .of("silhouette", f.0)
-        .s("cluster_shape", shapes.0)
-        .of("cluster_breakpoint", f.1)
-        .of("cluster_jump", shapes.1)
-        .of("cluster_slope_left", f.2)
-        .of("cluster_slope_right", f.3)
-        .f("distance", f.4)
-        .f("bound", f.5)
-        .b("departs", dep)
-        .of("gap", std::mem::take(&mut gp[0]))
-        .of("gap_se", std::mem::take(&mut gp[1]))
-        .of("gap_next", std::mem::take(&mut gp[2]))
-        .of("gap_next_se", std::mem::take(&mut gp[3]))
+        .s(columns::clusters::SPEC_ID, t.0)
+        .s(columns::clusters::INDICATOR, t.1)
+        .s(columns::clusters::UNIT, t.2)
+        .i(columns::clusters::CLUSTER, t.3)
+        .i(columns::clusters::K, t.4)
+        .of(columns::clusters::SILHOUETTE, f.0)
+        .s(columns::clusters::CLUSTER_SHAPE, shapes.0)
+        .of(columns::clusters::CLUSTER_BREAKPOINT, f.1)
+        .of(columns::clusters::CLUSTER_JUMP, shapes.1)
+        .of(columns::clusters::CLUSTER_SLOPE_LEFT, f.2)
+        .of(columns::clusters::CLUSTER_SLOPE_RIGHT, f.3)
+        .f(columns::clusters::DISTANCE, f.4)
+        .f(columns::clusters::BOUND, f.5)
+        .b(columns::clusters::DEPARTS, dep)
+        .of(columns::clusters::GAP, std::mem::take(&mut gp[0]))
+        .of(columns::clusters::GAP_SE, std::mem::take(&mut gp[1]))
+        .of(columns::clusters::GAP_NEXT, std::mem::take(&mut gp[2]))
+        .of(columns::clusters::GAP_NEXT_SE, std::mem::take(&mut gp[3]))
         .write(dir, "clusters")?;
     Ok(())
 }

@@ -14,6 +14,7 @@
 
 use super::{OuterResult, Plan};
 use crate::error::{Error, Result};
+use crate::schema::nested as columns;
 use crate::sink::Cols;
 use crate::space::{ChoiceSpace, Dim, DIMENSIONS};
 use arrow_array::{Array, Float64Array, Int64Array, StringArray};
@@ -114,20 +115,20 @@ pub fn write_fold(
 ) -> Result<PathBuf> {
     let spec = r.chosen.map(|i| &space.specs[i]);
     let mut cols = Cols::default()
-        .i("outer_fold", [r.fold as i64])
-        .os("spec_id", [spec.map(|s| s.id.clone())]);
+        .i(columns::fold::OUTER_FOLD, [r.fold as i64])
+        .os(columns::fold::SPEC_ID, [spec.map(|s| s.id.clone())]);
     for dim in Dim::ALL {
         cols = cols.os(dim.name(), [spec.map(|s| s.choice(dim).label())]);
     }
-    cols.of("inner_error", [r.inner_error])
-        .of("outer_error", [r.outer_error])
-        .of("baseline_error", [r.baseline_error])
-        .i("n_rows", [r.n_rows as i64])
-        .i("n_units", [r.n_units as i64])
-        .i("n_specs", [r.n_specs as i64])
-        .i("n_ok", [r.n_ok as i64])
-        .s("metric", [metric])
-        .os("message", [r.message.clone()])
+    cols.of(columns::fold::INNER_ERROR, [r.inner_error])
+        .of(columns::fold::OUTER_ERROR, [r.outer_error])
+        .of(columns::fold::BASELINE_ERROR, [r.baseline_error])
+        .i(columns::fold::N_ROWS, [r.n_rows as i64])
+        .i(columns::fold::N_UNITS, [r.n_units as i64])
+        .i(columns::fold::N_SPECS, [r.n_specs as i64])
+        .i(columns::fold::N_OK, [r.n_ok as i64])
+        .s(columns::fold::METRIC, [metric])
+        .os(columns::fold::MESSAGE, [r.message.clone()])
         .write(dir, &fold_file(r.fold))
 }
 
@@ -193,21 +194,21 @@ pub fn read_folds(dir: &Path) -> Result<Vec<FoldRow>> {
             // null (undefined) reads back as NaN
             let val = |a: &Float64Array, i: usize| if a.is_null(i) { f64::NAN } else { a.value(i) };
             let (fold, id, msg, metric) = (
-                int("outer_fold")?,
-                text("spec_id")?,
-                text("message")?,
-                text("metric")?,
+                int(columns::fold::OUTER_FOLD)?,
+                text(columns::fold::SPEC_ID)?,
+                text(columns::fold::MESSAGE)?,
+                text(columns::fold::METRIC)?,
             );
             let (inner, outer, base) = (
-                num("inner_error")?,
-                num("outer_error")?,
-                num("baseline_error")?,
+                num(columns::fold::INNER_ERROR)?,
+                num(columns::fold::OUTER_ERROR)?,
+                num(columns::fold::BASELINE_ERROR)?,
             );
             let (nr, nu, ns, nok) = (
-                int("n_rows")?,
-                int("n_units")?,
-                int("n_specs")?,
-                int("n_ok")?,
+                int(columns::fold::N_ROWS)?,
+                int(columns::fold::N_UNITS)?,
+                int(columns::fold::N_SPECS)?,
+                int(columns::fold::N_OK)?,
             );
             let dims: Vec<StringArray> =
                 DIMENSIONS.iter().map(|d| text(d)).collect::<Result<_>>()?;

@@ -10,6 +10,7 @@
 //! exactly when its `draws` file exists.
 
 use crate::error::{Error, Result};
+use crate::schema::null as columns;
 use crate::sink::Cols;
 use arrow_array::{Array, BooleanArray, Float64Array, Int64Array, StringArray};
 use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
@@ -84,32 +85,38 @@ pub fn draw_of(name: &str) -> Option<u64> {
 pub fn write_draw(null_dir: &Path, row: &DrawRow, tops: &[TopRow]) -> Result<()> {
     let name = format!("draw-{:06}", row.draw);
     Cols::default()
-        .i("draw", tops.iter().map(|t| t.draw))
-        .s("spec", tops.iter().map(|t| &t.spec))
-        .s("level", tops.iter().map(|t| &t.level))
-        .s("kind", tops.iter().map(|t| &t.kind))
-        .s("name", tops.iter().map(|t| &t.name))
-        .f("importance", tops.iter().map(|t| t.importance))
-        .i("rank", tops.iter().map(|t| t.rank))
-        .b("top", tops.iter().map(|t| t.top))
+        .i(columns::tops::DRAW, tops.iter().map(|t| t.draw))
+        .s(columns::tops::SPEC, tops.iter().map(|t| &t.spec))
+        .s(columns::tops::LEVEL, tops.iter().map(|t| &t.level))
+        .s(columns::tops::KIND, tops.iter().map(|t| &t.kind))
+        .s(columns::tops::NAME, tops.iter().map(|t| &t.name))
+        .f(columns::tops::IMPORTANCE, tops.iter().map(|t| t.importance))
+        .i(columns::tops::RANK, tops.iter().map(|t| t.rank))
+        .b(columns::tops::TOP, tops.iter().map(|t| t.top))
         .write(&null_dir.join(TOPS), &name)?;
     let r = std::slice::from_ref(row);
     Cols::default()
-        .i("draw", r.iter().map(|t| t.draw))
-        .s("seed", r.iter().map(|t| &t.seed))
-        .s("metric", r.iter().map(|t| &t.metric))
-        .f("best_error", r.iter().map(|t| t.best_error))
-        .f("q1_error", r.iter().map(|t| t.q1_error))
-        .f("median_error", r.iter().map(|t| t.median_error))
-        .f("q3_error", r.iter().map(|t| t.q3_error))
-        .f("best_skill", r.iter().map(|t| t.best_skill))
+        .i(columns::draws::DRAW, r.iter().map(|t| t.draw))
+        .s(columns::draws::SEED, r.iter().map(|t| &t.seed))
+        .s(columns::draws::METRIC, r.iter().map(|t| &t.metric))
+        .f(columns::draws::BEST_ERROR, r.iter().map(|t| t.best_error))
+        .f(columns::draws::Q1_ERROR, r.iter().map(|t| t.q1_error))
         .f(
-            "share_skill_positive",
+            columns::draws::MEDIAN_ERROR,
+            r.iter().map(|t| t.median_error),
+        )
+        .f(columns::draws::Q3_ERROR, r.iter().map(|t| t.q3_error))
+        .f(columns::draws::BEST_SKILL, r.iter().map(|t| t.best_skill))
+        .f(
+            columns::draws::SHARE_SKILL_POSITIVE,
             r.iter().map(|t| t.share_skill_positive),
         )
-        .i("specs", r.iter().map(|t| t.specs))
-        .i("n_ok", r.iter().map(|t| t.n_ok))
-        .os("best_spec", r.iter().map(|t| t.best_spec.clone()))
+        .i(columns::draws::SPECS, r.iter().map(|t| t.specs))
+        .i(columns::draws::N_OK, r.iter().map(|t| t.n_ok))
+        .os(
+            columns::draws::BEST_SPEC,
+            r.iter().map(|t| t.best_spec.clone()),
+        )
         .write(&null_dir.join(DRAWS), &name)?;
     Ok(())
 }
@@ -169,21 +176,21 @@ pub fn read_draws(null_dir: &Path) -> Result<Vec<DrawRow>> {
     let mut out = Vec::new();
     for (_, path) in complete_files(&null_dir.join(DRAWS))? {
         each_batch(&path, |b| {
-            let draw = col::<Int64Array>(b, &path, "draw")?;
-            let seed = col::<StringArray>(b, &path, "seed")?;
-            let metric = col::<StringArray>(b, &path, "metric")?;
+            let draw = col::<Int64Array>(b, &path, columns::draws::DRAW)?;
+            let seed = col::<StringArray>(b, &path, columns::draws::SEED)?;
+            let metric = col::<StringArray>(b, &path, columns::draws::METRIC)?;
             let f = |n: &str| col::<Float64Array>(b, &path, n);
             let (be, q1, me, q3, bs, sp) = (
-                f("best_error")?,
-                f("q1_error")?,
-                f("median_error")?,
-                f("q3_error")?,
-                f("best_skill")?,
-                f("share_skill_positive")?,
+                f(columns::draws::BEST_ERROR)?,
+                f(columns::draws::Q1_ERROR)?,
+                f(columns::draws::MEDIAN_ERROR)?,
+                f(columns::draws::Q3_ERROR)?,
+                f(columns::draws::BEST_SKILL)?,
+                f(columns::draws::SHARE_SKILL_POSITIVE)?,
             );
-            let specs = col::<Int64Array>(b, &path, "specs")?;
-            let n_ok = col::<Int64Array>(b, &path, "n_ok")?;
-            let best = col::<StringArray>(b, &path, "best_spec")?;
+            let specs = col::<Int64Array>(b, &path, columns::draws::SPECS)?;
+            let n_ok = col::<Int64Array>(b, &path, columns::draws::N_OK)?;
+            let best = col::<StringArray>(b, &path, columns::draws::BEST_SPEC)?;
             let os = |a: &StringArray, i: usize| (!a.is_null(i)).then(|| a.value(i).to_string());
             for i in 0..b.num_rows() {
                 out.push(DrawRow {
@@ -215,14 +222,14 @@ pub fn read_tops(null_dir: &Path, draws: &[u64]) -> Result<Vec<TopRow>> {
             continue;
         }
         each_batch(&path, |b| {
-            let draw = col::<Int64Array>(b, &path, "draw")?;
-            let spec = col::<StringArray>(b, &path, "spec")?;
-            let level = col::<StringArray>(b, &path, "level")?;
-            let kind = col::<StringArray>(b, &path, "kind")?;
-            let name = col::<StringArray>(b, &path, "name")?;
-            let imp = col::<Float64Array>(b, &path, "importance")?;
-            let rank = col::<Int64Array>(b, &path, "rank")?;
-            let top = col::<BooleanArray>(b, &path, "top")?;
+            let draw = col::<Int64Array>(b, &path, columns::tops::DRAW)?;
+            let spec = col::<StringArray>(b, &path, columns::tops::SPEC)?;
+            let level = col::<StringArray>(b, &path, columns::tops::LEVEL)?;
+            let kind = col::<StringArray>(b, &path, columns::tops::KIND)?;
+            let name = col::<StringArray>(b, &path, columns::tops::NAME)?;
+            let imp = col::<Float64Array>(b, &path, columns::tops::IMPORTANCE)?;
+            let rank = col::<Int64Array>(b, &path, columns::tops::RANK)?;
+            let top = col::<BooleanArray>(b, &path, columns::tops::TOP)?;
             for i in 0..b.num_rows() {
                 out.push(TopRow {
                     draw: draw.value(i),

@@ -119,37 +119,70 @@ pub fn fmt_param(v: f64) -> String {
 /// Read the ok specs, their per-unit errors and importances.
 pub fn read(set: &RunSet) -> Result<RunTables> {
     let mut t = RunTables::default();
-    // Specs: each id once (the first directory holding it wins, as `check` counts).
-    let mut seen: HashMap<String, ()> = HashMap::new();
-    // Run directories, numbered as met: a spec's predictions and importances are read only
-    // from the directory whose spec row was kept (with `--allow-incomplete`, two runs may
-    // both hold a spec; mixing them would count its rows twice).
-    let mut dirs: Vec<PathBuf> = Vec::new();
-    let mut dir_no = |path: &Path| -> usize {
+    let mut dirs = Dirs::default();
+    let (rows, param_cols) = read_spec_rows(set, &mut dirs, &mut t.left_out)?;
+    let index: HashMap<String, usize> = rows
+        .iter()
+        .enumerate()
+        .map(|(i, r)| (r.id.clone(), i))
+        .collect();
+    let source: Vec<usize> = rows.iter().map(|r| r.dir).collect();
+    let kept_in: HashMap<String, usize> = rows.iter().map(|r| (r.id.clone(), r.dir)).collect();
+    set_specs(&mut t, rows, &param_cols);
+    read_unit_errors(set, &mut dirs, &mut t, &index, &source)?;
+    let mut t = drop_specs_without_predictions(t);
+    t.importance = read_importance(set, &mut dirs, &t.spec_ids, &kept_in)?;
+    Ok(t)
+}
+
+/// Run directories, numbered as met: a spec's predictions and importances are read only
+/// from the directory whose spec row was kept (with `--allow-incomplete`, two runs may
+/// both hold a spec; mixing them would count its rows twice).
+#[derive(Default)]
+struct Dirs(Vec<PathBuf>);
+
+impl Dirs {
+    /// The number of the run directory holding the table part `path` (RUN/TABLE/part).
+    fn number(&mut self, path: &Path) -> usize {
         let d = path
             .parent()
             .and_then(Path::parent)
             .unwrap_or(Path::new(""))
             .to_path_buf();
-        match dirs.iter().position(|x| *x == d) {
+        match self.0.iter().position(|x| *x == d) {
             Some(i) => i,
             None => {
-                dirs.push(d);
-                dirs.len() - 1
+                self.0.push(d);
+                self.0.len() - 1
             }
         }
-    };
-    struct Row {
-        id: String,
-        dir: usize,
-        options: Vec<String>,
-        params: Vec<Option<f64>>,
-        stored: Vec<f64>,
     }
-    let mut rows: Vec<Row> = Vec::new();
+}
+
+/// An ok spec's row of the specs table.
+struct SpecRow {
+    id: String,
+    dir: usize,
+    options: Vec<String>,
+    /// Values of the parameter columns (in the order of the columns met so far).
+    params: Vec<Option<f64>>,
+    /// The stored metrics, in `settings::METRICS` order.
+    stored: Vec<f64>,
+}
+
+/// The ok specs' rows, sorted by id, each id once (the first directory holding it wins,
+/// as `check` counts; failed specs are counted in `left_out`), and the parameter columns
+/// in the order met.
+fn read_spec_rows(
+    set: &RunSet,
+    dirs: &mut Dirs,
+    left_out: &mut BTreeMap<String, usize>,
+) -> Result<(Vec<SpecRow>, Vec<String>)> {
+    let mut seen: HashMap<String, ()> = HashMap::new();
+    let mut rows: Vec<SpecRow> = Vec::new();
     let mut param_cols: Vec<String> = Vec::new();
     for path in set.table_files(crate::schema::SPECS) {
-        let here = dir_no(&path);
+        let here = dirs.number(&path);
         for b in read_batches(&path)? {
             let ids = col::<StringArray>(&b, specs::SPEC_ID, &path)?;
             let status = col::<StringArray>(&b, specs::STATUS, &path)?;
@@ -157,21 +190,9 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                 .iter()
                 .map(|d| col::<StringArray>(&b, d, &path))
                 .collect::<Result<_>>()?;
-            // Parameter columns: the Float64 columns between the dimensions and `status`.
-            let schema = b.schema();
-            let names: Vec<String> = schema.fields().iter().map(|f| f.name().clone()).collect();
-            let start = names
-                .iter()
-                .position(|n| n == DIMENSIONS[DIMENSIONS.len() - 1])
-                .map(|p| p + 1)
-                .unwrap_or(0);
-            let end = names
-                .iter()
-                .position(|n| n == specs::STATUS)
-                .unwrap_or(start);
-            for n in &names[start..end.max(start)] {
-                if !param_cols.contains(n) {
-                    param_cols.push(n.clone());
+            for n in param_columns(&b) {
+                if !param_cols.contains(&n) {
+                    param_cols.push(n);
                 }
             }
             let metrics: Vec<&Float64Array> = super::settings::METRICS
@@ -184,7 +205,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                     continue;
                 }
                 if status.value(i) != crate::error::Status::Ok.name() {
-                    *t.left_out
+                    *left_out
                         .entry(format!("failed ({})", status.value(i)))
                         .or_default() += 1;
                     continue;
@@ -197,7 +218,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
                             .and_then(|c| (!c.is_null(i)).then(|| c.value(i)))
                     })
                     .collect();
-                rows.push(Row {
+                rows.push(SpecRow {
                     id,
                     dir: here,
                     options: dims.iter().map(|c| c.value(i).to_string()).collect(),
@@ -208,13 +229,27 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
         }
     }
     rows.sort_by(|a, b| a.id.cmp(&b.id));
-    let ns = rows.len();
-    let index: HashMap<String, usize> = rows
+    Ok((rows, param_cols))
+}
+
+/// Parameter columns: the Float64 columns between the dimensions and `status`.
+fn param_columns(b: &RecordBatch) -> Vec<String> {
+    let schema = b.schema();
+    let names: Vec<String> = schema.fields().iter().map(|f| f.name().clone()).collect();
+    let start = names
         .iter()
-        .enumerate()
-        .map(|(i, r)| (r.id.clone(), i))
-        .collect();
-    // Parameter column -> (option, parameter): the longest option name that prefixes it.
+        .position(|n| n == DIMENSIONS[DIMENSIONS.len() - 1])
+        .map(|p| p + 1)
+        .unwrap_or(0);
+    let end = names
+        .iter()
+        .position(|n| n == specs::STATUS)
+        .unwrap_or(start);
+    names[start..end.max(start)].to_vec()
+}
+
+/// Parameter column -> (option, parameter): the longest option name that prefixes it.
+fn param_owners(rows: &[SpecRow], param_cols: &[String]) -> Vec<Option<(String, String)>> {
     let all_options: Vec<&str> = {
         let mut v: Vec<&str> = rows
             .iter()
@@ -224,14 +259,44 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
         v.dedup();
         v
     };
-    let mut param_of: Vec<Option<(String, String)>> = Vec::new();
-    for c in &param_cols {
-        let best = all_options
+    param_cols
+        .iter()
+        .map(|c| {
+            let best = all_options
+                .iter()
+                .filter(|o| {
+                    c.len() > o.len() + 1 && c.starts_with(*o) && c.as_bytes()[o.len()] == b'_'
+                })
+                .max_by_key(|o| o.len());
+            best.map(|o| (o.to_string(), c[o.len() + 1..].to_string()))
+        })
+        .collect()
+}
+
+/// A spec's choices with their parameters, e.g. `ridge(alpha=1)`, one per dimension.
+fn choice_labels(r: &SpecRow, param_of: &[Option<(String, String)>]) -> Vec<String> {
+    let mut ch = Vec::with_capacity(DIMENSIONS.len());
+    for o in &r.options {
+        let ps: Vec<String> = param_of
             .iter()
-            .filter(|o| c.len() > o.len() + 1 && c.starts_with(*o) && c.as_bytes()[o.len()] == b'_')
-            .max_by_key(|o| o.len());
-        param_of.push(best.map(|o| (o.to_string(), c[o.len() + 1..].to_string())));
+            .enumerate()
+            .filter_map(|(k, p)| match (p, r.params.get(k).copied().flatten()) {
+                (Some((po, pn)), Some(v)) if po == o => Some(format!("{pn}={}", fmt_param(v))),
+                _ => None,
+            })
+            .collect();
+        ch.push(if ps.is_empty() {
+            o.clone()
+        } else {
+            format!("{o}({})", ps.join(","))
+        });
     }
+    ch
+}
+
+/// The specs' ids, options, choices, parameters and stored metrics into `t`.
+fn set_specs(t: &mut RunTables, rows: Vec<SpecRow>, param_cols: &[String]) {
+    let param_of = param_owners(&rows, param_cols);
     for (k, p) in param_of.iter().enumerate() {
         if let Some((o, name)) = p {
             let vals = rows
@@ -242,41 +307,33 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
         }
     }
     for r in &rows {
-        let mut ch = Vec::with_capacity(DIMENSIONS.len());
-        for o in &r.options {
-            let ps: Vec<String> = param_of
-                .iter()
-                .enumerate()
-                .filter_map(|(k, p)| match (p, r.params.get(k).copied().flatten()) {
-                    (Some((po, pn)), Some(v)) if po == o => Some(format!("{pn}={}", fmt_param(v))),
-                    _ => None,
-                })
-                .collect();
-            ch.push(if ps.is_empty() {
-                o.clone()
-            } else {
-                format!("{o}({})", ps.join(","))
-            });
-        }
-        t.choices.push(ch);
+        t.choices.push(choice_labels(r, &param_of));
     }
     for (m, name) in super::settings::METRICS.iter().enumerate() {
         t.stored
             .insert(name.to_string(), rows.iter().map(|r| r.stored[m]).collect());
     }
     t.options = rows.iter().map(|r| r.options.clone()).collect();
-    let source: Vec<usize> = rows.iter().map(|r| r.dir).collect();
-    let kept_in: HashMap<String, usize> = rows.iter().map(|r| (r.id.clone(), r.dir)).collect();
     t.spec_ids = rows.into_iter().map(|r| r.id).collect();
+}
 
-    // Predictions -> per-unit sums.
+/// Predictions -> per-unit sums of absolute and squared errors and counts (spec-major),
+/// the units in first-seen order and the number of panel rows (unit, wave) predicted.
+/// `index` maps a spec id to its row; `source[s]` is the directory its row was kept from.
+fn read_unit_errors(
+    set: &RunSet,
+    dirs: &mut Dirs,
+    t: &mut RunTables,
+    index: &HashMap<String, usize>,
+    source: &[usize],
+) -> Result<()> {
     let mut unit_index: HashMap<String, usize> = HashMap::new();
     let mut acc: HashMap<(usize, usize), (f64, f64, f64)> = HashMap::new();
     // The panel's rows (unit, wave) that have predictions, each counted once.
     let mut wave_index: HashMap<String, usize> = HashMap::new();
     let mut panel_rows: std::collections::HashSet<(usize, usize)> = Default::default();
     for path in set.table_files(crate::schema::PREDICTIONS) {
-        let here = dir_no(&path);
+        let here = dirs.number(&path);
         for b in read_batches(&path)? {
             let ids = col::<StringArray>(&b, predictions::SPEC_ID, &path)?;
             let unit = col::<StringArray>(&b, predictions::UNIT, &path)?;
@@ -320,7 +377,7 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
         }
     }
     t.rows = panel_rows.len();
-    let nu = t.units.len();
+    let (ns, nu) = (source.len(), t.units.len());
     t.unit_abs = vec![0.0; ns * nu];
     t.unit_sq = vec![0.0; ns * nu];
     t.unit_n = vec![0.0; ns * nu];
@@ -329,27 +386,43 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
         t.unit_sq[s * nu + u] = q;
         t.unit_n[s * nu + u] = n;
     }
-    // A spec whose predictions are missing (a part lost) cannot be resampled: left out.
+    Ok(())
+}
+
+/// A spec whose predictions are missing (a part lost) cannot be resampled: left out.
+fn drop_specs_without_predictions(t: RunTables) -> RunTables {
+    let (ns, nu) = (t.n_specs(), t.n_units());
     let keep: Vec<bool> = (0..ns)
         .map(|s| t.unit_n[s * nu..(s + 1) * nu].iter().any(|&n| n > 0.0))
         .collect();
-    if keep.iter().any(|k| !k) {
-        let n_drop = keep.iter().filter(|k| !**k).count();
-        t.left_out.insert("no predictions found".into(), n_drop);
-        t = t.retain(&keep);
+    if !keep.iter().any(|k| !k) {
+        return t;
     }
+    let n_drop = keep.iter().filter(|k| !**k).count();
+    let mut t = t;
+    t.left_out.insert("no predictions found".into(), n_drop);
+    t.retain(&keep)
+}
 
-    // Importance: dense per (level, kind).
-    let index: HashMap<&str, usize> = t
-        .spec_ids
+/// An importance row: (spec index, name, importance, rank, in pool).
+type Cell = (usize, String, f64, u32, bool);
+
+/// Importance: dense per (level, kind), over the specs of `spec_ids`, each read from the
+/// directory its spec row was kept from (`kept_in`).
+fn read_importance(
+    set: &RunSet,
+    dirs: &mut Dirs,
+    spec_ids: &[String],
+    kept_in: &HashMap<String, usize>,
+) -> Result<Vec<KindTable>> {
+    let index: HashMap<&str, usize> = spec_ids
         .iter()
         .enumerate()
         .map(|(i, s)| (s.as_str(), i))
         .collect();
-    type Cell = (usize, String, f64, u32, bool);
     let mut by_kind: BTreeMap<(String, String), Vec<Cell>> = BTreeMap::new();
     for path in set.table_files(crate::schema::IMPORTANCE) {
-        let here = dir_no(&path);
+        let here = dirs.number(&path);
         for b in read_batches(&path)? {
             let ids = col::<StringArray>(&b, importance::SPEC_ID, &path)?;
             let name = col::<StringArray>(&b, importance::INDICATOR, &path)?;
@@ -378,48 +451,52 @@ pub fn read(set: &RunSet) -> Result<RunTables> {
             }
         }
     }
-    for ((level, kind), cells) in by_kind {
-        let mut names: Vec<String> = cells.iter().map(|c| c.1.clone()).collect();
-        names.sort();
-        names.dedup();
-        let mut specs: Vec<usize> = cells.iter().map(|c| c.0).collect();
-        specs.sort_unstable();
-        specs.dedup();
-        let m = names.len();
-        let row_of: HashMap<usize, usize> =
-            specs.iter().enumerate().map(|(i, &s)| (s, i)).collect();
-        let name_of: HashMap<&str, usize> = names
-            .iter()
-            .enumerate()
-            .map(|(j, n)| (n.as_str(), j))
-            .collect();
-        let mut values = vec![f64::NAN; specs.len() * m];
-        let mut ranks = vec![u32::MAX; specs.len() * m];
-        let mut pooled = vec![false; specs.len() * m];
-        for (s, n, v, r, p) in &cells {
-            let (i, j) = (row_of[s], name_of[n.as_str()]);
-            values[i * m + j] = *v;
-            ranks[i * m + j] = *r;
-            pooled[i * m + j] = *p;
-        }
-        // A spec lacking a name (should not happen: every spec lists every name) is
-        // ranked last for it.
-        for r in ranks.iter_mut() {
-            if *r == u32::MAX {
-                *r = m as u32;
-            }
-        }
-        t.importance.push(KindTable {
-            level,
-            kind,
-            names,
-            specs,
-            values,
-            ranks,
-            in_pool: pooled,
-        });
+    Ok(by_kind
+        .into_iter()
+        .map(|((level, kind), cells)| dense_kind(level, kind, &cells))
+        .collect())
+}
+
+/// One (level, kind)'s cells as a dense matrix over the specs holding it.
+fn dense_kind(level: String, kind: String, cells: &[Cell]) -> KindTable {
+    let mut names: Vec<String> = cells.iter().map(|c| c.1.clone()).collect();
+    names.sort();
+    names.dedup();
+    let mut specs: Vec<usize> = cells.iter().map(|c| c.0).collect();
+    specs.sort_unstable();
+    specs.dedup();
+    let m = names.len();
+    let row_of: HashMap<usize, usize> = specs.iter().enumerate().map(|(i, &s)| (s, i)).collect();
+    let name_of: HashMap<&str, usize> = names
+        .iter()
+        .enumerate()
+        .map(|(j, n)| (n.as_str(), j))
+        .collect();
+    let mut values = vec![f64::NAN; specs.len() * m];
+    let mut ranks = vec![u32::MAX; specs.len() * m];
+    let mut pooled = vec![false; specs.len() * m];
+    for (s, n, v, r, p) in cells {
+        let (i, j) = (row_of[s], name_of[n.as_str()]);
+        values[i * m + j] = *v;
+        ranks[i * m + j] = *r;
+        pooled[i * m + j] = *p;
     }
-    Ok(t)
+    // A spec lacking a name (should not happen: every spec lists every name) is
+    // ranked last for it.
+    for r in ranks.iter_mut() {
+        if *r == u32::MAX {
+            *r = m as u32;
+        }
+    }
+    KindTable {
+        level,
+        kind,
+        names,
+        specs,
+        values,
+        ranks,
+        in_pool: pooled,
+    }
 }
 
 impl RunTables {

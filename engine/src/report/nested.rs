@@ -14,6 +14,7 @@ use super::model::Report;
 use crate::error::Result;
 use crate::nested::table::{read_folds, FoldRow, NESTED_DIR};
 use crate::results::RunSet;
+use crate::schema::report as columns;
 use crate::sink::Cols;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -260,43 +261,76 @@ pub fn write_tables(n: &NestedReport, dir: &Path) -> Result<Vec<PathBuf>> {
     let mut out = Vec::new();
     out.push(
         Cols::default()
-            .s("metric", [&n.metric])
-            .of("naive_error", [n.naive_error])
-            .of("naive_all_error", [n.naive_all_error])
-            .of("fold_se", [n.fold_se])
+            .s(columns::nested_summary::METRIC, [&n.metric])
+            .of(columns::nested_summary::NAIVE_ERROR, [n.naive_error])
+            .of(
+                columns::nested_summary::NAIVE_ALL_ERROR,
+                [n.naive_all_error],
+            )
+            .of(columns::nested_summary::FOLD_SE, [n.fold_se])
             .os(
-                "naive_spec_id",
+                columns::nested_summary::NAIVE_SPEC_ID,
                 [(!n.naive_spec.is_empty()).then(|| n.naive_spec.clone())],
             )
-            .of("nested_error", [n.nested_error])
-            .of("baseline_error", [n.baseline_error])
-            .of("optimism", [n.optimism])
-            .i("outer_folds", [n.outer_folds as i64])
-            .i("folds_failed", [n.folds_failed as i64])
-            .i("specs_swept", [n.specs_swept as i64])
-            .i("specs_total", [n.specs_total as i64])
+            .of(columns::nested_summary::NESTED_ERROR, [n.nested_error])
+            .of(columns::nested_summary::BASELINE_ERROR, [n.baseline_error])
+            .of(columns::nested_summary::OPTIMISM, [n.optimism])
+            .i(columns::nested_summary::OUTER_FOLDS, [n.outer_folds as i64])
+            .i(
+                columns::nested_summary::FOLDS_FAILED,
+                [n.folds_failed as i64],
+            )
+            .i(columns::nested_summary::SPECS_SWEPT, [n.specs_swept as i64])
+            .i(columns::nested_summary::SPECS_TOTAL, [n.specs_total as i64])
             .write(dir, "nested_summary")?,
     );
     let c = &n.chosen;
     out.push(
         Cols::default()
-            .s("dimension", c.iter().map(|x| &x.dimension))
-            .s("choice", c.iter().map(|x| &x.choice))
-            .i("folds", c.iter().map(|x| x.folds as i64))
-            .f("share", c.iter().map(|x| x.share))
+            .s(
+                columns::nested_choices::DIMENSION,
+                c.iter().map(|x| &x.dimension),
+            )
+            .s(columns::nested_choices::CHOICE, c.iter().map(|x| &x.choice))
+            .i(
+                columns::nested_choices::FOLDS,
+                c.iter().map(|x| x.folds as i64),
+            )
+            .f(columns::nested_choices::SHARE, c.iter().map(|x| x.share))
             .write(dir, "nested_choices")?,
     );
     let f = &n.folds;
     out.push(
         Cols::default()
-            .i("outer_fold", f.iter().map(|x| x.fold as i64))
-            .os("spec_id", f.iter().map(|x| x.spec_id.clone()))
-            .of("inner_error", f.iter().map(|x| x.inner_error))
-            .of("outer_error", f.iter().map(|x| x.outer_error))
-            .of("baseline_error", f.iter().map(|x| x.baseline_error))
-            .i("n_rows", f.iter().map(|x| x.n_rows as i64))
-            .i("n_ok", f.iter().map(|x| x.n_ok as i64))
-            .i("n_specs", f.iter().map(|x| x.n_specs as i64))
+            .i(
+                columns::nested_folds::OUTER_FOLD,
+                f.iter().map(|x| x.fold as i64),
+            )
+            .os(
+                columns::nested_folds::SPEC_ID,
+                f.iter().map(|x| x.spec_id.clone()),
+            )
+            .of(
+                columns::nested_folds::INNER_ERROR,
+                f.iter().map(|x| x.inner_error),
+            )
+            .of(
+                columns::nested_folds::OUTER_ERROR,
+                f.iter().map(|x| x.outer_error),
+            )
+            .of(
+                columns::nested_folds::BASELINE_ERROR,
+                f.iter().map(|x| x.baseline_error),
+            )
+            .i(
+                columns::nested_folds::N_ROWS,
+                f.iter().map(|x| x.n_rows as i64),
+            )
+            .i(columns::nested_folds::N_OK, f.iter().map(|x| x.n_ok as i64))
+            .i(
+                columns::nested_folds::N_SPECS,
+                f.iter().map(|x| x.n_specs as i64),
+            )
             .write(dir, "nested_folds")?,
     );
     Ok(out)

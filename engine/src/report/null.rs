@@ -22,6 +22,7 @@ use super::data::RunTables;
 use crate::error::Result;
 use crate::null::table::{read_draws, read_tops, NULL_DIR};
 use crate::results::RunSet;
+use crate::schema::report as columns;
 use crate::sink::Cols;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -310,38 +311,74 @@ pub fn write_tables(n: &NullReport, dir: &Path) -> Result<Vec<PathBuf>> {
         ("median", n.observed_median, &n.null_median, n.p_median),
     ];
     let s = Cols::default()
-        .s("statistic", stats.iter().map(|s| s.0))
-        .s("metric", stats.iter().map(|_| n.metric.as_str()))
-        .f("observed", stats.iter().map(|s| s.1))
-        .f("null_q05", stats.iter().map(|s| q(s.2, 0.05)))
-        .f("null_median", stats.iter().map(|s| q(s.2, 0.5)))
-        .f("null_q95", stats.iter().map(|s| q(s.2, 0.95)))
+        .s(columns::null_summary::STATISTIC, stats.iter().map(|s| s.0))
+        .s(
+            columns::null_summary::METRIC,
+            stats.iter().map(|_| n.metric.as_str()),
+        )
+        .f(columns::null_summary::OBSERVED, stats.iter().map(|s| s.1))
+        .f(
+            columns::null_summary::NULL_Q05,
+            stats.iter().map(|s| q(s.2, 0.05)),
+        )
+        .f(
+            columns::null_summary::NULL_MEDIAN,
+            stats.iter().map(|s| q(s.2, 0.5)),
+        )
+        .f(
+            columns::null_summary::NULL_Q95,
+            stats.iter().map(|s| q(s.2, 0.95)),
+        )
         .i(
-            "draws_as_good",
+            columns::null_summary::DRAWS_AS_GOOD,
             stats
                 .iter()
                 .map(|s| s.2.iter().filter(|v| !v.is_finite() || **v <= s.1).count() as i64),
         )
-        .i("draws", stats.iter().map(|_| n.draws as i64))
-        .i("specs", stats.iter().map(|_| n.specs as i64))
-        .f("p", stats.iter().map(|s| s.3))
+        .i(
+            columns::null_summary::DRAWS,
+            stats.iter().map(|_| n.draws as i64),
+        )
+        .i(
+            columns::null_summary::SPECS,
+            stats.iter().map(|_| n.specs as i64),
+        )
+        .f(columns::null_summary::P, stats.iter().map(|s| s.3))
         .write(dir, "null_summary")?;
     let ind = &n.indicators;
     let i = Cols::default()
-        .s("level", ind.iter().map(|r| r.level.as_str()))
-        .s("name", ind.iter().map(|r| r.name.as_str()))
         .s(
-            "kind",
+            columns::null_indicators::LEVEL,
+            ind.iter().map(|r| r.level.as_str()),
+        )
+        .s(
+            columns::null_indicators::NAME,
+            ind.iter().map(|r| r.name.as_str()),
+        )
+        .s(
+            columns::null_indicators::KIND,
             ind.iter().map(|_| n.top_kind.as_deref().unwrap_or("")),
         )
         .i(
-            "observed_rank",
+            columns::null_indicators::OBSERVED_RANK,
             ind.iter().map(|r| r.observed_rank.map_or(-1, i64::from)),
         )
-        .b("observed_top", ind.iter().map(|r| r.observed_top))
-        .f("chance_top", ind.iter().map(|r| r.chance_top))
-        .i("draws", ind.iter().map(|_| n.draws as i64))
-        .i("top_k", ind.iter().map(|_| n.top_k as i64))
+        .b(
+            columns::null_indicators::OBSERVED_TOP,
+            ind.iter().map(|r| r.observed_top),
+        )
+        .f(
+            columns::null_indicators::CHANCE_TOP,
+            ind.iter().map(|r| r.chance_top),
+        )
+        .i(
+            columns::null_indicators::DRAWS,
+            ind.iter().map(|_| n.draws as i64),
+        )
+        .i(
+            columns::null_indicators::TOP_K,
+            ind.iter().map(|_| n.top_k as i64),
+        )
         .write(dir, "null_indicators")?;
     Ok(vec![s, i])
 }

@@ -6,6 +6,7 @@
 use super::data::{col, read_batches};
 use crate::error::{Error, Result};
 use crate::results::RunSet;
+use crate::schema::curves as columns;
 use arrow_array::{Array, BooleanArray, Float64Array, Int64Array, StringArray};
 use std::collections::BTreeMap;
 use std::path::Path;
@@ -178,12 +179,12 @@ fn batches(dir: &Path, name: &str) -> Result<(std::path::PathBuf, Vec<arrow_arra
 fn read_bands(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<()> {
     let (p, bs) = batches(dir, "bands")?;
     for b in &bs {
-        let ind = col::<StringArray>(b, "indicator", &p)?;
-        let g = col::<Float64Array>(b, "grid_value", &p)?;
+        let ind = col::<StringArray>(b, columns::bands::INDICATOR, &p)?;
+        let g = col::<Float64Array>(b, columns::bands::GRID_VALUE, &p)?;
         let (me, lo, hi) = (
-            col::<Float64Array>(b, "pd_median", &p)?,
-            col::<Float64Array>(b, "pd_lo", &p)?,
-            col::<Float64Array>(b, "pd_hi", &p)?,
+            col::<Float64Array>(b, columns::bands::PD_MEDIAN, &p)?,
+            col::<Float64Array>(b, columns::bands::PD_LO, &p)?,
+            col::<Float64Array>(b, columns::bands::PD_HI, &p)?,
         );
         for r in 0..b.num_rows() {
             if let Some(s) = by.get_mut(ind.value(r)) {
@@ -200,12 +201,17 @@ fn read_bands(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<(
 fn read_signs(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<()> {
     let (p, bs) = batches(dir, "signs")?;
     for b in &bs {
-        let ind = col::<StringArray>(b, "indicator", &p)?;
-        let n = col::<Int64Array>(b, "members", &p)?;
-        let nh = col::<Int64Array>(b, "holding", &p)?;
-        let nd = col::<Int64Array>(b, "distinct", &p)?;
+        let ind = col::<StringArray>(b, columns::signs::INDICATOR, &p)?;
+        let n = col::<Int64Array>(b, columns::signs::MEMBERS, &p)?;
+        let nh = col::<Int64Array>(b, columns::signs::HOLDING, &p)?;
+        let nd = col::<Int64Array>(b, columns::signs::DISTINCT, &p)?;
         let f = |c: &str| col::<Float64Array>(b, c, &p);
-        let (ri, fa, fl, tu) = (f("rises")?, f("falls")?, f("flat")?, f("turns")?);
+        let (ri, fa, fl, tu) = (
+            f(columns::signs::RISES)?,
+            f(columns::signs::FALLS)?,
+            f(columns::signs::FLAT)?,
+            f(columns::signs::TURNS)?,
+        );
         for r in 0..b.num_rows() {
             if let Some(s) = by.get_mut(ind.value(r)) {
                 s.members = n.value(r).max(0) as usize;
@@ -222,9 +228,9 @@ fn read_signs(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<(
 fn read_pd(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<()> {
     let (p, bs) = batches(dir, "pd")?;
     for b in &bs {
-        let id = col::<StringArray>(b, "spec_id", &p)?;
-        let ind = col::<StringArray>(b, "indicator", &p)?;
-        let v = col::<Float64Array>(b, "pd", &p)?;
+        let id = col::<StringArray>(b, columns::pd::SPEC_ID, &p)?;
+        let ind = col::<StringArray>(b, columns::pd::INDICATOR, &p)?;
+        let v = col::<Float64Array>(b, columns::pd::PD, &p)?;
         for r in 0..b.num_rows() {
             if id.value(r) == best {
                 if let Some(s) = by.get_mut(ind.value(r)) {
@@ -244,22 +250,22 @@ fn read_breakpoints(
     let (p, bs) = batches(dir, "breakpoints")?;
     let mut all: BTreeMap<String, Vec<f64>> = BTreeMap::new();
     for b in &bs {
-        let id = col::<StringArray>(b, "spec_id", &p)?;
-        let ind = col::<StringArray>(b, "indicator", &p)?;
-        let dirn = col::<StringArray>(b, "direction", &p)?;
-        let shape = col::<StringArray>(b, "shape", &p)?;
-        let same = col::<StringArray>(b, "same_as", &p)?;
+        let id = col::<StringArray>(b, columns::breakpoints::SPEC_ID, &p)?;
+        let ind = col::<StringArray>(b, columns::breakpoints::INDICATOR, &p)?;
+        let dirn = col::<StringArray>(b, columns::breakpoints::DIRECTION, &p)?;
+        let shape = col::<StringArray>(b, columns::breakpoints::SHAPE, &p)?;
+        let same = col::<StringArray>(b, columns::breakpoints::SAME_AS, &p)?;
         let f = |c: &str| col::<Float64Array>(b, c, &p);
         let (bp, jump, lo, hi, kept, sl, sr) = (
-            f("breakpoint")?,
-            f("jump")?,
-            f("composition_lo")?,
-            f("composition_hi")?,
-            f("composition_kept")?,
-            f("slope_left")?,
-            f("slope_right")?,
+            f(columns::breakpoints::BREAKPOINT)?,
+            f(columns::breakpoints::JUMP)?,
+            f(columns::breakpoints::COMPOSITION_LO)?,
+            f(columns::breakpoints::COMPOSITION_HI)?,
+            f(columns::breakpoints::COMPOSITION_KEPT)?,
+            f(columns::breakpoints::SLOPE_LEFT)?,
+            f(columns::breakpoints::SLOPE_RIGHT)?,
         );
-        let draws = col::<Int64Array>(b, "composition_draws", &p)?;
+        let draws = col::<Int64Array>(b, columns::breakpoints::COMPOSITION_DRAWS, &p)?;
         for r in 0..b.num_rows() {
             let Some(s) = by.get_mut(ind.value(r)) else {
                 continue;
@@ -298,22 +304,22 @@ fn read_breakpoints(
 fn read_clusters(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<()> {
     let (p, bs) = batches(dir, "clusters")?;
     for b in &bs {
-        let id = col::<StringArray>(b, "spec_id", &p)?;
-        let ind = col::<StringArray>(b, "indicator", &p)?;
-        let unit = col::<StringArray>(b, "unit", &p)?;
-        let cl = col::<Int64Array>(b, "cluster", &p)?;
-        let k = col::<Int64Array>(b, "k", &p)?;
+        let id = col::<StringArray>(b, columns::clusters::SPEC_ID, &p)?;
+        let ind = col::<StringArray>(b, columns::clusters::INDICATOR, &p)?;
+        let unit = col::<StringArray>(b, columns::clusters::UNIT, &p)?;
+        let cl = col::<Int64Array>(b, columns::clusters::CLUSTER, &p)?;
+        let k = col::<Int64Array>(b, columns::clusters::K, &p)?;
         let f = |c: &str| col::<Float64Array>(b, c, &p);
         let (sil, cbp, csl, csr, dist, bound) = (
-            f("silhouette")?,
-            f("cluster_breakpoint")?,
-            f("cluster_slope_left")?,
-            f("cluster_slope_right")?,
-            f("distance")?,
-            f("bound")?,
+            f(columns::clusters::SILHOUETTE)?,
+            f(columns::clusters::CLUSTER_BREAKPOINT)?,
+            f(columns::clusters::CLUSTER_SLOPE_LEFT)?,
+            f(columns::clusters::CLUSTER_SLOPE_RIGHT)?,
+            f(columns::clusters::DISTANCE)?,
+            f(columns::clusters::BOUND)?,
         );
-        let dep = col::<BooleanArray>(b, "departs", &p)?;
-        let cshape = col::<StringArray>(b, "cluster_shape", &p)?;
+        let dep = col::<BooleanArray>(b, columns::clusters::DEPARTS, &p)?;
+        let cshape = col::<StringArray>(b, columns::clusters::CLUSTER_SHAPE, &p)?;
         for r in 0..b.num_rows() {
             if id.value(r) != best {
                 continue;
@@ -347,8 +353,8 @@ fn read_clusters(dir: &Path, best: &str, by: &mut BTreeMap<String, ShapeIndicato
 fn read_observed(dir: &Path, by: &mut BTreeMap<String, ShapeIndicator>) -> Result<()> {
     let (p, bs) = batches(dir, "observed")?;
     for b in &bs {
-        let ind = col::<StringArray>(b, "indicator", &p)?;
-        let v = col::<Float64Array>(b, "value", &p)?;
+        let ind = col::<StringArray>(b, columns::observed::INDICATOR, &p)?;
+        let v = col::<Float64Array>(b, columns::observed::VALUE, &p)?;
         for r in 0..b.num_rows() {
             if let Some(s) = by.get_mut(ind.value(r)) {
                 if v.value(r).is_finite() {

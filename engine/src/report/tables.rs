@@ -4,6 +4,7 @@
 use super::model::{Spread, GOOD_DEFINITIONS};
 use super::Built;
 use crate::error::Result;
+use crate::schema::report as columns;
 use crate::sink::Cols;
 use std::path::{Path, PathBuf};
 
@@ -54,11 +55,14 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
     // curve: one row per ok spec, best first; a column per varying dimension.
     let c = &r.curve;
     let mut t = Cols::default()
-        .s("spec_id", c.iter().map(|p| &p.spec_id))
-        .i("position", c.iter().map(|p| p.position as i64))
-        .f("error", c.iter().map(|p| p.error))
-        .f("lower", c.iter().map(|p| p.lower))
-        .f("upper", c.iter().map(|p| p.upper));
+        .s(columns::curve::SPEC_ID, c.iter().map(|p| &p.spec_id))
+        .i(
+            columns::curve::POSITION,
+            c.iter().map(|p| p.position as i64),
+        )
+        .f(columns::curve::ERROR, c.iter().map(|p| p.error))
+        .f(columns::curve::LOWER, c.iter().map(|p| p.lower))
+        .f(columns::curve::UPPER, c.iter().map(|p| p.upper));
     for (g, def) in GOOD_DEFINITIONS.iter().enumerate() {
         t = t.b(&format!("good_{def}"), c.iter().map(|p| p.good[g]));
     }
@@ -73,100 +77,187 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
     let v = &r.error_by_choice;
     out.push(
         Cols::default()
-            .s("dimension", v.iter().map(|x| &x.dimension))
-            .s("choice", v.iter().map(|x| &x.choice))
-            .spread("error", v.iter().map(|x| &x.error))
+            .s(
+                columns::error_by_choice::DIMENSION,
+                v.iter().map(|x| &x.dimension),
+            )
+            .s(
+                columns::error_by_choice::CHOICE,
+                v.iter().map(|x| &x.choice),
+            )
+            .spread(
+                columns::error_by_choice::ERROR_SPREAD,
+                v.iter().map(|x| &x.error),
+            )
             .write(dir, "error_by_choice")?,
     );
     let v = &r.error_by_param;
     out.push(
         Cols::default()
-            .s("option", v.iter().map(|x| &x.option))
-            .s("param", v.iter().map(|x| &x.param))
-            .f("value", v.iter().map(|x| x.value))
-            .spread("error", v.iter().map(|x| &x.error))
+            .s(columns::error_by_param::OPTION, v.iter().map(|x| &x.option))
+            .s(columns::error_by_param::PARAM, v.iter().map(|x| &x.param))
+            .f(columns::error_by_param::VALUE, v.iter().map(|x| x.value))
+            .spread(
+                columns::error_by_param::ERROR_SPREAD,
+                v.iter().map(|x| &x.error),
+            )
             .write(dir, "error_by_param")?,
     );
     let v = &r.error_shares;
     out.push(
         Cols::default()
-            .s("dimension", v.iter().map(|x| &x.dimension))
-            .f("lmg", v.iter().map(|x| x.lmg))
-            .f("share", v.iter().map(|x| x.share))
-            .f("r2_alone", v.iter().map(|x| x.r2_alone))
-            .f("r2_total", v.iter().map(|x| x.r2_total))
+            .s(
+                columns::error_shares::DIMENSION,
+                v.iter().map(|x| &x.dimension),
+            )
+            .f(columns::error_shares::LMG, v.iter().map(|x| x.lmg))
+            .f(columns::error_shares::SHARE, v.iter().map(|x| x.share))
+            .f(
+                columns::error_shares::R2_ALONE,
+                v.iter().map(|x| x.r2_alone),
+            )
+            .f(
+                columns::error_shares::R2_TOTAL,
+                v.iter().map(|x| x.r2_total),
+            )
             .write(dir, "error_shares")?,
     );
     let v = &r.rank_by_choice;
     out.push(
         Cols::default()
-            .s("level", v.iter().map(|x| &x.level))
-            .s("kind", v.iter().map(|x| &x.kind))
-            .s("name", v.iter().map(|x| &x.name))
-            .s("dimension", v.iter().map(|x| &x.dimension))
-            .s("choice", v.iter().map(|x| &x.choice))
-            .i("n", v.iter().map(|x| x.n as i64))
-            .f("median_rank", v.iter().map(|x| x.median_rank))
-            .f("share_top_k", v.iter().map(|x| x.share_top_k))
+            .s(columns::rank_by_choice::LEVEL, v.iter().map(|x| &x.level))
+            .s(columns::rank_by_choice::KIND, v.iter().map(|x| &x.kind))
+            .s(columns::rank_by_choice::NAME, v.iter().map(|x| &x.name))
+            .s(
+                columns::rank_by_choice::DIMENSION,
+                v.iter().map(|x| &x.dimension),
+            )
+            .s(columns::rank_by_choice::CHOICE, v.iter().map(|x| &x.choice))
+            .i(columns::rank_by_choice::N, v.iter().map(|x| x.n as i64))
+            .f(
+                columns::rank_by_choice::MEDIAN_RANK,
+                v.iter().map(|x| x.median_rank),
+            )
+            .f(
+                columns::rank_by_choice::SHARE_TOP_K,
+                v.iter().map(|x| x.share_top_k),
+            )
             .write(dir, "rank_by_choice")?,
     );
     let v = &r.rank_shares;
     out.push(
         Cols::default()
-            .s("level", v.iter().map(|x| &x.level))
-            .s("kind", v.iter().map(|x| &x.kind))
-            .s("name", v.iter().map(|x| &x.name))
-            .s("dimension", v.iter().map(|x| &x.dimension))
-            .f("lmg", v.iter().map(|x| x.lmg))
-            .f("share", v.iter().map(|x| x.share))
-            .f("r2_total", v.iter().map(|x| x.r2_total))
+            .s(columns::rank_shares::LEVEL, v.iter().map(|x| &x.level))
+            .s(columns::rank_shares::KIND, v.iter().map(|x| &x.kind))
+            .s(columns::rank_shares::NAME, v.iter().map(|x| &x.name))
+            .s(
+                columns::rank_shares::DIMENSION,
+                v.iter().map(|x| &x.dimension),
+            )
+            .f(columns::rank_shares::LMG, v.iter().map(|x| x.lmg))
+            .f(columns::rank_shares::SHARE, v.iter().map(|x| x.share))
+            .f(columns::rank_shares::R2_TOTAL, v.iter().map(|x| x.r2_total))
             .write(dir, "rank_shares")?,
     );
     let v = &r.good_sets;
     out.push(
         Cols::default()
-            .s("definition", v.iter().map(|x| &x.definition))
-            .s("rule", v.iter().map(|x| &x.rule))
-            .f("threshold", v.iter().map(|x| x.threshold))
-            .i("size", v.iter().map(|x| x.size as i64))
-            .i("distinct_fits", v.iter().map(|x| x.distinct_fits as i64))
-            .f("share_of_ok", v.iter().map(|x| x.share_of_ok))
+            .s(
+                columns::good_sets::DEFINITION,
+                v.iter().map(|x| &x.definition),
+            )
+            .s(columns::good_sets::RULE, v.iter().map(|x| &x.rule))
+            .f(columns::good_sets::THRESHOLD, v.iter().map(|x| x.threshold))
+            .i(columns::good_sets::SIZE, v.iter().map(|x| x.size as i64))
+            .i(
+                columns::good_sets::DISTINCT_FITS,
+                v.iter().map(|x| x.distinct_fits as i64),
+            )
+            .f(
+                columns::good_sets::SHARE_OF_OK,
+                v.iter().map(|x| x.share_of_ok),
+            )
             .write(dir, "good_sets")?,
     );
     let v = &r.good_makeup;
     out.push(
         Cols::default()
-            .s("definition", v.iter().map(|x| &x.definition))
-            .s("dimension", v.iter().map(|x| &x.dimension))
-            .s("choice", v.iter().map(|x| &x.choice))
-            .i("in_good", v.iter().map(|x| x.in_good as i64))
-            .i("in_ok", v.iter().map(|x| x.in_ok as i64))
-            .f("share_of_good", v.iter().map(|x| x.share_of_good))
+            .s(
+                columns::good_makeup::DEFINITION,
+                v.iter().map(|x| &x.definition),
+            )
+            .s(
+                columns::good_makeup::DIMENSION,
+                v.iter().map(|x| &x.dimension),
+            )
+            .s(columns::good_makeup::CHOICE, v.iter().map(|x| &x.choice))
+            .i(
+                columns::good_makeup::IN_GOOD,
+                v.iter().map(|x| x.in_good as i64),
+            )
+            .i(
+                columns::good_makeup::IN_OK,
+                v.iter().map(|x| x.in_ok as i64),
+            )
+            .f(
+                columns::good_makeup::SHARE_OF_GOOD,
+                v.iter().map(|x| x.share_of_good),
+            )
             .write(dir, "good_makeup")?,
     );
     let v = &r.importance;
     out.push(
         Cols::default()
-            .s("level", v.iter().map(|x| &x.level))
-            .s("kind", v.iter().map(|x| &x.kind))
-            .s("name", v.iter().map(|x| &x.name))
-            .spread("importance", v.iter().map(|x| &x.importance))
-            .i("out_of_pool", v.iter().map(|x| x.out_of_pool as i64))
-            .f("median_rank", v.iter().map(|x| x.median_rank))
-            .i("best_rank", v.iter().map(|x| i64::from(x.best_rank)))
-            .i("worst_rank", v.iter().map(|x| i64::from(x.worst_rank)))
-            .f("share_top_k", v.iter().map(|x| x.share_top_k))
-            .f("share_top_k_all", v.iter().map(|x| x.share_top_k_all))
+            .s(
+                columns::importance_spread::LEVEL,
+                v.iter().map(|x| &x.level),
+            )
+            .s(columns::importance_spread::KIND, v.iter().map(|x| &x.kind))
+            .s(columns::importance_spread::NAME, v.iter().map(|x| &x.name))
+            .spread(
+                columns::importance_spread::IMPORTANCE_SPREAD,
+                v.iter().map(|x| &x.importance),
+            )
+            .i(
+                columns::importance_spread::OUT_OF_POOL,
+                v.iter().map(|x| x.out_of_pool as i64),
+            )
+            .f(
+                columns::importance_spread::MEDIAN_RANK,
+                v.iter().map(|x| x.median_rank),
+            )
+            .i(
+                columns::importance_spread::BEST_RANK,
+                v.iter().map(|x| i64::from(x.best_rank)),
+            )
+            .i(
+                columns::importance_spread::WORST_RANK,
+                v.iter().map(|x| i64::from(x.worst_rank)),
+            )
+            .f(
+                columns::importance_spread::SHARE_TOP_K,
+                v.iter().map(|x| x.share_top_k),
+            )
+            .f(
+                columns::importance_spread::SHARE_TOP_K_ALL,
+                v.iter().map(|x| x.share_top_k_all),
+            )
             .write(dir, "importance_spread")?,
     );
     let v = &r.rank_counts;
     out.push(
         Cols::default()
-            .s("level", v.iter().map(|x| &x.level))
-            .s("kind", v.iter().map(|x| &x.kind))
-            .s("name", v.iter().map(|x| &x.name))
-            .i("rank", v.iter().map(|x| i64::from(x.rank)))
-            .i("count", v.iter().map(|x| x.count as i64))
+            .s(columns::rank_counts::LEVEL, v.iter().map(|x| &x.level))
+            .s(columns::rank_counts::KIND, v.iter().map(|x| &x.kind))
+            .s(columns::rank_counts::NAME, v.iter().map(|x| &x.name))
+            .i(
+                columns::rank_counts::RANK,
+                v.iter().map(|x| i64::from(x.rank)),
+            )
+            .i(
+                columns::rank_counts::COUNT,
+                v.iter().map(|x| x.count as i64),
+            )
             .write(dir, "rank_counts")?,
     );
     // agreement: long form, one row per ordered pair of members (a != b).
@@ -187,45 +278,81 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
     }
     out.push(
         Cols::default()
-            .s("level", lv)
-            .s("kind", kd)
-            .s("spec_a", sa)
-            .s("spec_b", sb)
-            .f("tau_b", tau)
+            .s(columns::agreement::LEVEL, lv)
+            .s(columns::agreement::KIND, kd)
+            .s(columns::agreement::SPEC_A, sa)
+            .s(columns::agreement::SPEC_B, sb)
+            .f(columns::agreement::TAU_B, tau)
             .write(dir, "agreement")?,
     );
     let v = &r.conclusions;
     out.push(
         Cols::default()
-            .s("source", v.iter().map(|x| &x.source))
-            .s("statement", v.iter().map(|x| &x.statement))
-            .s("level", v.iter().map(|x| &x.level))
-            .s("kind", v.iter().map(|x| &x.kind))
-            .f("support_all", v.iter().map(|x| x.support_all))
-            .i("n_all", v.iter().map(|x| x.n_all as i64))
-            .f("support_good", v.iter().map(|x| x.support_good))
-            .i("n_good", v.iter().map(|x| x.n_good as i64))
-            .s("pivot_dimension", v.iter().map(|x| &x.pivot_dimension))
-            .s("pivot_choice", v.iter().map(|x| &x.pivot_choice))
-            .f("support_without_pivot", v.iter().map(|x| x.support_without))
+            .s(columns::conclusions::SOURCE, v.iter().map(|x| &x.source))
+            .s(
+                columns::conclusions::STATEMENT,
+                v.iter().map(|x| &x.statement),
+            )
+            .s(columns::conclusions::LEVEL, v.iter().map(|x| &x.level))
+            .s(columns::conclusions::KIND, v.iter().map(|x| &x.kind))
+            .f(
+                columns::conclusions::SUPPORT_ALL,
+                v.iter().map(|x| x.support_all),
+            )
+            .i(
+                columns::conclusions::N_ALL,
+                v.iter().map(|x| x.n_all as i64),
+            )
+            .f(
+                columns::conclusions::SUPPORT_GOOD,
+                v.iter().map(|x| x.support_good),
+            )
+            .i(
+                columns::conclusions::N_GOOD,
+                v.iter().map(|x| x.n_good as i64),
+            )
+            .s(
+                columns::conclusions::PIVOT_DIMENSION,
+                v.iter().map(|x| &x.pivot_dimension),
+            )
+            .s(
+                columns::conclusions::PIVOT_CHOICE,
+                v.iter().map(|x| &x.pivot_choice),
+            )
+            .f(
+                columns::conclusions::SUPPORT_WITHOUT_PIVOT,
+                v.iter().map(|x| x.support_without),
+            )
             .write(dir, "conclusions")?,
     );
     let v = &r.stability;
     out.push(
         Cols::default()
-            .s("level", v.iter().map(|x| &x.level))
-            .s("kind", v.iter().map(|x| &x.kind))
-            .s("name", v.iter().map(|x| &x.name))
-            .f("mean_share_top_k", v.iter().map(|x| x.mean_share_top_k))
-            .f("share_majority", v.iter().map(|x| x.share_majority))
-            .f("share_in_best", v.iter().map(|x| x.share_in_best))
+            .s(columns::stability::LEVEL, v.iter().map(|x| &x.level))
+            .s(columns::stability::KIND, v.iter().map(|x| &x.kind))
+            .s(columns::stability::NAME, v.iter().map(|x| &x.name))
+            .f(
+                columns::stability::MEAN_SHARE_TOP_K,
+                v.iter().map(|x| x.mean_share_top_k),
+            )
+            .f(
+                columns::stability::SHARE_MAJORITY,
+                v.iter().map(|x| x.share_majority),
+            )
+            .f(
+                columns::stability::SHARE_IN_BEST,
+                v.iter().map(|x| x.share_in_best),
+            )
             .write(dir, "stability")?,
     );
     let v = &r.best_frequency;
     out.push(
         Cols::default()
-            .s("spec_id", v.iter().map(|x| &x.spec_id))
-            .f("share", v.iter().map(|x| x.share))
+            .s(
+                columns::best_frequency::SPEC_ID,
+                v.iter().map(|x| &x.spec_id),
+            )
+            .f(columns::best_frequency::SHARE, v.iter().map(|x| x.share))
             .write(dir, "best_frequency")?,
     );
     // resamples: the bootstrap's draws, one row per (resample, draw).
@@ -233,9 +360,18 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
     let ru = &built.resample_units;
     out.push(
         Cols::default()
-            .i("resample", (0..ru.len()).map(|k| (k / nu) as i64))
-            .i("draw", (0..ru.len()).map(|k| (k % nu) as i64))
-            .s("unit", ru.iter().map(|&u| built.units[u as usize].as_str()))
+            .i(
+                columns::resamples::RESAMPLE,
+                (0..ru.len()).map(|k| (k / nu) as i64),
+            )
+            .i(
+                columns::resamples::DRAW,
+                (0..ru.len()).map(|k| (k % nu) as i64),
+            )
+            .s(
+                columns::resamples::UNIT,
+                ru.iter().map(|&u| built.units[u as usize].as_str()),
+            )
             .write(dir, "resamples")?,
     );
     if let Some(n) = &built.report.null {

@@ -2,6 +2,12 @@
 //! manifest, stream results into Parquet parts, and close the manifest.
 
 pub mod extend;
+mod open;
+mod stream;
+
+use open::*;
+use stream::*;
+pub use stream::{permutation_pass, PassSummary};
 
 use crate::config::Config;
 use crate::error::{Error, Result};
@@ -99,179 +105,6 @@ pub struct RunOptions {
     pub shard: Option<crate::shard::Shard>,
 }
 
-/// How a run starts in its folder.
-enum Start {
-    /// A new run; `created` when forkmap made the folder.
-    Fresh { created: bool },
-    /// The folder holds an unfinished (or finished) run of the same config and data.
-    Resume {
-        done: crate::resume::Done,
-        manifest: Box<Manifest>,
-        /// Set when the folder's run is extended with a larger config (`--extend`).
-        extension: Option<Box<extend::Extension>>,
-    },
-}
-
-fn out_err(out: &Path, msg: impl Into<String>) -> Error {
-    Error::Output {
-        path: out.into(),
-        msg: msg.into(),
-    }
-}
-
-fn open_out(
-    p: &Prepared,
-    out: &Path,
-    sha: &str,
-    restart: bool,
-    shard: Option<crate::shard::Shard>,
-    extend: bool,
-) -> Result<Start> {
-    if extend && !out.join(crate::schema::MANIFEST).is_file() {
-        return Err(out_err(
-            out,
-            "holds no forkmap run to extend (--extend adds specs to a finished run)",
-        ));
-    }
-    if !out.exists() {
-        std::fs::create_dir_all(out).map_err(|e| out_err(out, format!("cannot create: {e}")))?;
-        return Ok(Start::Fresh { created: true });
-    }
-    if !out.is_dir() {
-        return Err(out_err(out, "exists and is not a directory"));
-    }
-    let manifest_path = out.join(crate::schema::MANIFEST);
-    if manifest_path.exists() {
-        let text = std::fs::read_to_string(&manifest_path)
-            .map_err(|e| out_err(out, format!("cannot read manifest.json: {e}")))?;
-        let m: serde_json::Value = serde_json::from_str(&text).map_err(|e| {
-            out_err(
-                out,
-                format!("manifest.json is unreadable ({e}): use --restart to discard this run"),
-            )
-        })?;
-        if m["tool"] != "forkmap" {
-            return Err(out_err(
-                out,
-                "holds a manifest.json that is not forkmap's: choose a new --out (forkmap never mixes its results with other files)",
-            ));
-        }
-        // A manifest of another forkmap version may not read as this one's: its version
-        // differs, which resume refuses and --restart discards.
-        let typed: std::result::Result<Manifest, String> = serde_json::from_value(m.clone())
-            .map_err(|e| {
-                format!(
-                    "forkmap version ({}, this is {}; its manifest reads differently: {e})",
-                    m["version"],
-                    env!("CARGO_PKG_VERSION")
-                )
-            });
-        let same = typed.as_ref().map_err(Clone::clone).and_then(|m| {
-            crate::resume::same_run(
-                m,
-                &p.cfg.canonical_json(),
-                sha,
-                p.codebook_sha256.as_deref(),
-            )
-            .and_then(|()| {
-                let want = shard.map(|s| s.to_string());
-                if want == m.shard {
-                    Ok(())
-                } else {
-                    Err(format!(
-                        "shard ({}, this is {})",
-                        m.shard.as_deref().unwrap_or("none"),
-                        want.as_deref().unwrap_or("none")
-                    ))
-                }
-            })
-        });
-        match (same, typed) {
-            (Ok(()), Ok(m)) if !restart => {
-                return Ok(Start::Resume {
-                    done: crate::resume::scan(out)?,
-                    manifest: Box::new(m),
-                    extension: None,
-                });
-            }
-            (Err(_), Ok(m)) if extend => {
-                let ext = extend::check(&m, out, p, sha).map_err(|what| {
-                    out_err(
-                        out,
-                        format!("cannot be extended with this config: its {what}"),
-                    )
-                })?;
-                return Ok(Start::Resume {
-                    done: crate::resume::scan(out)?,
-                    manifest: Box::new(m),
-                    extension: Some(Box::new(ext)),
-                });
-            }
-            (Err(what), typed) if !restart => {
-                let keeps = typed
-                    .as_ref()
-                    .is_ok_and(|m| extend::check(m, out, p, sha).is_ok());
-                let hint = if shard.is_none() && keeps {
-                    " (this config keeps every spec of that run: add --extend to run only its new specs)"
-                } else {
-                    ""
-                };
-                return Err(out_err(
-                    out,
-                    format!("holds a run whose {what} differs from this one: resume refused (use --restart to discard that run, or choose another --out){hint}"),
-                ));
-            }
-            _ => {
-                for t in TABLES.iter().chain(crate::schema::DERIVED_DIRS) {
-                    let d = out.join(t);
-                    if d.exists() {
-                        std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
-                    }
-                }
-                std::fs::remove_file(&manifest_path).map_err(|e| Error::io(&manifest_path, e))?;
-            }
-        }
-    }
-    // A run killed before its manifest was written leaves only forkmap's own leftovers
-    // (the manifest's temporary file, table folders without parts): start afresh.
-    let entries: Vec<std::path::PathBuf> = std::fs::read_dir(out)
-        .map_err(|e| out_err(out, format!("cannot read: {e}")))?
-        .filter_map(|e| e.ok().map(|e| e.path()))
-        .collect();
-    let leftover = |p: &std::path::PathBuf| {
-        let name = p.file_name().and_then(|n| n.to_str()).unwrap_or("");
-        if name == ".manifest.json.tmp" {
-            return true;
-        }
-        TABLES.contains(&name)
-            && p.is_dir()
-            && std::fs::read_dir(p)
-                .map(|r| {
-                    r.filter_map(|e| e.ok())
-                        .all(|e| e.file_name().to_string_lossy().starts_with('.'))
-                })
-                .unwrap_or(false)
-    };
-    if !entries.is_empty() && entries.iter().all(leftover) {
-        for p in &entries {
-            let r = if p.is_dir() {
-                std::fs::remove_dir_all(p)
-            } else {
-                std::fs::remove_file(p)
-            };
-            r.map_err(|e| Error::io(p, e))?;
-        }
-        return Ok(Start::Fresh { created: false });
-    }
-    if !entries.is_empty() {
-        return Err(out_err(
-            out,
-            "already exists, is not empty and holds no forkmap run: choose a new --out (forkmap never mixes its results with other files)",
-        ));
-    }
-    Ok(Start::Fresh { created: false })
-}
-
 /// The manifest written before the first spec (`status = "running"`); the finished run
 /// rewrites it with `complete` and its [`Finish`].
 fn manifest(
@@ -326,76 +159,6 @@ fn manifest(
     }
 }
 
-/// CPU seconds a stream spent in model fits and importances (summed over threads).
-#[derive(Debug, Default, Clone, Copy)]
-struct StreamWork {
-    fit: f64,
-    importance: f64,
-}
-
-/// Skills of the ok specs with a defined skill (spec index, skill), the number of ok
-/// specs, and the work done.
-type Streamed = (Vec<(usize, f64)>, usize, StreamWork);
-
-/// Stream a sweep's results into a sink on `pool`, with progress; returns the skill of
-/// every ok spec with a defined skill (by spec index), the number of ok specs, and the work
-/// done.
-fn stream(
-    sweep: &Sweep,
-    sink: &mut ParquetSink,
-    pool: &rayon::ThreadPool,
-    total: usize,
-    quiet: bool,
-    out: &Path,
-) -> Result<Streamed> {
-    let (tx, rx) = std::sync::mpsc::sync_channel::<SpecResult>(1024);
-    let mut skills: Vec<(usize, f64)> = Vec::new();
-    let mut ok = 0usize;
-    let mut work = StreamWork::default();
-    std::thread::scope(|s| {
-        let writer = s.spawn(|| -> Result<()> {
-            let mut progress = Progress::new(total, quiet);
-            let mut failed: Option<Error> = None;
-            for r in rx {
-                progress.inc();
-                work.fit += r.seconds;
-                work.importance += r.importance_seconds;
-                if failed.is_some() {
-                    continue;
-                }
-                if r.status.is_ok() {
-                    ok += 1;
-                }
-                if let Some(sc) = r.scores.as_ref().filter(|sc| sc.skill.is_finite()) {
-                    skills.push((r.spec, sc.skill));
-                }
-                if let Err(e) = sink.accept(r) {
-                    failed = Some(e);
-                }
-            }
-            progress.finish();
-            match failed {
-                Some(e) => Err(e),
-                None => sink.flush(),
-            }
-        });
-        pool.install(|| {
-            let emit = |r: SpecResult| {
-                let _ = tx.send(r);
-            };
-            sweep.run(&emit);
-        });
-        drop(tx);
-        writer.join().unwrap_or_else(|_| {
-            Err(Error::Output {
-                path: out.into(),
-                msg: "result writer panicked".into(),
-            })
-        })
-    })?;
-    Ok((skills, ok, work))
-}
-
 /// Run every spec of `p` into `out`.
 pub fn run_to_dir(p: &Prepared, out: &Path, opts: &RunOptions) -> Result<RunSummary> {
     run_inner(p, out, opts, false)
@@ -426,68 +189,6 @@ fn first_pass_sweep<'a>(p: &'a Prepared, subset: Option<&[usize]>) -> Result<Swe
         imp.clone()
     });
     Ok(sweep)
-}
-
-/// Where a run starts: whether this invocation created the folder, the specs already done,
-/// when the run first started, how often it was resumed, its lineage and, for an
-/// extension, what the extension adds.
-struct Begun {
-    created: bool,
-    done: crate::resume::Done,
-    started: String,
-    resumes: u64,
-    lineage: Option<Vec<crate::manifest::Lineage>>,
-    extension: Option<Box<extend::Extension>>,
-}
-
-/// Turn the output folder's state into a [`Begun`]; an extension first removes the
-/// smaller run's report and curves.
-fn begin(start: Start, out: &Path) -> Result<Begun> {
-    Ok(match start {
-        Start::Fresh { created } => Begun {
-            created,
-            done: crate::resume::Done::default(),
-            started: chrono::Utc::now().to_rfc3339(),
-            resumes: 0,
-            lineage: None,
-            extension: None,
-        },
-        Start::Resume {
-            done,
-            manifest,
-            extension: Some(ext),
-        } => {
-            // The old report and curves describe a smaller run (its best spec and good
-            // set): both go now; the report is rewritten at the end, the curves too
-            // unless `--no-curves` (then there are none rather than stale ones).
-            for dir in [crate::schema::REPORT_DIR, crate::schema::CURVES_DIR] {
-                let d = out.join(dir);
-                if d.is_dir() {
-                    std::fs::remove_dir_all(&d).map_err(|e| Error::io(&d, e))?;
-                }
-            }
-            Begun {
-                created: false,
-                done,
-                started: manifest.started.clone(),
-                resumes: 0,
-                lineage: Some(ext.lineage.clone()),
-                extension: Some(ext),
-            }
-        }
-        Start::Resume {
-            done,
-            manifest,
-            extension: None,
-        } => Begun {
-            created: false,
-            done,
-            started: manifest.started.clone(),
-            resumes: manifest.resumes + 1,
-            lineage: manifest.lineage.clone(),
-            extension: None,
-        },
-    })
 }
 
 fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Result<RunSummary> {
@@ -655,66 +356,6 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
         seconds,
         best,
     })
-}
-
-/// The deferred permutation-importance pass: with `importance.within`, rerun the specs
-/// whose skill is within that distance of the best (`skills`: spec index and skill of every
-/// ok spec of the whole space) for the permutation kinds, into `part-iNNNNN` parts of
-/// `out/importance`. Returns what the pass did, `None` when nothing is deferred.
-pub fn permutation_pass(
-    p: &Prepared,
-    out: &Path,
-    skills: &[(usize, f64)],
-    pool: &rayon::ThreadPool,
-    quiet: bool,
-) -> Result<Option<PassSummary>> {
-    let imp = &p.cfg.importance;
-    let Some(within) = imp.within.filter(|_| imp.deferred()) else {
-        return Ok(None);
-    };
-    let Some(top) = skills
-        .iter()
-        .map(|s| s.1)
-        .filter(|s| s.is_finite())
-        .max_by(f64::total_cmp)
-    else {
-        return Ok(None);
-    };
-    let mut subset: Vec<usize> = skills
-        .iter()
-        .filter(|(_, sk)| *sk >= top - within)
-        .map(|(si, _)| *si)
-        .collect();
-    subset.sort_unstable();
-    subset.dedup();
-    if !quiet {
-        eprintln!(
-            "forkmap: permutation importances for the {} specs within {within} skill of the best",
-            subset.len()
-        );
-    }
-    let mut second = Sweep::new(&p.panel, &p.space, &p.folds, p.cfg.seed, Some(&subset))?;
-    second.describe = false;
-    second.importance = Some(imp.only(&["permutation", "group"]));
-    let mut isink =
-        ParquetSink::importance_pass(out, &p.space, &p.panel, p.cfg.output.batch_specs)?;
-    stream(&second, &mut isink, pool, subset.len(), quiet, out)?;
-    Ok(Some(PassSummary {
-        specs: subset.len(),
-        importance_failed: isink.importance_failed,
-        notes: isink.pass_notes,
-    }))
-}
-
-/// What the deferred permutation pass did.
-#[derive(Debug, Clone, Default)]
-pub struct PassSummary {
-    /// Specs rerun.
-    pub specs: usize,
-    /// Of them, specs whose permutation importances could not be computed.
-    pub importance_failed: usize,
-    /// (spec id, `; `-joined notes) of rerun specs with notes.
-    pub notes: Vec<(String, String)>,
 }
 
 /// A write failure mid-run (disk full, folder gone read-only) ends the run with the

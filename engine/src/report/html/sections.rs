@@ -3,14 +3,29 @@
 use super::*;
 
 pub(super) fn tables(r: &Report) -> Vec<Table> {
-    let metric = if r.meta.metric.is_empty() {
-        "error".to_string()
-    } else {
-        r.meta.metric.clone()
-    };
-    let k = r.meta.top_k;
-    let mut out = Vec::new();
+    let mut out = vec![
+        good_sets_table(r),
+        conclusions_table(r),
+        curve_table(r),
+        error_shares_table(r),
+        error_by_choice_table(r),
+        error_by_param_table(r),
+        rank_shares_table(r),
+        rank_by_choice_table(r),
+        good_makeup_table(r),
+        importance_table(r),
+        rank_counts_table(r),
+        agreement_table(r),
+        stability_table(r),
+        best_frequency_table(r),
+    ];
+    out.extend(super::nested::tables(r));
+    out.extend(super::null::tables(r));
+    out
+}
 
+/// The three good-set definitions side by side.
+fn good_sets_table(r: &Report) -> Table {
     let mut t = Table::new(
         "good_sets",
         "Good sets",
@@ -36,8 +51,11 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             share(g.share_of_ok),
         ]);
     }
-    out.push(t);
+    t
+}
 
+/// The conclusions and their support.
+fn conclusions_table(r: &Report) -> Table {
     let mut t = Table::new(
         "conclusions",
         "Conclusions and their support",
@@ -76,7 +94,12 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             share(c.support_without),
         ]);
     }
-    out.push(t);
+    t
+}
+
+/// The specification curve: every ok spec ranked, with its interval, good flags and choices.
+fn curve_table(r: &Report) -> Table {
+    let metric = metric_name(r);
 
     let mut cols: Vec<(String, bool)> = vec![
         ("rank".into(), true),
@@ -123,31 +146,11 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         }
         t.push(row);
     }
-    out.push(t);
+    t
+}
 
-    let spread_cols = |first: &[(&'static str, bool)]| {
-        let mut c: Vec<(&str, bool)> = first.to_vec();
-        c.extend([
-            ("n", true),
-            ("min", true),
-            ("q1", true),
-            ("median", true),
-            ("q3", true),
-            ("max", true),
-        ]);
-        c
-    };
-    let spread_vals = |s: &crate::report::model::Spread| {
-        vec![
-            s.n.to_string(),
-            num(s.min),
-            num(s.q1),
-            num(s.median),
-            num(s.q3),
-            num(s.max),
-        ]
-    };
-
+/// Each dimension's LMG share of the error's variance.
+fn error_shares_table(r: &Report) -> Table {
     let mut t = Table::new(
         "error_shares",
         "Each dimension's share of the error's variance",
@@ -172,7 +175,12 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             num(s.r2_total),
         ]);
     }
-    out.push(t);
+    t
+}
+
+/// The error of the specs taking each choice.
+fn error_by_choice_table(r: &Report) -> Table {
+    let metric = metric_name(r);
 
     let mut t = Table::new(
         "error_by_choice",
@@ -186,7 +194,12 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         row.extend(spread_vals(&c.error));
         t.push(row);
     }
-    out.push(t);
+    t
+}
+
+/// The error of the specs taking each value of an option's parameter.
+fn error_by_param_table(r: &Report) -> Table {
+    let metric = metric_name(r);
 
     let mut t = Table::new(
         "error_by_param",
@@ -204,8 +217,11 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         row.extend(spread_vals(&c.error));
         t.push(row);
     }
-    out.push(t);
+    t
+}
 
+/// The dimensions' LMG shares of each name's rank.
+fn rank_shares_table(r: &Report) -> Table {
     let mut t = Table::new(
         "rank_shares",
         "Which dimensions move each rank",
@@ -233,7 +249,12 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             num(s.r2_total),
         ]);
     }
-    out.push(t);
+    t
+}
+
+/// Each name's rank among the specs taking each choice.
+fn rank_by_choice_table(r: &Report) -> Table {
+    let k = r.meta.top_k;
 
     let mut t = Table::new(
         "rank_by_choice",
@@ -263,8 +284,11 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             share(c.share_top_k),
         ]);
     }
-    out.push(t);
+    t
+}
 
+/// The make-up of the good sets by choice.
+fn good_makeup_table(r: &Report) -> Table {
     let mut t = Table::new(
         "good_makeup",
         "Make-up of the good sets",
@@ -290,7 +314,12 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             share(g.share_of_good),
         ]);
     }
-    out.push(t);
+    t
+}
+
+/// Importance over the good set, names some good member holds first.
+fn importance_table(r: &Report) -> Table {
+    let k = r.meta.top_k;
 
     let mut t = Table::new(
         "importance",
@@ -341,8 +370,11 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         ]);
         t.push(row);
     }
-    out.push(t);
+    t
+}
 
+/// The rank distribution over the good set.
+fn rank_counts_table(r: &Report) -> Table {
     let mut t = Table::new(
         "rank_counts",
         "Rank distribution over the good set",
@@ -365,8 +397,11 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             c.count.to_string(),
         ]);
     }
-    out.push(t);
+    t
+}
 
+/// Rank agreement between good-set members.
+fn agreement_table(r: &Report) -> Table {
     let mut t = Table::new(
         "agreement",
         "Rank agreement between good-set members",
@@ -392,7 +427,12 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             num(a.min),
         ]);
     }
-    out.push(t);
+    t
+}
+
+/// Stability of the top names under resampling units.
+fn stability_table(r: &Report) -> Table {
+    let k = r.meta.top_k;
 
     let mut t = Table::new(
         "stability",
@@ -429,8 +469,11 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             share(s.share_in_best),
         ]);
     }
-    out.push(t);
+    t
+}
 
+/// How often each spec is the best over resamples.
+fn best_frequency_table(r: &Report) -> Table {
     let mut t = Table::new(
         "best_frequency",
         "How often each spec is the best",
@@ -441,9 +484,40 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
     for b in &r.best_frequency {
         t.push(vec![b.spec_id.clone(), share(b.share)]);
     }
-    out.push(t);
+    t
+}
 
-    out.extend(super::nested::tables(r));
-    out.extend(super::null::tables(r));
-    out
+/// The columns of a spread (`n`, min, quartiles, max) after `first`.
+fn spread_cols(first: &[(&'static str, bool)]) -> Vec<(&'static str, bool)> {
+    let mut c: Vec<(&str, bool)> = first.to_vec();
+    c.extend([
+        ("n", true),
+        ("min", true),
+        ("q1", true),
+        ("median", true),
+        ("q3", true),
+        ("max", true),
+    ]);
+    c
+}
+
+/// A spread's cells, in `spread_cols` order.
+fn spread_vals(s: &crate::report::model::Spread) -> Vec<String> {
+    vec![
+        s.n.to_string(),
+        num(s.min),
+        num(s.q1),
+        num(s.median),
+        num(s.q3),
+        num(s.max),
+    ]
+}
+
+/// The run's metric name, or "error" when the report has none.
+fn metric_name(r: &Report) -> String {
+    if r.meta.metric.is_empty() {
+        "error".to_string()
+    } else {
+        r.meta.metric.clone()
+    }
 }
