@@ -8,6 +8,7 @@
 //! RUN_DIR/{specs,predictions,loadings,importance}/part-*.parquet       (TABLES)
 //! RUN_DIR/null/    manifest.json, draws/, tops/                         (NULL_DIR)
 //! RUN_DIR/nested/  settings.json, fold-*.parquet                        (NESTED_DIR)
+//! RUN_DIR/refit/   manifest.json, fits/, tops/                          (REFIT_DIR)
 //! RUN_DIR/curves/  curves.json and the curve tables                     (CURVES_DIR)
 //! RUN_DIR/report/  report.json, index.html, tables and plots            (REPORT_DIR)
 //! ```
@@ -71,6 +72,8 @@ pub mod importance {
 pub const NULL_DIR: &str = "null";
 /// The nested estimate's folder.
 pub const NESTED_DIR: &str = "nested";
+/// The refit of the top N specs on unit subsamples (its own manifest and tables).
+pub const REFIT_DIR: &str = "refit";
 /// The curves' folder.
 pub const CURVES_DIR: &str = "curves";
 /// The report's folder.
@@ -78,11 +81,61 @@ pub const REPORT_DIR: &str = "report";
 /// Everything derived from the sweep's tables, in the order a run makes them. A restart
 /// or a changed identity discards them all; add a new derived folder here and nowhere
 /// else.
-pub const DERIVED_DIRS: &[&str] = &[NULL_DIR, NESTED_DIR, CURVES_DIR, REPORT_DIR];
+pub const DERIVED_DIRS: &[&str] = &[NULL_DIR, NESTED_DIR, REFIT_DIR, CURVES_DIR, REPORT_DIR];
 
 /// The null's tables inside [`NULL_DIR`] (one part per draw).
 pub const NULL_DRAWS: &str = "draws";
 pub const NULL_TOPS: &str = "tops";
+/// The refit's tables inside [`REFIT_DIR`] (one part per subsample; `tops` is written
+/// first, `fits` last, so a subsample is complete exactly when its `fits` part exists).
+pub const REFIT_FITS: &str = "fits";
+pub const REFIT_TOPS: &str = "tops";
+
+/// Columns of the refit's `fits` table ([`REFIT_FITS`]), in table order: one row per
+/// subsample and refitted spec.
+pub mod refit_fits {
+    pub const RESAMPLE: &str = "resample";
+    pub const SEED: &str = "seed";
+    pub const UNITS: &str = "units";
+    pub const ROWS: &str = "rows";
+    pub const SPEC_ID: &str = "spec_id";
+    pub const RUN_RANK: &str = "run_rank";
+    pub const RUN_ERROR: &str = "run_error";
+    pub const METRIC: &str = "metric";
+    pub const ERROR: &str = "error";
+    pub const STATUS: &str = "status";
+    pub const MESSAGE: &str = "message";
+    pub const BEST: &str = "best";
+    pub const GOOD: &str = "good";
+    pub const ALL: &[&str] = &[
+        RESAMPLE, SEED, UNITS, ROWS, SPEC_ID, RUN_RANK, RUN_ERROR, METRIC, ERROR, STATUS, MESSAGE,
+        BEST, GOOD,
+    ];
+}
+
+/// Columns of the refit's `tops` table ([`REFIT_TOPS`]), in table order: one row per
+/// subsample, level, kind and name.
+pub mod refit_tops {
+    pub const RESAMPLE: &str = "resample";
+    pub const LEVEL: &str = "level";
+    pub const KIND: &str = "kind";
+    pub const NAME: &str = "name";
+    pub const GOOD_HOLDING: &str = "good_holding";
+    pub const GOOD_TOP: &str = "good_top";
+    pub const BEST_HOLDS: &str = "best_holds";
+    pub const TOP_IN_BEST: &str = "top_in_best";
+    pub const ALL: &[&str] = &[
+        RESAMPLE,
+        LEVEL,
+        KIND,
+        NAME,
+        GOOD_HOLDING,
+        GOOD_TOP,
+        BEST_HOLDS,
+        TOP_IN_BEST,
+    ];
+}
+
 /// The nested estimate's settings inside [`NESTED_DIR`].
 pub const NESTED_SETTINGS: &str = "settings.json";
 /// The curves' settings and summary inside [`CURVES_DIR`].
@@ -108,7 +161,9 @@ mod tests {
     /// No table names a column twice.
     #[test]
     fn column_names_are_distinct_within_each_table() {
-        let tables: [&[&str]; 4] = [
+        let tables: [&[&str]; 6] = [
+            refit_fits::ALL,
+            refit_tops::ALL,
             &[
                 specs::SPEC_ID,
                 specs::SPEC_LABEL,
