@@ -442,6 +442,8 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         t.push(vec![b.spec_id.clone(), share(b.share)]);
     }
     out.push(t);
+    // The refit beside the stored-error stability (when the run has one).
+    out.extend(super::refit::tables(r));
 
     out.extend(super::nested::tables(r));
     out.extend(super::null::tables(r));
