@@ -128,9 +128,12 @@ proptest! {
     }
 }
 
+/// One audited fit: step, fold, the rows it was told about, the rows it was handed.
+type Seen = (String, usize, Vec<usize>, usize);
+
 #[derive(Default)]
 struct Recorder {
-    seen: Mutex<Vec<(String, usize, Vec<usize>, usize)>>,
+    seen: Mutex<Vec<Seen>>,
 }
 
 impl Audit for Recorder {

@@ -270,7 +270,9 @@ fn summarise(
     // Per (level, kind, name): good specs holding the kind, of them top-k; and the best.
     let k = inp.top_k as u32;
     let is_top = |row: &ImportanceRow| row.rank <= k && row.importance > 0.0 && row.in_pool;
-    let mut acc: BTreeMap<(String, String, String), (i64, i64, bool, bool)> = BTreeMap::new();
+    // (level, kind, name) -> (good holding, good top, best holds, top in best)
+    type Key = (String, String, String);
+    let mut acc: BTreeMap<Key, (i64, i64, bool, bool)> = BTreeMap::new();
     for g in got.iter().filter(|g| good(g)) {
         let is_best = best.is_some_and(|b| b.spec == g.spec);
         for row in &g.importance {
