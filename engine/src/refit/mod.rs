@@ -227,53 +227,29 @@ pub fn resample(
     Ok(summarise(inp, r, &sub, rows.len(), &got))
 }
 
-fn summarise(
-    inp: &RefitInput,
-    r: u64,
-    sub: &Panel,
-    n_rows: usize,
-    got: &[Got],
-) -> (Vec<FitRow>, Vec<TopRow>) {
-    let id = |s: usize| inp.space.specs[s].id.as_str();
-    let ok: Vec<&Got> = got.iter().filter(|g| g.error.is_finite()).collect();
-    let best = ok
-        .iter()
-        .copied()
-        .min_by(|a, b| a.error.total_cmp(&b.error).then(id(a.spec).cmp(id(b.spec))));
-    let cut = best.map_or(f64::NAN, |b| inp.rule.cut(b.error));
-    let good = |g: &Got| g.error.is_finite() && g.error <= cut;
-    let seed = format!("{:016x}", units_seed(inp.seed, r));
-    let by_spec: BTreeMap<usize, &Got> = got.iter().map(|g| (g.spec, g)).collect();
-    let fits: Vec<FitRow> = inp
-        .top
-        .iter()
-        .enumerate()
-        .map(|(rank, &(s, run_error))| {
-            let g = by_spec.get(&s);
-            FitRow {
-                resample: r as i64,
-                seed: seed.clone(),
-                units: sub.n_units() as i64,
-                rows: n_rows as i64,
-                spec_id: id(s).to_string(),
-                run_rank: rank as i64 + 1,
-                run_error,
-                metric: inp.metric.clone(),
-                error: g.map_or(f64::NAN, |g| g.error),
-                status: g.map_or("missing".into(), |g| g.status.clone()),
-                message: g.and_then(|g| g.message.clone()),
-                best: best.is_some_and(|b| b.spec == s),
-                good: g.is_some_and(|g| good(g)),
-            }
-        })
-        .collect();
-    // Per (level, kind, name): good specs holding the kind, of them top-k; and the best.
-    let k = inp.top_k as u32;
+/// (level, kind, name) -> (good specs holding the kind, of them ranking the name top-k,
+/// the best holds the kind, the best ranks it top-k).
+type Tally = BTreeMap<(String, String, String), (i64, i64, bool, bool)>;
+
+/// The best of `got` (lowest finite error, ties by `id`), the good cut under `rule`, and
+/// the top-k tally over the good specs. A name is top-k in a spec when its rank is <= k,
+/// its importance > 0 and it is in the spec's pool (the report's `KindTable::is_top`).
+fn tally<'g>(
+    got: &'g [Got],
+    id: &dyn Fn(usize) -> String,
+    rule: Rule,
+    k: usize,
+) -> (Option<&'g Got>, f64, Tally) {
+    let best = got.iter().filter(|g| g.error.is_finite()).min_by(|a, b| {
+        a.error
+            .total_cmp(&b.error)
+            .then(id(a.spec).cmp(&id(b.spec)))
+    });
+    let cut = best.map_or(f64::NAN, |b| rule.cut(b.error));
+    let k = k as u32;
     let is_top = |row: &ImportanceRow| row.rank <= k && row.importance > 0.0 && row.in_pool;
-    // (level, kind, name) -> (good holding, good top, best holds, top in best)
-    type Key = (String, String, String);
-    let mut acc: BTreeMap<Key, (i64, i64, bool, bool)> = BTreeMap::new();
-    for g in got.iter().filter(|g| good(g)) {
+    let mut acc: Tally = BTreeMap::new();
+    for g in got.iter().filter(|g| g.error <= cut) {
         let is_best = best.is_some_and(|b| b.spec == g.spec);
         for row in &g.importance {
             let e = acc
@@ -289,6 +265,44 @@ fn summarise(
             }
         }
     }
+    (best, cut, acc)
+}
+
+fn summarise(
+    inp: &RefitInput,
+    r: u64,
+    sub: &Panel,
+    n_rows: usize,
+    got: &[Got],
+) -> (Vec<FitRow>, Vec<TopRow>) {
+    let id = |s: usize| inp.space.specs[s].id.clone();
+    let (best, cut, acc) = tally(got, &id, inp.rule, inp.top_k);
+    let good = |g: &Got| g.error.is_finite() && g.error <= cut;
+    let seed = format!("{:016x}", units_seed(inp.seed, r));
+    let by_spec: BTreeMap<usize, &Got> = got.iter().map(|g| (g.spec, g)).collect();
+    let fits: Vec<FitRow> = inp
+        .top
+        .iter()
+        .enumerate()
+        .map(|(rank, &(s, run_error))| {
+            let g = by_spec.get(&s);
+            FitRow {
+                resample: r as i64,
+                seed: seed.clone(),
+                units: sub.n_units() as i64,
+                rows: n_rows as i64,
+                spec_id: id(s),
+                run_rank: rank as i64 + 1,
+                run_error,
+                metric: inp.metric.clone(),
+                error: g.map_or(f64::NAN, |g| g.error),
+                status: g.map_or("missing".into(), |g| g.status.clone()),
+                message: g.and_then(|g| g.message.clone()),
+                best: best.is_some_and(|b| b.spec == s),
+                good: g.is_some_and(|g| good(g)),
+            }
+        })
+        .collect();
     let tops = acc
         .into_iter()
         .map(
@@ -305,4 +319,118 @@ fn summarise(
         )
         .collect();
     (fits, tops)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn row(
+        name: &str,
+        kind: &'static str,
+        importance: f64,
+        rank: u32,
+        in_pool: bool,
+    ) -> ImportanceRow {
+        ImportanceRow {
+            name: name.into(),
+            level: "indicator",
+            kind,
+            importance,
+            spread: 0.0,
+            rank,
+            in_pool,
+        }
+    }
+
+    fn got(spec: usize, error: f64, importance: Vec<ImportanceRow>) -> Got {
+        Got {
+            spec,
+            error,
+            status: "ok".into(),
+            message: None,
+            importance,
+        }
+    }
+
+    /// A hand-made subsample: specs 0..4 with errors 1.02, 1.00, 1.04, 1.20 and a failed
+    /// spec 4. Ratio 0.05: cut 1.05, good = {0, 1, 2}, best = 1. Top 2 by hand: a is top in
+    /// 0 and 1 (in 2 its importance is 0: not top), b is top in 0 and 2 (in 1 out of pool),
+    /// c is top in 1 only (rank 2); spec 2 holds the impurity kind alone.
+    #[test]
+    fn best_good_and_top_k_counts_by_hand() {
+        let p = "permutation";
+        let g = vec![
+            got(
+                0,
+                1.02,
+                vec![
+                    row("a", p, 0.5, 1, true),
+                    row("b", p, 0.3, 2, true),
+                    row("c", p, 0.1, 3, true),
+                ],
+            ),
+            got(
+                1,
+                1.00,
+                vec![
+                    row("a", p, 0.5, 1, true),
+                    row("c", p, 0.2, 2, true),
+                    row("b", p, 0.0, 3, false),
+                ],
+            ),
+            got(
+                2,
+                1.04,
+                vec![
+                    row("b", "impurity", 0.4, 1, true),
+                    row("a", "impurity", 0.0, 1, true),
+                ],
+            ),
+            got(3, 1.20, vec![row("a", p, 0.9, 1, true)]),
+            got(4, f64::NAN, vec![]),
+        ];
+        let id = |s: usize| format!("s{s}");
+        let (best, cut, t) = tally(&g, &id, Rule::Ratio(0.05), 2);
+        assert_eq!(best.map(|b| b.spec), Some(1));
+        assert!((cut - 1.05).abs() < 1e-12);
+        let at =
+            |kind: &str, n: &str| t[&("indicator".to_string(), kind.to_string(), n.to_string())];
+        assert_eq!(at(p, "a"), (2, 2, true, true));
+        assert_eq!(at(p, "b"), (2, 1, true, false));
+        assert_eq!(at(p, "c"), (2, 1, true, true));
+        assert_eq!(at("impurity", "b"), (1, 1, false, false));
+        assert_eq!(at("impurity", "a"), (1, 0, false, false));
+        // Spec 3 is not good: its rows are not counted (no key beyond a, b, c).
+        assert_eq!(t.len(), 5);
+        // Margin 0.01: good = {1} only.
+        let (_, _, t) = tally(&g, &id, Rule::Margin(0.01), 2);
+        assert_eq!(
+            t[&("indicator".into(), p.into(), "b".into())],
+            (1, 0, true, false)
+        );
+        // Ties broken by id: equal errors, the lower id wins.
+        let tie = vec![got(7, 1.0, vec![]), got(3, 1.0, vec![])];
+        assert_eq!(
+            tally(&tie, &id, Rule::Ratio(0.0), 1).0.map(|b| b.spec),
+            Some(3)
+        );
+    }
+
+    #[test]
+    fn rule_from_the_report_settings() {
+        assert_eq!(Rule::from_map("ratio", 0.1, None), (Rule::Ratio(0.1), None));
+        assert_eq!(
+            Rule::from_map("margin", 0.1, Some(0.3)).0,
+            Rule::Margin(0.3)
+        );
+        let (r, why) = Rule::from_map("margin", 0.1, None);
+        assert_eq!(r, Rule::Ratio(0.1));
+        assert!(why.is_some_and(|w| w.contains("ratio rule")));
+        let (r, why) = Rule::from_map("paired", 0.05, Some(1.0));
+        assert_eq!(r, Rule::Ratio(0.05));
+        assert!(why.is_some());
+        assert_eq!(kept(64, 0.8), 51);
+        assert_eq!(kept(10, 0.01), 1);
+    }
 }
