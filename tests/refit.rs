@@ -383,6 +383,28 @@ fn the_page_shows_the_refit_and_plan_its_cost() {
         "{plan}"
     );
     assert!(plan.contains("estimated refit time"), "{plan}");
+    // `check` counts the subsamples, and a lost one makes the run incomplete.
+    let check = || {
+        Command::new(env!("CARGO_BIN_EXE_forkmap"))
+            .arg("check")
+            .arg(&out)
+            .output()
+            .unwrap()
+    };
+    let c = check();
+    let text = String::from_utf8_lossy(&c.stdout).to_string();
+    assert!(
+        c.status.success() && text.contains("refit      4 of 4 subsamples"),
+        "{text}"
+    );
+    std::fs::remove_file(out.join(REFIT_DIR).join("fits/resample-000002.parquet")).unwrap();
+    let c = check();
+    let text = String::from_utf8_lossy(&c.stdout).to_string();
+    assert_eq!(c.status.code(), Some(1), "{text}");
+    assert!(
+        text.contains("refit      3 of 4 subsamples (incomplete"),
+        "{text}"
+    );
 }
 
 #[test]

@@ -390,3 +390,33 @@ pub fn plan_text(
     s.push_str("        runs after the sweep in a whole-space run, before the report (a shard leaves it to a whole-space run)\n");
     Some(s)
 }
+
+/// `forkmap check`'s lines on the refit of a whole-space run directory (none when it has
+/// no refit) and whether it is complete.
+pub fn check_lines(out: &Path) -> Result<(Vec<String>, bool)> {
+    let dir = out.join(REFIT_DIR);
+    let manifest = dir.join(crate::schema::MANIFEST);
+    if !manifest.exists() {
+        return Ok((Vec::new(), true));
+    }
+    let m: serde_json::Value = std::fs::read_to_string(&manifest)
+        .ok()
+        .and_then(|t| serde_json::from_str(&t).ok())
+        .ok_or_else(|| out_err(&manifest, "unreadable refit manifest".into()))?;
+    let asked = m["resamples"].as_u64().unwrap_or(0);
+    let done = table::complete_files(&dir.join(FITS))?
+        .iter()
+        .filter(|(r, _)| *r < asked)
+        .count() as u64;
+    Ok(if done >= asked {
+        (
+            vec![format!("refit      {done} of {asked} subsamples")],
+            true,
+        )
+    } else {
+        (
+            vec![format!("refit      {done} of {asked} subsamples (incomplete: rerun the same `forkmap run` to finish it; complete subsamples are kept)")],
+            false,
+        )
+    })
+}
