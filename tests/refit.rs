@@ -366,6 +366,7 @@ fn the_page_shows_the_refit_and_plan_its_cost() {
         "subsampling without replacement",
         "among those 3 specs only, not over the whole space",
         "id=\"table-refit_specs\"",
+        "Refitting the top 3 specs on 4 unit subsamples (51 of 64 units each, without replacement)",
     ] {
         assert!(page.contains(want), "page lacks {want:?}");
     }

@@ -92,6 +92,9 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
     built.report.refit = refit::load(set, &built.report.stability)?;
     if let Some(r) = &built.report.refit {
         notes.extend(r.notes.iter().cloned());
+        // before the closing cautions sentence
+        let h = &mut built.report.headline;
+        h.insert(h.len().saturating_sub(1), refit::headline(r));
     }
     let m = &mut built.report.meta;
     m.runs = set

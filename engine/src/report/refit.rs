@@ -205,6 +205,62 @@ pub fn load(set: &RunSet, stability: &[Stability]) -> Result<Option<RefitReport>
     Ok(Some(r))
 }
 
+/// The headline sentence: how often the run's best spec stays best and good when the top
+/// N are refitted, and the indicators most often top-k across the refitted good sets (the
+/// permutation kind when present, else the kind held in the most subsamples).
+pub fn headline(r: &RefitReport) -> String {
+    let first = r.specs_table.iter().find(|s| s.run_rank == 1);
+    let kind = r
+        .names
+        .iter()
+        .filter(|n| n.level == "indicator")
+        .max_by_key(|n| {
+            (
+                n.kind == "permutation",
+                n.resamples,
+                std::cmp::Reverse(n.kind.clone()),
+            )
+        })
+        .map(|n| n.kind.clone());
+    let mut tops: Vec<&RefitName> = r
+        .names
+        .iter()
+        .filter(|n| n.level == "indicator" && Some(&n.kind) == kind.as_ref())
+        .filter(|n| n.mean_share_top_k >= 0.5)
+        .collect();
+    tops.sort_by(|a, b| {
+        b.mean_share_top_k
+            .total_cmp(&a.mean_share_top_k)
+            .then(a.name.cmp(&b.name))
+    });
+    let names = if tops.is_empty() {
+        format!(
+            "no indicator is top-{} in half of the refitted good sets on average",
+            r.top_k
+        )
+    } else {
+        format!(
+            "top-{} on average in the refitted good sets ({} importance): {}",
+            r.top_k,
+            kind.unwrap_or_default(),
+            tops.iter()
+                .take(5)
+                .map(|n| format!("{} ({:.0}%)", n.name, 100.0 * n.mean_share_top_k))
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    };
+    format!(
+        "Refitting the top {} specs on {} unit subsamples ({} of {} units each, without replacement), the run's best spec is best among them in {:.0}% and good in {:.0}% of the subsamples; {names}.",
+        r.specs,
+        r.resamples,
+        r.units_kept,
+        r.units,
+        100.0 * first.map_or(f64::NAN, |f| f.share_best),
+        100.0 * first.map_or(f64::NAN, |f| f.share_good),
+    )
+}
+
 /// Report tables written when the run has a refit.
 pub const TABLES: &[&str] = &["refit_stability", "refit_specs"];
 
