@@ -92,6 +92,13 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
     built.report.refit = refit::load(set, &built.report.stability)?;
     if let Some(r) = &built.report.refit {
         notes.extend(r.notes.iter().cloned());
+        let m = &built.report.meta;
+        if r.metric != m.metric || r.top_k != m.top_k {
+            notes.push(format!(
+                "The refit ranked its specs by {} with top {} (the settings of the run that made it), this report by {} with top {}: its tables keep the refit's settings (rerun `forkmap run` with these to refit under them).",
+                r.metric, r.top_k, m.metric, m.top_k
+            ));
+        }
         // before the closing cautions sentence
         let h = &mut built.report.headline;
         h.insert(h.len().saturating_sub(1), refit::headline(r));
