@@ -92,7 +92,9 @@ fn derived_files(run: &Path, table: &str) -> Vec<PathBuf> {
         v
     };
     match table {
-        "null/draws" | "null/tops" => list(&run.join(table), &|_| true),
+        "null/draws" | "null/tops" | "refit/fits" | "refit/tops" => {
+            list(&run.join(table), &|_| true)
+        }
         "nested/fold" => list(&run.join("nested"), &|n| n.starts_with("fold-")),
         _ => {
             let p = run.join(format!("{table}.parquet"));
@@ -128,6 +130,7 @@ pub fn written_columns_match_schema(run: &Path) -> Vec<&'static str> {
     for t in forkmap::report::tables::REPORT_TABLES
         .iter()
         .chain(forkmap::report::tables::NULL_TABLES)
+        .chain(forkmap::report::refit::TABLES)
     {
         let key = format!("report/{t}");
         assert!(

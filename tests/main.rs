@@ -29,6 +29,7 @@ mod numbers;
 mod pools;
 mod reference;
 mod reference_ensembles;
+mod refit;
 mod report;
 mod resume;
 mod selection;

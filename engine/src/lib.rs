@@ -20,6 +20,7 @@ pub mod null;
 pub mod panel;
 pub mod plan;
 pub mod progress;
+pub mod refit;
 pub mod report;
 pub mod results;
 pub mod resume;

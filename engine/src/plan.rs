@@ -308,7 +308,7 @@ fn timing_probe(p: &Prepared, threads: usize, t: &mut String) -> f64 {
     estimate
 }
 
-/// The nested estimate's and the null's cost lines.
+/// The nested estimate's, the null's and the refit's cost lines.
 fn describe_derived(p: &Prepared, fits: usize, estimate: f64, t: &mut String) {
     let imp = &p.cfg.importance;
     if let Some(n) = crate::nested::exec::plan_text(&p.cfg, &p.panel, &p.space, fits, estimate) {
@@ -327,6 +327,15 @@ fn describe_derived(p: &Prepared, fits: usize, estimate: f64, t: &mut String) {
             estimate,
             imp.wants("permutation") || imp.wants("group"),
         ));
+    }
+    if let Some(r) = crate::refit::exec::plan_text(
+        &p.cfg,
+        &p.panel,
+        &p.space,
+        p.folds.n_fits_per_spec(),
+        estimate,
+    ) {
+        t.push_str(&r);
     }
 }
 

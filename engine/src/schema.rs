@@ -8,6 +8,7 @@
 //! RUN_DIR/{specs,predictions,loadings,importance}/part-*.parquet       (TABLES)
 //! RUN_DIR/null/    manifest.json, draws/, tops/                         (NULL_DIR)
 //! RUN_DIR/nested/  settings.json, fold-*.parquet                        (NESTED_DIR)
+//! RUN_DIR/refit/   manifest.json, fits/, tops/                          (REFIT_DIR)
 //! RUN_DIR/curves/  curves.json and the curve tables                     (CURVES_DIR)
 //! RUN_DIR/report/  report.json, index.html, tables and plots            (REPORT_DIR)
 //! ```
@@ -91,6 +92,8 @@ pub mod importance {
 pub const NULL_DIR: &str = "null";
 /// The nested estimate's folder.
 pub const NESTED_DIR: &str = "nested";
+/// The refit of the top N specs on unit subsamples (its own manifest and tables).
+pub const REFIT_DIR: &str = "refit";
 /// The curves' folder.
 pub const CURVES_DIR: &str = "curves";
 /// The report's folder.
@@ -98,11 +101,61 @@ pub const REPORT_DIR: &str = "report";
 /// Everything derived from the sweep's tables, in the order a run makes them. A restart
 /// or a changed identity discards them all; add a new derived folder here and nowhere
 /// else.
-pub const DERIVED_DIRS: &[&str] = &[NULL_DIR, NESTED_DIR, CURVES_DIR, REPORT_DIR];
+pub const DERIVED_DIRS: &[&str] = &[NULL_DIR, NESTED_DIR, REFIT_DIR, CURVES_DIR, REPORT_DIR];
 
 /// The null's tables inside [`NULL_DIR`] (one part per draw).
 pub const NULL_DRAWS: &str = "draws";
 pub const NULL_TOPS: &str = "tops";
+/// The refit's tables inside [`REFIT_DIR`] (one part per subsample; `tops` is written
+/// first, `fits` last, so a subsample is complete exactly when its `fits` part exists).
+pub const REFIT_FITS: &str = "fits";
+pub const REFIT_TOPS: &str = "tops";
+
+/// Columns of the refit's `fits` table ([`REFIT_FITS`]), in table order: one row per
+/// subsample and refitted spec.
+pub mod refit_fits {
+    pub const RESAMPLE: &str = "resample";
+    pub const SEED: &str = "seed";
+    pub const UNITS: &str = "units";
+    pub const ROWS: &str = "rows";
+    pub const SPEC_ID: &str = "spec_id";
+    pub const RUN_RANK: &str = "run_rank";
+    pub const RUN_ERROR: &str = "run_error";
+    pub const METRIC: &str = "metric";
+    pub const ERROR: &str = "error";
+    pub const STATUS: &str = "status";
+    pub const MESSAGE: &str = "message";
+    pub const BEST: &str = "best";
+    pub const GOOD: &str = "good";
+    pub const ALL: &[&str] = &[
+        RESAMPLE, SEED, UNITS, ROWS, SPEC_ID, RUN_RANK, RUN_ERROR, METRIC, ERROR, STATUS, MESSAGE,
+        BEST, GOOD,
+    ];
+}
+
+/// Columns of the refit's `tops` table ([`REFIT_TOPS`]), in table order: one row per
+/// subsample, level, kind and name.
+pub mod refit_tops {
+    pub const RESAMPLE: &str = "resample";
+    pub const LEVEL: &str = "level";
+    pub const KIND: &str = "kind";
+    pub const NAME: &str = "name";
+    pub const GOOD_HOLDING: &str = "good_holding";
+    pub const GOOD_TOP: &str = "good_top";
+    pub const BEST_HOLDS: &str = "best_holds";
+    pub const TOP_IN_BEST: &str = "top_in_best";
+    pub const ALL: &[&str] = &[
+        RESAMPLE,
+        LEVEL,
+        KIND,
+        NAME,
+        GOOD_HOLDING,
+        GOOD_TOP,
+        BEST_HOLDS,
+        TOP_IN_BEST,
+    ];
+}
+
 /// The nested estimate's settings inside [`NESTED_DIR`].
 pub const NESTED_SETTINGS: &str = "settings.json";
 /// The curves' settings and summary inside [`CURVES_DIR`].
@@ -118,7 +171,7 @@ pub mod report;
 
 /// Every derived table's fixed columns, by its place in the run directory: `DIR/NAME` is
 /// the file `DIR/NAME.parquet`, except `null/draws` and `null/tops` (folders of one part per
-/// draw) and `nested/fold` (the files `nested/fold-OOO.parquet`). `report/curve` and
+/// draw), `refit/fits` and `refit/tops` (one part per subsample) and `nested/fold` (the files `nested/fold-OOO.parquet`). `report/curve` and
 /// `nested/fold` also hold columns named at run time (see their modules).
 pub const DERIVED_COLUMNS: &[(&str, &[&str])] = &[
     ("report/curve", report::curve::COLUMNS),
@@ -154,6 +207,10 @@ pub const DERIVED_COLUMNS: &[(&str, &[&str])] = &[
     ("null/tops", null::tops::COLUMNS),
     ("null/draws", null::draws::COLUMNS),
     ("nested/fold", nested::fold::COLUMNS),
+    ("refit/fits", refit_fits::ALL),
+    ("refit/tops", refit_tops::ALL),
+    ("report/refit_stability", report::refit_stability::COLUMNS),
+    ("report/refit_specs", report::refit_specs::COLUMNS),
 ];
 
 #[cfg(test)]

@@ -42,3 +42,8 @@ pub const CURVE_KMEANS: u64 = 0x4355_5256_4b4d_4e53;
 /// The gap statistic's reference draws (uniform over the principal-component box of the
 /// unit curves): draw `b` is seeded by `mix(mix(seed, CURVE_GAP_REFERENCE), b)`.
 pub const CURVE_GAP_REFERENCE: u64 = 0x4355_5256_4741_5052;
+/// The refit's unit subsamples (`[refit]`): subsample `r` is seeded by
+/// `mix(mix(seed, REFIT_UNITS), r)`.
+pub const REFIT_UNITS: u64 = 0x5245_4649_5455_4e49;
+/// The refit's folds on subsample `r`: `mix(mix(seed, REFIT_FOLDS), r)`.
+pub const REFIT_FOLDS: u64 = 0x5245_4649_5446_4f4c;

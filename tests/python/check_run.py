@@ -24,6 +24,11 @@ CONTRACT = {
     "curves/breakpoints": ["spec_id", "indicator", "shape", "breakpoint", "composition_draws",
                            "direction", "same_as"],
     "curves/signs": ["indicator", "members", "holding", "distinct", "rises", "falls", "flat", "turns"],
+    "refit/fits": ["resample", "seed", "units", "rows", "spec_id", "run_rank", "run_error", "metric",
+                   "error", "status", "message", "best", "good"],
+    "refit/tops": ["resample", "level", "kind", "name", "good_holding", "good_top", "best_holds",
+                   "top_in_best"],
+    "report/refit_stability": ["level", "kind", "name", "resamples", "mean_share_top_k"],
 }
 if sys.argv[1:] == ["--names"]:
     print(json.dumps(CONTRACT, indent=1))
@@ -199,6 +204,71 @@ for table, cols in CONTRACT.items():
         continue
     missing = [c for c in cols if c not in names]
     check(f"pyarrow: {table} has the contract's columns", not missing, f"missing {missing}")
+
+# The refit of the top N specs on unit subsamples (RUN_DIR/refit/): the columns as
+# engine/src/schema.rs names them; the refitted specs are the run's top N by the report's
+# metric (ties by spec id); per subsample one best, the best is good, the good flags follow
+# the stated rule; tops counts are consistent; the report's refit shares are the tops'.
+refit_manifest = os.path.join(run, "refit", "manifest.json")
+if os.path.exists(refit_manifest):
+    import re
+    rm = json.load(open(refit_manifest))
+    ident = rm["identity"]
+    fits_glob = os.path.join(run, "refit", "fits", "*.parquet")
+    tops_glob = os.path.join(run, "refit", "tops", "*.parquet")
+    fc = ds.dataset(os.path.join(run, "refit", "fits"), format="parquet").to_table().column_names
+    check("pyarrow: refit fits columns", fc == ["resample", "seed", "units", "rows", "spec_id", "run_rank", "run_error",
+          "metric", "error", "status", "message", "best", "good"], f"{fc}")
+    tc = ds.dataset(os.path.join(run, "refit", "tops"), format="parquet").to_table().column_names
+    check("pyarrow: refit tops columns", tc == ["resample", "level", "kind", "name", "good_holding", "good_top",
+          "best_holds", "top_in_best"], f"{tc}")
+    b = con.execute(f"select count(distinct resample) from '{fits_glob}'").fetchone()[0]
+    check("duckdb: refit subsamples = manifest resamples", b == rm["resamples"] and rm["status"] == "complete", f"{b}")
+    metric = ident["metric"]
+    top = con.execute(
+        f"""select spec_id, {metric} from '{specs_glob}' where status = 'ok' and {metric} is not null
+            order by {metric}, spec_id limit {ident["specs"]}"""
+    ).fetchall()
+    got = con.execute(f"select spec_id, run_error from '{fits_glob}' where resample = 0 order by run_rank").fetchall()
+    check("duckdb: refit specs are the run's top N by the metric (ties by id)",
+          [t[0] for t in top] == [g[0] for g in got] and all(abs(t[1] - g[1]) < 1e-12 for t, g in zip(top, got)), f"{got}")
+    bad = con.execute(
+        f"""select count(*) from (select resample, count(*) n, count(*) filter (where best) nb,
+            count(*) filter (where best and not good) bg, min(units) lo, max(units) hi
+            from '{fits_glob}' group by 1)
+            where n <> {ident["specs"]} or nb <> 1 or bg <> 0 or lo <> {rm["units_kept"]} or hi <> {rm["units_kept"]}"""
+    ).fetchone()[0]
+    check("duckdb: refit: N rows, one best (good), the kept units in every subsample", bad == 0, f"{bad} subsamples")
+    bad = con.execute(
+        f"""select count(*) from '{fits_glob}' f join (select resample, min(error) e from '{fits_glob}' group by 1) m
+            using (resample) where f.best and f.error <> m.e"""
+    ).fetchone()[0]
+    check("duckdb: refit best has the subsample's lowest error", bad == 0, f"{bad}")
+    ratio = re.search(r"<= \(1 \+ ([0-9.eE+-]+)\) x best", rm["good_rule"])
+    margin = re.search(r"<= best \+ ([0-9.eE+-]+)$", rm["good_rule"])
+    cut = f"m.e * (1 + {ratio.group(1)})" if ratio else f"m.e + {margin.group(1)}"
+    bad = con.execute(
+        f"""select count(*) from '{fits_glob}' f join (select resample, min(error) e from '{fits_glob}' group by 1) m
+            using (resample) where f.good <> coalesce(f.error <= {cut}, false)"""
+    ).fetchone()[0]
+    check(f"duckdb: refit good flags follow the rule ({rm['good_rule']})", bad == 0, f"{bad} rows")
+    bad = con.execute(
+        f"""select count(*) from '{tops_glob}' t join (select resample, count(*) filter (where good) g
+            from '{fits_glob}' group by 1) f using (resample)
+            where t.good_top < 0 or t.good_top > t.good_holding or t.good_holding > f.g or t.good_holding < 1
+               or (t.top_in_best and not t.best_holds)"""
+    ).fetchone()[0]
+    check("duckdb: refit tops counts consistent", bad == 0, f"{bad} rows")
+    rs = os.path.join(run, "report", "refit_stability.parquet")
+    if os.path.exists(rs):
+        bad = con.execute(
+            f"""with held as (select level, kind, count(distinct resample) n from '{tops_glob}' group by 1, 2),
+                shares as (select level, kind, name, sum(good_top::double / good_holding) s from '{tops_glob}' group by 1, 2, 3)
+                select count(*) from '{rs}' r join shares using (level, kind, name) join held using (level, kind)
+                where abs(r.mean_share_top_k - shares.s / held.n) > 1e-12 or r.resamples <> held.n"""
+        ).fetchone()[0]
+        n_rs = con.execute(f"select count(*) from '{rs}'").fetchone()[0]
+        check("duckdb: report refit_stability mean shares from refit/tops", bad == 0 and n_rs > 0, f"{bad} of {n_rs}")
 
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)

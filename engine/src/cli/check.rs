@@ -3,7 +3,8 @@
 //! Read one run directory, several, or a folder of shard directories as one run and report
 //! how complete it is: specs present of the whole space, ok and failed (by cause), shards
 //! with no directory, unfinished directories, specs present in more than one directory,
-//! and the permutation null's draws (complete or not) when the run has or asks for one.
+//! the permutation null's draws (complete or not) when the run has or asks for one, and
+//! the refit's subsamples when the run has a refit.
 //! Changes nothing. Exit code 0 when complete, 1 when not, 2 on an error (directories of
 //! different configs, data or versions; unreadable parts).
 
@@ -47,6 +48,9 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     let mut null_complete = true;
     for d in set.dirs.iter().filter(|d| d.shard.is_none()) {
         let (lines, ok) = forkmap::null::run::check_lines(&d.path, d.manifest.null.is_object())?;
+        lines.iter().for_each(|l| println!("{l}"));
+        null_complete &= ok;
+        let (lines, ok) = forkmap::refit::exec::check_lines(&d.path)?;
         lines.iter().for_each(|l| println!("{l}"));
         null_complete &= ok;
     }

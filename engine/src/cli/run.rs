@@ -29,7 +29,9 @@
 //!
 //! With a `[nested]` section the nested estimate of choosing the best runs after the sweep,
 //! before the report, into RUN_DIR/nested/ (one table per outer fold; a rerun skips the
-//! folds done; a shard skips it: run the whole space for it).
+//! folds done; a shard skips it: run the whole space for it). With a `[refit]` section the
+//! run's top N specs (by the report's metric) are refitted on unit subsamples after that,
+//! into RUN_DIR/refit/ (resumable subsample by subsample; a shard skips it).
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -124,6 +126,18 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         }
         Some(_) => None,
     };
+    // The refit of the top N specs on unit subsamples (`[refit]`): after the sweep, before
+    // the report, under the report's settings; a shard leaves it to a whole-space run.
+    let refit = match a.shard {
+        None => {
+            let mut m = p.cfg.map.clone();
+            a.over.apply(&mut m);
+            forkmap::refit::exec::run_in_dir(
+                &p.cfg, &p.panel, &p.space, &a.out, &m, threads, a.quiet,
+            )?
+        }
+        Some(_) => None,
+    };
     let failed: usize = s.failures.values().sum();
     println!("specs      {} ({} ok, {failed} failed)", s.specs, s.ok);
     for (cause, n) in &s.failures {
@@ -174,6 +188,20 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             n.seconds,
             a.out.join(forkmap::nested::table::NESTED_DIR).display()
         );
+    }
+    if let Some(r) = &refit {
+        println!(
+            "refit      top {} specs x {} subsamples ({} of {} units each; {} run now) in {:.1}s -> {}",
+            r.specs,
+            r.resamples,
+            r.units_kept,
+            r.units,
+            r.ran,
+            r.seconds,
+            a.out.join(forkmap::refit::table::REFIT_DIR).display()
+        );
+    } else if p.cfg.refit.is_some() && a.shard.is_some() {
+        println!("refit      left to a whole-space run (the top specs are known only over the whole space)");
     }
     println!("results    {}", a.out.display());
     if draw_curves {

@@ -9,6 +9,7 @@ pub mod importance;
 pub mod map;
 pub mod nested;
 pub mod null;
+pub mod refit;
 
 use crate::error::{suggest, Error, Result};
 use serde::{Deserialize, Serialize};
@@ -60,6 +61,10 @@ pub struct Config {
     /// the null keeps its own in `RUN_DIR/null/manifest.json`.
     #[serde(default, skip_serializing)]
     pub null: Option<null::NullSection>,
+    /// The refit of the top N specs on unit subsamples (`[refit]`; absent: none). Not part
+    /// of the run's identity: the refit keeps its own in `RUN_DIR/refit/manifest.json`.
+    #[serde(default, skip_serializing)]
+    pub refit: Option<refit::RefitSection>,
     /// Folder of the config file (not part of the TOML).
     #[serde(skip)]
     pub base_dir: PathBuf,
@@ -257,6 +262,7 @@ const TOP_KEYS: &[&str] = &[
     "curves",
     "nested",
     "null",
+    "refit",
 ];
 const DATA_KEYS: &[&str] = &[
     "file",
@@ -304,6 +310,7 @@ impl Config {
             ("curves", curves::CURVES_KEYS),
             ("nested", nested::NESTED_KEYS),
             ("null", null::NULL_KEYS),
+            ("refit", refit::REFIT_KEYS),
         ] {
             if let Some(v) = table.get(section) {
                 let t = v
@@ -375,6 +382,9 @@ impl Config {
         }
         if let Some(n) = &cfg.null {
             n.check(&cfg.map.metric).map_err(&err)?;
+        }
+        if let Some(r) = &cfg.refit {
+            r.check().map_err(&err)?;
         }
         if cfg.output.batch_specs == 0 {
             return Err(err("output.batch_specs must be at least 1".into()));

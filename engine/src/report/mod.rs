@@ -6,7 +6,8 @@
 //! Sections, one file each: [`curve`] (specification curve with unit-bootstrap
 //! intervals), [`influence`] (choice influence on the error and on importance ranks, LMG
 //! shares), [`goodset`] (three good-set definitions), [`distribution`] (importance over
-//! the good set, tau-b agreement), [`conclusions`], [`stability`], [`headline`]. Shared
+//! the good set, tau-b agreement), [`conclusions`], [`stability`] (and, read one-way from
+//! RUN_DIR/refit/, [`refit`]), [`headline`]. Shared
 //! statistics live in [`stats`], the output tables in [`tables`].
 
 pub mod conclusions;
@@ -22,6 +23,7 @@ pub mod model;
 pub mod nested;
 pub mod null;
 pub mod plots;
+pub mod refit;
 pub mod shape;
 pub use crate::config::map as settings;
 pub mod stability;
@@ -86,6 +88,20 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
         let h = &mut built.report.headline;
         h.insert(h.len().saturating_sub(1), null::headline(n));
         notes.extend(n.notes.iter().cloned());
+    }
+    built.report.refit = refit::load(set, &built.report.stability)?;
+    if let Some(r) = &built.report.refit {
+        notes.extend(r.notes.iter().cloned());
+        let m = &built.report.meta;
+        if r.metric != m.metric || r.top_k != m.top_k {
+            notes.push(format!(
+                "The refit ranked its specs by {} with top {} (the settings of the run that made it), this report by {} with top {}: its tables keep the refit's settings (rerun `forkmap run` with these to refit under them).",
+                r.metric, r.top_k, m.metric, m.top_k
+            ));
+        }
+        // before the closing cautions sentence
+        let h = &mut built.report.headline;
+        h.insert(h.len().saturating_sub(1), refit::headline(r));
     }
     let m = &mut built.report.meta;
     m.runs = set

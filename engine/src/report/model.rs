@@ -43,6 +43,9 @@ pub struct Report {
     pub nested: Option<super::nested::NestedReport>,
     /// The permutation null, when the run has one (`report::null`).
     pub null: Option<super::null::NullReport>,
+    /// The refit of the top N specs on unit subsamples (RUN_DIR/refit), when the run has
+    /// one (`report::refit`).
+    pub refit: Option<super::refit::RefitReport>,
 }
 
 /// Settings and provenance.

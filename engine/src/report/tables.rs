@@ -377,5 +377,8 @@ pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {
     if let Some(n) = &built.report.null {
         out.extend(super::null::write_tables(n, dir)?);
     }
+    if let Some(r) = &built.report.refit {
+        out.extend(super::refit::write_tables(r, dir)?);
+    }
     Ok(out)
 }

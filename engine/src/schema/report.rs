@@ -324,3 +324,55 @@ pub mod nested_folds {
         N_SPECS,
     ];
 }
+pub mod refit_stability {
+    pub const LEVEL: &str = "level";
+    pub const KIND: &str = "kind";
+    pub const NAME: &str = "name";
+    pub const RESAMPLES: &str = "resamples";
+    pub const MEAN_SHARE_TOP_K: &str = "mean_share_top_k";
+    pub const SHARE_MAJORITY: &str = "share_majority";
+    pub const SHARE_IN_BEST: &str = "share_in_best";
+    pub const STORED_MEAN_SHARE_TOP_K: &str = "stored_mean_share_top_k";
+    pub const STORED_SHARE_MAJORITY: &str = "stored_share_majority";
+    pub const STORED_SHARE_IN_BEST: &str = "stored_share_in_best";
+    pub const SPECS: &str = "specs";
+    pub const TOP_K: &str = "top_k";
+    /// Every column, in table order (fixed columns only).
+    pub const COLUMNS: &[&str] = &[
+        LEVEL,
+        KIND,
+        NAME,
+        RESAMPLES,
+        MEAN_SHARE_TOP_K,
+        SHARE_MAJORITY,
+        SHARE_IN_BEST,
+        STORED_MEAN_SHARE_TOP_K,
+        STORED_SHARE_MAJORITY,
+        STORED_SHARE_IN_BEST,
+        SPECS,
+        TOP_K,
+    ];
+}
+pub mod refit_specs {
+    pub const SPEC_ID: &str = "spec_id";
+    pub const RUN_RANK: &str = "run_rank";
+    pub const RUN_ERROR: &str = "run_error";
+    pub const MEDIAN_ERROR: &str = "median_error";
+    pub const SHARE_BEST: &str = "share_best";
+    pub const SHARE_GOOD: &str = "share_good";
+    pub const FAILED: &str = "failed";
+    pub const RESAMPLES: &str = "resamples";
+    pub const METRIC: &str = "metric";
+    /// Every column, in table order (fixed columns only).
+    pub const COLUMNS: &[&str] = &[
+        SPEC_ID,
+        RUN_RANK,
+        RUN_ERROR,
+        MEDIAN_ERROR,
+        SHARE_BEST,
+        SHARE_GOOD,
+        FAILED,
+        RESAMPLES,
+        METRIC,
+    ];
+}

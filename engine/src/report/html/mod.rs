@@ -16,6 +16,7 @@ use std::path::Path;
 
 mod nested;
 mod null;
+mod refit;
 mod sections;
 mod shape;
 mod table;

@@ -19,6 +19,8 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         stability_table(r),
         best_frequency_table(r),
     ];
+    // The refit beside the stored-error stability (when the run has one).
+    out.extend(super::refit::tables(r));
     out.extend(super::nested::tables(r));
     out.extend(super::null::tables(r));
     out

@@ -197,6 +197,7 @@ pub(crate) fn sample(n_specs: usize) -> Report {
             notes: vec![],
             ..Default::default()
         }),
+        refit: None,
     }
 }
 
