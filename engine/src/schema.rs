@@ -6,7 +6,7 @@
 //! ```text
 //! RUN_DIR/manifest.json            identity, space, counts, lineage      (MANIFEST)
 //! RUN_DIR/{specs,predictions,loadings,importance}/part-*.parquet       (TABLES)
-//! RUN_DIR/null/    manifest.json, draws/, tops/                         (NULL_DIR)
+//! RUN_DIR/null/    manifest.json, draws/, tops/, goodranks/             (NULL_DIR)
 //! RUN_DIR/nested/  settings.json, fold-*.parquet                        (NESTED_DIR)
 //! RUN_DIR/curves/  curves.json and the curve tables                     (CURVES_DIR)
 //! RUN_DIR/report/  report.json, index.html, tables and plots            (REPORT_DIR)
@@ -83,6 +83,29 @@ pub const DERIVED_DIRS: &[&str] = &[NULL_DIR, NESTED_DIR, CURVES_DIR, REPORT_DIR
 /// The null's tables inside [`NULL_DIR`] (one part per draw).
 pub const NULL_DRAWS: &str = "draws";
 pub const NULL_TOPS: &str = "tops";
+/// Per draw, the importance ranks of every spec within `[null] ranks_within` of the draw's
+/// best error (what the report's claims need under the null).
+pub const NULL_GOODRANKS: &str = "goodranks";
+/// The null's tables, in the order a draw writes them (its `draws` file last: a draw is
+/// complete exactly when that file exists).
+pub const NULL_DRAW_TABLES: &[&str] = &[NULL_TOPS, NULL_GOODRANKS, NULL_DRAWS];
+
+/// Columns of `null/goodranks` ([`NULL_GOODRANKS`]), in table order.
+pub mod null_goodranks {
+    pub const DRAW: &str = "draw";
+    pub const SPEC_ID: &str = "spec_id";
+    /// The spec's error in the draw (the null's metric).
+    pub const ERROR: &str = "error";
+    pub const LEVEL: &str = "level";
+    pub const KIND: &str = "kind";
+    pub const NAME: &str = "name";
+    pub const IMPORTANCE: &str = "importance";
+    pub const RANK: &str = "rank";
+    pub const IN_POOL: &str = "in_pool";
+    pub const ALL: &[&str] = &[
+        DRAW, SPEC_ID, ERROR, LEVEL, KIND, NAME, IMPORTANCE, RANK, IN_POOL,
+    ];
+}
 /// The nested estimate's settings inside [`NESTED_DIR`].
 pub const NESTED_SETTINGS: &str = "settings.json";
 /// The curves' settings and summary inside [`CURVES_DIR`].
@@ -108,7 +131,8 @@ mod tests {
     /// No table names a column twice.
     #[test]
     fn column_names_are_distinct_within_each_table() {
-        let tables: [&[&str]; 4] = [
+        let tables: [&[&str]; 5] = [
+            null_goodranks::ALL,
             &[
                 specs::SPEC_ID,
                 specs::SPEC_LABEL,

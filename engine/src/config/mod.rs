@@ -374,7 +374,12 @@ impl Config {
             n.check().map_err(&err)?;
         }
         if let Some(n) = &cfg.null {
-            n.check(&cfg.map.metric).map_err(&err)?;
+            let ns = n.check(&cfg.map.metric).map_err(&err)?;
+            if (ns.permutation || ns.group) && cfg.importance.repeats == 0 {
+                return Err(err(
+                    "null.importance asks for permutation importances but importance.repeats = 0: set repeats >= 1 (the null uses the run's repeats)".into(),
+                ));
+            }
         }
         if cfg.output.batch_specs == 0 {
             return Err(err("output.batch_specs must be at least 1".into()));
