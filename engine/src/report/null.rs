@@ -17,6 +17,8 @@
 //!   draw, so the rates average about top_k / names). No per-indicator p-value is given:
 //!   one for the names that came out top would be selected after the fact (under the
 //!   complete null every observed-top name would get p of about top_k / names).
+//! * Conclusions: each one's support over every draw's good set, from `null/goodranks`
+//!   ([`super::null_claims`]).
 
 use super::conclusions::Statement;
 use super::data::RunTables;

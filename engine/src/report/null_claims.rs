@@ -204,10 +204,24 @@ pub fn evaluate(
         kinds: inp.kinds.clone(),
         ..Default::default()
     };
+    let blank = |c: &Conclusion, why: &str| NullClaim {
+        source: c.source.clone(),
+        statement: c.statement.clone(),
+        level: c.level.clone(),
+        kind: c.kind.clone(),
+        support_good: c.support_good,
+        observed: f64::NAN,
+        null_mean: f64::NAN,
+        null_q95: f64::NAN,
+        p: f64::NAN,
+        draws: inp.draws.len(),
+        why: why.to_string(),
+        ..Default::default()
+    };
     let Some(ranks) = inp.ranks else {
-        out.unavailable = Some(
-            "this run's null predates null/goodranks (the importance ranks of each draw's good set), so the conclusions' support under the null is not available; rerunning the same `forkmap run` restarts the null with it".into(),
-        );
+        let why = "this run's null predates null/goodranks (the importance ranks of each draw's good set), so the conclusions' support under the null is not available; rerunning the same `forkmap run` restarts the null with it";
+        out.unavailable = Some(why.into());
+        out.claims = conclusions.iter().map(|c| blank(c, why)).collect();
         return out;
     };
     // The observed good set of the null's sample, by the same rule and metric.
@@ -252,19 +266,7 @@ pub fn evaluate(
         .collect();
     let uncovered = cuts.iter().filter(|c| c.is_none()).count();
     for (i, c) in conclusions.iter().enumerate() {
-        let mut nc = NullClaim {
-            source: c.source.clone(),
-            statement: c.statement.clone(),
-            level: c.level.clone(),
-            kind: c.kind.clone(),
-            support_good: c.support_good,
-            observed: f64::NAN,
-            null_mean: f64::NAN,
-            null_q95: f64::NAN,
-            p: f64::NAN,
-            draws: inp.draws.len(),
-            ..Default::default()
-        };
+        let mut nc = blank(c, "");
         match tests.get(i).and_then(|x| x.as_ref()) {
             None => {
                 nc.why = "not tested: the null computes no curves".into();
