@@ -265,6 +265,13 @@ fn bad_null_keys_and_values_are_refused_naming_the_key() {
     assert!(e.contains("null.metric") && e.contains("`rmse`"), "{e}");
     let e = refused("[null]\ndraws = -3\n");
     assert!(e.contains("draws"), "{e}");
+    let e = refused("[null]\nimportance = [\"native\", \"permutaton\"]\n");
+    assert!(
+        e.contains("null.importance") && e.contains("`permutation`"),
+        "{e}"
+    );
+    let e = refused("[null]\nranks_within = -0.1\n");
+    assert!(e.contains("null.ranks_within = -0.1"), "{e}");
     // Defaults, and [null] is not part of the run's identity.
     let text = format!("{}{SPACE}[null]\n", data());
     let c = forkmap::config::Config::from_toml(&text, Path::new("."), "t").unwrap();
@@ -272,6 +279,11 @@ fn bad_null_keys_and_values_are_refused_naming_the_key() {
     assert_eq!(
         (s.draws, s.specs, s.top_k, s.metric.name()),
         (100, None, 3, "mae")
+    );
+    assert_eq!(
+        (s.kinds(), s.ranks_within),
+        (vec!["native"], 0.10),
+        "the null computes native importances only unless asked"
     );
     // An unset null.metric follows the report's metric ([map] metric); a set one wins.
     for (map, null, want) in [
