@@ -92,7 +92,7 @@ fn derived_files(run: &Path, table: &str) -> Vec<PathBuf> {
         v
     };
     match table {
-        "null/draws" | "null/tops" | "refit/fits" | "refit/tops" => {
+        "null/draws" | "null/tops" | "null/goodranks" | "refit/fits" | "refit/tops" => {
             list(&run.join(table), &|_| true)
         }
         "nested/fold" => list(&run.join("nested"), &|n| n.starts_with("fold-")),

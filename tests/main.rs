@@ -23,6 +23,7 @@ mod leak;
 mod nested;
 mod nested_fits;
 mod null;
+mod null_claims;
 mod null_fixed;
 mod null_shared;
 mod numbers;

@@ -5,12 +5,12 @@
 //! and values are refused with the key named; `check` reports an incomplete null.
 
 use crate::common::root;
-use forkmap::null::table::{read_draws, read_tops, NULL_DIR};
+use forkmap::null::table::{read_draws, read_goodranks, read_tops, NULL_DIR};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::Instant;
 
-const SPACE: &str = r#"
+pub const SPACE: &str = r#"
 [folds]
 k = 4
 [choices]
@@ -29,14 +29,14 @@ repeats = 1
 kinds = ["native"]
 "#;
 
-fn data() -> String {
+pub fn data() -> String {
     format!(
         "seed = 11\n[data]\nfile = \"{root}/toy-panel/panel.csv\"\nunit = \"district\"\nwave = \"wave\"\noutcome = \"hardship_pct\"\nignore = [\"region\"]\ncodebook = \"{root}/toy-panel/codebook.csv\"\n",
         root = root().display()
     )
 }
 
-fn config(dir: &Path, name: &str, null: &str) -> PathBuf {
+pub fn config(dir: &Path, name: &str, null: &str) -> PathBuf {
     let path = dir.join(format!("{name}.toml"));
     std::fs::write(&path, format!("{}{SPACE}{null}", data())).unwrap();
     path
@@ -56,15 +56,19 @@ fn run(cfg: &Path, out: &Path, threads: &str, extra: &[&str]) -> std::process::O
     o
 }
 
-/// Both null tables as text rows (Debug of each row: f64s round-trip exactly).
-fn null_rows(out: &Path) -> (Vec<String>, Vec<String>) {
+/// The three null tables as text rows (Debug of each row: f64s round-trip exactly).
+pub fn null_rows(out: &Path) -> (Vec<String>, Vec<String>, Vec<String>) {
     let dir = out.join(NULL_DIR);
     let draws = read_draws(&dir).unwrap();
     let ids: Vec<u64> = draws.iter().map(|d| d.draw as u64).collect();
     let tops = read_tops(&dir, &ids).unwrap();
+    let ranks = read_goodranks(&dir, &ids)
+        .unwrap()
+        .expect("every complete draw has its goodranks file");
     (
         draws.iter().map(|d| format!("{d:?}")).collect(),
         tops.iter().map(|t| format!("{t:?}")).collect(),
+        ranks.iter().map(|t| format!("{t:?}")).collect(),
     )
 }
 
@@ -78,9 +82,10 @@ fn run_writes_the_null_tables_the_same_on_one_and_two_threads() {
     let two = tmp.path().join("two");
     run(&cfg, &one, "1", &["--quiet"]);
     run(&cfg, &two, "2", &["--quiet"]);
-    let (draws, tops) = null_rows(&one);
-    assert_eq!(draws.len(), 6);
-    assert_eq!((draws.clone(), tops.clone()), null_rows(&two));
+    let rows = null_rows(&one);
+    assert_eq!(rows.0.len(), 6);
+    assert!(!rows.2.is_empty(), "no goodranks rows");
+    assert_eq!(rows, null_rows(&two));
     let d = read_draws(&one.join(NULL_DIR)).unwrap();
     let specs_in_space = 2 * 2 * 3 * 2; // pool x compress x (ridge 2 alphas + tree) x weighting
     for (i, r) in d.iter().enumerate() {
@@ -148,7 +153,7 @@ fn changing_draws_keeps_the_sweep_other_keys_restart_the_null_alone() {
         "2",
         &["--quiet"],
     );
-    let (d3, _) = null_rows(&out);
+    let (d3, _, g3) = null_rows(&out);
     let specs_mtime = |o: &Path| {
         let mut v: Vec<_> = std::fs::read_dir(o.join("specs"))
             .unwrap()
@@ -172,9 +177,11 @@ fn changing_draws_keeps_the_sweep_other_keys_restart_the_null_alone() {
         before,
         "the sweep's parts were rewritten"
     );
-    let (d5, _) = null_rows(&out);
+    let (d5, _, g5) = null_rows(&out);
     assert_eq!(d5.len(), 5);
     assert_eq!(&d5[..3], &d3[..]);
+    // The kept draws keep their goodranks rows (they come first, by draw).
+    assert_eq!(&g5[..g3.len()], &g3[..]);
     // Another sample size: the null alone restarts, and says which key changed.
     let o = run(
         &config(tmp.path(), "c", "[null]\ndraws = 2\nspecs = 4\n"),
@@ -258,6 +265,13 @@ fn bad_null_keys_and_values_are_refused_naming_the_key() {
     assert!(e.contains("null.metric") && e.contains("`rmse`"), "{e}");
     let e = refused("[null]\ndraws = -3\n");
     assert!(e.contains("draws"), "{e}");
+    let e = refused("[null]\nimportance = [\"native\", \"permutaton\"]\n");
+    assert!(
+        e.contains("null.importance") && e.contains("`permutation`"),
+        "{e}"
+    );
+    let e = refused("[null]\nranks_within = -0.1\n");
+    assert!(e.contains("null.ranks_within = -0.1"), "{e}");
     // Defaults, and [null] is not part of the run's identity.
     let text = format!("{}{SPACE}[null]\n", data());
     let c = forkmap::config::Config::from_toml(&text, Path::new("."), "t").unwrap();
@@ -265,6 +279,11 @@ fn bad_null_keys_and_values_are_refused_naming_the_key() {
     assert_eq!(
         (s.draws, s.specs, s.top_k, s.metric.name()),
         (100, None, 3, "mae")
+    );
+    assert_eq!(
+        (s.kinds(), s.ranks_within),
+        (vec!["native"], 0.10),
+        "the null computes native importances only unless asked"
     );
     // An unset null.metric follows the report's metric ([map] metric); a set one wins.
     for (map, null, want) in [
@@ -310,7 +329,7 @@ fn check_reports_an_incomplete_null() {
     );
 }
 
-fn column_f64(b: &arrow_array::RecordBatch, name: &str) -> Vec<f64> {
+pub fn column_f64(b: &arrow_array::RecordBatch, name: &str) -> Vec<f64> {
     use arrow_array::Array;
     let c = b.column_by_name(name).unwrap();
     let a = c
@@ -320,7 +339,7 @@ fn column_f64(b: &arrow_array::RecordBatch, name: &str) -> Vec<f64> {
     (0..a.len()).map(|i| a.value(i)).collect()
 }
 
-fn column_str(b: &arrow_array::RecordBatch, name: &str) -> Vec<String> {
+pub fn column_str(b: &arrow_array::RecordBatch, name: &str) -> Vec<String> {
     use arrow_array::Array;
     let c = b.column_by_name(name).unwrap();
     let a = c

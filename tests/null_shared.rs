@@ -57,6 +57,7 @@ fn shared_stage_fits_give_bit_identical_null_draws() {
         run_config: serde_json::Value::Null,
         data_sha256: String::new(),
         share_stages: true,
+        repeats: 1,
     };
     let subset = forkmap::null::run::sample(&inp);
     // The sample holds specs whose stages read the outcome, and specs whose do not.

@@ -6,7 +6,7 @@
 //! ```text
 //! RUN_DIR/manifest.json            identity, space, counts, lineage      (MANIFEST)
 //! RUN_DIR/{specs,predictions,loadings,importance}/part-*.parquet       (TABLES)
-//! RUN_DIR/null/    manifest.json, draws/, tops/                         (NULL_DIR)
+//! RUN_DIR/null/    manifest.json, draws/, tops/, goodranks/             (NULL_DIR)
 //! RUN_DIR/nested/  settings.json, fold-*.parquet                        (NESTED_DIR)
 //! RUN_DIR/refit/   manifest.json, fits/, tops/                          (REFIT_DIR)
 //! RUN_DIR/curves/  curves.json and the curve tables                     (CURVES_DIR)
@@ -156,6 +156,29 @@ pub mod refit_tops {
     ];
 }
 
+/// Per draw, the importance ranks of every spec within `[null] ranks_within` of the draw's
+/// best error (what the report's claims need under the null).
+pub const NULL_GOODRANKS: &str = "goodranks";
+/// The null's tables, in the order a draw writes them (its `draws` file last: a draw is
+/// complete exactly when that file exists).
+pub const NULL_DRAW_TABLES: &[&str] = &[NULL_TOPS, NULL_GOODRANKS, NULL_DRAWS];
+
+/// Columns of `null/goodranks` ([`NULL_GOODRANKS`]), in table order.
+pub mod null_goodranks {
+    pub const DRAW: &str = "draw";
+    pub const SPEC_ID: &str = "spec_id";
+    /// The spec's error in the draw (the null's metric).
+    pub const ERROR: &str = "error";
+    pub const LEVEL: &str = "level";
+    pub const KIND: &str = "kind";
+    pub const NAME: &str = "name";
+    pub const IMPORTANCE: &str = "importance";
+    pub const RANK: &str = "rank";
+    pub const IN_POOL: &str = "in_pool";
+    pub const ALL: &[&str] = &[
+        DRAW, SPEC_ID, ERROR, LEVEL, KIND, NAME, IMPORTANCE, RANK, IN_POOL,
+    ];
+}
 /// The nested estimate's settings inside [`NESTED_DIR`].
 pub const NESTED_SETTINGS: &str = "settings.json";
 /// The curves' settings and summary inside [`CURVES_DIR`].
@@ -170,7 +193,7 @@ pub mod null;
 pub mod report;
 
 /// Every derived table's fixed columns, by its place in the run directory: `DIR/NAME` is
-/// the file `DIR/NAME.parquet`, except `null/draws` and `null/tops` (folders of one part per
+/// the file `DIR/NAME.parquet`, except `null/draws`, `null/tops` and `null/goodranks` (folders of one part per
 /// draw), `refit/fits` and `refit/tops` (one part per subsample) and `nested/fold` (the files `nested/fold-OOO.parquet`). `report/curve` and
 /// `nested/fold` also hold columns named at run time (see their modules).
 pub const DERIVED_COLUMNS: &[(&str, &[&str])] = &[
@@ -194,6 +217,7 @@ pub const DERIVED_COLUMNS: &[(&str, &[&str])] = &[
     ("report/resamples", report::resamples::COLUMNS),
     ("report/null_summary", report::null_summary::COLUMNS),
     ("report/null_indicators", report::null_indicators::COLUMNS),
+    ("report/null_claims", report::null_claims::COLUMNS),
     ("report/nested_summary", report::nested_summary::COLUMNS),
     ("report/nested_choices", report::nested_choices::COLUMNS),
     ("report/nested_folds", report::nested_folds::COLUMNS),
@@ -206,6 +230,7 @@ pub const DERIVED_COLUMNS: &[(&str, &[&str])] = &[
     ("curves/clusters", curves::clusters::COLUMNS),
     ("null/tops", null::tops::COLUMNS),
     ("null/draws", null::draws::COLUMNS),
+    ("null/goodranks", null_goodranks::ALL),
     ("nested/fold", nested::fold::COLUMNS),
     ("refit/fits", refit_fits::ALL),
     ("refit/tops", refit_tops::ALL),

@@ -270,5 +270,67 @@ if os.path.exists(refit_manifest):
         n_rs = con.execute(f"select count(*) from '{rs}'").fetchone()[0]
         check("duckdb: report refit_stability mean shares from refit/tops", bad == 0 and n_rs > 0, f"{bad} of {n_rs}")
 
+# The null's goodranks (RUN_DIR/null/goodranks/): one file per complete draw; every spec
+# in it is within ranks_within of the draw's best and the draw's best is there; ranks are
+# SQL's rank(); the report's null_claims p follows its formula, and each "in the top k"
+# claim's null mean (over the draws whose good set holds the kind) is recomputed here from
+# goodranks with the report's ratio rule.
+gr_dir = os.path.join(run, "null", "goodranks")
+if os.path.isdir(gr_dir):
+    import re
+
+    nman = json.load(open(os.path.join(run, "null", "manifest.json")))
+    within = nman["identity"]["ranks_within"]
+    draws_dir = os.path.join(run, "null", "draws")
+    names = lambda d: sorted(f for f in os.listdir(d) if f.startswith("draw-"))
+    check("null: a goodranks file for every complete draw", names(gr_dir) == names(draws_dir), f"{len(names(gr_dir))} vs {len(names(draws_dir))}")
+    gr_glob = os.path.join(gr_dir, "*.parquet")
+    dr_glob = os.path.join(draws_dir, "*.parquet")
+    cols = pq.read_schema(os.path.join(gr_dir, names(gr_dir)[0])).names
+    check("null: goodranks columns", cols == ["draw", "spec_id", "error", "level", "kind", "name", "importance", "rank", "in_pool"], f"{cols}")
+    far = con.execute(
+        f"""select count(*) from '{gr_glob}' g join '{dr_glob}' d using (draw)
+            where g.error > d.best_error * (1 + {within})"""
+    ).fetchone()[0]
+    check("duckdb: goodranks hold only specs within ranks_within of the draw's best", far == 0, f"{far} rows")
+    off = con.execute(
+        f"""select count(*) from (select draw, min(error) lo from '{gr_glob}' group by 1) g
+            join '{dr_glob}' d using (draw) where g.lo <> d.best_error"""
+    ).fetchone()[0]
+    check("duckdb: each draw's best spec is in its goodranks", off == 0, f"{off} draws")
+    bad = con.execute(
+        f"""select count(*) from (select rank, rank() over (partition by draw, spec_id, level, kind
+            order by importance desc) as sql_rank from '{gr_glob}') where rank <> sql_rank"""
+    ).fetchone()[0]
+    check("duckdb: goodranks ranks are SQL's rank() of the importance", bad == 0, f"{bad} rows off")
+    nc_path = os.path.join(run, "report", "null_claims.parquet")
+    rep = json.load(open(os.path.join(run, "report", "report.json")))
+    if os.path.exists(nc_path):
+        nc = pq.read_table(nc_path).to_pylist()
+        tested = [c for c in nc if c["not_tested"] == ""]
+        badp = [c["statement"] for c in tested if abs(c["p"] - (1 + c["draws_at_least"]) / (1 + c["draws"])) > 1e-15]
+        check("null_claims: p = (1 + draws at least) / (1 + draws)", not badp, f"{badp}")
+        untested_ok = all(c["p"] is None and c["observed"] is None for c in nc if c["not_tested"] != "")
+        check("null_claims: untested claims carry a reason and no numbers", untested_ok)
+        pat = re.compile(r"^(indicator|group) (\S+) is in the top (\d+) \((\S+) importance\)$")
+        seen = 0
+        for c in tested:
+            m = pat.match(c["statement"])
+            if not m or rep["good"] != "ratio":
+                continue
+            level, name, k, kind = m.group(1), m.group(2), int(m.group(3)), m.group(4)
+            eps = rep["ratio_eps"]
+            got = con.execute(
+                f"""with good as (select distinct g.draw, g.spec_id from '{gr_glob}' g join '{dr_glob}' d using (draw)
+                        where g.error <= d.best_error * (1 + {eps}) and g.level = '{level}' and g.kind = '{kind}'),
+                    per as (select good.draw, avg(case when g.rank <= {k} and g.importance > 0 and g.in_pool then 1.0 else 0.0 end) s
+                        from good left join '{gr_glob}' g on g.draw = good.draw and g.spec_id = good.spec_id
+                        and g.level = '{level}' and g.kind = '{kind}' and g.name = '{name}' group by 1)
+                    select avg(s), count(*) from per"""
+            ).fetchone()
+            check(f"duckdb: null mean support of '{c['statement']}' from goodranks", got[1] == c["draws"] - c["draws_unknown"] and abs(got[0] - c["null_mean"]) < 1e-12, f"{got} vs {c['null_mean']}")
+            seen += 1
+        print(f"      ({seen} 'in the top k' claims recomputed from goodranks; {len(tested)} of {len(nc)} claims tested)")
+
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)

@@ -381,7 +381,12 @@ impl Config {
             n.check().map_err(&err)?;
         }
         if let Some(n) = &cfg.null {
-            n.check(&cfg.map.metric).map_err(&err)?;
+            let ns = n.check(&cfg.map.metric).map_err(&err)?;
+            if (ns.permutation || ns.group) && cfg.importance.repeats == 0 {
+                return Err(err(
+                    "null.importance asks for permutation importances but importance.repeats = 0: set repeats >= 1 (the null uses the run's repeats)".into(),
+                ));
+            }
         }
         if let Some(r) = &cfg.refit {
             r.check().map_err(&err)?;

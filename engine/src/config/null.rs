@@ -8,7 +8,18 @@
 use serde::{Deserialize, Serialize};
 
 /// Keys of `[null]`.
-pub const NULL_KEYS: &[&str] = &["draws", "specs", "top_k", "metric"];
+pub const NULL_KEYS: &[&str] = &[
+    "draws",
+    "specs",
+    "top_k",
+    "metric",
+    "importance",
+    "ranks_within",
+];
+
+/// Importance kinds a null draw can compute (`[importance] kinds` names). `native` is
+/// always computed; `permutation` and `group` use the run's `[importance] repeats`.
+pub const NULL_KINDS: &[&str] = &["native", "permutation", "group"];
 
 /// Error metrics a null draw can rank its specs by.
 pub const NULL_METRICS: &[&str] = &["mae", "rmse", "unit_mae"];
@@ -32,6 +43,24 @@ pub struct NullSection {
     /// report's metric).
     #[serde(default)]
     pub metric: Option<String>,
+    /// Importance kinds computed in every draw (default `["native"]`); `permutation` and
+    /// `group` let the report test the claims made on those kinds under the null, at the
+    /// cost of the permutation importances of every spec of every draw.
+    #[serde(default = "default_importance")]
+    pub importance: Vec<String>,
+    /// Each draw keeps the importance ranks of its specs whose error is within this
+    /// relative distance of the draw's best (`null/goodranks`), so that the report can
+    /// evaluate its claims over each draw's good set. Default 0.10: it covers the
+    /// report's ratio rule up to `map.ratio_eps = 0.10` (the default is 0.05).
+    #[serde(default = "default_ranks_within")]
+    pub ranks_within: f64,
+}
+
+fn default_importance() -> Vec<String> {
+    vec!["native".into()]
+}
+fn default_ranks_within() -> f64 {
+    0.10
 }
 
 fn default_draws() -> usize {
@@ -48,6 +77,8 @@ impl Default for NullSection {
             specs: None,
             top_k: default_top_k(),
             metric: None,
+            importance: default_importance(),
+            ranks_within: default_ranks_within(),
         }
     }
 }
@@ -72,12 +103,32 @@ impl NullMetric {
 }
 
 /// `[null]` checked: what the null code reads.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct NullSettings {
     pub draws: u32,
     pub specs: Option<u32>,
     pub top_k: u32,
     pub metric: NullMetric,
+    /// Whether the draws compute permutation importances per indicator and per group
+    /// (native importances are always computed).
+    pub permutation: bool,
+    pub group: bool,
+    /// Relative band of `null/goodranks` (`[null] ranks_within`).
+    pub ranks_within: f64,
+}
+
+impl NullSettings {
+    /// The importance kinds of a draw, as `[importance] kinds` names them.
+    pub fn kinds(&self) -> Vec<&'static str> {
+        let mut k = vec!["native"];
+        if self.permutation {
+            k.push("permutation");
+        }
+        if self.group {
+            k.push("group");
+        }
+        k
+    }
 }
 
 /// Most draws accepted (a p-value resolution of 1e-5 is more than any report needs).
@@ -126,11 +177,30 @@ impl NullSection {
                 ))
             }
         };
+        for k in &self.importance {
+            if !NULL_KINDS.contains(&k.as_str()) {
+                return Err(format!(
+                    "null.importance = \"{k}\"{}: kinds a null draw computes: {} (native always)",
+                    suggest(k, NULL_KINDS.iter().copied()),
+                    NULL_KINDS.join(", ")
+                ));
+            }
+        }
+        if !(self.ranks_within.is_finite() && (0.0..=10.0).contains(&self.ranks_within)) {
+            return Err(format!(
+                "null.ranks_within = {}: must be between 0 and 10 (a relative distance to the draw's best error)",
+                self.ranks_within
+            ));
+        }
+        let wants = |k: &str| self.importance.iter().any(|x| x == k);
         Ok(NullSettings {
             draws: self.draws as u32,
             specs,
             top_k: self.top_k as u32,
             metric,
+            permutation: wants("permutation"),
+            group: wants("group"),
+            ranks_within: self.ranks_within,
         })
     }
 }

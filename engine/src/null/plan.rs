@@ -21,13 +21,21 @@ pub fn lines(
     let mut t = String::new();
     let _ = writeln!(
         t,
-        "\nnull    {d} permutation draws x {s} specs{} x {fits_per_spec} fits = {} model fits (native importances only; ranked by {}, top {})",
+        "\nnull    {d} permutation draws x {s} specs{} x {fits_per_spec} fits = {} model fits ({}; ranked by {}, top {})",
         if s < space_specs {
             format!(" (a seeded sample of {space_specs})")
         } else {
             String::new()
         },
         d * s * fits_per_spec,
+        if settings.permutation || settings.group {
+            format!(
+                "importances: {} (null.importance)",
+                settings.kinds().join(", ")
+            )
+        } else {
+            "native importances only".to_string()
+        },
         settings.metric.name(),
         settings.top_k
     );
@@ -37,11 +45,16 @@ pub fn lines(
         "        estimated null time: {} (the sweep's estimate x {d} draws x {s}/{space_specs} specs; an upper bound: \
          stages that do not read the outcome are fitted once per fold and shared by every draw{})",
         human(est),
-        if sweep_importance {
-            "; and the sweep's estimate includes permutation importances, which the null does not compute"
-        } else {
-            ""
+        match (sweep_importance, settings.permutation || settings.group) {
+            (true, false) => "; and the sweep's estimate includes permutation importances, which the null does not compute",
+            (false, true) => "; but the null computes permutation importances, which the sweep's estimate does not include: expect more",
+            _ => "",
         }
+    );
+    let _ = writeln!(
+        t,
+        "        keeps the importance ranks of each draw's specs within {} of its best error (null/goodranks: the report's claims under the null)",
+        settings.ranks_within
     );
     let _ = writeln!(
         t,

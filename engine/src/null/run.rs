@@ -8,7 +8,7 @@
 //! sweep's results are untouched. Changing only `draws` keeps the complete draws below
 //! the new count (draw d depends only on the seed and d) and removes those above it.
 
-use super::table::{self, DrawRow, TopRow, DRAWS, TOPS};
+use super::table::{self, DrawRow, RankRow, TopRow, DRAWS, GOODRANKS, TOPS};
 use super::{draw_seed, permute_units, sample_specs, Exchange};
 use crate::config::importance::ImportanceSection;
 use crate::config::null::NullSettings;
@@ -35,6 +35,9 @@ pub struct NullInput<'a> {
     /// Fit the stages that do not read the outcome once per fold and share them across
     /// draws (the tables are bit-identical either way; `run` sets it, tests compare).
     pub share_stages: bool,
+    /// The run's `[importance] repeats`: the permutation kinds' draws per indicator and
+    /// fold, when `[null] importance` asks for them.
+    pub repeats: usize,
 }
 
 /// What a null run did.
@@ -56,7 +59,10 @@ pub struct NullSummary {
 pub const HELD_FIXED: &str = "held fixed in every draw: the indicators (x) and their gaps, the folds, each unit's set of waves, the weights that do not read the outcome (rows, units), and the outcome's values within each wave (so per-wave means and common trends between x and the outcome through the wave survive). Weights derived from the outcome or its standard error (which moves with it) are refitted on the permuted outcome, in-fold. The null is: no within-wave, between-unit association between the indicators and the outcome";
 
 /// Version of the null's table layout (a null written under another restarts).
-pub const LAYOUT: u32 = 2;
+pub const LAYOUT: u32 = 3;
+
+/// The native importance kinds (what `tops` holds).
+pub const NATIVE: [&str; 2] = ["coefficient", "impurity"];
 
 /// The null's identity (every setting but `draws`, and the run's identity).
 pub fn identity(inp: &NullInput) -> serde_json::Value {
@@ -67,7 +73,11 @@ pub fn identity(inp: &NullInput) -> serde_json::Value {
         "specs": inp.settings.specs,
         "top_k": inp.settings.top_k,
         "metric": inp.settings.metric.name(),
+        "importance": inp.settings.kinds(),
+        "repeats": if inp.settings.permutation || inp.settings.group { inp.repeats } else { 0 },
+        "ranks_within": inp.settings.ranks_within,
         // 2: `tops` holds the best spec of each native kind (`spec` column).
+        // 3: `goodranks` (the ranks of the specs near each draw's best).
         "layout": LAYOUT,
     })
 }
@@ -78,6 +88,12 @@ fn differs(old: &serde_json::Value, new: &serde_json::Value) -> Option<String> {
         ("specs", "null.specs"),
         ("top_k", "null.top_k"),
         ("metric", "null.metric (or map.metric, its default)"),
+        ("importance", "null.importance"),
+        (
+            "repeats",
+            "importance.repeats (the null's permutation importances use it)",
+        ),
+        ("ranks_within", "null.ranks_within"),
         ("layout", "null table layout"),
         ("version", "forkmap version"),
         ("data_sha256", "data file (sha256)"),
@@ -120,8 +136,8 @@ fn io_out(path: &Path, msg: String) -> Error {
 }
 
 /// Prepare `out/null` for (re)starting: returns the complete draws below `draws` and why
-/// it restarted (if so). Removes temporaries, draws at or above `draws`, and `tops` files
-/// without their `draws` file.
+/// it restarted (if so). Removes temporaries, draws at or above `draws`, and `tops` and
+/// `goodranks` files without their `draws` file.
 fn open(
     null_dir: &Path,
     ident: &serde_json::Value,
@@ -145,7 +161,7 @@ fn open(
         // Killed before its manifest: nothing of value.
         std::fs::remove_dir_all(null_dir).map_err(|e| Error::io(null_dir, e))?;
     }
-    for t in [DRAWS, TOPS] {
+    for t in crate::schema::NULL_DRAW_TABLES {
         let d = null_dir.join(t);
         std::fs::create_dir_all(&d).map_err(|e| Error::io(&d, e))?;
     }
@@ -153,13 +169,13 @@ fn open(
         .into_iter()
         .map(|(d, _)| d)
         .collect();
-    for t in [DRAWS, TOPS] {
+    for &t in crate::schema::NULL_DRAW_TABLES {
         let d = null_dir.join(t);
         for e in std::fs::read_dir(&d).map_err(|e| Error::io(&d, e))? {
             let path = e.map_err(|e| Error::io(&d, e))?.path();
             let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
             let stale = match table::draw_of(name) {
-                Some(k) => k >= draws || (t == TOPS && complete.binary_search(&k).is_err()),
+                Some(k) => k >= draws || (t != DRAWS && complete.binary_search(&k).is_err()),
                 None => name.starts_with('.'),
             };
             if stale {
@@ -196,9 +212,10 @@ fn write_manifest(
         "exchange_groups": ex.groups.len(),
         "units_fixed": ex.fixed_units(),
         "top": "for each native importance kind (coefficient, impurity), the draw's best spec of that kind (lowest error among the specs whose native importance is of that kind) gives one set of tops rows; an indicator (group) is top when its rank there is <= top_k and its importance is > 0. The report uses the kind of the observed top spec only",
+        "goodranks": format!("for every spec of a draw whose error is within ranks_within = {} of the draw's best ((1 + ranks_within) x best), its error and the importance, rank and in_pool of every indicator and group in every kind the draw computed ({}); the report rebuilds each draw's good set from it and evaluates its conclusions there", inp.settings.ranks_within, inp.settings.kinds().join(", ")),
         "p_value": "p = (1 + #{draws at least as extreme as observed}) / (1 + D) (the +1 correction counts the observed data as one permutation)",
         "seconds_this_invocation": seconds,
-        "tables": [format!("{}/{DRAWS}", table::NULL_DIR), format!("{}/{TOPS}", table::NULL_DIR)],
+        "tables": [format!("{}/{DRAWS}", table::NULL_DIR), format!("{}/{TOPS}", table::NULL_DIR), format!("{}/{GOODRANKS}", table::NULL_DIR)],
     });
     write_bytes_atomic(
         &null_dir.join(crate::schema::MANIFEST),
@@ -253,8 +270,8 @@ pub fn run_null(
         use rayon::prelude::*;
         pool.install(|| {
             todo.par_iter().try_for_each(|&d| {
-                let (row, tops) = one_draw(inp, &subset, d, pool, &progress, cache.clone())?;
-                table::write_draw(&null_dir, &row, &tops)
+                let (row, tops, ranks) = one_draw(inp, &subset, d, pool, &progress, cache.clone())?;
+                table::write_draw(&null_dir, &row, &tops, &ranks)
             })
         })?;
     }
@@ -290,7 +307,8 @@ struct Got {
     importance: Vec<crate::importance::ImportanceRow>,
 }
 
-/// Run draw `d`: permute, sweep the sample with native importances, summarise. `cache`
+/// Run draw `d`: permute, sweep the sample with native importances (and the permutation
+/// kinds when `[null] importance` asks), summarise. `cache`
 /// (one per null run) shares the outcome-independent stage fits across draws.
 pub fn one_draw(
     inp: &NullInput,
@@ -299,16 +317,17 @@ pub fn one_draw(
     pool: &rayon::ThreadPool,
     progress: &Mutex<Progress>,
     cache: Option<std::sync::Arc<crate::sweep::cache::StageCache>>,
-) -> Result<(DrawRow, Vec<TopRow>)> {
+) -> Result<(DrawRow, Vec<TopRow>, Vec<RankRow>)> {
     let seed = draw_seed(inp.seed, d);
     let permuted = permute_units(inp.panel, seed)?;
     let mut sweep = Sweep::new(&permuted, inp.space, inp.folds, inp.seed, Some(subset))?;
     sweep.describe = false;
     // Only the outcome differs between draws: stages that do not read it are shared.
     sweep.stage_cache = cache;
+    let kinds = inp.settings.kinds();
     sweep.importance = Some(ImportanceSection {
-        repeats: 0,
-        kinds: vec!["native".into()],
+        repeats: if kinds.len() > 1 { inp.repeats } else { 0 },
+        kinds: kinds.iter().map(|k| k.to_string()).collect(),
         within: None,
     });
     let metric = inp.settings.metric;
@@ -356,7 +375,7 @@ fn summarise_draw(
     d: u64,
     seed: u64,
     got: &[Got],
-) -> (DrawRow, Vec<TopRow>) {
+) -> (DrawRow, Vec<TopRow>, Vec<RankRow>) {
     let ok: Vec<&Got> = got.iter().filter(|g| g.error.is_finite()).collect();
     let errors: Vec<f64> = ok.iter().map(|g| g.error).collect();
     let q = |p: f64| {
@@ -380,6 +399,7 @@ fn summarise_draw(
     let mut kinds: Vec<&str> = ok
         .iter()
         .flat_map(|g| g.importance.iter().map(|r| r.kind))
+        .filter(|k| NATIVE.contains(k))
         .collect();
     kinds.sort_unstable();
     kinds.dedup();
@@ -405,6 +425,23 @@ fn summarise_draw(
             );
         }
     }
+    // goodranks: every ok spec within ranks_within of the best, every row it holds.
+    let cut = best.map_or(f64::NAN, |g| g.error * (1.0 + inp.settings.ranks_within));
+    let mut ranks = Vec::new();
+    for g in ok.iter().filter(|g| g.error <= cut) {
+        let spec = id(g);
+        ranks.extend(g.importance.iter().map(|r| RankRow {
+            draw: d as i64,
+            spec: spec.clone(),
+            error: g.error,
+            level: r.level.to_string(),
+            kind: r.kind.to_string(),
+            name: r.name.to_string(),
+            importance: r.importance,
+            rank: r.rank as i64,
+            in_pool: r.in_pool,
+        }));
+    }
     let row = DrawRow {
         draw: d as i64,
         seed: format!("{seed:016x}"),
@@ -420,7 +457,7 @@ fn summarise_draw(
         n_ok: ok.len() as i64,
         best_spec: best.map(id),
     };
-    (row, tops)
+    (row, tops, ranks)
 }
 
 /// Draws complete in `out/null` and the draws asked (from its manifest); `None` when the

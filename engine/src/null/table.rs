@@ -6,8 +6,13 @@
 //!   one row per indicator (and codebook group): its rank in the draw's best spec of that
 //!   kind and whether it is top-k.
 //!
-//! The `tops` file of a draw is written before its `draws` file, so a draw is complete
-//! exactly when its `draws` file exists.
+//! * `goodranks/draw-NNNNNN.parquet`: for every spec of the draw whose error is within
+//!   `[null] ranks_within` of the draw's best, its error and one row per indicator (and
+//!   group) and importance kind the draw computed: importance, rank, in_pool. The report
+//!   rebuilds each draw's good set from it and evaluates its claims there.
+//!
+//! The `tops` and `goodranks` files of a draw are written before its `draws` file, so a
+//! draw is complete exactly when its `draws` file exists.
 
 use crate::error::{Error, Result};
 use crate::schema::null as columns;
@@ -16,10 +21,13 @@ use arrow_array::{Array, BooleanArray, Float64Array, Int64Array, StringArray};
 use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
 use std::path::{Path, PathBuf};
 
+use crate::schema::null_goodranks as gr;
 /// Folder of the null inside a run directory.
 pub use crate::schema::NULL_DIR;
 /// The per-draw table.
 pub use crate::schema::NULL_DRAWS as DRAWS;
+/// The per-draw ranks of the specs near the draw's best.
+pub use crate::schema::NULL_GOODRANKS as GOODRANKS;
 /// The per-draw indicator (and group) table.
 pub use crate::schema::NULL_TOPS as TOPS;
 
@@ -68,6 +76,24 @@ pub struct TopRow {
     pub top: bool,
 }
 
+/// One row of `null/goodranks`: one name's importance in one spec of a draw.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RankRow {
+    pub draw: i64,
+    pub spec: String,
+    /// The spec's error in the draw (the null's metric).
+    pub error: f64,
+    /// `indicator` or `group`.
+    pub level: String,
+    /// `permutation`, `coefficient` or `impurity`, as in the run's importance table.
+    pub kind: String,
+    pub name: String,
+    pub importance: f64,
+    /// Competition rank (1 = most important), as in the run's importance table.
+    pub rank: i64,
+    pub in_pool: bool,
+}
+
 /// File name of draw `d`.
 pub fn file_name(d: u64) -> String {
     format!("draw-{d:06}.parquet")
@@ -81,8 +107,13 @@ pub fn draw_of(name: &str) -> Option<u64> {
         .ok()
 }
 
-/// Write one draw's two files (tops first).
-pub fn write_draw(null_dir: &Path, row: &DrawRow, tops: &[TopRow]) -> Result<()> {
+/// Write one draw's three files (its `draws` file last).
+pub fn write_draw(
+    null_dir: &Path,
+    row: &DrawRow,
+    tops: &[TopRow],
+    ranks: &[RankRow],
+) -> Result<()> {
     let name = format!("draw-{:06}", row.draw);
     Cols::default()
         .i(columns::tops::DRAW, tops.iter().map(|t| t.draw))
@@ -94,6 +125,17 @@ pub fn write_draw(null_dir: &Path, row: &DrawRow, tops: &[TopRow]) -> Result<()>
         .i(columns::tops::RANK, tops.iter().map(|t| t.rank))
         .b(columns::tops::TOP, tops.iter().map(|t| t.top))
         .write(&null_dir.join(TOPS), &name)?;
+    Cols::default()
+        .i(gr::DRAW, ranks.iter().map(|t| t.draw))
+        .s(gr::SPEC_ID, ranks.iter().map(|t| &t.spec))
+        .f(gr::ERROR, ranks.iter().map(|t| t.error))
+        .s(gr::LEVEL, ranks.iter().map(|t| &t.level))
+        .s(gr::KIND, ranks.iter().map(|t| &t.kind))
+        .s(gr::NAME, ranks.iter().map(|t| &t.name))
+        .f(gr::IMPORTANCE, ranks.iter().map(|t| t.importance))
+        .i(gr::RANK, ranks.iter().map(|t| t.rank))
+        .b(gr::IN_POOL, ranks.iter().map(|t| t.in_pool))
+        .write(&null_dir.join(GOODRANKS), &name)?;
     let r = std::slice::from_ref(row);
     Cols::default()
         .i(columns::draws::DRAW, r.iter().map(|t| t.draw))
@@ -246,4 +288,46 @@ pub fn read_tops(null_dir: &Path, draws: &[u64]) -> Result<Vec<TopRow>> {
         })?;
     }
     Ok(out)
+}
+
+/// Read `null/goodranks` for the given (complete) draws; `None` when a draw lacks its file
+/// (a null written before the table existed).
+pub fn read_goodranks(null_dir: &Path, draws: &[u64]) -> Result<Option<Vec<RankRow>>> {
+    let files = complete_files(&null_dir.join(GOODRANKS))?;
+    let have: Vec<u64> = files.iter().map(|f| f.0).collect();
+    if draws.iter().any(|d| have.binary_search(d).is_err()) {
+        return Ok(None);
+    }
+    let mut out = Vec::new();
+    for (d, path) in files {
+        if draws.binary_search(&d).is_err() {
+            continue;
+        }
+        each_batch(&path, |b| {
+            let draw = col::<Int64Array>(b, &path, gr::DRAW)?;
+            let spec = col::<StringArray>(b, &path, gr::SPEC_ID)?;
+            let error = col::<Float64Array>(b, &path, gr::ERROR)?;
+            let level = col::<StringArray>(b, &path, gr::LEVEL)?;
+            let kind = col::<StringArray>(b, &path, gr::KIND)?;
+            let name = col::<StringArray>(b, &path, gr::NAME)?;
+            let imp = col::<Float64Array>(b, &path, gr::IMPORTANCE)?;
+            let rank = col::<Int64Array>(b, &path, gr::RANK)?;
+            let in_pool = col::<BooleanArray>(b, &path, gr::IN_POOL)?;
+            for i in 0..b.num_rows() {
+                out.push(RankRow {
+                    draw: draw.value(i),
+                    spec: spec.value(i).to_string(),
+                    error: error.value(i),
+                    level: level.value(i).to_string(),
+                    kind: kind.value(i).to_string(),
+                    name: name.value(i).to_string(),
+                    importance: imp.value(i),
+                    rank: rank.value(i),
+                    in_pool: in_pool.value(i),
+                });
+            }
+            Ok(())
+        })?;
+    }
+    Ok(Some(out))
 }

@@ -22,6 +22,7 @@ pub mod influence;
 pub mod model;
 pub mod nested;
 pub mod null;
+pub mod null_claims;
 pub mod plots;
 pub mod refit;
 pub mod shape;
@@ -53,6 +54,10 @@ pub struct Built {
     /// into `units`), exported so anyone can recompute the intervals.
     pub resample_units: Vec<u32>,
     pub units: Vec<String>,
+    /// The kind table and statement of each importance conclusion, by position in
+    /// `report.conclusions` (`None` or absent: no importance statement, e.g. the curves'
+    /// sign claims); the null evaluates them in its draws.
+    pub tests: Vec<Option<(usize, conclusions::Statement)>>,
 }
 
 /// Read a run set and build its report with settings `s` (`seed`: the report's seed).
@@ -82,7 +87,7 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
         h.insert(h.len().saturating_sub(1), nested::headline(&n));
         built.report.nested = Some(n);
     }
-    built.report.null = null::analyse(set, &t, &built.report.meta.metric)?;
+    built.report.null = null::analyse(set, &t, &built.report, &built.tests)?;
     if let Some(n) = &built.report.null {
         // before the closing cautions sentence
         let h = &mut built.report.headline;
@@ -201,6 +206,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
             report: r,
             resample_units,
             units: t.units.clone(),
+            tests: Vec::new(),
         });
     };
     let best_err = e.point[best];
@@ -300,6 +306,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
         }
     }
     // Conclusions: automatic ones on the primary kind of each level, then the claims.
+    let mut tests = Vec::new();
     let prim: Vec<usize> = ["indicator", "group"]
         .iter()
         .filter_map(|l| primary(&t.importance, l))
@@ -316,6 +323,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
                 &dims,
                 &choices,
             ));
+            tests.push(Some((ti, st)));
         }
     }
     let pick = |l: &str| primary(&t.importance, l);
@@ -327,6 +335,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
         r.conclusions.push(conclusions::evaluate(
             "claim", text, &st, kt, chosen, &dims, &choices,
         ));
+        tests.push(Some((ti, st)));
     }
     // Stability over the same resamples.
     let rule = match s.good.as_str() {
@@ -355,6 +364,7 @@ pub fn analyse(t: &RunTables, s: &MapSection, seed: u64) -> Result<Built> {
         report: r,
         resample_units,
         units: t.units.clone(),
+        tests,
     })
 }
 

@@ -17,10 +17,15 @@
 //!   draw, so the rates average about top_k / names). No per-indicator p-value is given:
 //!   one for the names that came out top would be selected after the fact (under the
 //!   complete null every observed-top name would get p of about top_k / names).
+//! * Conclusions: each one's support over every draw's good set, from `null/goodranks`
+//!   ([`super::null_claims`]).
 
+use super::conclusions::Statement;
 use super::data::RunTables;
+use super::model::Report;
+use super::null_claims::{DrawRule, NullClaims};
 use crate::error::Result;
-use crate::null::table::{read_draws, read_tops, NULL_DIR};
+use crate::null::table::{read_draws, read_goodranks, read_tops, NULL_DIR};
 use crate::results::RunSet;
 use crate::schema::report as columns;
 use crate::sink::Cols;
@@ -60,6 +65,8 @@ pub struct NullReport {
     pub units_fixed: usize,
     /// Notes (an incomplete null, specs missing from the observed run).
     pub notes: Vec<String>,
+    /// Each conclusion's support under the null (`report::null_claims`).
+    pub claims: NullClaims,
 }
 
 /// One indicator (or group) under the null.
@@ -76,8 +83,16 @@ pub struct NullIndicator {
 
 const NATIVE: [&str; 2] = ["coefficient", "impurity"];
 
-/// The null of a whole-space run read as `set` (its tables `t`), when it has one.
-pub fn analyse(set: &RunSet, t: &RunTables, report_metric: &str) -> Result<Option<NullReport>> {
+/// The null of a whole-space run read as `set` (its tables `t`), when it has one. `r` is
+/// the report so far (its settings and conclusions), `tests[i]` the kind table and
+/// statement of `r.conclusions[i]` (`None`: not an importance statement).
+pub fn analyse(
+    set: &RunSet,
+    t: &RunTables,
+    r: &Report,
+    tests: &[Option<(usize, Statement)>],
+) -> Result<Option<NullReport>> {
+    let report_metric = r.meta.metric.as_str();
     // The null lives in a whole-space run directory (a shard never runs it).
     let Some(dir) = set.dirs.iter().find(|d| d.shard.is_none()) else {
         return Ok(None);
@@ -98,6 +113,7 @@ pub fn analyse(set: &RunSet, t: &RunTables, report_metric: &str) -> Result<Optio
         .collect();
     let ids: Vec<u64> = draws.iter().map(|d| d.draw as u64).collect();
     let tops = read_tops(&null_dir, &ids)?;
+    let goodranks = read_goodranks(&null_dir, &ids)?;
     let metric = m["identity"]["metric"]
         .as_str()
         .unwrap_or("mae")
@@ -173,6 +189,16 @@ pub fn analyse(set: &RunSet, t: &RunTables, report_metric: &str) -> Result<Optio
         crate::metrics::quantile(&errors, 0.5)
     };
     n.p_best = crate::null::p_value(&n.null_best, n.observed_best, true);
+    n.claims = claims(
+        &m,
+        t,
+        r,
+        tests,
+        &sample,
+        &metric,
+        &draws,
+        goodranks.as_deref(),
+    );
     n.p_median = crate::null::p_value(&n.null_median, n.observed_median, true);
 
     // Observed top: the best sample spec holding a native kind at indicator level.
@@ -256,6 +282,50 @@ pub fn analyse(set: &RunSet, t: &RunTables, report_metric: &str) -> Result<Optio
     Ok(Some(n))
 }
 
+/// Each conclusion under the null (`report::null_claims`), with the report's good rule.
+#[allow(clippy::too_many_arguments)]
+fn claims(
+    m: &serde_json::Value,
+    t: &RunTables,
+    r: &Report,
+    tests: &[Option<(usize, Statement)>],
+    sample: &[&str],
+    metric: &str,
+    draws: &[crate::null::table::DrawRow],
+    ranks: Option<&[crate::null::table::RankRow]>,
+) -> NullClaims {
+    let rule = match r.meta.good.as_str() {
+        "margin" => DrawRule::Margin(r.meta.margin),
+        _ => DrawRule::Ratio(r.meta.ratio_eps),
+    };
+    let kinds: Vec<String> = m["identity"]["importance"]
+        .as_array()
+        .map(|a| {
+            a.iter()
+                .filter_map(|v| v.as_str().map(String::from))
+                .collect()
+        })
+        .unwrap_or_else(|| vec!["native".into()]);
+    let inp = super::null_claims::Inputs {
+        t,
+        sample,
+        metric,
+        rule,
+        ranks_within: m["identity"]["ranks_within"].as_f64().unwrap_or(0.0),
+        kinds,
+        draws,
+        ranks,
+    };
+    let mut c = super::null_claims::evaluate(&inp, &r.conclusions, tests);
+    if r.meta.good == "paired" {
+        c.rule = format!(
+            "{} (the ratio rule stands in for the paired rule: a paired bootstrap would need every spec's per-unit errors in every draw)",
+            c.rule
+        );
+    }
+    c
+}
+
 /// The headline sentence.
 pub fn headline(n: &NullReport) -> String {
     let floor = 1.0 / (1.0 + n.draws as f64);
@@ -279,9 +349,27 @@ pub fn headline(n: &NullReport) -> String {
     } else {
         String::new()
     };
+    let tested: Vec<f64> = n
+        .claims
+        .claims
+        .iter()
+        .filter(|c| c.why.is_empty())
+        .map(|c| c.p)
+        .collect();
+    let claims = if tested.is_empty() || floor > 0.05 {
+        String::new()
+    } else {
+        let low = tested.iter().filter(|p| **p <= 0.05).count();
+        format!(
+            " Of the {} conclusions tested under the null, {low} have more support than in the draws at the 5% level (p <= 0.05); \
+             for the other {} the shuffled outcomes give as much support often enough that the support is no evidence for them (table null_claims).",
+            tested.len(),
+            tested.len() - low
+        )
+    };
     format!(
         "Permutation null ({} draws, outcome shuffled across units, {} specs each): the observed best {}{over} {} is {verdict} \
-         (p = {:.3}; {beaten} of {} draws did as well); the observed median {} {} has p = {:.3}.",
+         (p = {:.3}; {beaten} of {} draws did as well); the observed median {} {} has p = {:.3}.{claims}",
         n.draws,
         n.specs,
         n.metric,
@@ -380,5 +468,59 @@ pub fn write_tables(n: &NullReport, dir: &Path) -> Result<Vec<PathBuf>> {
             ind.iter().map(|_| n.top_k as i64),
         )
         .write(dir, "null_indicators")?;
-    Ok(vec![s, i])
+    let c = &n.claims.claims;
+    let cl = Cols::default()
+        .s(
+            columns::null_claims::SOURCE,
+            c.iter().map(|x| x.source.as_str()),
+        )
+        .s(
+            columns::null_claims::STATEMENT,
+            c.iter().map(|x| x.statement.as_str()),
+        )
+        .s(
+            columns::null_claims::LEVEL,
+            c.iter().map(|x| x.level.as_str()),
+        )
+        .s(
+            columns::null_claims::KIND,
+            c.iter().map(|x| x.kind.as_str()),
+        )
+        .of(
+            columns::null_claims::SUPPORT_GOOD,
+            c.iter().map(|x| x.support_good),
+        )
+        .of(columns::null_claims::OBSERVED, c.iter().map(|x| x.observed))
+        .i(
+            columns::null_claims::N_OBSERVED,
+            c.iter().map(|x| x.n_observed as i64),
+        )
+        .of(
+            columns::null_claims::NULL_MEAN,
+            c.iter().map(|x| x.null_mean),
+        )
+        .of(columns::null_claims::NULL_Q95, c.iter().map(|x| x.null_q95))
+        .i(
+            columns::null_claims::DRAWS_AT_LEAST,
+            c.iter().map(|x| x.draws_at_least as i64),
+        )
+        .i(
+            columns::null_claims::DRAWS_UNKNOWN,
+            c.iter().map(|x| x.draws_unknown as i64),
+        )
+        .i(
+            columns::null_claims::DRAWS,
+            c.iter().map(|x| x.draws as i64),
+        )
+        .of(columns::null_claims::P, c.iter().map(|x| x.p))
+        .s(
+            columns::null_claims::GOOD_RULE,
+            c.iter().map(|_| n.claims.rule.as_str()),
+        )
+        .s(
+            columns::null_claims::NOT_TESTED,
+            c.iter().map(|x| x.why.as_str()),
+        )
+        .write(dir, "null_claims")?;
+    Ok(vec![s, i, cl])
 }

@@ -46,7 +46,7 @@ pub const REPORT_TABLES: &[&str] = &[
 ];
 
 /// Tables written only when the run has a permutation null (`report/null.rs`).
-pub const NULL_TABLES: &[&str] = &["null_summary", "null_indicators"];
+pub const NULL_TABLES: &[&str] = &["null_summary", "null_indicators", "null_claims"];
 
 /// Write every table of `built` into `dir`.
 pub fn write_all(built: &Built, dir: &Path) -> Result<Vec<PathBuf>> {

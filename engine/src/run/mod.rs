@@ -339,6 +339,7 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
                 run_config: p.cfg.canonical_json(),
                 data_sha256: sha.clone(),
                 share_stages: true,
+                repeats: p.cfg.importance.repeats,
             },
             out,
             &pool,

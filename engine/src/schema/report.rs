@@ -376,3 +376,38 @@ pub mod refit_specs {
         METRIC,
     ];
 }
+pub mod null_claims {
+    pub const SOURCE: &str = "source";
+    pub const STATEMENT: &str = "statement";
+    pub const LEVEL: &str = "level";
+    pub const KIND: &str = "kind";
+    pub const SUPPORT_GOOD: &str = "support_good";
+    pub const OBSERVED: &str = "observed";
+    pub const N_OBSERVED: &str = "n_observed";
+    pub const NULL_MEAN: &str = "null_mean";
+    pub const NULL_Q95: &str = "null_q95";
+    pub const DRAWS_AT_LEAST: &str = "draws_at_least";
+    pub const DRAWS_UNKNOWN: &str = "draws_unknown";
+    pub const DRAWS: &str = "draws";
+    pub const P: &str = "p";
+    pub const GOOD_RULE: &str = "good_rule";
+    pub const NOT_TESTED: &str = "not_tested";
+    /// Every column, in table order (fixed columns only).
+    pub const COLUMNS: &[&str] = &[
+        SOURCE,
+        STATEMENT,
+        LEVEL,
+        KIND,
+        SUPPORT_GOOD,
+        OBSERVED,
+        N_OBSERVED,
+        NULL_MEAN,
+        NULL_Q95,
+        DRAWS_AT_LEAST,
+        DRAWS_UNKNOWN,
+        DRAWS,
+        P,
+        GOOD_RULE,
+        NOT_TESTED,
+    ];
+}

@@ -97,9 +97,8 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
              each draw the top comes from the draw's best spec of the same kind, so kinds are never mixed. Chance = share \
              of the {} draws where it is top (a draw without an ok spec of that kind counts as not top). About top_k names are top in every draw, so \
              the chance rates average about top_k / (number of names): a rate for a name picked because it came out top \
-             is not a p-value for it (no test here survives that selection). These rates stand in for the report's conclusions under the null: \
-             the null keeps only each draw's best spec's native importances, so the support of a conclusion over the \
-             good set is not recomputed per draw.",
+             is not a p-value for it (no test here survives that selection). These rates are about each draw's single best spec; the conclusions' \
+             support over each draw's good set is in the next table.",
             n.metric,
             match (&n.top_spec, &n.top_kind) {
                 (Some(s), Some(k)) => format!("; observed: spec {s}, {k} importance"),
@@ -126,5 +125,65 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         ]);
     }
     out.push(t);
+    out.push(claims_table(n));
     out
+}
+
+/// Each conclusion's support under the null.
+fn claims_table(n: &crate::report::null::NullReport) -> Table {
+    let c = &n.claims;
+    let note = match &c.unavailable {
+        Some(why) => format!("Not available for this run: {why}."),
+        None => format!(
+            "Each conclusion of the conclusions table, evaluated again in every draw of the null: over the draw's good set \
+             ({}, over the null's specs; ranks kept for the specs within {} of each draw's best; importance kinds the draws \
+             computed: {}). Observed = its support over the same rule's good set of the same specs in the observed run \
+             (the report's own support over its good set is shown beside it). p = (1 + number of draws whose support is at \
+             least the observed) / (1 + {}), the +1 correction as above; a draw whose support is unknown (its good set holds \
+             no spec of the kind) counts as at least as high. A conclusion that holds about as often under the null \
+             (null mean near the observed support, large p) is not evidence of anything: shuffled outcomes, with no \
+             between-unit association with any indicator, give it just as readily, e.g. through collinear indicators, \
+             pools or models that favour some names whatever the outcome. A small p says only that the support is higher \
+             than the outcome-shuffled data give; the cautions above still apply.",
+            c.rule,
+            c.ranks_within,
+            c.kinds.join(", "),
+            n.draws
+        ),
+    };
+    let mut t = Table::new(
+        "null_claims",
+        "Would the conclusions hold anyway? Their support under the null",
+        "null_claims.parquet",
+        note,
+    )
+    .cols(&[
+        ("source", false),
+        ("statement", false),
+        ("support, good set", true),
+        ("observed (null's specs)", true),
+        ("null mean", true),
+        ("null 95%", true),
+        ("draws at least", true),
+        ("p", true),
+        ("not tested because", false),
+    ]);
+    for x in &c.claims {
+        t.push(vec![
+            x.source.clone(),
+            x.statement.clone(),
+            share(x.support_good),
+            share(x.observed),
+            share(x.null_mean),
+            share(x.null_q95),
+            if x.why.is_empty() {
+                format!("{} of {}", x.draws_at_least, x.draws)
+            } else {
+                "-".into()
+            },
+            num(x.p),
+            x.why.clone(),
+        ]);
+    }
+    t
 }

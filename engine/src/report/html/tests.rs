@@ -28,6 +28,7 @@ fn the_page_has_every_section() {
         "id=\"plot-null-best\"",
         "id=\"table-null_summary\"",
         "id=\"table-null_indicators\"",
+        "id=\"table-null_claims\"",
     ] {
         assert!(h.contains(id), "missing {id}");
     }
@@ -146,7 +147,7 @@ fn long_tables_are_cut_with_a_pointer_to_their_file() {
 fn every_table_points_at_a_file_the_report_writes() {
     let r = sample(5);
     let ts = tables(&r);
-    assert_eq!(ts.len(), 16);
+    assert_eq!(ts.len(), 17);
     for t in &ts {
         let stem = t.file.trim_end_matches(".parquet");
         assert!(
@@ -160,6 +161,59 @@ fn every_table_points_at_a_file_the_report_writes() {
             assert_eq!(row.len(), t.columns.len(), "{}", t.id);
         }
     }
+}
+
+/// The conclusions under the null: numbers when tested, the reason when not, and "not
+/// available" for a null without goodranks.
+#[test]
+fn the_null_claims_table_shows_numbers_or_the_reason() {
+    use crate::report::null_claims::{NullClaim, NullClaims};
+    let mut r = sample(5);
+    let n = r.null.as_mut().unwrap();
+    n.claims = NullClaims {
+        rule: "mae <= (1 + 0.05) x the best".into(),
+        ranks_within: 0.1,
+        kinds: vec!["native".into()],
+        claims: vec![
+            NullClaim {
+                statement: "indicator a ranks above b (coefficient importance)".into(),
+                support_good: 0.9,
+                observed: 0.75,
+                null_mean: 0.5,
+                null_q95: 1.0,
+                draws_at_least: 7,
+                draws: 19,
+                p: 0.4,
+                ..Default::default()
+            },
+            NullClaim {
+                statement: "indicator c is in the top 3 (permutation importance)".into(),
+                observed: f64::NAN,
+                p: f64::NAN,
+                why: "not tested: the null's draws compute native importances".into(),
+                ..Default::default()
+            },
+        ],
+        unavailable: None,
+    };
+    let t = tables(&r)
+        .into_iter()
+        .find(|t| t.id == "null_claims")
+        .unwrap();
+    assert!(
+        t.about.contains("is not evidence of anything"),
+        "{}",
+        t.about
+    );
+    assert_eq!(t.rows[0][6], "7 of 19");
+    assert_eq!(t.rows[1][6], "-");
+    assert!(t.rows[1][8].starts_with("not tested"));
+    r.null.as_mut().unwrap().claims.unavailable = Some("old null".into());
+    let t = tables(&r)
+        .into_iter()
+        .find(|t| t.id == "null_claims")
+        .unwrap();
+    assert!(t.about.starts_with("Not available for this run: old null"));
 }
 
 #[test]
