@@ -33,7 +33,7 @@ from sklearn.pipeline import Pipeline
 from sklearn.preprocessing import MinMaxScaler, StandardScaler
 from sklearn.tree import DecisionTreeRegressor
 
-# forkmap's defaults for the parameters a grid may leave out (engine/src/models/*.rs).
+# forkmap's defaults for the parameters a grid may leave out (engine/src/fit/models/*.rs).
 DEFAULTS = {
     "pca": {"k": 3},
     "ridge": {"alpha": 1.0},

@@ -1,4 +1,4 @@
-//! The column contract: the names the engine writes (engine/src/schema.rs) against the
+//! The column contract: the names the engine writes (engine/src/base/schema.rs) against the
 //! tables of a real run, and against the meta-analyst's own list in
 //! tests/python/check_run.py (`CONTRACT`, printed by `check_run.py --names`).
 

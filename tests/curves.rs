@@ -1,4 +1,4 @@
-//! Curves through the whole pipeline (engine/src/curves): ICE/PD of OLS against the
+//! Curves through the whole pipeline (engine/src/derived/curves): ICE/PD of OLS against the
 //! model's own slope (by hand, through standardise and PCA), step-shaped ICE of a single
 //! tree at the planted threshold, hinge recovery, the unit bootstrap, silhouette on a
 //! worked example, planted subgroups, departing units, and thread-count determinism.

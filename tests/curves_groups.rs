@@ -1,4 +1,4 @@
-//! The subgroup decision (engine/src/curves/gap.rs) on controls with a known answer.
+//! The subgroup decision (engine/src/derived/curves/gap.rs) on controls with a known answer.
 //!
 //! Negative controls: unit curves that differ only by a continuous amplitude (normal, and
 //! skewed lognormal, amplitudes times a hinge-shaped ramp, plus noise) and curves of plain

@@ -1,4 +1,4 @@
-//! The curves' shape (engine/src/curves/bend.rs): a breakpoint only when a hinge or a jump
+//! The curves' shape (engine/src/derived/curves/bend.rs): a breakpoint only when a hinge or a jump
 //! beats a straight line by BIC (and departs from it by more than the flat tolerance); the
 //! direction from the least-squares trend with `turns` for reversals; members whose pool
 //! lacks the indicator are `absent`; duplicate fits are counted once.

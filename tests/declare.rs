@@ -1,5 +1,5 @@
 //! One way to declare an option: the test-only model family `probe` (cargo feature
-//! `test-options`, `engine/src/models/probe.rs`, one registration line in
+//! `test-options`, `engine/src/fit/models/probe.rs`, one registration line in
 //! `models::registry`) reaches every layer through its declaration alone: the config's
 //! parameter checks, grid expansion and spec ids, its declared automatic exclusion, the
 //! stage tree and the sweep, and `plan`'s listing.

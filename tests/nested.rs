@@ -1,4 +1,4 @@
-//! The nested estimate of choosing the best spec (engine/src/nested/): leak-freedom of the
+//! The nested estimate of choosing the best spec (engine/src/derived/nested/): leak-freedom of the
 //! choice and the refit, determinism across thread counts, its place between the naive
 //! best and the baseline on the toy panel, no optimism on pure noise, and resume.
 

@@ -1,4 +1,4 @@
-//! The refit of the top N specs on unit subsamples (engine/src/refit/, `[refit]`):
+//! The refit of the top N specs on unit subsamples (engine/src/derived/refit/, `[refit]`):
 //! a subsample keeps every wave of a kept unit (property test); no fitted step sees a row
 //! outside the subsample's training rows (the audit hook) and the dropped units reach
 //! nothing (poisoning); the tables are the same on 1 and 2 threads; a kill -9 mid-refit

@@ -1,4 +1,4 @@
-//! Permutation null of the sweep (engine/src/null.rs): the p-value formula, unit-wise
+//! Permutation null of the sweep (engine/src/derived/null/): the p-value formula, unit-wise
 //! permutation, determinism per draw, and significance on the toy panel vs pure noise.
 
 use crate::common::toy;

@@ -5,35 +5,26 @@
 //! [`sink`] (Parquet parts, atomic) -> [`results`] -> [`report`]. See DEVELOPERS.md for the code map and
 //! the invariants.
 
-pub mod config;
-pub mod curves;
-pub mod decl;
-pub mod error;
-pub mod folds;
-pub mod gather;
-pub mod importance;
-pub mod manifest;
-pub mod metrics;
-pub mod models;
-pub mod nested;
-pub mod null;
-pub mod panel;
-pub mod plan;
-pub mod progress;
-pub mod refit;
-pub mod report;
-pub mod results;
-pub mod resume;
-pub mod run;
-pub mod schema;
-pub mod shard;
-pub mod sink;
-pub mod space;
-pub mod stages;
+// Folders in the order data flows, bottom first: a folder imports only from folders
+// before it (tests/python/module_graph.py checks it).
+pub mod base;
+pub mod choices;
+pub mod derived;
+pub mod fit;
+pub mod intake;
+pub mod runs;
 pub mod starter;
-pub mod streams;
+pub mod store;
 pub mod sweep;
-pub mod transform;
-pub mod weights;
+
+// Every module under its short path (`crate::panel`, `forkmap::report`, ...).
+pub use base::{decl, error, metrics, progress, schema, streams};
+pub use choices::{shard, space};
+pub use derived::{curves, nested, null, refit, report};
+pub use fit::{models, stages, transform, weights};
+pub use intake::{config, folds, panel};
+pub use runs::{gather, plan, run};
+pub use store::{manifest, results, resume, sink};
+pub use sweep::importance;
 
 pub use error::{Error, FitError, Result};

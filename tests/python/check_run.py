@@ -11,7 +11,7 @@ import sys
 
 # The columns this script reads, by table (RUN_DIR/TABLE/*.parquet or RUN_DIR/TABLE.parquet):
 # the meta-analyst's own list, kept here apart from the engine. `--names` prints it as JSON
-# (a Rust test, tests/contract.rs, compares it with engine/src/schema.rs); a run checked
+# (a Rust test, tests/contract.rs, compares it with engine/src/base/schema.rs); a run checked
 # below must hold every column listed for each table it has.
 CONTRACT = {
     "specs": ["spec_id", "transform", "fill", "pool", "scale", "compress", "model", "weighting",
@@ -206,7 +206,7 @@ for table, cols in CONTRACT.items():
     check(f"pyarrow: {table} has the contract's columns", not missing, f"missing {missing}")
 
 # The refit of the top N specs on unit subsamples (RUN_DIR/refit/): the columns as
-# engine/src/schema.rs names them; the refitted specs are the run's top N by the report's
+# engine/src/base/schema.rs names them; the refitted specs are the run's top N by the report's
 # metric (ties by spec id); per subsample one best, the best is good, the good flags follow
 # the stated rule; tops counts are consistent; the report's refit shares are the tops'.
 refit_manifest = os.path.join(run, "refit", "manifest.json")

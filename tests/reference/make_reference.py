@@ -248,7 +248,7 @@ dump(
 # Screening pool: |Pearson correlation| of each column with the outcome over the rows where
 # the column has a value (pairwise-complete), as pandas' DataFrame.corrwith computes it.
 # Every column keeps at least 3 values and varies (forkmap scores those cases 0 by its own
-# rule, checked by hand in engine/src/stages/pool.rs).
+# rule, checked by hand in engine/src/fit/stages/pool.rs).
 import pandas as pd
 
 rng = np.random.default_rng(11)
@@ -377,7 +377,7 @@ dump(
     },
 )
 
-# The curves' subgroups and breakpoints (engine/src/curves): scikit-learn's silhouette_score
+# The curves' subgroups and breakpoints (engine/src/derived/curves): scikit-learn's silhouette_score
 # (Euclidean) and KMeans on fixed small datasets, and the hinge breakpoint against a
 # brute-force numpy least-squares fit over the same candidate breakpoints (200 evenly
 # spaced between the second and the second-to-last grid points, the first least SSE wins).
@@ -438,7 +438,7 @@ for t_true, noise, n in [(6.3, 0.0, 20), (2.5, 0.05, 12), (0.7, 0.3, 30), (4.0, 
             best = (sse, float(t), float(z[1]), float(z[1] + z[2]))
     hinge_cases.append({"x": x.tolist(), "y": y.tolist(), "sse": best[0], "breakpoint": best[1], "slope_left": best[2], "slope_right": best[3]})
 
-# The curve's shape (engine/src/curves/bend.rs), computed here with numpy.linalg.lstsq on
+# The curve's shape (engine/src/derived/curves/bend.rs), computed here with numpy.linalg.lstsq on
 # each model's own design matrix: the line [1, x]; the continuous hinge [1, x, (x-t)+] at
 # the 200 candidates of the hinge above and at each gap's meeting point of the jump's two
 # lines; the jump [1, x, 1[x>t], (x-t)+] at each gap's midpoint (at least two points each

@@ -36,6 +36,7 @@ use std::sync::Arc;
 use std::time::Instant;
 
 pub mod cache;
+pub mod importance;
 mod nest;
 mod spec;
 

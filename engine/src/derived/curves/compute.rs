@@ -8,9 +8,9 @@ use super::hinge::Composition;
 use super::{
     band, bootstrap_breakpoint, centred, direction, fit_hinge, ice, pd, quantile_grid, Direction,
 };
+use crate::choices::prepared::Prepared;
 use crate::error::{Error, Result};
 use crate::folds::{Fold, FoldPlan};
-use crate::run::Prepared;
 use crate::sweep::Sweep;
 use ndarray::Array2;
 use rayon::prelude::*;

@@ -5,10 +5,10 @@
 
 use super::compute::{compute, Output, Settings};
 use super::{select, table};
+use crate::choices::prepared::Prepared;
 use crate::config::map::MapSection;
 use crate::error::{Error, Result};
 use crate::results::RunSet;
-use crate::run::Prepared;
 use std::path::{Path, PathBuf};
 
 /// Which specs get curves.
@@ -60,7 +60,7 @@ pub fn check_run(set: &RunSet, p: &Prepared) -> Result<()> {
             c.describe().join("\n  ")
         )));
     }
-    let sha = crate::run::sha256_file(&p.data_path)?;
+    let sha = crate::choices::prepared::sha256_file(&p.data_path)?;
     {
         let want = &set.manifest().data_sha256;
         if *want != sha {
