@@ -443,4 +443,11 @@ fn bad_refit_keys_and_values_are_refused_naming_the_key() {
         "{}",
         String::from_utf8_lossy(&o.stdout)
     );
+    // `run` refuses it before the sweep: exit 2, the key named, nothing written.
+    let out = tmp.path().join("never");
+    let o = crate::common::run_cli(&cfg, &out, &[]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("refit.fraction = 0.02 keeps"), "{err}");
+    assert!(!out.exists(), "a refused run wrote {}", out.display());
 }

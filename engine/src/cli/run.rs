@@ -103,6 +103,10 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             eprintln!("forkmap: then {}", super::curves::cost_line(&p, &curves));
         }
     }
+    // A refit that cannot run is refused before the sweep, not after it.
+    if let (Some(r), None) = (&p.cfg.refit, a.shard) {
+        forkmap::refit::check(&p.panel, &p.cfg.folds, r.fraction)?;
+    }
     let opts = forkmap::run::RunOptions {
         threads,
         quiet: a.quiet,

@@ -22,7 +22,7 @@
 
 use super::conclusions::Statement;
 use super::data::RunTables;
-use super::model::Report;
+use super::model::{Report, GOOD_DEFINITIONS};
 use super::null_claims::{DrawRule, NullClaims};
 use crate::error::Result;
 use crate::null::table::{read_draws, read_goodranks, read_tops, NULL_DIR};
@@ -282,6 +282,57 @@ pub fn analyse(
     Ok(Some(n))
 }
 
+/// The headline's sentence on the conclusions under the null: only the claims listed in
+/// the config count (automatic conclusions were chosen because they hold in the observed
+/// good set, a choice the draws do not redo), and only those whose smallest possible p,
+/// (1 + unknown draws) / (1 + draws), reaches 5%. Not reaching 5% is no evidence against
+/// a claim.
+fn claims_headline(n: &NullReport) -> String {
+    let c = &n.claims;
+    let listed: Vec<&super::null_claims::NullClaim> = c
+        .claims
+        .iter()
+        .filter(|x| x.source == "claim" && x.why.is_empty())
+        .collect();
+    let testable: Vec<&&super::null_claims::NullClaim> = listed
+        .iter()
+        .filter(|x| (1.0 + x.draws_unknown as f64) / (1.0 + n.draws as f64) <= 0.05)
+        .collect();
+    let auto = c
+        .claims
+        .iter()
+        .filter(|x| x.source != "claim" && x.why.is_empty())
+        .count();
+    let auto_note = if auto > 0 {
+        format!(
+            " {auto} automatic conclusions were also rerun, but they were chosen because they hold in the observed good set, so their p is optimistic (table null_claims)."
+        )
+    } else {
+        String::new()
+    };
+    if listed.is_empty() {
+        return auto_note;
+    }
+    let sample = format!(
+        "the null's {} sampled specs hold {} of the report's {} good specs",
+        n.specs, c.report_good_in_sample, c.report_good
+    );
+    if testable.is_empty() {
+        return format!(
+            " The {} claims listed in the config could not reach p <= 0.05 with {} draws (draws where their support is unknown count against them; {sample}).{auto_note}",
+            listed.len(),
+            n.draws
+        );
+    }
+    let low = testable.iter().filter(|x| x.p <= 0.05).count();
+    format!(
+        " Of the {} claims listed in the config that {} draws can test at 5%, {low} have more support than the outcome-shuffled draws give (p <= 0.05) and {} are not distinguishable from the null at 5%, which is no evidence against them ({sample}; table null_claims).{auto_note}",
+        testable.len(),
+        n.draws,
+        testable.len() - low
+    )
+}
+
 /// Each conclusion under the null (`report::null_claims`), with the report's good rule.
 #[allow(clippy::too_many_arguments)]
 fn claims(
@@ -317,6 +368,18 @@ fn claims(
         ranks,
     };
     let mut c = super::null_claims::evaluate(&inp, &r.conclusions, tests);
+    let gi = GOOD_DEFINITIONS
+        .iter()
+        .position(|g| *g == r.meta.good)
+        .unwrap_or(0);
+    let good: Vec<&str> = r
+        .curve
+        .iter()
+        .filter(|p| p.good[gi])
+        .map(|p| p.spec_id.as_str())
+        .collect();
+    c.report_good = good.len();
+    c.report_good_in_sample = good.iter().filter(|id| sample.contains(id)).count();
     if r.meta.good == "paired" {
         c.rule = format!(
             "{} (the ratio rule stands in for the paired rule: a paired bootstrap would need every spec's per-unit errors in every draw)",
@@ -349,24 +412,7 @@ pub fn headline(n: &NullReport) -> String {
     } else {
         String::new()
     };
-    let tested: Vec<f64> = n
-        .claims
-        .claims
-        .iter()
-        .filter(|c| c.why.is_empty())
-        .map(|c| c.p)
-        .collect();
-    let claims = if tested.is_empty() || floor > 0.05 {
-        String::new()
-    } else {
-        let low = tested.iter().filter(|p| **p <= 0.05).count();
-        format!(
-            " Of the {} conclusions tested under the null, {low} have more support than in the draws at the 5% level (p <= 0.05); \
-             for the other {} the shuffled outcomes give as much support often enough that the support is no evidence for them (table null_claims).",
-            tested.len(),
-            tested.len() - low
-        )
-    };
+    let claims = claims_headline(n);
     format!(
         "Permutation null ({} draws, outcome shuffled across units, {} specs each): the observed best {}{over} {} is {verdict} \
          (p = {:.3}; {beaten} of {} draws did as well); the observed median {} {} has p = {:.3}.{claims}",
@@ -523,4 +569,58 @@ pub fn write_tables(n: &NullReport, dir: &Path) -> Result<Vec<PathBuf>> {
         )
         .write(dir, "null_claims")?;
     Ok(vec![s, i, cl])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::report::null_claims::NullClaim;
+
+    fn claim(source: &str, p: f64, unknown: usize) -> NullClaim {
+        NullClaim {
+            source: source.into(),
+            p,
+            draws_unknown: unknown,
+            draws: 99,
+            ..Default::default()
+        }
+    }
+
+    /// The headline counts only claims listed in the config, only those whose smallest
+    /// possible p reaches 5%, and calls the rest "not distinguishable", never "no evidence
+    /// for them"; automatic conclusions are named as selected on the observed data.
+    #[test]
+    fn the_headline_tests_only_listed_claims_that_can_reach_five_percent() {
+        let mut n = NullReport {
+            draws: 99,
+            specs: 20,
+            ..Default::default()
+        };
+        n.claims.report_good = 20;
+        n.claims.report_good_in_sample = 4;
+        n.claims.claims = vec![
+            claim("claim", 0.01, 0),
+            claim("claim", 0.30, 1),
+            // (1 + 5) / 100 = 0.06: cannot reach 5%.
+            claim("claim", 0.06, 5),
+            claim("auto", 0.01, 0),
+        ];
+        let h = claims_headline(&n);
+        assert!(h.contains("Of the 2 claims listed in the config that 99 draws can test at 5%, 1 have more support"), "{h}");
+        assert!(
+            h.contains(
+                "1 are not distinguishable from the null at 5%, which is no evidence against them"
+            ),
+            "{h}"
+        );
+        assert!(h.contains("hold 4 of the report's 20 good specs"), "{h}");
+        assert!(h.contains("1 automatic conclusions were also rerun"), "{h}");
+        assert!(h.contains("their p is optimistic"), "{h}");
+        // With 24 draws and 2 unknown ones no claim can reach 5%: said so, none counted.
+        n.draws = 24;
+        n.claims.claims = vec![claim("claim", 0.12, 2)];
+        let h = claims_headline(&n);
+        assert!(h.contains("could not reach p <= 0.05 with 24 draws"), "{h}");
+        assert!(!h.contains("have more support"), "{h}");
+    }
 }

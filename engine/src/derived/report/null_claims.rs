@@ -89,6 +89,10 @@ pub struct NullClaims {
     /// Importance kinds the draws computed (`[null] importance`).
     pub kinds: Vec<String>,
     pub claims: Vec<NullClaim>,
+    /// Specs of the report's own good set, and of them those in the null's spec sample
+    /// (the observed support is over that sample's good set, not the report's).
+    pub report_good: usize,
+    pub report_good_in_sample: usize,
     /// Why no statement can be tested (an old null without `goodranks`), if so.
     pub unavailable: Option<String>,
 }

@@ -10,20 +10,14 @@ use open::*;
 use stream::*;
 pub use stream::{permutation_pass, PassSummary};
 
-use crate::config::Config;
 use crate::error::{Error, Result};
-use crate::folds::FoldPlan;
 use crate::manifest::{Finish, FoldsInfo, Manifest, PassNote, RunState, Work};
-use crate::panel::{self, Panel};
 use crate::progress::Progress;
 use crate::shard::Shard;
 use crate::sink::{ParquetSink, TABLES};
-use crate::space::ChoiceSpace;
 use crate::sweep::{SpecResult, Sweep};
-use sha2::{Digest, Sha256};
 use std::collections::BTreeMap;
-use std::io::Read;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 /// What a run did.
 #[derive(Debug, Clone)]

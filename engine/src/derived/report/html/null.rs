@@ -138,9 +138,14 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
             "Each conclusion of the conclusions table, evaluated again in every draw of the null: over the draw's good set \
              ({}, over the null's specs; ranks kept for the specs within {} of each draw's best; importance kinds the draws \
              computed: {}). Observed = its support over the same rule's good set of the same specs in the observed run \
-             (the report's own support over its good set is shown beside it). p = (1 + number of draws whose support is at \
+             (\"over\": that set's size; the null's specs hold {} of the report's {} good specs; the report's own support \
+             over its good set is shown beside it). p = (1 + number of draws whose support is at \
              least the observed) / (1 + {}), the +1 correction as above; a draw whose support is unknown (its good set holds \
-             no spec of the kind) counts as at least as high. A conclusion that holds about as often under the null \
+             no spec of the kind, or reaches past the kept ranks) counts as at least as high, so a claim with u unknown \
+             draws cannot have p below (1 + u) / (1 + draws). Automatic conclusions (source auto) were chosen because they \
+             hold in the observed good set and the draws do not redo that choice, so their p is optimistic; with many \
+             conclusions some fall at or below 0.05 by chance. Only claims listed in the config (source claim) are tested \
+             as stated. A p above 0.05 is no evidence against a claim. A conclusion that holds about as often under the null \
              (null mean near the observed support, large p) is not evidence of anything: shuffled outcomes, with no \
              between-unit association with any indicator, give it just as readily, e.g. through collinear indicators, \
              pools or models that favour some names whatever the outcome. A small p says only that the support is higher \
@@ -148,6 +153,8 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
             c.rule,
             c.ranks_within,
             c.kinds.join(", "),
+            c.report_good_in_sample,
+            c.report_good,
             n.draws
         ),
     };
@@ -162,9 +169,11 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
         ("statement", false),
         ("support, good set", true),
         ("observed (null's specs)", true),
+        ("over", true),
         ("null mean", true),
         ("null 95%", true),
         ("draws at least", true),
+        ("unknown", true),
         ("p", true),
         ("not tested because", false),
     ]);
@@ -174,10 +183,20 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
             x.statement.clone(),
             share(x.support_good),
             share(x.observed),
+            if x.why.is_empty() {
+                x.n_observed.to_string()
+            } else {
+                "-".into()
+            },
             share(x.null_mean),
             share(x.null_q95),
             if x.why.is_empty() {
                 format!("{} of {}", x.draws_at_least, x.draws)
+            } else {
+                "-".into()
+            },
+            if x.why.is_empty() {
+                x.draws_unknown.to_string()
             } else {
                 "-".into()
             },

@@ -28,7 +28,10 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
              (holding the kind) where the name is in the top {k}, averaged over the subsamples; the share of subsamples \
              where that holds for at least half of the good specs; the share where the subsample's best ranks it in the \
              top {k}. Stored: the same three numbers from the stability table above (units resampled, stored per-unit \
-             errors reweighted, nothing refitted, over every ok spec).{incomplete}",
+             errors reweighted, nothing refitted, over every ok spec). The {n} specs were chosen on all units, and each \
+             subsample keeps {kept} of the same {units}: the shares show how much these specs' conclusions depend on which \
+             units are in, leaning toward the chosen specs; they are not a replication on other units. Specs with identical \
+             fits (e.g. a scaling before a tree family) each count, so such a fit counts twice, and the lower id wins a tie for best.{incomplete}",
             n = f.specs,
             m = f.metric,
             b = f.resamples,
@@ -51,6 +54,7 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         ("refit: top k in most good specs", true),
         ("refit: top k in the best", true),
         ("stored: mean share top k", true),
+        ("stored: top k in most good specs", true),
         ("stored: top k in the best", true),
     ]);
     for s in &f.names {
@@ -62,6 +66,7 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             share(s.share_majority),
             share(s.share_in_best),
             share(s.stored_mean_share_top_k),
+            share(s.stored_share_majority),
             share(s.stored_share_in_best),
         ]);
     }
@@ -73,7 +78,9 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         "refit_specs.parquet",
         format!(
             "Each of the run's top {} specs: its rank and {} in the run, its median {} refitted over the {} subsamples, \
-             and how often it is the subsample's best and in its good set (among the {} refitted specs).",
+             and how often it is the subsample's best and in its good set (among the {} refitted specs). The refit error \
+             comes from fewer training units and new folds, and the run error is the one the specs were chosen by: their \
+             gap mixes both and is not the optimism of choosing (the nested estimate measures that).",
             f.specs, f.metric, f.metric, f.resamples, f.specs
         ),
     )

@@ -194,6 +194,8 @@ fn the_null_claims_table_shows_numbers_or_the_reason() {
                 ..Default::default()
             },
         ],
+        report_good: 20,
+        report_good_in_sample: 3,
         unavailable: None,
     };
     let t = tables(&r)
@@ -205,9 +207,11 @@ fn the_null_claims_table_shows_numbers_or_the_reason() {
         "{}",
         t.about
     );
-    assert_eq!(t.rows[0][6], "7 of 19");
-    assert_eq!(t.rows[1][6], "-");
-    assert!(t.rows[1][8].starts_with("not tested"));
+    assert!(t.about.contains("hold 3 of the report's 20 good specs"));
+    assert!(t.about.contains("their p is optimistic"));
+    assert_eq!(t.rows[0][7], "7 of 19");
+    assert_eq!(t.rows[1][7], "-");
+    assert!(t.rows[1][10].starts_with("not tested"));
     r.null.as_mut().unwrap().claims.unavailable = Some("old null".into());
     let t = tables(&r)
         .into_iter()
