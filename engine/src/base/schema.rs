@@ -165,15 +165,23 @@ pub const NULL_DRAW_TABLES: &[&str] = &[NULL_TOPS, NULL_GOODRANKS, NULL_DRAWS];
 
 /// Columns of `null/goodranks` ([`NULL_GOODRANKS`]), in table order.
 pub mod null_goodranks {
+    /// Draw index d (0-based).
     pub const DRAW: &str = "draw";
+    /// A spec of the draw whose error is within `[null] ranks_within` of the draw's best.
     pub const SPEC_ID: &str = "spec_id";
     /// The spec's error in the draw (the null's metric).
     pub const ERROR: &str = "error";
+    /// `indicator` or `group`.
     pub const LEVEL: &str = "level";
+    /// `permutation`, `coefficient` or `impurity` (the kinds `[null] importance` asks for).
     pub const KIND: &str = "kind";
+    /// Indicator or codebook group.
     pub const NAME: &str = "name";
+    /// As in the run's importance table.
     pub const IMPORTANCE: &str = "importance";
+    /// Competition rank (1 = most important), as in the run's importance table.
     pub const RANK: &str = "rank";
+    /// False when the spec's pool excludes the name.
     pub const IN_POOL: &str = "in_pool";
     pub const ALL: &[&str] = &[
         DRAW, SPEC_ID, ERROR, LEVEL, KIND, NAME, IMPORTANCE, RANK, IN_POOL,
