@@ -1,7 +1,10 @@
 """Fingerprint of forkmap run directories: per result table, the row count and the sha256
 of its rows sorted (the rows exactly as `same_results.py` compares them: every column but
 the wall-clock `...seconds` ones, floats by their exact repr). Equal fingerprints mean
-bit-identical tables.
+bit-identical tables. The derived tables count too (every Parquet file under null/,
+nested/, refit/, curves/ and report/; a folder of per-draw or per-subsample parts, or the
+nested estimate's fold files, as one table), so the analysis layer is held to the same
+standard as the sweep.
 
 Usage: python fingerprint.py NAME=RUN_DIR...                  print the fingerprint lines
        python fingerprint.py --check FILE NAME=RUN_DIR...      compare with FILE, exit 1 on a difference
@@ -35,15 +38,53 @@ def ordered_columns(run: Path, table: str) -> list:
     return names
 
 
-def fingerprint(name: str, run: Path) -> list:
+DERIVED = ["null", "nested", "refit", "curves", "report"]
+
+
+def derived_tables(run: Path) -> dict:
+    """Derived table name -> its Parquet files: `DIR/NAME` for `DIR/NAME.parquet`, the
+    folder for a folder of parts (`null/draws`), `nested/fold` for the fold files."""
+    groups = {}
+    for d in DERIVED:
+        base = run / d
+        if not base.is_dir():
+            continue
+        for f in sorted(base.rglob("*.parquet")):
+            rel = f.relative_to(run)
+            if len(rel.parts) > 2:
+                key = "/".join(rel.parts[:-1])
+            elif rel.name.startswith("fold-"):
+                key = f"{d}/fold"
+            else:
+                key = str(rel.with_suffix(""))
+            groups.setdefault(key, []).append(f)
+    return groups
+
+
+def derived_rows(files: list) -> list:
     out = []
-    for t in TABLES:
-        rs = rows(run, t, ordered_columns(run, t))
-        h = hashlib.sha256()
-        for r in rs:
-            h.update(r.encode())
-            h.update(b"\n")
-        out.append(f"{name} {t} {len(rs)} {h.hexdigest()}")
+    for f in files:
+        t = pq.read_table(f)
+        names = [c for c in t.column_names if not c.endswith("seconds")]
+        cols = [t.column(c).to_pylist() for c in names]
+        for r in zip(*cols):
+            out.append("|".join(f"{c}={v!r}" for c, v in zip(names, r)))
+    out.sort()
+    return out
+
+
+def line(name: str, table: str, rs: list) -> str:
+    h = hashlib.sha256()
+    for r in rs:
+        h.update(r.encode())
+        h.update(b"\n")
+    return f"{name} {table} {len(rs)} {h.hexdigest()}"
+
+
+def fingerprint(name: str, run: Path) -> list:
+    out = [line(name, t, rows(run, t, ordered_columns(run, t))) for t in TABLES]
+    for t, files in sorted(derived_tables(run).items()):
+        out.append(line(name, t, derived_rows(files)))
     return out
 
 
@@ -73,16 +114,22 @@ def main(argv: list) -> int:
         file.write_text(HEADER + "\n".join(lines) + "\n")
         print(f"fingerprint: wrote {file}")
         return 0
-    want = {" ".join(l.split()[:2]): l for l in read(file)}
+    want = {" ".join(w.split()[:2]): w for w in read(file)}
     bad = 0
-    for line in lines:
-        key = " ".join(line.split()[:2])
-        if want.get(key) != line:
+    for got in lines:
+        key = " ".join(got.split()[:2])
+        if want.get(key) != got:
             bad += 1
-            print(f"fingerprint: {key} differs: now {' '.join(line.split()[2:])}, "
+            print(f"fingerprint: {key} differs: now {' '.join(got.split()[2:])}, "
                   f"committed {' '.join(want.get(key, 'none').split()[2:]) or 'none'}")
         else:
-            print(f"fingerprint: {key}: {line.split()[2]} rows identical")
+            print(f"fingerprint: {key}: {got.split()[2]} rows identical")
+    names = {a.partition("=")[0] for a in argv}
+    now = {" ".join(g.split()[:2]) for g in lines}
+    for key in sorted(want):
+        if key.split()[0] in names and key not in now:
+            bad += 1
+            print(f"fingerprint: {key} is committed but the run has no such table")
     return 1 if bad else 0
 
 
