@@ -270,6 +270,19 @@ if os.path.exists(refit_manifest):
         n_rs = con.execute(f"select count(*) from '{rs}'").fetchone()[0]
         check("duckdb: report refit_stability mean shares from refit/tops", bad == 0 and n_rs > 0, f"{bad} of {n_rs}")
 
+    rsp = os.path.join(run, "report", "refit_specs.parquet")
+    if os.path.exists(rsp):
+        # A spec marked as the same fit as another has bit-equal run metrics and predictions.
+        bad, twins = con.execute(
+            f"""with t as (select spec_id, same_fit_as from '{rsp}' where same_fit_as is not null),
+                p as (select spec_id, unit, wave, fold, repeat, predicted from '{preds_glob}')
+                select count(*) filter (where a.predicted is distinct from b.predicted), count(distinct t.spec_id)
+                from t join p a on a.spec_id = t.spec_id
+                left join p b on b.spec_id = t.same_fit_as and b.unit = a.unit
+                     and b.wave is not distinct from a.wave and b.repeat = a.repeat"""
+        ).fetchone()
+        check("duckdb: refit_specs same_fit_as names a spec with the same predictions", bad == 0, f"{bad} rows differ over {twins} twins")
+
 # The null's goodranks (RUN_DIR/null/goodranks/): one file per complete draw; every spec
 # in it is within ranks_within of the draw's best and the draw's best is there; ranks are
 # SQL's rank(); the report's null_claims p follows its formula, and each "in the top k"

@@ -363,6 +363,8 @@ pub mod refit_specs {
     pub const FAILED: &str = "failed";
     pub const RESAMPLES: &str = "resamples";
     pub const METRIC: &str = "metric";
+    /// The refitted spec whose run fit is bit for bit this one's, if another (null if none).
+    pub const SAME_FIT_AS: &str = "same_fit_as";
     /// Every column, in table order (fixed columns only).
     pub const COLUMNS: &[&str] = &[
         SPEC_ID,
@@ -374,6 +376,7 @@ pub mod refit_specs {
         FAILED,
         RESAMPLES,
         METRIC,
+        SAME_FIT_AS,
     ];
 }
 pub mod null_claims {

@@ -94,7 +94,14 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
         h.insert(h.len().saturating_sub(1), null::headline(n));
         notes.extend(n.notes.iter().cloned());
     }
-    built.report.refit = refit::load(set, &built.report.stability)?;
+    // A refitted spec whose run fit is bit for bit another's (a scaling before a tree
+    // family) is marked as the same fit.
+    let classes = t.fit_classes();
+    let twin_of = |id: &str| -> Option<String> {
+        let i = t.spec_ids.iter().position(|s| s == id)?;
+        (classes[i] != i).then(|| t.spec_ids[classes[i]].clone())
+    };
+    built.report.refit = refit::load(set, &built.report.stability, &twin_of)?;
     if let Some(r) = &built.report.refit {
         notes.extend(r.notes.iter().cloned());
         let m = &built.report.meta;

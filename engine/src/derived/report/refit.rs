@@ -68,6 +68,9 @@ pub struct RefitSpec {
     pub share_best: f64,
     pub share_good: f64,
     pub failed: usize,
+    /// The spec whose run fit is bit for bit this one's (lowest index of its fit class),
+    /// when that is another spec: the two count as two specs but are one fit.
+    pub same_fit_as: Option<String>,
 }
 
 fn frac(k: usize, n: usize) -> f64 {
@@ -80,7 +83,11 @@ fn frac(k: usize, n: usize) -> f64 {
 
 /// The refit of a whole-space run read as `set`, when it has one; `stability` is the
 /// report's stored-error stability (joined by level, kind and name).
-pub fn load(set: &RunSet, stability: &[Stability]) -> Result<Option<RefitReport>> {
+pub fn load(
+    set: &RunSet,
+    stability: &[Stability],
+    twin_of: &dyn Fn(&str) -> Option<String>,
+) -> Result<Option<RefitReport>> {
     let Some(dir) = set.dirs.iter().find(|d| d.shard.is_none()) else {
         return Ok(None);
     };
@@ -133,6 +140,7 @@ pub fn load(set: &RunSet, stability: &[Stability]) -> Result<Option<RefitReport>
             .collect();
         errs.sort_by(f64::total_cmp);
         r.specs_table.push(RefitSpec {
+            same_fit_as: twin_of(&spec_id),
             spec_id,
             run_rank: rank as usize,
             run_error: v[0].run_error,
@@ -302,6 +310,7 @@ pub fn write_tables(r: &RefitReport, dir: &Path) -> Result<Vec<PathBuf>> {
         .i(sp::FAILED, v.iter().map(|x| x.failed as i64))
         .i(sp::RESAMPLES, v.iter().map(|_| r.resamples as i64))
         .s(sp::METRIC, v.iter().map(|_| r.metric.as_str()))
+        .os(sp::SAME_FIT_AS, v.iter().map(|x| x.same_fit_as.clone()))
         .write(dir, TABLES[1])?;
     Ok(vec![a, b])
 }

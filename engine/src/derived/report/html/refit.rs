@@ -80,7 +80,9 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             "Each of the run's top {} specs: its rank and {} in the run, its median {} refitted over the {} subsamples, \
              and how often it is the subsample's best and in its good set (among the {} refitted specs). The refit error \
              comes from fewer training units and new folds, and the run error is the one the specs were chosen by: their \
-             gap mixes both and is not the optimism of choosing (the nested estimate measures that).",
+             gap mixes both and is not the optimism of choosing (the nested estimate measures that). Same fit as: the spec whose \
+             run fit is bit for bit this one's (e.g. a scaling before a tree family): two specs, one fit, and a tie for \
+             best goes to the lower id.",
             f.specs, f.metric, f.metric, f.resamples, f.specs
         ),
     )
@@ -92,6 +94,7 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
         ("best", true),
         ("good", true),
         ("failed", true),
+        ("same fit as", false),
     ]);
     for s in &f.specs_table {
         t.push(vec![
@@ -102,6 +105,7 @@ pub(super) fn tables(r: &Report) -> Vec<Table> {
             share(s.share_best),
             share(s.share_good),
             s.failed.to_string(),
+            s.same_fit_as.clone().unwrap_or_default(),
         ]);
     }
     out.push(t);
