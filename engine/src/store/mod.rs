@@ -2,6 +2,7 @@
 //! interrupted run, reading one or several runs as one.
 
 pub mod manifest;
+pub mod parts;
 pub mod results;
 pub mod resume;
 pub mod sink;

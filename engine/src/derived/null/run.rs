@@ -143,50 +143,14 @@ fn open(
     ident: &serde_json::Value,
     draws: u64,
 ) -> Result<(Vec<u64>, Option<String>)> {
-    let manifest = null_dir.join(crate::schema::MANIFEST);
-    let mut restarted = None;
-    if manifest.exists() {
-        let old: Option<serde_json::Value> = std::fs::read_to_string(&manifest)
-            .ok()
-            .and_then(|t| serde_json::from_str(&t).ok());
-        let why = match &old {
-            Some(m) => differs(&m["identity"], ident),
-            None => Some("null/manifest.json unreadable".into()),
-        };
-        if let Some(why) = why {
-            std::fs::remove_dir_all(null_dir).map_err(|e| Error::io(null_dir, e))?;
-            restarted = Some(why);
-        }
-    } else if null_dir.exists() {
-        // Killed before its manifest: nothing of value.
-        std::fs::remove_dir_all(null_dir).map_err(|e| Error::io(null_dir, e))?;
-    }
-    for t in crate::schema::NULL_DRAW_TABLES {
-        let d = null_dir.join(t);
-        std::fs::create_dir_all(&d).map_err(|e| Error::io(&d, e))?;
-    }
-    let complete: Vec<u64> = table::complete_files(&null_dir.join(DRAWS))?
-        .into_iter()
-        .map(|(d, _)| d)
-        .collect();
-    for &t in crate::schema::NULL_DRAW_TABLES {
-        let d = null_dir.join(t);
-        for e in std::fs::read_dir(&d).map_err(|e| Error::io(&d, e))? {
-            let path = e.map_err(|e| Error::io(&d, e))?.path();
-            let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
-            let stale = match table::draw_of(name) {
-                Some(k) => k >= draws || (t != DRAWS && complete.binary_search(&k).is_err()),
-                None => name.starts_with('.'),
-            };
-            if stale {
-                std::fs::remove_file(&path).map_err(|e| Error::io(&path, e))?;
-            }
-        }
-    }
-    Ok((
-        complete.into_iter().filter(|&d| d < draws).collect(),
-        restarted,
-    ))
+    crate::store::parts::open_pass(
+        null_dir,
+        ident,
+        draws,
+        crate::schema::NULL_DRAW_TABLES,
+        table::draw_of,
+        differs,
+    )
 }
 
 fn write_manifest(

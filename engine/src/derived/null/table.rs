@@ -14,11 +14,10 @@
 //! The `tops` and `goodranks` files of a draw are written before its `draws` file, so a
 //! draw is complete exactly when its `draws` file exists.
 
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::schema::null as columns;
 use crate::sink::Cols;
 use arrow_array::{Array, BooleanArray, Float64Array, Int64Array, StringArray};
-use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
 use std::path::{Path, PathBuf};
 
 use crate::schema::null_goodranks as gr;
@@ -165,52 +164,15 @@ pub fn write_draw(
 
 /// Complete draw files of a table folder, by draw index.
 pub fn complete_files(dir: &Path) -> Result<Vec<(u64, PathBuf)>> {
-    let mut out = Vec::new();
-    if !dir.is_dir() {
-        return Ok(out);
-    }
-    for e in std::fs::read_dir(dir).map_err(|e| Error::io(dir, e))? {
-        let path = e.map_err(|e| Error::io(dir, e))?.path();
-        if let Some(d) = path.file_name().and_then(|n| n.to_str()).and_then(draw_of) {
-            out.push((d, path));
-        }
-    }
-    out.sort();
-    Ok(out)
+    crate::store::parts::complete_files(dir, draw_of)
 }
 
-fn bad(path: &Path, msg: String) -> Error {
-    Error::Output {
-        path: path.to_path_buf(),
-        msg,
-    }
-}
-
-/// Read every batch of one Parquet file with `f`.
-fn each_batch(
-    path: &Path,
-    mut f: impl FnMut(&arrow_array::RecordBatch) -> Result<()>,
-) -> Result<()> {
-    let file = std::fs::File::open(path).map_err(|e| Error::io(path, e))?;
-    let reader = ParquetRecordBatchReaderBuilder::try_new(file)
-        .and_then(|b| b.build())
-        .map_err(|e| bad(path, format!("unreadable null table: {e}")))?;
-    for b in reader {
-        let b = b.map_err(|e| bad(path, format!("unreadable null table: {e}")))?;
-        f(&b)?;
-    }
-    Ok(())
+fn each_batch(path: &Path, f: impl FnMut(&arrow_array::RecordBatch) -> Result<()>) -> Result<()> {
+    crate::store::parts::each_batch(path, "null", f)
 }
 
 fn col<'a, T: 'static>(b: &'a arrow_array::RecordBatch, path: &Path, n: &str) -> Result<&'a T> {
-    b.column_by_name(n)
-        .and_then(|c| c.as_any().downcast_ref::<T>())
-        .ok_or_else(|| {
-            bad(
-                path,
-                format!("null table lacks column {n} (or it has another type)"),
-            )
-        })
+    crate::store::parts::col(b, path, "null", n)
 }
 
 /// Read `null/draws` (sorted by draw).

@@ -147,50 +147,14 @@ fn differs(old: &serde_json::Value, new: &serde_json::Value) -> Option<String> {
 /// restarted. Removes temporaries, subsamples at or above `asked`, and `tops` files without
 /// their `fits` file.
 fn open(dir: &Path, ident: &serde_json::Value, asked: u64) -> Result<(Vec<u64>, Option<String>)> {
-    let manifest = dir.join(crate::schema::MANIFEST);
-    let mut restarted = None;
-    if manifest.exists() {
-        let old: Option<serde_json::Value> = std::fs::read_to_string(&manifest)
-            .ok()
-            .and_then(|t| serde_json::from_str(&t).ok());
-        let why = match &old {
-            Some(m) => differs(&m["identity"], ident),
-            None => Some("refit/manifest.json unreadable".into()),
-        };
-        if let Some(why) = why {
-            std::fs::remove_dir_all(dir).map_err(|e| Error::io(dir, e))?;
-            restarted = Some(why);
-        }
-    } else if dir.exists() {
-        // Killed before its manifest: nothing of value.
-        std::fs::remove_dir_all(dir).map_err(|e| Error::io(dir, e))?;
-    }
-    for t in [FITS, TOPS] {
-        let d = dir.join(t);
-        std::fs::create_dir_all(&d).map_err(|e| Error::io(&d, e))?;
-    }
-    let complete: Vec<u64> = table::complete_files(&dir.join(FITS))?
-        .into_iter()
-        .map(|(r, _)| r)
-        .collect();
-    for t in [FITS, TOPS] {
-        let d = dir.join(t);
-        for e in std::fs::read_dir(&d).map_err(|e| Error::io(&d, e))? {
-            let path = e.map_err(|e| Error::io(&d, e))?.path();
-            let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
-            let stale = match table::resample_of(name) {
-                Some(r) => r >= asked || (t == TOPS && complete.binary_search(&r).is_err()),
-                None => name.starts_with('.'),
-            };
-            if stale {
-                std::fs::remove_file(&path).map_err(|e| Error::io(&path, e))?;
-            }
-        }
-    }
-    Ok((
-        complete.into_iter().filter(|&r| r < asked).collect(),
-        restarted,
-    ))
+    crate::store::parts::open_pass(
+        dir,
+        ident,
+        asked,
+        &[TOPS, FITS],
+        table::resample_of,
+        differs,
+    )
 }
 
 #[allow(clippy::too_many_arguments)]

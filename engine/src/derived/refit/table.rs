@@ -11,11 +11,10 @@
 //! exists. Column names come from [`crate::schema::refit_fits`] and
 //! [`crate::schema::refit_tops`].
 
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::schema::{refit_fits as fc, refit_tops as tc};
 use crate::sink::Cols;
 use arrow_array::{Array, BooleanArray, Float64Array, Int64Array, StringArray};
-use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
 use std::path::{Path, PathBuf};
 
 pub use crate::schema::{REFIT_DIR, REFIT_FITS as FITS, REFIT_TOPS as TOPS};
@@ -111,55 +110,15 @@ pub fn write_resample(dir: &Path, r: u64, fits: &[FitRow], tops: &[TopRow]) -> R
 
 /// Complete subsample files of a table folder, by subsample index.
 pub fn complete_files(dir: &Path) -> Result<Vec<(u64, PathBuf)>> {
-    let mut out = Vec::new();
-    if !dir.is_dir() {
-        return Ok(out);
-    }
-    for e in std::fs::read_dir(dir).map_err(|e| Error::io(dir, e))? {
-        let path = e.map_err(|e| Error::io(dir, e))?.path();
-        if let Some(r) = path
-            .file_name()
-            .and_then(|n| n.to_str())
-            .and_then(resample_of)
-        {
-            out.push((r, path));
-        }
-    }
-    out.sort();
-    Ok(out)
+    crate::store::parts::complete_files(dir, resample_of)
 }
 
-fn bad(path: &Path, msg: String) -> Error {
-    Error::Output {
-        path: path.to_path_buf(),
-        msg,
-    }
-}
-
-fn each_batch(
-    path: &Path,
-    mut f: impl FnMut(&arrow_array::RecordBatch) -> Result<()>,
-) -> Result<()> {
-    let file = std::fs::File::open(path).map_err(|e| Error::io(path, e))?;
-    let reader = ParquetRecordBatchReaderBuilder::try_new(file)
-        .and_then(|b| b.build())
-        .map_err(|e| bad(path, format!("unreadable refit table: {e}")))?;
-    for b in reader {
-        let b = b.map_err(|e| bad(path, format!("unreadable refit table: {e}")))?;
-        f(&b)?;
-    }
-    Ok(())
+fn each_batch(path: &Path, f: impl FnMut(&arrow_array::RecordBatch) -> Result<()>) -> Result<()> {
+    crate::store::parts::each_batch(path, "refit", f)
 }
 
 fn col<'a, T: 'static>(b: &'a arrow_array::RecordBatch, path: &Path, n: &str) -> Result<&'a T> {
-    b.column_by_name(n)
-        .and_then(|c| c.as_any().downcast_ref::<T>())
-        .ok_or_else(|| {
-            bad(
-                path,
-                format!("refit table lacks column {n} (or it has another type)"),
-            )
-        })
+    crate::store::parts::col(b, path, "refit", n)
 }
 
 /// Read `refit/fits` of the complete subsamples below `asked` (by subsample, then run rank).
