@@ -3,28 +3,7 @@
 use forkmap::config::{FoldScheme, FoldsSection};
 use forkmap::folds::FoldPlan;
 use forkmap::panel::Panel;
-use ndarray::{Array1, Array2};
 use proptest::prelude::*;
-
-fn panel(rows_per_unit: &[usize]) -> Panel {
-    let mut units = Vec::new();
-    let mut waves = Vec::new();
-    for (u, &r) in rows_per_unit.iter().enumerate() {
-        for w in 0..r {
-            units.push(format!("u{u}"));
-            waves.push(Some(format!("{w}")));
-        }
-    }
-    let n = units.len();
-    Panel::new(
-        units,
-        waves,
-        Array1::zeros(n),
-        Array2::zeros((n, 1)),
-        vec!["x".into()],
-    )
-    .unwrap()
-}
 
 fn check(p: &Panel, plan: &FoldPlan) {
     for r in 0..plan.repeats {
@@ -56,7 +35,7 @@ proptest! {
         repeats in 1usize..4,
         seed in any::<u64>(),
     ) {
-        let p = panel(&rows);
+        let p = crate::common::unit_panel(&rows);
         let cfg = FoldsSection { scheme: FoldScheme::GroupedKfold, k, repeats };
         match FoldPlan::new(&p, &cfg, seed) {
             Ok(plan) => {
@@ -75,7 +54,7 @@ proptest! {
 
     #[test]
     fn leave_one_unit_out_properties(rows in proptest::collection::vec(1usize..4, 2..30)) {
-        let p = panel(&rows);
+        let p = crate::common::unit_panel(&rows);
         let cfg = FoldsSection { scheme: FoldScheme::LeaveOneUnitOut, k: 0, repeats: 1 };
         let plan = FoldPlan::new(&p, &cfg, 1).unwrap();
         prop_assert_eq!(plan.folds.len(), p.n_units());
@@ -89,7 +68,7 @@ proptest! {
 
 #[test]
 fn repeats_reshuffle() {
-    let p = panel(&[1; 30]);
+    let p = crate::common::unit_panel(&[1; 30]);
     let plan = FoldPlan::new(
         &p,
         &FoldsSection {

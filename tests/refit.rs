@@ -5,12 +5,11 @@
 //! resumes to the same tables; the report page shows the refit beside the stored-error
 //! stability; plan shows its cost; bad keys are refused naming the key.
 
-use crate::common::{prepared, root};
+use crate::common::prepared;
 use forkmap::panel::Panel;
 use forkmap::refit::table::{read_fits, read_tops, REFIT_DIR};
 use forkmap::refit::{self, RefitInput, Rule};
 use forkmap::sweep::Audit;
-use ndarray::{Array1, Array2};
 use proptest::prelude::*;
 use std::collections::HashSet;
 use std::path::{Path, PathBuf};
@@ -37,16 +36,9 @@ repeats = 1
 kinds = ["native", "permutation", "group"]
 "#;
 
-fn data(root: &Path) -> String {
-    format!(
-        "seed = 11\n[data]\nfile = \"{root}/toy-panel/panel.csv\"\nunit = \"district\"\nwave = \"wave\"\noutcome = \"hardship_pct\"\nignore = [\"region\"]\ncodebook = \"{root}/toy-panel/codebook.csv\"\n",
-        root = root.display()
-    )
-}
-
 fn config(dir: &Path, name: &str, refit: &str) -> PathBuf {
     let path = dir.join(format!("{name}.toml"));
-    std::fs::write(&path, format!("{}{SPACE}{refit}", data(&root()))).unwrap();
+    std::fs::write(&path, format!("{}{SPACE}{refit}", crate::null::data())).unwrap();
     path
 }
 
@@ -77,27 +69,6 @@ fn refit_rows(out: &Path) -> (Vec<String>, Vec<String>) {
     )
 }
 
-/// A panel with `rows[u]` waves for unit u (an unbalanced panel when they differ).
-fn panel(rows_per_unit: &[usize]) -> Panel {
-    let mut units = Vec::new();
-    let mut waves = Vec::new();
-    for (u, &r) in rows_per_unit.iter().enumerate() {
-        for w in 0..r {
-            units.push(format!("u{u}"));
-            waves.push(Some(format!("{w}")));
-        }
-    }
-    let n = units.len();
-    Panel::new(
-        units,
-        waves,
-        Array1::from_iter((0..n).map(|i| i as f64)),
-        Array2::from_shape_fn((n, 2), |(i, j)| (i * 2 + j) as f64),
-        vec!["a".into(), "b".into()],
-    )
-    .unwrap()
-}
-
 proptest! {
     /// A subsample keeps round(fraction x units) units with every one of their rows
     /// (waves) and no row of a dropped unit; the derived panel's rows are the originals'.
@@ -108,7 +79,7 @@ proptest! {
         seed in any::<u64>(),
         r in 0u64..1000,
     ) {
-        let p = panel(&rows);
+        let p = crate::common::unit_panel(&rows);
         let units = refit::subsample_units(p.n_units(), fraction, seed, r);
         prop_assert_eq!(units.len(), refit::kept(p.n_units(), fraction));
         prop_assert!(units.windows(2).all(|w| w[0] < w[1]));
@@ -146,7 +117,7 @@ impl Audit for Recorder {
 }
 
 fn small() -> forkmap::run::Prepared {
-    prepared(&format!("{}{SPACE}", data(&root())))
+    prepared(&format!("{}{SPACE}", crate::null::data()))
 }
 
 /// Three specs of the small space (a ridge without compression, a ridge with PCA, a tree).
@@ -421,7 +392,7 @@ fn the_page_shows_the_refit_and_plan_its_cost() {
 #[test]
 fn bad_refit_keys_and_values_are_refused_naming_the_key() {
     let refused = |refit: &str| {
-        let text = format!("{}{SPACE}{refit}", data(&root()));
+        let text = format!("{}{SPACE}{refit}", crate::null::data());
         forkmap::config::Config::from_toml(&text, Path::new("."), "t")
             .unwrap_err()
             .to_string()

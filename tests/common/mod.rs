@@ -207,3 +207,25 @@ pub fn spawn_run(cfg: &Path, out: &Path, extra: &[&str]) -> std::process::Child 
         .spawn()
         .expect("the forkmap binary starts")
 }
+
+/// A panel with `rows_per_unit[u]` waves for unit `u` (unbalanced when they differ): the
+/// outcome is the row index, two indicators `a`, `b` distinct on every row.
+pub fn unit_panel(rows_per_unit: &[usize]) -> forkmap::panel::Panel {
+    let mut units = Vec::new();
+    let mut waves = Vec::new();
+    for (u, &r) in rows_per_unit.iter().enumerate() {
+        for w in 0..r {
+            units.push(format!("u{u}"));
+            waves.push(Some(format!("{w}")));
+        }
+    }
+    let n = units.len();
+    forkmap::panel::Panel::new(
+        units,
+        waves,
+        ndarray::Array1::from_iter((0..n).map(|i| i as f64)),
+        ndarray::Array2::from_shape_fn((n, 2), |(i, j)| (i * 2 + j) as f64),
+        vec!["a".into(), "b".into()],
+    )
+    .expect("a valid panel")
+}
