@@ -317,7 +317,7 @@ fn claims_headline(n: &NullReport) -> String {
     } else {
         let low = auto_ok.iter().filter(|x| x.p_adjusted <= 0.05).count();
         format!(
-            " Of the {} automatic conclusions {} draws can test at 5%, {low} have more support than the same selection reaches in the outcome-shuffled draws (p adjusted for picking them on the observed data <= 0.05) and {} do not, which is no evidence against them (table null_claims).",
+            " Of the {} automatic conclusions that {} draws can test at 5%, {low} have more support than the same selection reaches in the outcome-shuffled draws (p adjusted for picking them on the observed data <= 0.05) and {} do not, which is no evidence against them (table null_claims).",
             auto_ok.len(),
             n.draws,
             auto_ok.len() - low
@@ -667,7 +667,7 @@ mod tests {
         );
         assert!(h.contains("hold 4 of the report's 20 good specs"), "{h}");
         assert!(
-            h.contains("Of the 3 automatic conclusions 99 draws can test at 5%, 2 have more support than the same selection reaches"),
+            h.contains("Of the 3 automatic conclusions that 99 draws can test at 5%, 2 have more support than the same selection reaches"),
             "{h}"
         );
         assert!(

@@ -213,4 +213,205 @@ mod tests {
         assert_eq!(s.ranks, vec![1, 3, 2, 4, 1, 2, 3, 4]);
         assert_eq!(s.values[..4], kt.values[8..12]);
     }
+
+    use crate::null::table::{DrawRow, RankRow};
+    use crate::report::data::RunTables;
+    use crate::report::model::Conclusion;
+    use crate::report::null_claims::{evaluate, DrawRule, Inputs};
+    use proptest::prelude::*;
+
+    const NAMES: [&str; 4] = ["a", "b", "c", "d"];
+
+    fn draw(d: i64, best: f64) -> DrawRow {
+        DrawRow {
+            draw: d,
+            seed: String::new(),
+            metric: "mae".into(),
+            best_error: best,
+            q1_error: f64::NAN,
+            median_error: f64::NAN,
+            q3_error: f64::NAN,
+            best_skill: f64::NAN,
+            share_skill_positive: f64::NAN,
+            specs: 3,
+            n_ok: 3,
+            best_spec: None,
+        }
+    }
+
+    /// Rows of one spec in a draw: ranks of a, b, c, d.
+    fn spec_rows(d: i64, spec: &str, error: f64, kind: &str, ranks: [u32; 4]) -> Vec<RankRow> {
+        NAMES
+            .iter()
+            .zip(ranks)
+            .map(|(n, r)| RankRow {
+                draw: d,
+                spec: spec.into(),
+                error,
+                level: "indicator".into(),
+                kind: kind.into(),
+                name: (*n).into(),
+                importance: f64::from(5 - r),
+                rank: i64::from(r),
+                in_pool: true,
+            })
+            .collect()
+    }
+
+    /// The observed run: specs s1, s2, s3 with these errors and ranks.
+    fn observed(errors: &[f64], ranks: &[[u32; 4]]) -> RunTables {
+        let mut t = RunTables {
+            spec_ids: (1..=errors.len()).map(|i| format!("s{i}")).collect(),
+            ..Default::default()
+        };
+        t.stored.insert("mae".into(), errors.to_vec());
+        let mut kt = table(ranks);
+        kt.specs = (0..ranks.len()).collect();
+        t.importance.push(kt);
+        t
+    }
+
+    fn conclusion(source: &str) -> Conclusion {
+        Conclusion {
+            source: source.into(),
+            level: "indicator".into(),
+            kind: "coefficient".into(),
+            ..Default::default()
+        }
+    }
+
+    /// The whole evaluation on a hand-made null, k = 2, ratio 0.05.
+    ///
+    /// Observed: s1 (mae 1.0) ranks (1, 2, 3, 4), s2 (1.02) (1, 3, 2, 4), s3 (1.5, not good).
+    /// Supports over {s1, s2}: "a top 2" 1, "b top 2" 1/2, "a above b" 1, "b above c" 1/2.
+    /// Draws (three):
+    /// * d0: s1 (1.0) (2, 1, 3, 4), s2 (1.03) (3, 1, 2, 4). Top 2 shares a 1/2, b 1, c 1/2:
+    ///   the top family's maximum is 1 (b). Median ranks b 1, a 2.5, c 2.5, d 4: picked
+    ///   "b above a" (1) and "a above c" (1/2); the observed "b above c" holds in both: 1.
+    /// * d1: s1 (1.0) (1, 2, 3, 4), s2 (1.04) (3, 4, 1, 2). Every name is top 2 once: top
+    ///   maximum 1/2. Picked "a above c" and "c above b", both 1/2; but the observed "a
+    ///   above b" holds in both specs: the above family's maximum is 1.
+    /// * d2: its good set holds only impurity rows: unknown for both families.
+    ///
+    /// Top family maxima (1, 1/2, unknown): "a top 2" (observed 1) has 2 draws at or
+    /// above, p_adjusted = 3/4; its own draw supports (1/2, 1/2, unknown) give p = 2/4.
+    /// "b top 2" (1/2): all 3, p_adjusted = 1 (own supports 1, 1/2, unknown: p = 1).
+    /// Above maxima (1, 1, unknown): "a above b" (1): p_adjusted = 1 (own supports 0, 1,
+    /// unknown: p = 3/4). The listed claim gets no adjusted p.
+    #[test]
+    fn adjusted_p_of_an_evaluation_by_hand() {
+        let t = observed(
+            &[1.0, 1.02, 1.5],
+            &[[1, 2, 3, 4], [1, 3, 2, 4], [4, 3, 2, 1]],
+        );
+        let mut ranks = Vec::new();
+        ranks.extend(spec_rows(0, "s1", 1.0, "coefficient", [2, 1, 3, 4]));
+        ranks.extend(spec_rows(0, "s2", 1.03, "coefficient", [3, 1, 2, 4]));
+        ranks.extend(spec_rows(1, "s1", 1.0, "coefficient", [1, 2, 3, 4]));
+        ranks.extend(spec_rows(1, "s2", 1.04, "coefficient", [3, 4, 1, 2]));
+        ranks.extend(spec_rows(2, "s3", 1.0, "impurity", [1, 2, 3, 4]));
+        let draws = [draw(0, 1.0), draw(1, 1.0), draw(2, 1.0)];
+        let sample = ["s1", "s2", "s3"];
+        let inp = Inputs {
+            t: &t,
+            sample: &sample,
+            metric: "mae",
+            rule: DrawRule::Ratio(0.05),
+            ranks_within: 0.1,
+            kinds: vec!["native".into()],
+            top_k: 2,
+            draws: &draws,
+            ranks: Some(&ranks),
+        };
+        let tests = vec![
+            Some((0, Statement::InTop { g: 0, k: 2 })),
+            Some((0, Statement::InTop { g: 1, k: 2 })),
+            Some((0, Statement::Above { a: 0, b: 1 })),
+            Some((0, Statement::Above { a: 1, b: 2 })),
+            Some((0, Statement::Above { a: 0, b: 1 })),
+        ];
+        let cs = [
+            conclusion("auto"),
+            conclusion("auto"),
+            conclusion("auto"),
+            conclusion("auto"),
+            conclusion("claim"),
+        ];
+        let out = evaluate(&inp, &cs, &tests);
+        let c = &out.claims;
+        assert_eq!(c[0].observed, 1.0);
+        assert_eq!((c[0].p, c[0].p_adjusted), (0.5, 0.75));
+        assert_eq!(
+            (c[0].family_draws_at_least, c[0].family_draws_unknown),
+            (2, 1)
+        );
+        assert_eq!(c[1].observed, 0.5);
+        assert_eq!((c[1].p, c[1].p_adjusted), (1.0, 1.0));
+        assert_eq!(c[2].observed, 1.0);
+        assert_eq!((c[2].p, c[2].p_adjusted), (0.75, 1.0));
+        assert_eq!(c[2].family_draws_at_least, 3);
+        assert!(c[0].family.contains("\"in the top 2\""), "{}", c[0].family);
+        assert!(c[2].family.contains("\"ranks above\""), "{}", c[2].family);
+        // The listed claim: unadjusted p only.
+        assert_eq!(c[4].p, 0.75);
+        assert!(c[4].p_adjusted.is_nan() && c[4].family.is_empty());
+        // Every spec is in the null's sample: the selection there is the report's.
+        assert_eq!(out.auto_not_chosen_on_sample, 0);
+    }
+
+    fn perm() -> impl Strategy<Value = [u32; 4]> {
+        Just(vec![1u32, 2, 3, 4])
+            .prop_shuffle()
+            .prop_map(|v| [v[0], v[1], v[2], v[3]])
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(64))]
+        /// Whatever the draws, every tested automatic conclusion's adjusted p is at least
+        /// its unadjusted p (the family maximum includes its own draw support).
+        #[test]
+        fn adjusted_p_is_never_below_the_unadjusted_p(
+            obs in proptest::collection::vec((1.0f64..1.1, perm()), 2..6),
+            draws in proptest::collection::vec(
+                proptest::collection::vec((1.0f64..1.12, perm()), 0..5), 1..8),
+            picks in proptest::collection::vec((0usize..4, 0usize..4, any::<bool>()), 1..6),
+        ) {
+            let (errors, ranks): (Vec<f64>, Vec<[u32; 4]>) = obs.into_iter().unzip();
+            let t = observed(&errors, &ranks);
+            let mut rows = Vec::new();
+            let mut rows_draws = Vec::new();
+            for (d, specs) in draws.iter().enumerate() {
+                let best = specs.iter().map(|s| s.0).fold(f64::INFINITY, f64::min);
+                rows_draws.push(draw(d as i64, best));
+                for (i, (e, r)) in specs.iter().enumerate() {
+                    rows.extend(spec_rows(d as i64, &format!("s{}", i + 1), *e, "coefficient", *r));
+                }
+            }
+            let ids: Vec<String> = t.spec_ids.clone();
+            let sample: Vec<&str> = ids.iter().map(|s| s.as_str()).collect();
+            let inp = Inputs {
+                t: &t,
+                sample: &sample,
+                metric: "mae",
+                rule: DrawRule::Ratio(0.05),
+                ranks_within: 0.12,
+                kinds: vec!["native".into()],
+                top_k: 2,
+                draws: &rows_draws,
+                ranks: Some(&rows),
+            };
+            let tests: Vec<Option<(usize, Statement)>> = picks
+                .iter()
+                .map(|&(a, b, top)| {
+                    Some((0, if top { Statement::InTop { g: a, k: 2 } } else { Statement::Above { a, b } }))
+                })
+                .collect();
+            let cs: Vec<Conclusion> = tests.iter().map(|_| conclusion("auto")).collect();
+            let out = evaluate(&inp, &cs, &tests);
+            for c in out.claims.iter().filter(|c| c.why.is_empty()) {
+                prop_assert!(c.p_adjusted >= c.p, "{} < {}", c.p_adjusted, c.p);
+                prop_assert!(c.family_draws_at_least >= c.draws_at_least);
+            }
+        }
+    }
 }
