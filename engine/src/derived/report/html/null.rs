@@ -151,7 +151,8 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
              ones; adjusted p = (1 + number of draws whose family maximum is at least the observed support) / (1 + {}), \
              unknown draws counted as at least as high. This is the single-step max-type adjustment of Westfall and Young \
              (1993): when the outcome has no between-unit association with any indicator, the chance that any statement \
-             of a family gets an adjusted p at or below 0.05 is at most about 5%; it is never below the unadjusted p. \
+             of a family gets an adjusted p at or below 0.05 is at most about 5% (per family: the up to four families are \
+             not adjusted against each other); it is never below the unadjusted p. \
              \"family max 95%\" is the support a statement needs for an adjusted p near 0.05.{} \
              Claims listed in the config (source claim) are tested as stated, by the unadjusted p; with several claims, \
              some fall at or below 0.05 by chance. Not corrected: the draws' good sets differ in size from each other \
