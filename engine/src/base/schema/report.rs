@@ -392,7 +392,27 @@ pub mod null_claims {
     pub const DRAWS_AT_LEAST: &str = "draws_at_least";
     pub const DRAWS_UNKNOWN: &str = "draws_unknown";
     pub const DRAWS: &str = "draws";
-    pub const P: &str = "p";
+    /// (1 + draws_at_least) / (1 + draws): the statement's own p, as if it had been fixed
+    /// before the data were seen (right for listed claims; optimistic for automatic ones).
+    pub const P_UNADJUSTED: &str = "p_unadjusted";
+    /// Automatic conclusions: the family of statements the report picks them from (one
+    /// selection rule on one level's primary importance kind); null for listed claims and
+    /// untested statements.
+    pub const FAMILY: &str = "family";
+    /// Draws whose family maximum (the largest support of the statements the same selection
+    /// picks in the draw's good set and of the family's observed statements) is at least
+    /// the observed support; unknown draws included. 0 for listed claims.
+    pub const FAMILY_DRAWS_AT_LEAST: &str = "family_draws_at_least";
+    /// Draws whose family maximum is unknown (no good spec of the kind, or a good set past
+    /// the kept ranks). 0 for listed claims.
+    pub const FAMILY_DRAWS_UNKNOWN: &str = "family_draws_unknown";
+    /// 95th percentile of the known family maxima: the support an automatic conclusion
+    /// needs for an adjusted p near 0.05.
+    pub const FAMILY_MAX_Q95: &str = "family_max_q95";
+    /// (1 + family_draws_at_least) / (1 + draws): the p of an automatic conclusion adjusted
+    /// for its selection (single-step max-type, the selection redone in every draw); always
+    /// >= p_unadjusted. Null for listed claims and untested statements.
+    pub const P_ADJUSTED: &str = "p_adjusted";
     pub const GOOD_RULE: &str = "good_rule";
     pub const NOT_TESTED: &str = "not_tested";
     /// Every column, in table order (fixed columns only).
@@ -409,7 +429,12 @@ pub mod null_claims {
         DRAWS_AT_LEAST,
         DRAWS_UNKNOWN,
         DRAWS,
-        P,
+        P_UNADJUSTED,
+        FAMILY,
+        FAMILY_DRAWS_AT_LEAST,
+        FAMILY_DRAWS_UNKNOWN,
+        FAMILY_MAX_Q95,
+        P_ADJUSTED,
         GOOD_RULE,
         NOT_TESTED,
     ];

@@ -23,6 +23,7 @@ pub mod model;
 pub mod nested;
 pub mod null;
 pub mod null_claims;
+pub mod null_family;
 pub mod plots;
 pub mod refit;
 pub mod shape;

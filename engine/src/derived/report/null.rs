@@ -282,33 +282,46 @@ pub fn analyse(
     Ok(Some(n))
 }
 
-/// The headline's sentence on the conclusions under the null: only the claims listed in
-/// the config count (automatic conclusions were chosen because they hold in the observed
-/// good set, a choice the draws do not redo), and only those whose smallest possible p,
-/// (1 + unknown draws) / (1 + draws), reaches 5%. Not reaching 5% is no evidence against
-/// a claim.
+/// The headline's sentence on the conclusions under the null. Claims listed in the config
+/// are judged by their own p; automatic conclusions, picked on the observed good set, only
+/// by their p adjusted for that choice (`report::null_family`). Each counts only when its
+/// smallest possible p, (1 + unknown draws) / (1 + draws), reaches 5%. Not reaching 5% is
+/// no evidence against a statement.
 fn claims_headline(n: &NullReport) -> String {
     let c = &n.claims;
+    let reach = |unknown: usize| (1.0 + unknown as f64) / (1.0 + n.draws as f64) <= 0.05;
     let listed: Vec<&super::null_claims::NullClaim> = c
         .claims
         .iter()
         .filter(|x| x.source == "claim" && x.why.is_empty())
         .collect();
-    let testable: Vec<&&super::null_claims::NullClaim> = listed
-        .iter()
-        .filter(|x| (1.0 + x.draws_unknown as f64) / (1.0 + n.draws as f64) <= 0.05)
-        .collect();
-    let auto = c
+    let testable: Vec<&&super::null_claims::NullClaim> =
+        listed.iter().filter(|x| reach(x.draws_unknown)).collect();
+    let auto: Vec<&super::null_claims::NullClaim> = c
         .claims
         .iter()
-        .filter(|x| x.source != "claim" && x.why.is_empty())
-        .count();
-    let auto_note = if auto > 0 {
+        .filter(|x| x.source == "auto" && x.why.is_empty())
+        .collect();
+    let auto_ok: Vec<&&super::null_claims::NullClaim> = auto
+        .iter()
+        .filter(|x| reach(x.family_draws_unknown))
+        .collect();
+    let auto_note = if auto.is_empty() {
+        String::new()
+    } else if auto_ok.is_empty() {
         format!(
-            " {auto} automatic conclusions were also rerun, but they were chosen because they hold in the observed good set, so their p is optimistic (table null_claims)."
+            " The {} automatic conclusions the draws rerun could not reach an adjusted p <= 0.05 with {} draws (p adjusted for picking them on the observed data; table null_claims).",
+            auto.len(),
+            n.draws
         )
     } else {
-        String::new()
+        let low = auto_ok.iter().filter(|x| x.p_adjusted <= 0.05).count();
+        format!(
+            " Of the {} automatic conclusions that {} draws can test at 5%, {low} have more support than the same selection reaches in the outcome-shuffled draws (p adjusted for picking them on the observed data <= 0.05) and {} do not, which is no evidence against them (table null_claims).",
+            auto_ok.len(),
+            n.draws,
+            auto_ok.len() - low
+        )
     };
     if listed.is_empty() {
         return auto_note;
@@ -364,6 +377,7 @@ fn claims(
         rule,
         ranks_within: m["identity"]["ranks_within"].as_f64().unwrap_or(0.0),
         kinds,
+        top_k: r.meta.top_k,
         draws,
         ranks,
     };
@@ -558,7 +572,28 @@ pub fn write_tables(n: &NullReport, dir: &Path) -> Result<Vec<PathBuf>> {
             columns::null_claims::DRAWS,
             c.iter().map(|x| x.draws as i64),
         )
-        .of(columns::null_claims::P, c.iter().map(|x| x.p))
+        .of(columns::null_claims::P_UNADJUSTED, c.iter().map(|x| x.p))
+        .os(
+            columns::null_claims::FAMILY,
+            c.iter()
+                .map(|x| (!x.family.is_empty()).then(|| x.family.clone())),
+        )
+        .i(
+            columns::null_claims::FAMILY_DRAWS_AT_LEAST,
+            c.iter().map(|x| x.family_draws_at_least as i64),
+        )
+        .i(
+            columns::null_claims::FAMILY_DRAWS_UNKNOWN,
+            c.iter().map(|x| x.family_draws_unknown as i64),
+        )
+        .of(
+            columns::null_claims::FAMILY_MAX_Q95,
+            c.iter().map(|x| x.family_max_q95),
+        )
+        .of(
+            columns::null_claims::P_ADJUSTED,
+            c.iter().map(|x| x.p_adjusted),
+        )
         .s(
             columns::null_claims::GOOD_RULE,
             c.iter().map(|_| n.claims.rule.as_str()),
@@ -586,9 +621,21 @@ mod tests {
         }
     }
 
+    /// An automatic conclusion: unadjusted p, adjusted p and unknown family draws.
+    fn auto(p: f64, p_adjusted: f64, unknown: usize) -> NullClaim {
+        NullClaim {
+            source: "auto".into(),
+            p,
+            p_adjusted,
+            family_draws_unknown: unknown,
+            draws: 99,
+            ..Default::default()
+        }
+    }
+
     /// The headline counts only claims listed in the config, only those whose smallest
     /// possible p reaches 5%, and calls the rest "not distinguishable", never "no evidence
-    /// for them"; automatic conclusions are named as selected on the observed data.
+    /// for them"; automatic conclusions count by their adjusted p only.
     #[test]
     fn the_headline_tests_only_listed_claims_that_can_reach_five_percent() {
         let mut n = NullReport {
@@ -603,7 +650,12 @@ mod tests {
             claim("claim", 0.30, 1),
             // (1 + 5) / 100 = 0.06: cannot reach 5%.
             claim("claim", 0.06, 5),
-            claim("auto", 0.01, 0),
+            // Small unadjusted p, large adjusted p: not counted as holding.
+            auto(0.01, 0.40, 0),
+            auto(0.01, 0.02, 0),
+            // (1 + 4) / 100 = 0.05 reaches 5%; (1 + 5) / 100 does not.
+            auto(0.01, 0.05, 4),
+            auto(0.01, 0.06, 5),
         ];
         let h = claims_headline(&n);
         assert!(h.contains("Of the 2 claims listed in the config that 99 draws can test at 5%, 1 have more support"), "{h}");
@@ -614,8 +666,19 @@ mod tests {
             "{h}"
         );
         assert!(h.contains("hold 4 of the report's 20 good specs"), "{h}");
-        assert!(h.contains("1 automatic conclusions were also rerun"), "{h}");
-        assert!(h.contains("their p is optimistic"), "{h}");
+        assert!(
+            h.contains("Of the 3 automatic conclusions that 99 draws can test at 5%, 2 have more support than the same selection reaches"),
+            "{h}"
+        );
+        assert!(
+            h.contains("and 1 do not, which is no evidence against them"),
+            "{h}"
+        );
+        // With 24 draws and an unknown family draw, none can reach 5%: said so.
+        n.draws = 24;
+        n.claims.claims = vec![auto(0.04, 0.08, 1)];
+        let h = claims_headline(&n);
+        assert!(h.contains("The 1 automatic conclusions the draws rerun could not reach an adjusted p <= 0.05 with 24 draws"), "{h}");
         // With 24 draws and 2 unknown ones no claim can reach 5%: said so, none counted.
         n.draws = 24;
         n.claims.claims = vec![claim("claim", 0.12, 2)];

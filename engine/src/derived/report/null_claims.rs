@@ -23,6 +23,9 @@
 //!   null's other p-values; a draw with an unknown support counts as at least as high (it
 //!   cannot make the observed support look rarer than it is). Mean and 95th percentile over
 //!   the draws with a known support.
+//! * Automatic conclusions were picked on the observed data; each also gets a p adjusted
+//!   for that choice by a max-type null that redoes the selection in every draw
+//!   ([`super::null_family`]). Listed claims are tested as stated (no adjusted p).
 
 use super::conclusions::{support, Statement};
 use super::data::{KindTable, RunTables};
@@ -75,7 +78,17 @@ pub struct NullClaim {
     /// past the stored band).
     pub draws_unknown: usize,
     pub draws: usize,
+    /// The unadjusted p (as if the statement had been fixed before seeing the data).
     pub p: f64,
+    /// Automatic conclusions: the family they were picked from ([`super::null_family`]),
+    /// the draws whose family maximum is at least the observed support (unknown ones
+    /// included), the unknown ones, the 95th percentile of the known maxima and the
+    /// adjusted p. "" / 0 / NaN for listed claims and untested statements.
+    pub family: String,
+    pub family_draws_at_least: usize,
+    pub family_draws_unknown: usize,
+    pub family_max_q95: f64,
+    pub p_adjusted: f64,
     /// Why the statement cannot be tested under the null ("" when it is).
     pub why: String,
 }
@@ -93,6 +106,11 @@ pub struct NullClaims {
     /// (the observed support is over that sample's good set, not the report's).
     pub report_good: usize,
     pub report_good_in_sample: usize,
+    /// Automatic conclusions (tested) that the selection would not pick on the good set of
+    /// the null's specs in the observed run (0 when the null runs every spec with the
+    /// report's metric and a ratio or margin rule): their adjusted p rests on the report's
+    /// choice, not on the same selection as in the draws.
+    pub auto_not_chosen_on_sample: usize,
     /// Why no statement can be tested (an old null without `goodranks`), if so.
     pub unavailable: Option<String>,
 }
@@ -107,6 +125,8 @@ pub struct Inputs<'a> {
     pub ranks_within: f64,
     /// `[null] importance` of the null (`native`, `permutation`, `group`).
     pub kinds: Vec<String>,
+    /// The report's top k (the automatic selection's k).
+    pub top_k: usize,
     pub draws: &'a [DrawRow],
     /// `None`: the null has no `goodranks` table.
     pub ranks: Option<&'a [RankRow]>,
@@ -151,6 +171,14 @@ type DrawSpecs<'a> = BTreeMap<&'a str, (f64, Vec<&'a RankRow>)>;
 /// Support of `st` (names of `kt`) over one draw's good set: the specs of `specs` with
 /// error <= `cut` holding rows of `kt`'s level and kind. NaN when none holds them.
 pub fn draw_support(st: &Statement, kt: &KindTable, specs: &DrawSpecs, cut: f64) -> f64 {
+    let d = draw_table(kt, specs, cut);
+    let rows: Vec<usize> = (0..d.specs.len()).collect();
+    support(st, &d, &rows)
+}
+
+/// One draw's good set as a kind table with `kt`'s names: the specs of `specs` with error
+/// <= `cut` holding rows of `kt`'s level and kind, numbered 0.. in spec id order.
+pub fn draw_table(kt: &KindTable, specs: &DrawSpecs, cut: f64) -> KindTable {
     let m = kt.names.len();
     let mut d = KindTable {
         level: kt.level.clone(),
@@ -177,9 +205,10 @@ pub fn draw_support(st: &Statement, kt: &KindTable, specs: &DrawSpecs, cut: f64)
             continue;
         }
         let at = d.values.len();
-        // A name the spec holds no row for is never top and ranks below every other.
+        // A name the spec holds no row for is never top and ranks last (as the observed
+        // run's reading ranks it, [`super::data`]).
         d.values.resize(at + m, 0.0);
-        d.ranks.resize(at + m, u32::MAX);
+        d.ranks.resize(at + m, u32::try_from(m).unwrap_or(u32::MAX));
         d.in_pool.resize(at + m, false);
         for r in mine {
             if let Some(j) = kt.name_index(&r.name) {
@@ -190,8 +219,7 @@ pub fn draw_support(st: &Statement, kt: &KindTable, specs: &DrawSpecs, cut: f64)
         }
         d.specs.push(d.specs.len());
     }
-    let rows: Vec<usize> = (0..d.specs.len()).collect();
-    support(st, &d, &rows)
+    d
 }
 
 /// Evaluate every conclusion (`tests[i]`: its kind table and statement, `None` for the
@@ -218,6 +246,8 @@ pub fn evaluate(
         null_mean: f64::NAN,
         null_q95: f64::NAN,
         p: f64::NAN,
+        family_max_q95: f64::NAN,
+        p_adjusted: f64::NAN,
         draws: inp.draws.len(),
         why: why.to_string(),
         ..Default::default()
@@ -330,7 +360,76 @@ pub fn evaluate(
         }
         out.claims.push(nc);
     }
+    adjust(inp, tests, &by_draw, &cuts, &obs_good, &mut out);
     out
+}
+
+/// The max-type null of the automatic conclusions ([`super::null_family`]): per family
+/// (kind table and rule) every draw's maximum, then each tested member's adjusted p.
+fn adjust(
+    inp: &Inputs,
+    tests: &[Option<(usize, Statement)>],
+    by_draw: &BTreeMap<i64, DrawSpecs>,
+    cuts: &[Option<f64>],
+    obs_good: &[usize],
+    out: &mut NullClaims,
+) {
+    use super::null_family::{adjusted, family_max, selected, sub_table, Rule};
+    // Families: (kind table, rule) -> the automatic conclusions picked from it.
+    let mut families: BTreeMap<(usize, Rule), Vec<usize>> = BTreeMap::new();
+    for (i, c) in out.claims.iter().enumerate() {
+        if c.source != "auto" {
+            continue;
+        }
+        if let Some(Some((ti, st))) = tests.get(i) {
+            families.entry((*ti, Rule::of(st))).or_default().push(i);
+        }
+    }
+    let empty = DrawSpecs::new();
+    for ((ti, rule), members) in families {
+        if members.iter().all(|&i| !out.claims[i].why.is_empty()) {
+            continue;
+        }
+        let kt = &inp.t.importance[ti];
+        let stated: Vec<Statement> = members
+            .iter()
+            .filter_map(|&i| tests[i].as_ref().map(|x| x.1.clone()))
+            .collect();
+        let maxima: Vec<f64> = inp
+            .draws
+            .iter()
+            .zip(cuts)
+            .map(|(d, cut)| match cut {
+                Some(cut) => {
+                    let dt = draw_table(kt, by_draw.get(&d.draw).unwrap_or(&empty), *cut);
+                    family_max(&dt, inp.top_k, rule, &stated)
+                }
+                None => f64::NAN,
+            })
+            .collect();
+        // The same selection on the null's specs' good set in the observed run.
+        let rows: Vec<usize> = obs_good
+            .iter()
+            .filter_map(|&s| kt.specs.binary_search(&s).ok())
+            .collect();
+        let on_sample = selected(&sub_table(kt, &rows), inp.top_k, rule);
+        let family = rule.describe(kt, inp.top_k);
+        for (&i, st) in members.iter().zip(&stated) {
+            let nc = &mut out.claims[i];
+            if !nc.why.is_empty() {
+                continue;
+            }
+            let (p, at_least, unknown, q95) = adjusted(&maxima, nc.observed);
+            nc.family = family.clone();
+            nc.p_adjusted = p;
+            nc.family_draws_at_least = at_least;
+            nc.family_draws_unknown = unknown;
+            nc.family_max_q95 = q95;
+            if !on_sample.contains(st) {
+                out.auto_not_chosen_on_sample += 1;
+            }
+        }
+    }
 }
 
 #[cfg(test)]

@@ -143,9 +143,21 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
              least the observed) / (1 + {}), the +1 correction as above; a draw whose support is unknown (its good set holds \
              no spec of the kind, or reaches past the kept ranks) counts as at least as high, so a claim with u unknown \
              draws cannot have p below (1 + u) / (1 + draws). Automatic conclusions (source auto) were chosen because they \
-             hold in the observed good set and the draws do not redo that choice, so their p is optimistic; with many \
-             conclusions some fall at or below 0.05 by chance. Only claims listed in the config (source claim) are tested \
-             as stated. A p above 0.05 is no evidence against a claim. A conclusion that holds about as often under the null \
+             hold in the observed good set, so their unadjusted p is optimistic; they are judged by the adjusted p. \
+             Adjusted p (automatic conclusions only): the report picks them from families of candidate statements (per \
+             level's primary kind: \"in the top k\" for every name top k in at least half of the good set; \"ranks above\" \
+             for the first k adjacent pairs by median good rank), so every draw redoes that selection on its own good set \
+             and keeps the family maximum, the largest support among the statements it picks and the family's observed \
+             ones; adjusted p = (1 + number of draws whose family maximum is at least the observed support) / (1 + {}), \
+             unknown draws counted as at least as high. This is the single-step max-type adjustment of Westfall and Young \
+             (1993): when the outcome has no between-unit association with any indicator, the chance that any statement \
+             of a family gets an adjusted p at or below 0.05 is at most about 5% (per family: the up to four families are \
+             not adjusted against each other); it is never below the unadjusted p. \
+             \"family max 95%\" is the support a statement needs for an adjusted p near 0.05.{} \
+             Claims listed in the config (source claim) are tested as stated, by the unadjusted p; with several claims, \
+             some fall at or below 0.05 by chance. Not corrected: the draws' good sets differ in size from each other \
+             and from the observed one (a share over 2 specs reaches 100% more easily than over 20), so supports over \
+             good sets of different sizes are compared as they are. A p above 0.05 is no evidence against a claim. A conclusion that holds about as often under the null \
              (null mean near the observed support, large p) is not evidence of anything: shuffled outcomes, with no \
              between-unit association with any indicator, give it just as readily, e.g. through collinear indicators, \
              pools or models that favour some names whatever the outcome. A small p says only that the support is higher \
@@ -155,7 +167,18 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
             c.kinds.join(", "),
             c.report_good_in_sample,
             c.report_good,
-            n.draws
+            n.draws,
+            n.draws,
+            if c.auto_not_chosen_on_sample > 0 {
+                format!(
+                    " {} of the tested automatic conclusions would not be picked on the good set of the null's specs in \
+                     the observed run (they were picked on the report's good set): for them the adjustment follows the \
+                     report's choice, not the same selection as in the draws.",
+                    c.auto_not_chosen_on_sample
+                )
+            } else {
+                String::new()
+            }
         ),
     };
     let mut t = Table::new(
@@ -174,7 +197,9 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
         ("null 95%", true),
         ("draws at least", true),
         ("unknown", true),
-        ("p", true),
+        ("p (unadjusted)", true),
+        ("family max 95%", true),
+        ("p adjusted", true),
         ("not tested because", false),
     ]);
     for x in &c.claims {
@@ -201,6 +226,8 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
                 "-".into()
             },
             num(x.p),
+            share(x.family_max_q95),
+            num(x.p_adjusted),
             x.why.clone(),
         ]);
     }

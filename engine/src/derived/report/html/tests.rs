@@ -184,6 +184,8 @@ fn the_null_claims_table_shows_numbers_or_the_reason() {
                 draws_at_least: 7,
                 draws: 19,
                 p: 0.4,
+                p_adjusted: 0.6,
+                family_max_q95: 1.0,
                 ..Default::default()
             },
             NullClaim {
@@ -196,6 +198,7 @@ fn the_null_claims_table_shows_numbers_or_the_reason() {
         ],
         report_good: 20,
         report_good_in_sample: 3,
+        auto_not_chosen_on_sample: 0,
         unavailable: None,
     };
     let t = tables(&r)
@@ -208,10 +211,15 @@ fn the_null_claims_table_shows_numbers_or_the_reason() {
         t.about
     );
     assert!(t.about.contains("hold 3 of the report's 20 good specs"));
-    assert!(t.about.contains("their p is optimistic"));
+    assert!(t.about.contains("their unadjusted p is optimistic"));
+    assert!(t.about.contains("single-step max-type adjustment"));
+    assert!(t
+        .about
+        .contains("Not corrected: the draws' good sets differ in size"));
     assert_eq!(t.rows[0][7], "7 of 19");
     assert_eq!(t.rows[1][7], "-");
-    assert!(t.rows[1][10].starts_with("not tested"));
+    assert_eq!(t.rows[0][11], "0.6");
+    assert!(t.rows[1][12].starts_with("not tested"));
     r.null.as_mut().unwrap().claims.unavailable = Some("old null".into());
     let t = tables(&r)
         .into_iter()
