@@ -13,6 +13,7 @@ a grid whose time is mostly forests cannot run much more than k times faster tha
 Python sweep, whatever the Python sweep spends per spec.
 
 Usage: python benches/tree_bound.py FLOOR_COUNT_BIN [--rows 96 320 960] [--p 10 30 100 300]
+         [--tried 1.0 0.33] [--min-leaf 1 5] [--budget CPU_SECONDS]
   (FLOOR_COUNT_BIN: `cargo bench -p forkmap --bench floor_count --no-run` prints its path)
 """
 
@@ -84,6 +85,8 @@ def main():
     ap.add_argument("binary")
     ap.add_argument("--rows", type=int, nargs="*", default=[96, 320, 960])
     ap.add_argument("--p", type=int, nargs="*", default=[10, 30, 100, 300])
+    ap.add_argument("--tried", type=float, nargs="*", default=[1.0, 0.33])
+    ap.add_argument("--min-leaf", type=int, nargs="*", default=[1, 5])
     ap.add_argument("--budget", type=float, default=1.0, help="CPU seconds per measurement")
     a = ap.parse_args()
     print("| training rows | indicators | tried | min_leaf | scikit-learn ms/tree | forkmap ms/tree | k |")
@@ -91,8 +94,8 @@ def main():
     for n in a.rows:
         for p in a.p:
             x, y = panel(n, p)
-            for tried in (1.0, 0.33):
-                for leaf in (1, 5):
+            for tried in a.tried:
+                for leaf in a.min_leaf:
                     s = sklearn_ms(x, y, tried, leaf, a.budget)
                     f = forkmap_ms(a.binary, n, p, tried, leaf, a.budget)
                     print(f"| {n} | {p} | {tried} | {leaf} | {s:.3f} | {f:.3f} | {s / f:.1f}x |",
