@@ -117,24 +117,44 @@ fn main() {
     }
 }
 
-/// `floor_count wide ROWS INDICATORS [REPEATS]`: the floor case's forest on a synthetic
-/// panel (uniform values on a 0.001 grid, outcome from two indicators plus noise, unit
-/// weights), timed over REPEATS fits (default 10).
+/// `floor_count wide ROWS INDICATORS [REPEATS] [TRIED] [MIN_LEAF]`: the floor case's forest
+/// (or one trying TRIED of the indicators with MIN_LEAF) on a synthetic panel (uniform
+/// values on a 0.001 grid, outcome from two indicators plus noise, unit weights), timed
+/// over REPEATS fits (default 10); also prints the microseconds per tree.
 fn wide() {
     use rand::{Rng, SeedableRng};
+    const USAGE: &str = "usage: floor_count wide ROWS INDICATORS [REPEATS] [TRIED] [MIN_LEAF]";
     let arg = |k: usize| args().nth(k).map(|a| a.parse::<usize>());
     let (Some(Ok(n)), Some(Ok(p))) = (arg(2), arg(3)) else {
-        eprintln!("usage: floor_count wide ROWS INDICATORS [REPEATS]");
+        eprintln!("{USAGE}");
         std::process::exit(2);
     };
     let repeats = match arg(4) {
         None => 10,
         Some(Ok(r)) if r > 0 => r,
         _ => {
-            eprintln!("usage: floor_count wide ROWS INDICATORS [REPEATS]");
+            eprintln!("{USAGE}");
             std::process::exit(2);
         }
     };
+    let mut params = shared::FloorCase::params();
+    if let Some(t) = args().nth(5) {
+        match t.parse::<f64>() {
+            Ok(t) if t > 0.0 && t <= 1.0 => params.tried = t,
+            _ => {
+                eprintln!("{USAGE}");
+                std::process::exit(2);
+            }
+        }
+    }
+    match arg(6) {
+        None => {}
+        Some(Ok(m)) if m > 0 => params.min_leaf = m,
+        _ => {
+            eprintln!("{USAGE}");
+            std::process::exit(2);
+        }
+    }
     let mut g = rand_chacha::ChaCha8Rng::seed_from_u64(1);
     let x = ndarray::Array2::from_shape_fn((n, p), |_| {
         (g.gen_range(0.0..100.0f64) * 1000.0).round() / 1000.0
@@ -143,7 +163,6 @@ fn wide() {
         0.3 * x[[i, 0]] + x[[i, 1 % p]].sin() + g.gen_range(0.0..5.0)
     });
     let w = ndarray::Array1::ones(n);
-    let params = shared::FloorCase::params();
     let t = std::time::Instant::now();
     for r in 0..repeats {
         let input = FitInput {
@@ -154,8 +173,11 @@ fn wide() {
         };
         forest_once(&params, &input);
     }
+    let us = t.elapsed().as_secs_f64() * 1e6 / repeats as f64;
     println!(
-        "wide: {n} rows x {p} indicators, {:.0} us per forest ({repeats} fits)",
-        t.elapsed().as_secs_f64() * 1e6 / repeats as f64
+        "wide: {n} rows x {p} indicators, tried {} min_leaf {}: {us:.0} us per forest, {:.1} us per tree ({repeats} fits)",
+        params.tried,
+        params.min_leaf,
+        us / params.trees as f64
     );
 }

@@ -191,13 +191,17 @@ impl ForestParams {
                 w[i] = counts[i] as f64 * input.w[i];
             }
             let rows: Vec<usize> = (0..n).filter(|&i| w[i] > 0.0).collect();
-            trees.push(grower.grow(
-                input.y,
-                &w,
-                rows,
-                params,
-                Candidates::Sample { m, rng: &mut rng },
-            ));
+            // Trying every indicator, the draw would list all that vary at the node,
+            // whatever the stream: the grower tries them all without drawing (an
+            // indicator constant at the node offers no split), the same tree bit for bit
+            // (tested; without NaN, where the draw's test of varying and the scan's
+            // could differ), and the stream is not read again.
+            let cand = if m == p && !pre.has_nan() {
+                Candidates::All
+            } else {
+                Candidates::Sample { m, rng: &mut rng }
+            };
+            trees.push(grower.grow(input.y, &w, rows, params, cand));
         }
         Ok(Ensemble::new(trees))
     }

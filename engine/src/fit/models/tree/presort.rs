@@ -115,6 +115,11 @@ impl Presorted {
         })
     }
 
+    /// Whether some value is NaN.
+    pub fn has_nan(&self) -> bool {
+        self.nan
+    }
+
     pub(super) fn col(&self, f: usize) -> &[f64] {
         &self.xt[f * self.n..(f + 1) * self.n]
     }

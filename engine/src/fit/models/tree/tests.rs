@@ -303,6 +303,76 @@ fn presorted_grower_equals_per_node_sort_bit_for_bit() {
     assert!(split * 10 >= total * 9, "{split} of {total} trees split");
 }
 
+/// A forest trying every indicator grows with [`Candidates::All`] instead of drawing all
+/// p (models/forest.rs): the same trees bit for bit, with weights, ties, an indicator
+/// constant everywhere and ones constant at small nodes, on both sides of 128 rows.
+#[test]
+fn trying_all_equals_drawing_all_bit_for_bit() {
+    use rand::{Rng, SeedableRng};
+    let mut g = rand_chacha::ChaCha8Rng::seed_from_u64(7);
+    let (mut split, mut total) = (0, 0);
+    for case in 0..24 {
+        let n = if case % 3 == 2 {
+            140 + case
+        } else {
+            30 + 3 * case
+        };
+        let p = 2 + case % 7;
+        let x = ndarray::Array2::from_shape_fn((n, p), |(_, f)| {
+            let v: f64 = g.gen_range(-3.0..3.0);
+            match f % 3 {
+                0 => v,
+                1 => v.round(),
+                _ if f == 2 => 1.0,
+                _ => (v / 2.0).round() + f64::from(g.gen_range(0..3u8)) * 4e-8,
+            }
+        });
+        let y = ndarray::Array1::from_shape_fn(n, |i| x[[i, 0]].sin() + g.gen_range(0.0..0.5));
+        let w: Vec<f64> = (0..n)
+            .map(|_| {
+                if g.gen_bool(0.3) {
+                    0.0
+                } else {
+                    g.gen_range(1..4) as f64
+                }
+            })
+            .collect();
+        let rows: Vec<usize> = (0..n).filter(|&i| w[i] > 0.0).collect();
+        let params = TreeParams {
+            depth: usize::MAX,
+            min_leaf: 1 + 4 * (case % 2),
+        };
+        let pre = Presorted::new(x.view());
+        let mut r = rand_chacha::ChaCha8Rng::seed_from_u64(case as u64);
+        let mut grower = Grower::new(&pre);
+        let a = grower.grow(
+            y.view(),
+            &w,
+            rows.clone(),
+            params,
+            Candidates::<rand_chacha::ChaCha8Rng>::All,
+        );
+        let b = grower.grow(
+            y.view(),
+            &w,
+            rows,
+            params,
+            Candidates::Sample { m: p, rng: &mut r },
+        );
+        assert_eq!(
+            format!("{:?}", a.nodes),
+            format!("{:?}", b.nodes),
+            "case {case} (n {n}, p {p})"
+        );
+        split += (a.nodes.len() > 3) as usize;
+        total += 1;
+    }
+    assert_eq!(
+        split, total,
+        "{split} of {total} trees split more than once"
+    );
+}
+
 /// The presorted order (sorting keys) is `f64::total_cmp`'s, ties by row, on the
 /// values where the two could part: signed zeros, infinities, NaNs of both signs,
 /// subnormals and repeats.
