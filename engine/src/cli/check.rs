@@ -71,6 +71,19 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             null_complete &= ok;
         }
     }
+    // Shards whose null or nested settings disagree, or with a draw or fold no shard
+    // owns: `gather` would refuse them (its message says why).
+    if set
+        .dirs
+        .iter()
+        .any(|d| d.manifest.shard_draws.is_some() || d.manifest.shard_folds.is_some())
+        && null_complete
+    {
+        if let Err(e) = forkmap::gather::derived::problems(&set) {
+            println!("gather     would refuse: {e}");
+            null_complete = false;
+        }
+    }
     if c.is_complete() && null_complete {
         println!("complete");
         Ok(ExitCode::SUCCESS)

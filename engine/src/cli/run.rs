@@ -257,7 +257,7 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         best();
     } else if a.shard.is_some() {
         best();
-        println!("report     left to the merged run (`forkmap gather`, then `forkmap map`)");
+        println!("report     left to the gathered run (`forkmap gather`, then `forkmap run CONFIG --out GATHERED` for the refit, curves and report, or `forkmap map GATHERED` for the report alone)");
     } else {
         match super::map::map_runs(
             std::slice::from_ref(&a.out),

@@ -36,12 +36,8 @@ impl Derived {
     }
 }
 
-fn refuse(out: &Path, msg: String) -> Error {
-    Error::Output {
-        path: out.to_path_buf(),
-        msg: format!("not written: {msg}"),
-    }
-}
+/// Why the shards cannot be gathered (a sentence; `check` makes it an error).
+type Refusal = std::result::Result<Derived, String>;
 
 fn name(d: &RunDir) -> String {
     format!(
@@ -67,11 +63,10 @@ fn rerun(d: &RunDir) -> String {
 
 /// Owner of each index 0..total by the shards' lists; an index no shard lists is named.
 fn owners<'a>(
-    out_path: &Path,
     shards: &[(&'a RunDir, Vec<usize>)],
     total: usize,
     what: &str,
-) -> Result<Vec<&'a RunDir>> {
+) -> std::result::Result<Vec<&'a RunDir>, String> {
     let mut owner: Vec<Option<&RunDir>> = vec![None; total];
     for (d, mine) in shards {
         for &i in mine {
@@ -82,12 +77,9 @@ fn owners<'a>(
     }
     let orphan: Vec<usize> = (0..total).filter(|&i| owner[i].is_none()).collect();
     if !orphan.is_empty() {
-        return Err(refuse(
-            out_path,
-            format!(
-                "{what} {} belong to no shard: the shards were not split from one config",
-                list(&orphan)
-            ),
+        return Err(format!(
+            "{what} {} belong to no shard: the shards were not split from one config",
+            list(&orphan)
         ));
     }
     Ok(owner.into_iter().flatten().collect())
@@ -111,11 +103,10 @@ fn missing_message(what: &str, missing: &[(usize, &RunDir)]) -> String {
 
 /// The shards (with their lists) that hold a share of `key`; an error when only some do.
 fn sharing<'a>(
-    out_path: &Path,
     set: &'a RunSet,
     list_of: impl Fn(&RunDir) -> Option<Vec<usize>>,
     what: &str,
-) -> Result<Vec<(&'a RunDir, Vec<usize>)>> {
+) -> std::result::Result<Vec<(&'a RunDir, Vec<usize>)>, String> {
     let shards: Vec<&RunDir> = set.dirs.iter().filter(|d| d.shard.is_some()).collect();
     let with: Vec<(&RunDir, Vec<usize>)> = shards
         .iter()
@@ -123,23 +114,31 @@ fn sharing<'a>(
         .collect();
     if !with.is_empty() && with.len() < shards.len() {
         if let Some(d) = shards.iter().find(|d| list_of(d).is_none()) {
-            return Err(refuse(out_path, format!(
+            return Err(format!(
                 "{} ran without a share of the {what} but {} ran one: the shards ran different configs ([{what}] differs); rerun it with the same config",
                 name(d),
                 name(with[0].0)
-            )));
+            ));
         }
     }
     Ok(with)
 }
 
-/// Check the shards' null and nested shares (nothing is written).
-pub fn check(set: &RunSet, out_path: &Path) -> Result<Derived> {
+/// Check the shards' null and nested shares (nothing is written); the error names the
+/// gathered folder `out`.
+pub fn check(set: &RunSet, out: &Path) -> Result<Derived> {
+    problems(set).map_err(|msg| Error::Output {
+        path: out.to_path_buf(),
+        msg: format!("not written: {msg}"),
+    })
+}
+
+/// The checks of [`check`], the refusal as a sentence (`forkmap check` prints it).
+pub fn problems(set: &RunSet) -> Refusal {
     let mut out = Derived::default();
     let mut problems: Vec<String> = Vec::new();
     // Identities first: a difference there explains any missing part.
     let null_shards = sharing(
-        out_path,
         set,
         |d| {
             d.manifest
@@ -166,16 +165,16 @@ pub fn check(set: &RunSet, out_path: &Path) -> Result<Derived> {
                     })
                 });
                 if let Some(why) = why {
-                    return Err(refuse(out_path, format!(
+                    return Err(format!(
                         "the null of {} differs from that of {}: {why}; rerun the shards with one config",
                         name(d),
                         name(r)
-                    )));
+                    ));
                 }
             }
         }
     }
-    let nested_shards = sharing(out_path, set, |d| d.manifest.shard_folds.clone(), "nested")?;
+    let nested_shards = sharing(set, |d| d.manifest.shard_folds.clone(), "nested")?;
     let mut nested_ref: Option<(&RunDir, Value)> = None;
     for (d, _) in &nested_shards {
         let Some(s) = read_json(&d.path.join(NESTED_DIR).join(NESTED_SETTINGS)) else {
@@ -193,13 +192,23 @@ pub fn check(set: &RunSet, out_path: &Path) -> Result<Derived> {
                         .find(|k| rs[k.as_str()] != s[k.as_str()])
                         .cloned()
                         .unwrap_or_default();
-                    return Err(refuse(out_path, format!(
-                        "the nested estimate of {} differs from that of {}: its settings' `{k}` differs (was {}, now {}); rerun the shards with one config and the same map flags",
+                    // A key of the `[nested]` section itself is named as the user writes it.
+                    let (field, was, now) = match (&rs[k.as_str()], &s[k.as_str()]) {
+                        (Value::Object(a), Value::Object(b)) if k == "nested" => a
+                            .keys()
+                            .chain(b.keys())
+                            .find(|j| a.get(*j) != b.get(*j))
+                            .map(|j| (format!("nested.{j}"), &rs[k.as_str()][j], &s[k.as_str()][j]))
+                            .unwrap_or((k.clone(), &rs[k.as_str()], &s[k.as_str()])),
+                        (a, b) => (format!("settings' {k}"), a, b),
+                    };
+                    return Err(format!(
+                        "the nested estimate of {} differs from that of {}: {field} differs (was {}, now {}); rerun the shards with one config and the same map flags",
                         name(d),
                         name(r),
-                        short(&rs[k.as_str()]),
-                        short(&s[k.as_str()])
-                    )));
+                        short(was),
+                        short(now)
+                    ));
                 }
             }
         }
@@ -210,7 +219,7 @@ pub fn check(set: &RunSet, out_path: &Path) -> Result<Derived> {
             Some((_, m)) => m["draws"].as_u64().unwrap_or(0) as usize,
             None => null_shards.iter().map(|(_, l)| l.len()).sum(),
         };
-        let owner = owners(out_path, &null_shards, total, "null draws")?;
+        let owner = owners(&null_shards, total, "null draws")?;
         let missing: Vec<(usize, &RunDir)> = (0..total)
             .filter(|&i| {
                 !owner[i]
@@ -240,7 +249,7 @@ pub fn check(set: &RunSet, out_path: &Path) -> Result<Derived> {
             Some((_, s)) => s["outer_folds"].as_u64().unwrap_or(0) as usize,
             None => nested_shards.iter().map(|(_, l)| l.len()).sum(),
         };
-        let owner = owners(out_path, &nested_shards, total, "nested outer folds")?;
+        let owner = owners(&nested_shards, total, "nested outer folds")?;
         let missing: Vec<(usize, &RunDir)> = (0..total)
             .filter(|&o| !fold_path(&owner[o].path, o).is_file())
             .map(|o| (o, owner[o]))
@@ -260,7 +269,7 @@ pub fn check(set: &RunSet, out_path: &Path) -> Result<Derived> {
     if problems.is_empty() {
         Ok(out)
     } else {
-        Err(refuse(out_path, problems.join("\n  ")))
+        Err(problems.join("\n  "))
     }
 }
 
