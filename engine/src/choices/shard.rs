@@ -165,8 +165,8 @@ mod tests {
         assert_eq!(deal(&mut load, &[1.0, 4.0, 1.0]), vec![2, 1, 0]);
         assert_eq!(load, vec![6.0, 7.0, 5.0]);
         // Equal jobs: adding more at the end leaves the first ones where they were.
-        let few = deal(&mut vec![2.0, 0.0], &[1.0; 5]);
-        let more = deal(&mut vec![2.0, 0.0], &[1.0; 9]);
+        let few = deal(&mut [2.0, 0.0], &[1.0; 5]);
+        let more = deal(&mut [2.0, 0.0], &[1.0; 9]);
         assert_eq!(few, more[..5]);
         assert_eq!(few, vec![1, 1, 0, 1, 0]);
         // No shards to fill: nothing panics, every job on shard 0.

@@ -255,6 +255,8 @@ mod tests {
             null: serde_json::json!({"draws": 4}),
             shard: None,
             shard_specs: Some(10),
+            shard_draws: None,
+            shard_folds: None,
             resumes: 0,
             lineage: None,
             gathered_from: None,
