@@ -14,9 +14,10 @@
 //! skips it, a shard leaves it to the merged run) and prints its headline. Before the
 //! report it draws the curves (`forkmap curves RUN_DIR` with the config's `[curves]`
 //! settings) into RUN_DIR/curves/ unless `--no-curves` or `[curves] draw = false`; failed
-//! curves are a warning, like a failed report. With a `[null]` section, a whole-space run
-//! runs the permutation null after the sweep and before the report, into RUN_DIR/null/
-//! (resumable draw by draw); a shard leaves the null to the gathered run. Exit code 0 when
+//! curves are a warning, like a failed report. With a `[null]` section, the run runs the
+//! permutation null after the sweep and before the report, into RUN_DIR/null/ (resumable
+//! draw by draw); a shard runs the draws dealt to it after its specs (`forkmap gather`
+//! joins them). Exit code 0 when
 //! the sweep completed (failed specs are recorded and counted), 2 on an error. A report
 //! that fails does not fail the run: its results are complete and kept, the failure is
 //! printed as a warning, and `forkmap map RUN_DIR` writes the report later.
@@ -29,9 +30,12 @@
 //!
 //! With a `[nested]` section the nested estimate of choosing the best runs after the sweep,
 //! before the report, into RUN_DIR/nested/ (one table per outer fold; a rerun skips the
-//! folds done; a shard skips it: run the whole space for it). With a `[refit]` section the
-//! run's top N specs (by the report's metric) are refitted on unit subsamples after that,
-//! into RUN_DIR/refit/ (resumable subsample by subsample; a shard skips it).
+//! folds done; a shard runs the outer folds dealt to it, which `forkmap gather` joins).
+//! With a `[refit]` section the run's top N specs (by the report's metric) are refitted on
+//! unit subsamples after that, into RUN_DIR/refit/ (resumable subsample by subsample). A
+//! shard skips the refit, the curves and the report, which need the whole space's results:
+//! after `forkmap gather`, `forkmap run CONFIG --out GATHERED` runs them (nothing done is
+//! rerun).
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -53,8 +57,8 @@ pub struct Args {
     /// Discard a run of another config, data or version found in RUN_DIR and start afresh.
     #[arg(long)]
     restart: bool,
-    /// Run only shard I of N (1-based), a deterministic cost-balanced share of the specs;
-    /// `forkmap gather` joins the shards.
+    /// Run only shard I of N (1-based), a deterministic cost-balanced share of the specs
+    /// (and of the null's draws and nested outer folds); `forkmap gather` joins the shards.
     #[arg(long, value_name = "I/N")]
     shard: Option<forkmap::shard::Shard>,
     /// Add the specs of CONFIG that the finished run in RUN_DIR lacks (CONFIG keeps every

@@ -168,7 +168,7 @@ pub fn plan_text(
     let n = plan.n_fits(panel.n_units());
     let per = n / plan.outer.folds.len().max(1);
     let mut s = format!(
-        "\nnested estimate ([nested]; after the sweep, before the report)\n  {} outer folds x ({} specs{} x {} inner fits + 1 refit) = {n} model fits ({per} per outer fold), chosen by {}\n",
+        "\nnested estimate ([nested]; after the sweep, before the report; with --shard I/N each shard runs the outer folds dealt to it)\n  {} outer folds x ({} specs{} x {} inner fits + 1 refit) = {n} model fits ({per} per outer fold), chosen by {}\n",
         plan.outer.folds.len(),
         plan.subset.len(),
         if plan.subset.len() < space.specs.len() {
