@@ -354,3 +354,93 @@ fn a_shard_killed_mid_null_resumes_to_the_same_files() {
     }
     assert!(mid >= 2, "only {mid} of 3 kills landed mid-null");
 }
+
+const SPLIT: &str = toy_config!(
+    11,
+    r#"
+[folds]
+k = 4
+[choices]
+pool = ["all", "core"]
+compress = ["none", "pca"]
+model = ["ridge", "tree"]
+weighting = ["rows", "units"]
+[pools]
+core = ["inc_median_income", "cli_heating_degree_days", "prc_tariff_index", "hou_pre1950_share"]
+[grid.pca]
+k = [3]
+[grid.ridge]
+alpha = [1, 10]
+[nested]
+outer_folds = 3
+specs = 5
+[null]
+specs = 6
+"#
+);
+
+/// The deal keeps the spec split, covers every draw and fold once, and changing `draws`
+/// moves none of the draws kept (so a shard's complete draws stay its own).
+#[test]
+fn the_deal_keeps_the_specs_and_is_stable_in_the_draws() {
+    use forkmap::run::share::Split;
+    let base = crate::common::prepared(&format!("{SPLIT}draws = 7\n"));
+    let more = crate::common::prepared(&format!("{SPLIT}draws = 12\n"));
+    for n in [1usize, 2, 3, 5] {
+        let a = Split::of(&base, n);
+        let b = Split::of(&more, n);
+        assert_eq!(a.specs, forkmap::shard::owners(&base.space, &base.panel, n));
+        assert_eq!(a.specs, b.specs, "{n} shards: the spec split moved");
+        assert_eq!(a.folds, b.folds, "{n} shards: the folds moved");
+        let (da, db) = (a.draws.unwrap(), b.draws.unwrap());
+        assert_eq!((da.len(), db.len()), (7, 12));
+        assert_eq!(da[..], db[..7], "{n} shards: kept draws moved");
+        assert!(da.iter().chain(a.folds.as_ref().unwrap()).all(|&o| o < n));
+        // Every job dealt to the least loaded: the loads end within one job of each other
+        // (the largest job is at most the null's or nested's, or the costliest spec's).
+        let spec_max = base
+            .space
+            .specs
+            .iter()
+            .map(|s| forkmap::shard::spec_cost(s, &base.panel))
+            .fold(0.0, f64::max);
+        let all: f64 = base
+            .space
+            .specs
+            .iter()
+            .map(|s| forkmap::shard::spec_cost(s, &base.panel))
+            .sum();
+        let of = |idx: Vec<usize>| -> f64 {
+            idx.iter()
+                .map(|&i| forkmap::shard::spec_cost(&base.space.specs[i], &base.panel))
+                .sum()
+        };
+        let n_specs = base.space.specs.len();
+        // A draw costs its 6 sampled specs; an outer fold at most its 5 sampled specs (as
+        // many inner fits as the run's folds, on fewer rows).
+        let draw = of(forkmap::null::sample_specs(n_specs, Some(6), 11));
+        let fold = of(forkmap::nested::sample_specs(n_specs, Some(5), 11));
+        let max = a.loads.iter().cloned().fold(0.0, f64::max);
+        let min = a.loads.iter().cloned().fold(f64::INFINITY, f64::min);
+        let job = spec_max.max(draw).max(fold);
+        assert!(
+            max - min <= job + 1e-9,
+            "{n}: {:?} (largest job {job})",
+            a.loads
+        );
+        assert!(
+            a.loads.iter().sum::<f64>() > all,
+            "{n}: nothing dealt beyond the specs"
+        );
+        let text = forkmap::run::share::plan_table(&base, n).unwrap();
+        assert_eq!(
+            text.lines()
+                .filter(|l| l.contains(&format!("/{n} ")))
+                .count(),
+            n,
+            "{text}"
+        );
+    }
+    // More shards than specs is refused by the plan table as by run.
+    assert!(forkmap::run::share::plan_table(&base, 25).is_err());
+}

@@ -31,6 +31,8 @@ pub struct Split {
     pub specs: Vec<usize>,
     pub draws: Option<Vec<usize>>,
     pub folds: Option<Vec<usize>>,
+    /// Each shard's expected load at the end (the specs' unit, see `shard::loads`).
+    pub loads: Vec<f64>,
 }
 
 impl Split {
@@ -76,6 +78,7 @@ impl Split {
             specs: owner,
             draws,
             folds,
+            loads: load,
         }
     }
 
@@ -99,4 +102,30 @@ impl Split {
 /// Shard `shard`'s share of the run `p`.
 pub fn share(p: &Prepared, shard: Shard) -> Share {
     Split::of(p, shard.count).share(shard)
+}
+
+/// `forkmap plan --shards N`: each shard's specs, null draws, nested outer folds and share
+/// of the expected cost.
+pub fn plan_table(p: &Prepared, count: usize) -> crate::error::Result<String> {
+    use std::fmt::Write;
+    shard::check(&p.space, Shard { index: 1, count })?;
+    let split = Split::of(p, count);
+    let total: f64 = split.loads.iter().sum();
+    let mut t = format!(
+        "\nshards  {count} (--shard I/{count}; specs, then the nested outer folds and the null draws dealt by expected cost)\n  shard  specs  draws  folds  expected cost\n"
+    );
+    for i in 1..=count {
+        let s = split.share(Shard { index: i, count });
+        let n = |v: &Option<Vec<_>>| v.as_ref().map_or("-".to_string(), |v| v.len().to_string());
+        let _ = writeln!(
+            t,
+            "  {:>5}  {:>5}  {:>5}  {:>5}  {:>12.1}%",
+            format!("{i}/{count}"),
+            s.specs.len(),
+            n(&s.draws.map(|d| d.into_iter().map(|x| x as usize).collect())),
+            n(&s.folds),
+            100.0 * split.loads[i - 1] / total.max(f64::MIN_POSITIVE)
+        );
+    }
+    Ok(t)
 }
