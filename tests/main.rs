@@ -35,4 +35,5 @@ mod report;
 mod resume;
 mod selection;
 mod shards;
+mod shards_derived;
 mod starter;

@@ -285,7 +285,7 @@ fn resume_after_lost_folds_gives_identical_tables() {
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).expect("dir");
     let go = |p: &Prepared| {
-        forkmap::nested::exec::run_in_dir(&p.cfg, &p.panel, &p.space, &dir, "mae", 2, true)
+        forkmap::nested::exec::run_in_dir(&p.cfg, &p.panel, &p.space, &dir, "mae", 2, true, None)
             .expect("nested")
             .expect("configured")
     };

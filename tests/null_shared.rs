@@ -58,6 +58,7 @@ fn shared_stage_fits_give_bit_identical_null_draws() {
         data_sha256: String::new(),
         share_stages: true,
         repeats: 1,
+        shard: None,
     };
     let subset = forkmap::null::run::sample(&inp);
     // The sample holds specs whose stages read the outcome, and specs whose do not.

@@ -458,7 +458,7 @@ fn map_refuses_an_incomplete_set_unless_allowed() {
     );
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     assert!(!shard.join("report").exists(), "a shard wrote a report");
-    assert!(String::from_utf8_lossy(&o.stdout).contains("left to the merged run"));
+    assert!(String::from_utf8_lossy(&o.stdout).contains("left to the gathered run"));
     let o = forkmap(&["map", shard.to_str().unwrap()], tmp.path(), &[]);
     let err = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(2), "{err}");

@@ -96,6 +96,40 @@ pub fn owners(space: &ChoiceSpace, panel: &Panel, count: usize) -> Vec<usize> {
     owner
 }
 
+/// Each shard's load after the spec split `owner` (the sum of its specs' [`spec_cost`]s: per
+/// fit, every spec having the same fits).
+pub fn loads(space: &ChoiceSpace, panel: &Panel, owner: &[usize], count: usize) -> Vec<f64> {
+    let mut load = vec![0.0f64; count.max(1)];
+    for (s, &o) in space.specs.iter().zip(owner) {
+        load[o] += spec_cost(s, panel);
+    }
+    load
+}
+
+/// Deal jobs of expected `costs` (in the specs' unit, see [`loads`]) onto the shards by the
+/// same LPT rule, starting from `load` (updated): longest first (equal costs: lower job
+/// index first) to the least-loaded shard (ties: the lower shard). Returns each job's
+/// shard (0-based). Jobs of equal cost go in index order, so the owner of job j depends
+/// only on the jobs before it: adding jobs at the end moves none of the others.
+pub fn deal(load: &mut [f64], costs: &[f64]) -> Vec<usize> {
+    let mut order: Vec<usize> = (0..costs.len()).collect();
+    order.sort_by(|&a, &b| costs[b].total_cmp(&costs[a]).then(a.cmp(&b)));
+    let mut owner = vec![0usize; costs.len()];
+    for j in order {
+        let mut best = 0;
+        for (s, l) in load.iter().enumerate() {
+            if *l < load[best] {
+                best = s;
+            }
+        }
+        owner[j] = best;
+        if let Some(l) = load.get_mut(best) {
+            *l += costs[j];
+        }
+    }
+    owner
+}
+
 /// Check a shard against the space: every shard must hold at least one spec.
 pub fn check(space: &ChoiceSpace, shard: Shard) -> Result<()> {
     if shard.count > space.specs.len() {
@@ -120,5 +154,22 @@ mod tests {
             assert!(e.contains("I/N"), "{bad}: {e}");
         }
         assert_eq!(Shard { index: 3, count: 7 }.to_string(), "3/7");
+    }
+
+    #[test]
+    fn deal_is_lpt_from_the_loads_and_prefix_stable() {
+        // Worked by hand: loads [5, 3, 4]; a job of 4 goes to shard 1 (load 3 -> 7), then
+        // equal jobs of 1 go to the least loaded in turn: shard 2 (4 -> 5), then shards 0
+        // and 2 tie at 5: the lower, shard 0.
+        let mut load = vec![5.0, 3.0, 4.0];
+        assert_eq!(deal(&mut load, &[1.0, 4.0, 1.0]), vec![2, 1, 0]);
+        assert_eq!(load, vec![6.0, 7.0, 5.0]);
+        // Equal jobs: adding more at the end leaves the first ones where they were.
+        let few = deal(&mut [2.0, 0.0], &[1.0; 5]);
+        let more = deal(&mut [2.0, 0.0], &[1.0; 9]);
+        assert_eq!(few, more[..5]);
+        assert_eq!(few, vec![1, 1, 0, 1, 0]);
+        // No shards to fill: nothing panics, every job on shard 0.
+        assert_eq!(deal(&mut [0.0], &[3.0, 1.0]), vec![0, 0]);
     }
 }

@@ -6,6 +6,14 @@
 //! directories; nothing is written then. When the config defers permutation importances
 //! (`importance.within`), gathering runs that pass over the whole space; it needs the
 //! config (`--config`, else the file named in the manifests) and the same data file.
+//! The shards' shares of the permutation null (`[null]`) and the nested estimate
+//! (`[nested]`) are gathered too: every shard's null identity and nested settings must
+//! agree and every draw and outer fold must be present (else the refusal names the shard
+//! and the field, or what is missing and the shard that owns it), and the gathered
+//! `null/` and `nested/` hold the files a whole-space run writes. The refit (`[refit]`),
+//! the curves and the report need the whole space's results: run `forkmap run CONFIG
+//! --out RUN_DIR` on the gathered folder (nothing done is rerun), or `forkmap map RUN_DIR`
+//! for the report alone.
 //! Exit code 0 on success, 2 on an error.
 
 use std::path::PathBuf;
@@ -46,6 +54,12 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     println!("specs      {}", s.specs);
     if let Some(n) = s.permutation_specs {
         println!("importance permutation pass over {n} specs");
+    }
+    if let Some(n) = s.null_draws {
+        println!("null       {n} draws gathered from the shards");
+    }
+    if let Some(n) = s.nested_folds {
+        println!("nested     {n} outer folds gathered from the shards");
     }
     println!("results    {}", a.out.display());
     Ok(ExitCode::SUCCESS)

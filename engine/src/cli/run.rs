@@ -14,9 +14,10 @@
 //! skips it, a shard leaves it to the merged run) and prints its headline. Before the
 //! report it draws the curves (`forkmap curves RUN_DIR` with the config's `[curves]`
 //! settings) into RUN_DIR/curves/ unless `--no-curves` or `[curves] draw = false`; failed
-//! curves are a warning, like a failed report. With a `[null]` section, a whole-space run
-//! runs the permutation null after the sweep and before the report, into RUN_DIR/null/
-//! (resumable draw by draw); a shard leaves the null to the gathered run. Exit code 0 when
+//! curves are a warning, like a failed report. With a `[null]` section, the run runs the
+//! permutation null after the sweep and before the report, into RUN_DIR/null/ (resumable
+//! draw by draw); a shard runs the draws dealt to it after its specs (`forkmap gather`
+//! joins them). Exit code 0 when
 //! the sweep completed (failed specs are recorded and counted), 2 on an error. A report
 //! that fails does not fail the run: its results are complete and kept, the failure is
 //! printed as a warning, and `forkmap map RUN_DIR` writes the report later.
@@ -29,9 +30,12 @@
 //!
 //! With a `[nested]` section the nested estimate of choosing the best runs after the sweep,
 //! before the report, into RUN_DIR/nested/ (one table per outer fold; a rerun skips the
-//! folds done; a shard skips it: run the whole space for it). With a `[refit]` section the
-//! run's top N specs (by the report's metric) are refitted on unit subsamples after that,
-//! into RUN_DIR/refit/ (resumable subsample by subsample; a shard skips it).
+//! folds done; a shard runs the outer folds dealt to it, which `forkmap gather` joins).
+//! With a `[refit]` section the run's top N specs (by the report's metric) are refitted on
+//! unit subsamples after that, into RUN_DIR/refit/ (resumable subsample by subsample). A
+//! shard skips the refit, the curves and the report, which need the whole space's results:
+//! after `forkmap gather`, `forkmap run CONFIG --out GATHERED` runs them (nothing done is
+//! rerun).
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -53,8 +57,8 @@ pub struct Args {
     /// Discard a run of another config, data or version found in RUN_DIR and start afresh.
     #[arg(long)]
     restart: bool,
-    /// Run only shard I of N (1-based), a deterministic cost-balanced share of the specs;
-    /// `forkmap gather` joins the shards.
+    /// Run only shard I of N (1-based), a deterministic cost-balanced share of the specs
+    /// (and of the null's draws and nested outer folds); `forkmap gather` joins the shards.
     #[arg(long, value_name = "I/N")]
     shard: Option<forkmap::shard::Shard>,
     /// Add the specs of CONFIG that the finished run in RUN_DIR lacks (CONFIG keeps every
@@ -85,20 +89,36 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     let threads = super::threads(a.threads);
     let curves = p.cfg.curves.checked().map_err(|m| anyhow::anyhow!("{m}"))?;
     let draw_curves = curves.draw && !a.no_curves && a.shard.is_none();
+    // A shard's specs, null draws and nested outer folds (`forkmap::run::share`).
+    let share = a.shard.map(|sh| forkmap::run::share::share(&p, sh));
     if !a.quiet {
-        let share = match a.shard {
-            Some(sh) => format!(
-                "shard {sh}: {} of {}",
-                forkmap::shard::assign(&p.space, &p.panel, sh).len(),
-                p.space.specs.len()
-            ),
-            None => p.space.specs.len().to_string(),
+        let of = match (a.shard, &share) {
+            (Some(sh), Some(s)) => {
+                format!("shard {sh}: {} of {}", s.specs.len(), p.space.specs.len())
+            }
+            _ => p.space.specs.len().to_string(),
         };
         eprintln!(
-            "forkmap: {share} specs x {} fits on {threads} thread(s) -> {}",
+            "forkmap: {of} specs x {} fits on {threads} thread(s) -> {}",
             p.folds.n_fits_per_spec(),
             a.out.display()
         );
+        if let (Some(sh), Some(s)) = (a.shard, &share) {
+            if let (Some(d), Some(n)) = (&s.draws, &p.cfg.null) {
+                eprintln!(
+                    "forkmap: shard {sh}: then {} of the null's {} draws",
+                    d.len(),
+                    n.draws
+                );
+            }
+            if let (Some(f), Some(n)) = (&s.folds, &p.cfg.nested) {
+                eprintln!(
+                    "forkmap: shard {sh}: then {} of the nested estimate's {} outer folds",
+                    f.len(),
+                    n.outer_folds
+                );
+            }
+        }
         if draw_curves {
             eprintln!("forkmap: then {}", super::curves::cost_line(&p, &curves));
         }
@@ -118,17 +138,22 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
     } else {
         forkmap::run::run_to_dir(&p, &a.out, &opts)?
     };
-    // The nested estimate (`[nested]`): after the sweep, before the report; a shard
-    // leaves it to a run of the whole space.
-    let nested = match a.shard {
-        None => {
-            let mut m = p.cfg.map.clone();
-            a.over.apply(&mut m);
-            forkmap::nested::exec::run_in_dir(
-                &p.cfg, &p.panel, &p.space, &a.out, &m.metric, threads, a.quiet,
-            )?
-        }
-        Some(_) => None,
+    // The nested estimate (`[nested]`): after the sweep, before the report; a shard runs
+    // the outer folds dealt to it, which `gather` joins.
+    let nested = {
+        let mut m = p.cfg.map.clone();
+        a.over.apply(&mut m);
+        let only = share.as_ref().map(|s| s.folds.clone().unwrap_or_default());
+        forkmap::nested::exec::run_in_dir(
+            &p.cfg,
+            &p.panel,
+            &p.space,
+            &a.out,
+            &m.metric,
+            threads,
+            a.quiet,
+            only.as_deref(),
+        )?
     };
     // The refit of the top N specs on unit subsamples (`[refit]`): after the sweep, before
     // the report, under the report's settings; a shard leaves it to a whole-space run.
@@ -159,7 +184,17 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             s.importance_failed
         );
     }
-    if let Some(n) = &s.null {
+    if let (Some(n), Some(sh)) = (&s.null, a.shard) {
+        println!(
+            "null       shard {sh}: {} of the {} draws x {} specs ({} run now) in {:.1}s -> {} (`forkmap gather` joins the shards' draws)",
+            n.draws,
+            n.draws_total,
+            n.specs_per_draw,
+            n.ran,
+            n.seconds,
+            a.out.join(forkmap::null::table::NULL_DIR).display()
+        );
+    } else if let Some(n) = &s.null {
         println!(
             "null       {} draws x {} specs ({} run now) in {:.1}s -> {}",
             n.draws,
@@ -178,11 +213,17 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
                 forkmap::null::fixed_warning(n.units_fixed, n.units)
             );
         }
-    } else if p.cfg.null.is_some() && a.shard.is_some() {
-        println!("null       left to the gathered run: after `forkmap gather`, run `forkmap run CONFIG --out GATHERED` (the finished specs are not rerun; only the null runs)");
     }
     println!("seconds    {:.1}", s.seconds);
-    if let Some(n) = &nested {
+    if let (Some(n), Some(sh)) = (&nested, a.shard) {
+        println!(
+            "nested     shard {sh}: {} of the {} outer folds ({:.1} s) -> {} (`forkmap gather` joins the shards' folds)",
+            n.folds,
+            n.total,
+            n.seconds,
+            a.out.join(forkmap::nested::table::NESTED_DIR).display()
+        );
+    } else if let Some(n) = &nested {
         println!(
             "nested     {} {:.4} over {} outer folds (baseline {:.4}; {:.1} s) -> {}",
             n.metric,
@@ -205,7 +246,7 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
             a.out.join(forkmap::refit::table::REFIT_DIR).display()
         );
     } else if p.cfg.refit.is_some() && a.shard.is_some() {
-        println!("refit      left to a whole-space run (the top specs are known only over the whole space)");
+        println!("refit      left to the gathered run (it needs the top specs of the whole space): after `forkmap gather`, run `forkmap run CONFIG --out GATHERED` (nothing done is rerun; the refit runs)");
     }
     println!("results    {}", a.out.display());
     if draw_curves {
@@ -220,7 +261,7 @@ pub fn exec(a: Args) -> anyhow::Result<ExitCode> {
         best();
     } else if a.shard.is_some() {
         best();
-        println!("report     left to the merged run (`forkmap gather`, then `forkmap map`)");
+        println!("report     left to the gathered run (`forkmap gather`, then `forkmap run CONFIG --out GATHERED` for the refit, curves and report, or `forkmap map GATHERED` for the report alone)");
     } else {
         match super::map::map_runs(
             std::slice::from_ref(&a.out),

@@ -4,7 +4,9 @@
 //! Gathering is all or nothing: parts are copied (renumbered) into a hidden sibling of the
 //! target, fsynced, the deferred permutation-importance pass (`importance.within`) runs
 //! there over the whole space, the manifest is written, and only then is the folder renamed
-//! into place. An interrupted gather leaves no target; running it again starts over.
+//! into place. An interrupted gather leaves no target; running it again starts over. The
+//! shards' shares of the permutation null and the nested estimate are checked first and
+//! copied with the parts ([`derived`]).
 
 use crate::error::{Error, Result};
 use crate::manifest::{Gathered, RunState};
@@ -12,6 +14,8 @@ use crate::results::RunSet;
 use crate::run::{prepare, sha256_file};
 use crate::sink::TABLES;
 use std::path::{Path, PathBuf};
+
+pub mod derived;
 
 pub struct GatherOptions {
     pub threads: usize,
@@ -27,6 +31,9 @@ pub struct GatherSummary {
     pub specs: usize,
     pub parts: usize,
     pub permutation_specs: Option<usize>,
+    /// Null draws and nested outer folds gathered from the shards (when they ran them).
+    pub null_draws: Option<usize>,
+    pub nested_folds: Option<usize>,
 }
 
 fn out_err(path: &Path, msg: impl Into<String>) -> Error {
@@ -83,11 +90,13 @@ pub fn gather(set: &RunSet, out: &Path, opts: &GatherOptions) -> Result<GatherSu
     if !parent.is_dir() {
         return Err(out_err(out, "its parent folder does not exist"));
     }
+    // The null's and nested estimate's shares: identities agree, nothing missing.
+    let derived = derived::check(set, out)?;
     let tmp = parent.join(format!(".{name}.forkmap-gather"));
     if tmp.exists() {
         std::fs::remove_dir_all(&tmp).map_err(|e| Error::io(&tmp, e))?;
     }
-    let result = write_gathered(set, &tmp, opts, &c);
+    let result = write_gathered(set, &tmp, opts, &c, &derived);
     let summary = match result {
         Ok(s) => s,
         Err(e) => {
@@ -109,6 +118,7 @@ fn write_gathered(
     tmp: &Path,
     opts: &GatherOptions,
     c: &crate::results::Completeness,
+    derived: &derived::Derived,
 ) -> Result<GatherSummary> {
     for t in TABLES {
         let d = tmp.join(t);
@@ -186,7 +196,10 @@ fn write_gathered(
     for t in TABLES {
         fsync_dir(&tmp.join(t))?;
     }
+    derived::copy(derived, tmp, copy_synced, fsync_dir)?;
     let mut m = set.manifest().clone();
+    m.shard_draws = None;
+    m.shard_folds = None;
     let seconds: f64 = set.dirs.iter().filter_map(|d| d.manifest.seconds()).sum();
     m.status = RunState::Complete;
     m.shard = None;
@@ -226,5 +239,7 @@ fn write_gathered(
         specs: c.present,
         parts: parts.len(),
         permutation_specs,
+        null_draws: derived.draws(),
+        nested_folds: derived.folds(),
     })
 }

@@ -146,6 +146,12 @@ pub struct Manifest {
     /// Specs this directory holds when complete.
     #[serde(default)]
     pub shard_specs: Option<usize>,
+    /// A shard's null draws (`[null]`) and nested outer folds (`[nested]`), dealt by
+    /// `run::share`; absent for the whole space and for shards of a config without them.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub shard_draws: Option<Vec<u64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub shard_folds: Option<Vec<usize>>,
     #[serde(default)]
     pub resumes: u64,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -249,6 +255,8 @@ mod tests {
             null: serde_json::json!({"draws": 4}),
             shard: None,
             shard_specs: Some(10),
+            shard_draws: None,
+            shard_folds: None,
             resumes: 0,
             lineage: None,
             gathered_from: None,

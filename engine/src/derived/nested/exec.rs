@@ -15,7 +15,10 @@ use std::path::Path;
 /// What the nested estimate gave.
 #[derive(Debug, Clone)]
 pub struct NestedSummary {
+    /// Outer folds in the directory (a shard: those of its share done).
     pub folds: usize,
+    /// Outer folds of the whole estimate.
+    pub total: usize,
     /// Folds found finished and skipped.
     pub resumed: usize,
     pub metric: String,
@@ -26,7 +29,9 @@ pub struct NestedSummary {
 }
 
 /// Run `[nested]` of `cfg` (when present) into `out/nested`, choosing by `metric`, on a
-/// pool of `threads`. Tables of other settings found there are discarded.
+/// pool of `threads`: every outer fold, or a shard's (`only`, dealt by `run::share`).
+/// Tables of other settings found there are discarded.
+#[allow(clippy::too_many_arguments)]
 pub fn run_in_dir(
     cfg: &Config,
     panel: &Panel,
@@ -35,6 +40,7 @@ pub fn run_in_dir(
     metric: &str,
     threads: usize,
     quiet: bool,
+    only: Option<&[usize]>,
 ) -> Result<Option<NestedSummary>> {
     let Some(section) = cfg.nested.as_ref() else {
         return Ok(None);
@@ -44,6 +50,11 @@ pub fn run_in_dir(
     let dir = out.join(NESTED_DIR);
     prepare_dir(&dir, &plan, space, section, quiet)?;
     let done = table::done_folds(&dir)?;
+    let n = plan.outer.folds.len();
+    // Folds not run now: those done, and, for a shard, those of other shards.
+    let skip: Vec<usize> = (0..n)
+        .filter(|o| done.contains(o) || only.is_some_and(|m| !m.contains(o)))
+        .collect();
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads.max(1))
         .build()
@@ -51,21 +62,21 @@ pub fn run_in_dir(
             path: out.into(),
             msg: format!("cannot start {threads} threads: {e}"),
         })?;
-    let n = plan.outer.folds.len();
     if !quiet {
         eprintln!(
-            "nested: {n} outer folds x {} specs ({} inner fits + 1 refit each){}",
+            "nested: {} outer folds x {} specs ({} inner fits + 1 refit each){}",
+            n - skip.len(),
             plan.subset.len(),
             plan.n_fits(panel.n_units()) / n.max(1) - 1,
-            if done.is_empty() {
-                String::new()
-            } else {
-                format!(", {} already done", done.len())
+            match (only, done.len()) {
+                (Some(m), _) => format!(" (this shard's {} of {n})", m.len()),
+                (None, 0) => String::new(),
+                (None, k) => format!(", {k} already done"),
             }
         );
     }
     pool.install(|| {
-        super::run(&plan, panel, space, &done, &mut |r| {
+        super::run(&plan, panel, space, &skip, &mut |r| {
             table::write_fold(&dir, space, &plan.metric, &r)?;
             if !quiet {
                 let chosen = r
@@ -84,12 +95,19 @@ pub fn run_in_dir(
             Ok(())
         })
     })?;
-    let rows = table::read_folds(&dir)?;
+    let mut rows = table::read_folds(&dir)?;
+    if let Some(m) = only {
+        rows.retain(|r| m.contains(&r.fold));
+    }
     let results: Vec<_> = rows.iter().map(|r| r.as_result()).collect();
     let (nested, baseline) = super::pooled(&results, &plan.metric);
     Ok(Some(NestedSummary {
         folds: rows.len(),
-        resumed: done.len(),
+        total: n,
+        resumed: done
+            .iter()
+            .filter(|o| only.is_none_or(|m| m.contains(o)))
+            .count(),
         metric: plan.metric.clone(),
         nested,
         baseline,
@@ -150,7 +168,7 @@ pub fn plan_text(
     let n = plan.n_fits(panel.n_units());
     let per = n / plan.outer.folds.len().max(1);
     let mut s = format!(
-        "\nnested estimate ([nested]; after the sweep, before the report)\n  {} outer folds x ({} specs{} x {} inner fits + 1 refit) = {n} model fits ({per} per outer fold), chosen by {}\n",
+        "\nnested estimate ([nested]; after the sweep, before the report; with --shard I/N each shard runs the outer folds dealt to it)\n  {} outer folds x ({} specs{} x {} inner fits + 1 refit) = {n} model fits ({per} per outer fold), chosen by {}\n",
         plan.outer.folds.len(),
         plan.subset.len(),
         if plan.subset.len() < space.specs.len() {
@@ -179,4 +197,36 @@ fn human(s: f64) -> String {
     } else {
         format!("{:.1} h", s / 3600.0)
     }
+}
+
+/// The outer folds of `mine` missing from `out/nested`, ascending.
+pub fn missing_folds(out: &Path, mine: &[usize]) -> Result<Vec<usize>> {
+    let have = table::done_folds(&out.join(NESTED_DIR))?;
+    Ok(mine.iter().copied().filter(|o| !have.contains(o)).collect())
+}
+
+/// `forkmap check`'s line on a shard's share of the nested estimate (`mine`: its outer
+/// folds, from its run manifest) and whether that share is complete.
+pub fn shard_check_lines(out: &Path, shard: &str, mine: &[usize]) -> Result<(Vec<String>, bool)> {
+    let missing = missing_folds(out, mine)?;
+    let have = mine.len() - missing.len();
+    Ok(if missing.is_empty() {
+        (
+            vec![format!(
+                "nested     shard {shard}: {have} of its {} outer folds",
+                mine.len()
+            )],
+            true,
+        )
+    } else {
+        (
+            vec![format!(
+                "nested     shard {shard}: {have} of its {} outer folds; missing outer folds {} (rerun the same `forkmap run --shard {shard}` on {})",
+                mine.len(),
+                crate::null::run::list(&missing),
+                out.display()
+            )],
+            false,
+        )
+    })
 }

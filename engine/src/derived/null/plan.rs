@@ -58,7 +58,7 @@ pub fn lines(
     );
     let _ = writeln!(
         t,
-        "        runs after the sweep in a whole-space run (a shard leaves it to the gathered run)"
+        "        runs after the sweep (with --shard I/N, each shard runs the draws dealt to it after its specs; `forkmap gather` joins them)"
     );
     t
 }

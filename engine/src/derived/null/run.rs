@@ -38,12 +38,18 @@ pub struct NullInput<'a> {
     /// The run's `[importance] repeats`: the permutation kinds' draws per indicator and
     /// fold, when `[null] importance` asks for them.
     pub repeats: usize,
+    /// A shard's run: the shard and the draws dealt to it (`run::share`); `None` runs
+    /// every draw.
+    pub shard: Option<(crate::shard::Shard, Vec<u64>)>,
 }
 
 /// What a null run did.
 #[derive(Debug, Clone)]
 pub struct NullSummary {
+    /// Draws of this directory (a shard's share, else every draw).
     pub draws: usize,
+    /// Draws of the whole null (`[null] draws`).
+    pub draws_total: usize,
     /// Draws run by this invocation (the rest were complete).
     pub ran: usize,
     pub specs_per_draw: usize,
@@ -83,7 +89,7 @@ pub fn identity(inp: &NullInput) -> serde_json::Value {
 }
 
 /// The first identity field that differs, in the user's words.
-fn differs(old: &serde_json::Value, new: &serde_json::Value) -> Option<String> {
+pub fn differs(old: &serde_json::Value, new: &serde_json::Value) -> Option<String> {
     for (key, what) in [
         ("specs", "null.specs"),
         ("top_k", "null.top_k"),
@@ -162,7 +168,7 @@ fn write_manifest(
     done: usize,
     seconds: f64,
 ) -> Result<()> {
-    let m = serde_json::json!({
+    let mut m = serde_json::json!({
         "status": status,
         "identity": identity(inp),
         "draws": inp.settings.draws,
@@ -181,6 +187,11 @@ fn write_manifest(
         "seconds_this_invocation": seconds,
         "tables": [format!("{}/{DRAWS}", table::NULL_DIR), format!("{}/{TOPS}", table::NULL_DIR), format!("{}/{GOODRANKS}", table::NULL_DIR)],
     });
+    if let Some((sh, mine)) = &inp.shard {
+        // `gather` checks these against the other shards and drops them.
+        m[SHARD_KEY] = serde_json::json!(sh.to_string());
+        m[SHARD_DRAWS_KEY] = serde_json::json!(mine);
+    }
     write_bytes_atomic(
         &null_dir.join(crate::schema::MANIFEST),
         serde_json::to_string_pretty(&m)
@@ -189,7 +200,11 @@ fn write_manifest(
     )
 }
 
-/// Run (or finish) the null of `inp` into `out/null` on `pool`.
+/// Keys a shard's null manifest adds to the whole run's: the shard and its draws.
+pub const SHARD_KEY: &str = "shard";
+pub const SHARD_DRAWS_KEY: &str = "shard_draws";
+
+/// Run (or finish) the null of `inp` into `out/null` on `pool` (a shard: its draws only).
 pub fn run_null(
     inp: &NullInput,
     out: &Path,
@@ -206,20 +221,30 @@ pub fn run_null(
     if let (Some(why), false) = (&restarted, quiet) {
         eprintln!("forkmap: null: {why}: its earlier draws are discarded and the null restarts (the sweep's results are kept)");
     }
-    write_manifest(&null_dir, inp, &ex, &subset, "running", complete.len(), 0.0)?;
-    let todo: Vec<u64> = (0..draws)
+    let mine: Vec<u64> = match &inp.shard {
+        Some((_, mine)) => mine.iter().copied().filter(|&d| d < draws).collect(),
+        None => (0..draws).collect(),
+    };
+    let todo: Vec<u64> = mine
+        .iter()
+        .copied()
         .filter(|d| complete.binary_search(d).is_err())
         .collect();
+    let done_before = mine.len() - todo.len();
+    write_manifest(&null_dir, inp, &ex, &subset, "running", done_before, 0.0)?;
     if !quiet {
         eprintln!(
             "forkmap: null: {} draws x {} specs x {} fits{}",
             todo.len(),
             subset.len(),
             inp.folds.n_fits_per_spec(),
-            if complete.is_empty() {
-                String::new()
-            } else {
-                format!(" ({} of {draws} draws already complete)", complete.len())
+            match (&inp.shard, done_before) {
+                (Some((sh, _)), k) => format!(
+                    " (shard {sh}: {} of the {draws} draws, {k} already complete)",
+                    mine.len()
+                ),
+                (None, 0) => String::new(),
+                (None, k) => format!(" ({k} of {draws} draws already complete)"),
             }
         );
     }
@@ -249,11 +274,12 @@ pub fn run_null(
         &ex,
         &subset,
         "complete",
-        draws as usize,
+        mine.len(),
         seconds,
     )?;
     Ok(NullSummary {
-        draws: draws as usize,
+        draws: mine.len(),
+        draws_total: draws as usize,
         ran: todo.len(),
         specs_per_draw: subset.len(),
         seconds,
@@ -460,5 +486,53 @@ pub fn check_lines(out: &Path, asked: bool) -> Result<(Vec<String>, bool)> {
             false,
         ),
         None => (Vec::new(), true),
+    })
+}
+
+/// The draws of `mine` missing from `out/null` (no complete `draws` file), ascending.
+pub fn missing_draws(out: &Path, mine: &[u64]) -> Result<Vec<u64>> {
+    let have: Vec<u64> = table::complete_files(&out.join(table::NULL_DIR).join(DRAWS))?
+        .into_iter()
+        .map(|(d, _)| d)
+        .collect();
+    Ok(mine
+        .iter()
+        .copied()
+        .filter(|d| have.binary_search(d).is_err())
+        .collect())
+}
+
+/// Up to ten numbers, then how many more.
+pub fn list<T: std::fmt::Display>(v: &[T]) -> String {
+    let mut s: Vec<String> = v.iter().take(10).map(|x| x.to_string()).collect();
+    if v.len() > 10 {
+        s.push(format!("... ({} more)", v.len() - 10));
+    }
+    s.join(", ")
+}
+
+/// `forkmap check`'s line on a shard's share of the null (`mine`: its draws, from its run
+/// manifest) and whether that share is complete.
+pub fn shard_check_lines(out: &Path, shard: &str, mine: &[u64]) -> Result<(Vec<String>, bool)> {
+    let missing = missing_draws(out, mine)?;
+    let have = mine.len() - missing.len();
+    Ok(if missing.is_empty() {
+        (
+            vec![format!(
+                "null       shard {shard}: {have} of its {} draws",
+                mine.len()
+            )],
+            true,
+        )
+    } else {
+        (
+            vec![format!(
+                "null       shard {shard}: {have} of its {} draws; missing draws {} (rerun the same `forkmap run --shard {shard}` on {}; complete draws are kept)",
+                mine.len(),
+                list(&missing),
+                out.display()
+            )],
+            false,
+        )
     })
 }

@@ -351,7 +351,7 @@ pub fn plan_text(
             }
         ));
     }
-    s.push_str("        runs after the sweep in a whole-space run, before the report (a shard leaves it to a whole-space run)\n");
+    s.push_str("        runs after the sweep in a whole-space run, before the report (a shard leaves it to the gathered run: it needs the whole space's top specs)\n");
     Some(s)
 }
 

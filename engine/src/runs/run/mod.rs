@@ -3,6 +3,7 @@
 
 pub mod extend;
 mod open;
+pub mod share;
 mod stream;
 
 pub use crate::choices::prepared::{prepare, prepare_config, sha256_file, Prepared};
@@ -55,6 +56,7 @@ fn manifest(
     threads: usize,
     started: &str,
     shard: Option<Shard>,
+    share: Option<&share::Share>,
     shard_specs: usize,
 ) -> Manifest {
     let json = |v: Option<serde_json::Value>| v.unwrap_or(serde_json::Value::Null);
@@ -92,6 +94,8 @@ fn manifest(
         null: json(serde_json::to_value(&p.cfg.null).ok()),
         shard: shard.map(|s| s.to_string()),
         shard_specs: Some(shard_specs),
+        shard_draws: share.and_then(|s| s.draws.clone()),
+        shard_folds: share.and_then(|s| s.folds.clone()),
         resumes: 0,
         lineage: None,
         gathered_from: None,
@@ -150,8 +154,9 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
         lineage,
         extension,
     } = begin(start, out)?;
-    let mine: Vec<usize> = match opts.shard {
-        Some(sh) => crate::shard::assign(&p.space, &p.panel, sh),
+    let share = opts.shard.map(|sh| share::share(p, sh));
+    let mine: Vec<usize> = match &share {
+        Some(s) => s.specs.clone(),
         None => (0..p.space.specs.len()).collect(),
     };
     let todo: Vec<usize> = mine
@@ -175,7 +180,15 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
             );
         }
     }
-    let mut first = manifest(p, &sha, opts.threads, &started, opts.shard, mine.len());
+    let mut first = manifest(
+        p,
+        &sha,
+        opts.threads,
+        &started,
+        opts.shard,
+        share.as_ref(),
+        mine.len(),
+    );
     first.resumes = resumes;
     first.lineage = lineage.clone();
     if let Err(e) = first.write(out) {
@@ -268,10 +281,10 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
         }),
     });
     last.write(out)?;
-    // The permutation null (`[null]`), after the sweep is complete; a shard leaves it to
-    // the gathered run.
-    let null = match (&p.cfg.null, opts.shard) {
-        (Some(n), None) => Some(crate::null::run::run_null(
+    // The permutation null (`[null]`), after the sweep is complete; a shard runs the
+    // draws dealt to it (`share`), which `gather` joins.
+    let null = match &p.cfg.null {
+        Some(n) => Some(crate::null::run::run_null(
             &crate::null::run::NullInput {
                 panel: &p.panel,
                 space: &p.space,
@@ -282,12 +295,13 @@ fn run_inner(p: &Prepared, out: &Path, opts: &RunOptions, extend: bool) -> Resul
                 data_sha256: sha.clone(),
                 share_stages: true,
                 repeats: p.cfg.importance.repeats,
+                shard: opts.shard.zip(share.as_ref().and_then(|s| s.draws.clone())),
             },
             out,
             &pool,
             opts.quiet,
         )?),
-        _ => None,
+        None => None,
     };
     Ok(RunSummary {
         null,
