@@ -163,6 +163,7 @@ fn wide() {
         0.3 * x[[i, 0]] + x[[i, 1 % p]].sin() + g.gen_range(0.0..5.0)
     });
     let w = ndarray::Array1::ones(n);
+    let hist = std::env::var_os("FLOOR_NODE_SIZES").is_some();
     let t = std::time::Instant::now();
     for r in 0..repeats {
         let input = FitInput {
@@ -171,7 +172,10 @@ fn wide() {
             w: w.view(),
             seed: r as u64,
         };
-        forest_once(&params, &input);
+        let f = forest_once(&params, &input);
+        if hist && r == 0 {
+            print_node_sizes(&f);
+        }
     }
     let us = t.elapsed().as_secs_f64() * 1e6 / repeats as f64;
     println!(
@@ -180,4 +184,32 @@ fn wide() {
         params.min_leaf,
         us / params.trees as f64
     );
+}
+
+/// With FLOOR_NODE_SIZES set, `wide` also prints the first forest's searched nodes and
+/// split-search row visits by node size (rows at the node), as shares of the total.
+fn print_node_sizes(f: &Ensemble) {
+    let edges = [2u32, 3, 4, 8, 16, 32, 64, u32::MAX];
+    let (mut nodes, mut visits) = ([0u64; 8], [0u64; 8]);
+    for &[n, t] in f.trees().iter().flat_map(|t| t.scans()) {
+        let b = edges.iter().position(|&e| n <= e).unwrap_or(7);
+        nodes[b] += 1;
+        visits[b] += u64::from(n) * u64::from(t);
+    }
+    let (tn, tv) = (nodes.iter().sum::<u64>(), visits.iter().sum::<u64>());
+    println!("node sizes: {tn} nodes searched, {tv} row visits");
+    let mut lo = 1;
+    for b in 0..8 {
+        let hi = if edges[b] == u32::MAX {
+            "".to_string()
+        } else {
+            edges[b].to_string()
+        };
+        println!(
+            "  {lo}-{hi} rows: {:.1}% of nodes, {:.1}% of row visits",
+            100.0 * nodes[b] as f64 / tn.max(1) as f64,
+            100.0 * visits[b] as f64 / tv.max(1) as f64
+        );
+        lo = edges[b].saturating_add(1);
+    }
 }

@@ -153,6 +153,32 @@ fn shards_run_null_and_nested_and_gather_into_the_whole_runs_files() {
             "{report}"
         );
         assert_eq!(report.matches("null       shard").count(), n, "{report}");
+        // The map of the shards as they are: each holds only its share of the null draws
+        // and nested folds, so neither section is shown, and the notes say to gather.
+        let map_dir = tmp.path().join(format!("map{n}"));
+        ok(&forkmap(&[
+            "map".as_ref(),
+            base.as_os_str(),
+            "--out".as_ref(),
+            map_dir.as_os_str(),
+        ]));
+        assert!(!map_dir.join("nested_summary.parquet").exists());
+        assert!(!map_dir.join("null_summary.parquet").exists());
+        let page = std::fs::read_to_string(map_dir.join("index.html")).unwrap();
+        assert!(
+            page.contains("nested estimate&#39;s outer folds are spread over the shards (3 done)"),
+            "no nested note: {}",
+            page.split("Notes on the runs read")
+                .nth(1)
+                .unwrap_or("no notes")
+                .chars()
+                .take(1500)
+                .collect::<String>()
+        );
+        assert!(
+            page.contains("draws are spread over the shards (7 done)"),
+            "no null note"
+        );
         let gathered = tmp.path().join(format!("gathered{n}"));
         let text = ok(&gather(&base, &gathered));
         assert!(text.contains("null       7 draws gathered"), "{text}");
@@ -276,7 +302,8 @@ fn gather_refuses_a_missing_draw_or_fold_and_other_settings_naming_them() {
     let err = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(2), "{err}");
     assert!(
-        err.contains("shard 2/3") && err.contains("null.top_k changed (was 2, now 3)"),
+        err.contains("shard 2/3")
+            && err.contains("null.top_k differs (shard 1/3: 2, shard 2/3: 3)"),
         "{err}"
     );
     wrote_nothing(&gathered);
@@ -301,7 +328,7 @@ fn gather_refuses_a_missing_draw_or_fold_and_other_settings_naming_them() {
     assert_eq!(o.status.code(), Some(2), "{err}");
     assert!(
         err.contains("nested estimate of shard 3/3")
-            && err.contains("nested.specs differs (was 5, now 4)"),
+            && err.contains("nested.specs differs (shard 1/3: 5, shard 3/3: 4)"),
         "{err}"
     );
     wrote_nothing(&gathered);
@@ -443,4 +470,29 @@ fn the_deal_keeps_the_specs_and_is_stable_in_the_draws() {
     }
     // More shards than specs is refused by the plan table as by run.
     assert!(forkmap::run::share::plan_table(&base, 25).is_err());
+}
+
+#[test]
+fn map_leaves_out_an_unfinished_nested_estimate_and_says_so() {
+    let tmp = tempfile::tempdir().unwrap();
+    let cfg = config(tmp.path(), "a", NULL_NESTED);
+    let run = tmp.path().join("run");
+    ok(&run_cli(&cfg, &run, &["--no-curves", "--no-map"]));
+    // As if the run had stopped after two of its three outer folds.
+    std::fs::remove_file(run.join("nested/fold-001.parquet")).unwrap();
+    let map_dir = tmp.path().join("map");
+    ok(&forkmap(&[
+        "map".as_ref(),
+        run.as_os_str(),
+        "--out".as_ref(),
+        map_dir.as_os_str(),
+    ]));
+    assert!(!map_dir.join("nested_summary.parquet").exists());
+    let page = std::fs::read_to_string(map_dir.join("index.html")).unwrap();
+    assert!(
+        page.contains("The nested estimate is unfinished (2 of 3 outer folds"),
+        "no note on the unfinished nested estimate"
+    );
+    // The null is whole: its section stays.
+    assert!(map_dir.join("null_summary.parquet").is_file());
 }

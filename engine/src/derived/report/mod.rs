@@ -82,7 +82,7 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
     }
     let mut built = analyse(&t, s, seed)?;
     shape::attach(set, &mut built.report);
-    if let Some(n) = nested::load(set, &built.report)? {
+    if let Some(n) = nested::load(set, &built.report, &mut notes)? {
         // before the closing cautions sentence
         let h = &mut built.report.headline;
         h.insert(h.len().saturating_sub(1), nested::headline(&n));
@@ -94,6 +94,8 @@ pub fn build(set: &RunSet, s: &MapSection, seed: u64) -> Result<Built> {
         let h = &mut built.report.headline;
         h.insert(h.len().saturating_sub(1), null::headline(n));
         notes.extend(n.notes.iter().cloned());
+    } else if let Some(note) = null::shard_note(set) {
+        notes.push(note);
     }
     // A refitted spec whose run fit is bit for bit another's (a scaling before a tree
     // family) is marked as the same fit.

@@ -62,18 +62,50 @@ pub struct NestedReport {
     pub folds: Vec<FoldRow>,
 }
 
-/// Read the nested tables of the first run of `set` that has them; `None` when none has.
-pub fn load(set: &RunSet, report: &Report) -> Result<Option<NestedReport>> {
+/// Read the nested tables of the whole-space run of `set` that has them; `None` when none
+/// has them complete. Shards hold only the outer folds dealt to them and a run stopped
+/// mid-estimate holds some of its folds: neither is the estimate, so the section is left
+/// out and `notes` says why and what completes it.
+pub fn load(
+    set: &RunSet,
+    report: &Report,
+    notes: &mut Vec<String>,
+) -> Result<Option<NestedReport>> {
+    let mut in_shards = 0;
     for d in &set.dirs {
         let dir = d.path.join(NESTED_DIR);
-        if dir.is_dir() {
-            let folds = read_folds(&dir)?;
-            if !folds.is_empty() {
-                let mut n = summarise(folds, report);
-                match_sample(&mut n, &dir, report);
-                return Ok(Some(n));
-            }
+        if !dir.is_dir() {
+            continue;
         }
+        if d.shard.is_some() {
+            in_shards += crate::nested::table::done_folds(&dir)?.len();
+            continue;
+        }
+        let folds = read_folds(&dir)?;
+        if folds.is_empty() {
+            continue;
+        }
+        let asked = std::fs::read_to_string(dir.join("settings.json"))
+            .ok()
+            .and_then(|t| serde_json::from_str::<serde_json::Value>(&t).ok())
+            .and_then(|v| v["outer_folds"].as_u64())
+            .map(|k| k as usize);
+        if let Some(k) = asked.filter(|&k| folds.len() < k) {
+            notes.push(format!(
+                "The nested estimate is unfinished ({} of {k} outer folds in {}): its section is left out; rerun the same `forkmap run` to finish it.",
+                folds.len(),
+                dir.display()
+            ));
+            return Ok(None);
+        }
+        let mut n = summarise(folds, report);
+        match_sample(&mut n, &dir, report);
+        return Ok(Some(n));
+    }
+    if in_shards > 0 {
+        notes.push(format!(
+            "The nested estimate's outer folds are spread over the shards ({in_shards} done): `forkmap gather` joins them; its section is left out here."
+        ));
     }
     Ok(None)
 }

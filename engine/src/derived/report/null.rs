@@ -83,6 +83,25 @@ pub struct NullIndicator {
 
 const NATIVE: [&str; 2] = ["coefficient", "impurity"];
 
+/// When `set` is shards holding null draws: a note that the draws are spread over them
+/// and `forkmap gather` joins them (the report shows no null section for shards).
+pub fn shard_note(set: &RunSet) -> Option<String> {
+    let draws: usize = set
+        .dirs
+        .iter()
+        .filter(|d| d.shard.is_some())
+        .filter_map(|d| std::fs::read_dir(d.path.join(NULL_DIR).join("draws")).ok())
+        .map(|rd| {
+            rd.filter_map(|e| e.ok())
+                .filter(|e| e.file_name().to_string_lossy().ends_with(".parquet"))
+                .count()
+        })
+        .sum();
+    (draws > 0).then(|| {
+        format!("The permutation null's draws are spread over the shards ({draws} done): `forkmap gather` joins them; its section is left out here.")
+    })
+}
+
 /// The null of a whole-space run read as `set` (its tables `t`), when it has one. `r` is
 /// the report so far (its settings and conclusions), `tests[i]` the kind table and
 /// statement of `r.conclusions[i]` (`None`: not an importance statement).
@@ -93,7 +112,8 @@ pub fn analyse(
     tests: &[Option<(usize, Statement)>],
 ) -> Result<Option<NullReport>> {
     let report_metric = r.meta.metric.as_str();
-    // The null lives in a whole-space run directory (a shard never runs it).
+    // The null of the report lives in a whole-space (or gathered) run directory; shards
+    // hold only the draws dealt to them (see [`shard_note`]).
     let Some(dir) = set.dirs.iter().find(|d| d.shard.is_none()) else {
         return Ok(None);
     };
@@ -306,18 +326,39 @@ fn claims_headline(n: &NullReport) -> String {
         .iter()
         .filter(|x| reach(x.family_draws_unknown))
         .collect();
+    let sample = format!(
+        "the null's {} sampled specs hold {} of the report's {} good specs",
+        n.specs, c.report_good_in_sample, c.report_good
+    );
+    let families = auto
+        .iter()
+        .map(|x| x.family.as_str())
+        .collect::<std::collections::BTreeSet<_>>()
+        .len();
+    let mut caveat = sample.clone();
+    if c.report_good_in_sample == 0 && c.report_good > 0 {
+        caveat.push_str(
+            ", so these were tested on the sample's good set, not the report's (a null over every spec tests the report's)",
+        );
+    }
+    if c.auto_not_chosen_on_sample > 0 {
+        caveat.push_str(&format!(
+            "; {} of them would not be picked on the sample's own good set",
+            c.auto_not_chosen_on_sample
+        ));
+    }
     let auto_note = if auto.is_empty() {
         String::new()
     } else if auto_ok.is_empty() {
         format!(
-            " The {} automatic conclusions the draws rerun could not reach an adjusted p <= 0.05 with {} draws (p adjusted for picking them on the observed data; table null_claims).",
+            " The {} automatic conclusions the draws rerun could not reach an adjusted p <= 0.05 with {} draws (p adjusted for picking them on the observed data, within each of their {families} families; {caveat}; table null_claims).",
             auto.len(),
             n.draws
         )
     } else {
         let low = auto_ok.iter().filter(|x| x.p_adjusted <= 0.05).count();
         format!(
-            " Of the {} automatic conclusions that {} draws can test at 5%, {low} have more support than the same selection reaches in the outcome-shuffled draws (p adjusted for picking them on the observed data <= 0.05) and {} do not, which is no evidence against them (table null_claims).",
+            " Of the {} automatic conclusions that {} draws can test at 5%, {low} have more support than the same selection reaches in the outcome-shuffled draws (p adjusted for picking them on the observed data <= 0.05, a bound that holds within each of their {families} families, not across them) and {} do not, which is no evidence against them ({caveat}; table null_claims).",
             auto_ok.len(),
             n.draws,
             auto_ok.len() - low
@@ -326,10 +367,6 @@ fn claims_headline(n: &NullReport) -> String {
     if listed.is_empty() {
         return auto_note;
     }
-    let sample = format!(
-        "the null's {} sampled specs hold {} of the report's {} good specs",
-        n.specs, c.report_good_in_sample, c.report_good
-    );
     if testable.is_empty() {
         return format!(
             " The {} claims listed in the config could not reach p <= 0.05 with {} draws (draws where their support is unknown count against them; {sample}).{auto_note}",

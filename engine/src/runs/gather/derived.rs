@@ -39,6 +39,14 @@ impl Derived {
 /// Why the shards cannot be gathered (a sentence; `check` makes it an error).
 type Refusal = std::result::Result<Derived, String>;
 
+/// "shard I/N", for naming values side by side.
+fn label(d: &RunDir) -> String {
+    format!(
+        "shard {}",
+        d.shard.map(|s| s.to_string()).unwrap_or_else(|| "-".into())
+    )
+}
+
 fn name(d: &RunDir) -> String {
     format!(
         "shard {} ({})",
@@ -156,14 +164,23 @@ pub fn problems(set: &RunSet) -> Refusal {
         match &null_ref {
             None => null_ref = Some((d, m)),
             Some((r, rm)) => {
-                let why = differs(&rm["identity"], &m["identity"]).or_else(|| {
-                    (rm["draws"] != m["draws"]).then(|| {
-                        format!(
-                            "null.draws changed (was {}, now {})",
-                            rm["draws"], m["draws"]
-                        )
+                // `differs` words a change over time (was, now); here two shards differ.
+                let why = differs(&rm["identity"], &m["identity"])
+                    .map(|w| {
+                        w.replace(" changed (was ", &format!(" differs ({}: ", label(r)))
+                            .replace(", now ", &format!(", {}: ", label(d)))
                     })
-                });
+                    .or_else(|| {
+                        (rm["draws"] != m["draws"]).then(|| {
+                            format!(
+                                "null.draws differs ({}: {}, {}: {})",
+                                label(r),
+                                rm["draws"],
+                                label(d),
+                                m["draws"]
+                            )
+                        })
+                    });
                 if let Some(why) = why {
                     return Err(format!(
                         "the null of {} differs from that of {}: {why}; rerun the shards with one config",
@@ -203,10 +220,12 @@ pub fn problems(set: &RunSet) -> Refusal {
                         (a, b) => (format!("settings' {k}"), a, b),
                     };
                     return Err(format!(
-                        "the nested estimate of {} differs from that of {}: {field} differs (was {}, now {}); rerun the shards with one config and the same map flags",
+                        "the nested estimate of {} differs from that of {}: {field} differs ({}: {}, {}: {}); rerun the shards with one config and the same map flags",
                         name(d),
                         name(r),
+                        label(r),
                         short(was),
+                        label(d),
                         short(now)
                     ));
                 }

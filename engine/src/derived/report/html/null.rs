@@ -153,11 +153,14 @@ fn claims_table(n: &crate::report::null::NullReport) -> Table {
              (1993): when the outcome has no between-unit association with any indicator, the chance that any statement \
              of a family gets an adjusted p at or below 0.05 is at most about 5% (per family: the up to four families are \
              not adjusted against each other); it is never below the unadjusted p. \
-             \"family max 95%\" is the support a statement needs for an adjusted p near 0.05.{} \
+             \"family max 95%\" is the support a statement needs for an adjusted p near 0.05 (over the draws whose maximum \
+             is known; unknown draws raise that need). A small adjusted p rejects \"no association of the outcome with any \
+             indicator\"; it does not single out the statement, e.g. when collinear names ride on a real one.{} \
              Claims listed in the config (source claim) are tested as stated, by the unadjusted p; with several claims, \
-             some fall at or below 0.05 by chance. Not corrected: the draws' good sets differ in size from each other \
-             and from the observed one (a share over 2 specs reaches 100% more easily than over 20), so supports over \
-             good sets of different sizes are compared as they are. A p above 0.05 is no evidence against a claim. A conclusion that holds about as often under the null \
+             some fall at or below 0.05 by chance. Good sets differ in size from draw to draw and from the observed one \
+             (a share over 2 specs reaches 100% more easily than over 20) and are compared as they are: with no \
+             association at all the observed good set is one more draw, so the test keeps its level, but it can lose power \
+             where sizes differ much (a share of 100% is common over small sets). A p above 0.05 is no evidence against a claim. A conclusion that holds about as often under the null \
              (null mean near the observed support, large p) is not evidence of anything: shuffled outcomes, with no \
              between-unit association with any indicator, give it just as readily, e.g. through collinear indicators, \
              pools or models that favour some names whatever the outcome. A small p says only that the support is higher \

@@ -215,7 +215,8 @@ fn the_null_claims_table_shows_numbers_or_the_reason() {
     assert!(t.about.contains("single-step max-type adjustment"));
     assert!(t
         .about
-        .contains("Not corrected: the draws' good sets differ in size"));
+        .contains("Good sets differ in size from draw to draw"));
+    assert!(t.about.contains("the test keeps its level"));
     assert_eq!(t.rows[0][7], "7 of 19");
     assert_eq!(t.rows[1][7], "-");
     assert_eq!(t.rows[0][11], "0.6");
