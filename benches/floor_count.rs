@@ -122,7 +122,6 @@ fn main() {
 /// values on a 0.001 grid, outcome from two indicators plus noise, unit weights), timed
 /// over REPEATS fits (default 10); also prints the microseconds per tree.
 fn wide() {
-    use rand::{Rng, SeedableRng};
     const USAGE: &str = "usage: floor_count wide ROWS INDICATORS [REPEATS] [TRIED] [MIN_LEAF]";
     let arg = |k: usize| args().nth(k).map(|a| a.parse::<usize>());
     let (Some(Ok(n)), Some(Ok(p))) = (arg(2), arg(3)) else {
@@ -155,13 +154,7 @@ fn wide() {
             std::process::exit(2);
         }
     }
-    let mut g = rand_chacha::ChaCha8Rng::seed_from_u64(1);
-    let x = ndarray::Array2::from_shape_fn((n, p), |_| {
-        (g.gen_range(0.0..100.0f64) * 1000.0).round() / 1000.0
-    });
-    let y = ndarray::Array1::from_shape_fn(n, |i| {
-        0.3 * x[[i, 0]] + x[[i, 1 % p]].sin() + g.gen_range(0.0..5.0)
-    });
+    let (x, y) = shared::synthetic(n, p);
     let w = ndarray::Array1::ones(n);
     let hist = std::env::var_os("FLOOR_NODE_SIZES").is_some();
     let t = std::time::Instant::now();

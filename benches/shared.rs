@@ -180,6 +180,21 @@ impl SearchCase {
 
 /// The forest of the floor comparison: 100 trees (tried 0.33, min_leaf 5) on fold 0 of the
 /// toy panel, median-filled, unit weights; and the row order the floor kernel walks.
+/// The synthetic panel of `floor_count wide`: `n` rows x `p` indicators, uniform values on
+/// a 0.001 grid (so some tie), the outcome from two indicators plus noise.
+#[allow(dead_code)] // the Criterion benches use the toy panel only
+pub fn synthetic(n: usize, p: usize) -> (ndarray::Array2<f64>, ndarray::Array1<f64>) {
+    use rand::{Rng, SeedableRng};
+    let mut g = rand_chacha::ChaCha8Rng::seed_from_u64(1);
+    let x = ndarray::Array2::from_shape_fn((n, p), |_| {
+        (g.gen_range(0.0..100.0f64) * 1000.0).round() / 1000.0
+    });
+    let y = ndarray::Array1::from_shape_fn(n, |i| {
+        0.3 * x[[i, 0]] + x[[i, 1 % p]].sin() + g.gen_range(0.0..5.0)
+    });
+    (x, y)
+}
+
 pub struct FloorCase {
     pub x: ndarray::Array2<f64>,
     pub y: ndarray::Array1<f64>,
@@ -191,9 +206,35 @@ pub struct FloorCase {
 }
 
 impl FloorCase {
+    /// Fold 0 of the toy panel with the comparison's forest, or, when `FLOOR_SHAPE` is
+    /// `"ROWS INDICATORS TRIED MIN_LEAF"`, the synthetic panel of `floor_count wide` with
+    /// that forest (the floors at users' shapes).
     pub fn new() -> FloorCase {
-        let p = prepared();
-        let (_, y, x) = fold0(&p);
+        let mut params = FloorCase::params();
+        let (y, x) = match std::env::var("FLOOR_SHAPE") {
+            Ok(shape) => {
+                let v: Vec<&str> = shape.split_whitespace().collect();
+                let bad = || -> ! {
+                    eprintln!(
+                        "FLOOR_SHAPE: expected \"ROWS INDICATORS TRIED MIN_LEAF\", got `{shape}`"
+                    );
+                    std::process::exit(2)
+                };
+                let [n, p, t, m] = v[..] else { bad() };
+                let (Ok(n), Ok(p), Ok(t), Ok(m)) = (n.parse(), p.parse(), t.parse(), m.parse())
+                else {
+                    bad()
+                };
+                params.tried = t;
+                params.min_leaf = m;
+                let (x, y) = synthetic(n, p);
+                (y, x)
+            }
+            Err(_) => {
+                let (_, y, x) = fold0(&prepared());
+                (y, x)
+            }
+        };
         let n = x.nrows();
         let mut order: Vec<usize> = (0..n).collect();
         order.sort_by(|&a, &b| x[[a, 0]].total_cmp(&x[[b, 0]]));
@@ -202,7 +243,7 @@ impl FloorCase {
         FloorCase {
             search,
             w,
-            params: FloorCase::params(),
+            params,
             x,
             y,
             order,

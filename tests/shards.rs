@@ -5,7 +5,6 @@
 use crate::common::root;
 use crate::resume::fingerprint;
 use std::path::{Path, PathBuf};
-use std::process::Output;
 
 fn config(dir: &Path, seed: u64) -> PathBuf {
     let text = format!(
@@ -49,18 +48,7 @@ batch_specs = 3
     path
 }
 
-use crate::common::{forkmap, run_cli as run};
-
-fn ok(o: &Output) -> String {
-    assert!(
-        o.status.success(),
-        "exit {:?}\n{}\n{}",
-        o.status.code(),
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    );
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
+use crate::common::{forkmap, ok, run_cli as run};
 
 fn spec_ids(out: &Path) -> Vec<String> {
     let mut ids: Vec<String> = fingerprint(out)[0]

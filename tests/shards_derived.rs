@@ -4,7 +4,7 @@
 //! refuses a missing draw or fold and shards of different `[null]`/`[nested]` settings,
 //! naming them and writing nothing. A shard killed mid-null resumes to the same files.
 
-use crate::common::{files_in, forkmap, run_cli, spawn_run};
+use crate::common::{files_in, forkmap, ok, run_cli, spawn_run};
 use std::path::{Path, PathBuf};
 use std::process::Output;
 
@@ -13,17 +13,6 @@ const NULL_NESTED: &str =
 
 fn config(dir: &Path, name: &str, tail: &str) -> PathBuf {
     crate::null::config(dir, name, tail)
-}
-
-fn ok(o: &Output) -> String {
-    assert!(
-        o.status.success(),
-        "exit {:?}\n{}\n{}",
-        o.status.code(),
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    );
-    String::from_utf8_lossy(&o.stdout).into_owned()
 }
 
 /// Every file under `dir/null` and `dir/nested` (relative path, bytes), sorted, but the

@@ -198,6 +198,19 @@ pub fn run_cli(cfg: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
     forkmap(&run_args(cfg, out, extra))
 }
 
+/// The output's stdout, after asserting the command succeeded (else its exit code, stdout
+/// and stderr in the panic).
+pub fn ok(o: &std::process::Output) -> String {
+    assert!(
+        o.status.success(),
+        "exit {:?}\n{}\n{}",
+        o.status.code(),
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
+    String::from_utf8_lossy(&o.stdout).into_owned()
+}
+
 /// The same run started in the background with its output discarded (to be killed).
 pub fn spawn_run(cfg: &Path, out: &Path, extra: &[&str]) -> std::process::Child {
     std::process::Command::new(env!("CARGO_BIN_EXE_forkmap"))
