@@ -371,37 +371,22 @@ fn a_shard_killed_mid_null_resumes_to_the_same_files() {
     assert!(mid >= 2, "only {mid} of 3 kills landed mid-null");
 }
 
-const SPLIT: &str = toy_config!(
-    11,
-    r#"
-[folds]
-k = 4
-[choices]
-pool = ["all", "core"]
-compress = ["none", "pca"]
-model = ["ridge", "tree"]
-weighting = ["rows", "units"]
-[pools]
-core = ["inc_median_income", "cli_heating_degree_days", "prc_tariff_index", "hou_pre1950_share"]
-[grid.pca]
-k = [3]
-[grid.ridge]
-alpha = [1, 10]
-[nested]
-outer_folds = 3
-specs = 5
-[null]
-specs = 6
-"#
-);
+/// The null tests' space with a nested estimate and a sampled null (its `draws` follows).
+fn split() -> String {
+    format!(
+        "{}{}[nested]\nouter_folds = 3\nspecs = 5\n[null]\nspecs = 6\n",
+        crate::null::data(),
+        crate::null::SPACE
+    )
+}
 
 /// The deal keeps the spec split, covers every draw and fold once, and changing `draws`
 /// moves none of the draws kept (so a shard's complete draws stay its own).
 #[test]
 fn the_deal_keeps_the_specs_and_is_stable_in_the_draws() {
     use forkmap::run::share::Split;
-    let base = crate::common::prepared(&format!("{SPLIT}draws = 7\n"));
-    let more = crate::common::prepared(&format!("{SPLIT}draws = 12\n"));
+    let base = crate::common::prepared(&format!("{}draws = 7\n", split()));
+    let more = crate::common::prepared(&format!("{}draws = 12\n", split()));
     for n in [1usize, 2, 3, 5] {
         let a = Split::of(&base, n);
         let b = Split::of(&more, n);
