@@ -209,24 +209,13 @@ pub fn missing_folds(out: &Path, mine: &[usize]) -> Result<Vec<usize>> {
 /// folds, from its run manifest) and whether that share is complete.
 pub fn shard_check_lines(out: &Path, shard: &str, mine: &[usize]) -> Result<(Vec<String>, bool)> {
     let missing = missing_folds(out, mine)?;
-    let have = mine.len() - missing.len();
-    Ok(if missing.is_empty() {
-        (
-            vec![format!(
-                "nested     shard {shard}: {have} of its {} outer folds",
-                mine.len()
-            )],
-            true,
-        )
-    } else {
-        (
-            vec![format!(
-                "nested     shard {shard}: {have} of its {} outer folds; missing outer folds {} (rerun the same `forkmap run --shard {shard}` on {})",
-                mine.len(),
-                crate::null::run::list(&missing),
-                out.display()
-            )],
-            false,
-        )
-    })
+    Ok(crate::null::run::share_lines(
+        "nested    ",
+        shard,
+        "outer folds",
+        mine.len(),
+        &missing,
+        out,
+        "",
+    ))
 }

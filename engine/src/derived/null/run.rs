@@ -515,24 +515,42 @@ pub fn list<T: std::fmt::Display>(v: &[T]) -> String {
 /// manifest) and whether that share is complete.
 pub fn shard_check_lines(out: &Path, shard: &str, mine: &[u64]) -> Result<(Vec<String>, bool)> {
     let missing = missing_draws(out, mine)?;
-    let have = mine.len() - missing.len();
-    Ok(if missing.is_empty() {
-        (
-            vec![format!(
-                "null       shard {shard}: {have} of its {} draws",
-                mine.len()
-            )],
+    Ok(share_lines(
+        "null      ",
+        shard,
+        "draws",
+        mine.len(),
+        &missing,
+        out,
+        "; complete draws are kept",
+    ))
+}
+
+/// `forkmap check`'s line on a shard's share of a derived pass (`unit`: what it is dealt,
+/// `missing`: those not done) and whether that share is complete; shared by the null and
+/// the nested estimate.
+pub fn share_lines<T: std::fmt::Display>(
+    tag: &str,
+    shard: &str,
+    unit: &str,
+    total: usize,
+    missing: &[T],
+    out: &Path,
+    kept: &str,
+) -> (Vec<String>, bool) {
+    let have = total - missing.len();
+    if missing.is_empty() {
+        return (
+            vec![format!("{tag} shard {shard}: {have} of its {total} {unit}")],
             true,
-        )
-    } else {
-        (
-            vec![format!(
-                "null       shard {shard}: {have} of its {} draws; missing draws {} (rerun the same `forkmap run --shard {shard}` on {}; complete draws are kept)",
-                mine.len(),
-                list(&missing),
-                out.display()
-            )],
-            false,
-        )
-    })
+        );
+    }
+    (
+        vec![format!(
+            "{tag} shard {shard}: {have} of its {total} {unit}; missing {unit} {} (rerun the same `forkmap run --shard {shard}` on {}{kept})",
+            list(missing),
+            out.display()
+        )],
+        false,
+    )
 }
